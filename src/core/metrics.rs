@@ -1,0 +1,217 @@
+//! Rank-based effectiveness metrics for one ranked list against graded judgments.
+//!
+//! Definitions follow Järvelin & Kekäläinen (2002) for CG/DCG/NDCG, Burges et al. (2005)
+//! for the exponential gain, Chapelle et al. (2009) for ERR and Sakai (2007) for condensed
+//! lists. Everything here works on plain numbers so the scoring pass stays allocation-light.
+
+/// How a level turns into a gain when the scale sets no gains of its own.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum GainKind {
+    /// 2^v − 1 (Burges et al. 2005): rewards the top levels much more than the middle.
+    Exponential,
+    /// v itself (Järvelin & Kekäläinen 2002).
+    Linear,
+}
+
+impl GainKind {
+    pub fn gain(self, level: u8) -> f64 {
+        match self {
+            GainKind::Exponential => 2f64.powi(level as i32) - 1.0,
+            GainKind::Linear => level as f64,
+        }
+    }
+
+    pub fn parse(text: &str) -> Option<GainKind> {
+        match text {
+            "exponential" => Some(GainKind::Exponential),
+            "linear" => Some(GainKind::Linear),
+            _ => None,
+        }
+    }
+}
+
+/// What to do with items in a ranked list that nobody judged.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Unjudged {
+    /// Count them as gain 0 (the conservative default).
+    Zero,
+    /// Drop them before cutting at k (Sakai 2007, condensed lists).
+    Condense,
+}
+
+impl Unjudged {
+    pub fn parse(text: &str) -> Option<Unjudged> {
+        match text {
+            "zero" => Some(Unjudged::Zero),
+            "condense" => Some(Unjudged::Condense),
+            _ => None,
+        }
+    }
+}
+
+/// Discount for a 1-based rank: 1 / log2(rank + 1).
+pub fn discount(rank: usize) -> f64 {
+    1.0 / ((rank + 1) as f64).log2()
+}
+
+/// Gains per level, from the scale's own gains when it sets them, else from `kind`.
+pub fn gain_table(level_count: usize, scale_gains: &[Option<f64>], kind: GainKind) -> Vec<f64> {
+    (0..level_count)
+        .map(|v| {
+            scale_gains
+                .get(v)
+                .copied()
+                .flatten()
+                .unwrap_or_else(|| kind.gain(v as u8))
+        })
+        .collect()
+}
+
+/// Discounted cumulative gain of the first `k` gains (all of them when `k` is None).
+pub fn dcg(gains: &[f64], k: Option<usize>) -> f64 {
+    let cut = k.unwrap_or(gains.len()).min(gains.len());
+    gains[..cut]
+        .iter()
+        .enumerate()
+        .map(|(i, g)| g * discount(i + 1))
+        .sum()
+}
+
+/// Ideal DCG@k: the k best gains among all judged items of the context.
+pub fn ideal_dcg(all_judged_gains: &[f64], k: Option<usize>) -> f64 {
+    let mut sorted = all_judged_gains.to_vec();
+    sorted.sort_by(|a, b| b.total_cmp(a));
+    dcg(&sorted, k)
+}
+
+/// NDCG@k, or None when the ideal DCG is zero (no relevant item to find).
+pub fn ndcg(gains: &[f64], all_judged_gains: &[f64], k: Option<usize>) -> Option<f64> {
+    let ideal = ideal_dcg(all_judged_gains, k);
+    (ideal > 0.0).then(|| dcg(gains, k) / ideal)
+}
+
+/// Expected reciprocal rank at k (Chapelle et al. 2009, eq. 4) with
+/// R = (2^level − 1) / 2^max_level; unjudged positions pass `None` and stop nobody.
+pub fn err(levels: &[Option<u8>], max_level: u8, k: usize) -> f64 {
+    let denom = 2f64.powi(max_level as i32);
+    let mut still_looking = 1.0;
+    let mut total = 0.0;
+    for (i, level) in levels.iter().take(k).enumerate() {
+        let stop = level.map_or(0.0, |v| (2f64.powi(v as i32) - 1.0) / denom);
+        total += still_looking * stop / (i + 1) as f64;
+        still_looking *= 1.0 - stop;
+    }
+    total
+}
+
+/// The metric values of one ranked list at one cut-off.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct AtK {
+    pub cg: f64,
+    pub dcg: f64,
+    pub idcg: f64,
+    /// None when the context has no item above level 0.
+    pub ndcg: Option<f64>,
+    pub precision: f64,
+    pub err: f64,
+    /// Share of the top k of the list as returned (before condensing) that is judged.
+    pub judged: f64,
+}
+
+/// A ranked list resolved against the judgments: level per position, None = unjudged.
+#[derive(Debug, Clone)]
+pub struct JudgedList<'a> {
+    pub levels: &'a [Option<u8>],
+    /// Gains of every judged item of the context (for the ideal ordering), sorted descending.
+    pub ideal_gains: &'a [f64],
+    /// Whether any judged item of the context is above level 0.
+    pub has_relevant: bool,
+}
+
+/// Settings shared by every list in one scoring pass.
+#[derive(Debug, Clone)]
+pub struct ListSettings {
+    pub gains: Vec<f64>,
+    pub max_level: u8,
+    /// Level from which an item counts as relevant for precision and RR (common practice: 1).
+    pub relevant_from: u8,
+    pub unjudged: Unjudged,
+}
+
+/// Scores a list at each cut-off in `ks`, plus its reciprocal rank (uncut).
+/// `scratch` is reused between calls to avoid allocating per list.
+pub fn score_list(
+    list: &JudgedList<'_>,
+    settings: &ListSettings,
+    ks: &[usize],
+    scratch: &mut Vec<Option<u8>>,
+    out: &mut Vec<AtK>,
+) -> f64 {
+    scratch.clear();
+    match settings.unjudged {
+        Unjudged::Zero => scratch.extend_from_slice(list.levels),
+        Unjudged::Condense => scratch.extend(list.levels.iter().filter(|l| l.is_some())),
+    }
+    let effective = &scratch[..];
+    out.clear();
+    for &k in ks {
+        let mut cg = 0.0;
+        let mut dcg_sum = 0.0;
+        let mut relevant = 0usize;
+        for (i, level) in effective.iter().take(k).enumerate() {
+            if let Some(v) = level {
+                let g = settings.gains[*v as usize];
+                cg += g;
+                dcg_sum += g * discount(i + 1);
+                if *v >= settings.relevant_from {
+                    relevant += 1;
+                }
+            }
+        }
+        let idcg: f64 = list
+            .ideal_gains
+            .iter()
+            .take(k)
+            .enumerate()
+            .map(|(i, g)| g * discount(i + 1))
+            .sum();
+        let shown = list.levels.len().min(k);
+        let judged_count = list.levels[..shown].iter().filter(|l| l.is_some()).count();
+        out.push(AtK {
+            cg,
+            dcg: dcg_sum,
+            idcg,
+            ndcg: (list.has_relevant && idcg > 0.0).then(|| dcg_sum / idcg),
+            precision: relevant as f64 / k as f64,
+            err: err(effective, settings.max_level, k),
+            judged: if shown == 0 {
+                0.0
+            } else {
+                judged_count as f64 / shown as f64
+            },
+        });
+    }
+    effective
+        .iter()
+        .position(|l| l.is_some_and(|v| v >= settings.relevant_from))
+        .map_or(0.0, |i| 1.0 / (i + 1) as f64)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn discount_of_first_rank_is_one() {
+        assert_eq!(discount(1), 1.0);
+        assert!((discount(3) - 0.5).abs() < 1e-15);
+    }
+
+    #[test]
+    fn err_of_a_perfect_first_item_on_a_binary_scale_is_half() {
+        // With max level 1, R = (2^1 − 1)/2 = 0.5 (Chapelle et al. 2009, eq. 4).
+        assert!((err(&[Some(1)], 1, 10) - 0.5).abs() < 1e-15);
+    }
+}

@@ -1,0 +1,8 @@
+//! Pure computation: metrics, agreement, statistics, pooling and scales.
+//! Nothing here touches the screen or the study file, so it is easy to test and reuse.
+
+pub mod agreement;
+pub mod metrics;
+pub mod pooling;
+pub mod scale;
+pub mod stats;

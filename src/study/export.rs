@@ -1,0 +1,87 @@
+//! Exports that people open in spreadsheets: every cell a spreadsheet would run as a
+//! formula gets a leading apostrophe (import strips it again).
+
+use std::io::Write;
+
+use super::import::SETTLED_REVIEWER;
+use super::{Result, Study};
+
+/// Prefixes formula-like text with an apostrophe (OWASP "CSV injection" advice).
+pub fn neutralise(text: &str) -> std::borrow::Cow<'_, str> {
+    if text.starts_with(['=', '+', '-', '@', '\t', '\r']) {
+        format!("'{text}").into()
+    } else {
+        text.into()
+    }
+}
+
+/// The columns of an exported grades file: import's columns plus reader-only ones.
+pub const GRADE_COLUMNS: &[&str] = &[
+    "reviewer",
+    "context_id",
+    "item_id",
+    "scale",
+    "value",
+    "reason",
+    "seconds",
+    "graded_at",
+    "note",
+    "settled_by",
+    "context_text",
+    "item_title",
+];
+
+impl Study {
+    /// Writes current grades (with can't-judge) and settled grades in force as CSV.
+    /// Returns the number of rows written.
+    pub fn export_grades(&self, out: &mut dyn Write) -> Result<u64> {
+        let mut writer = csv::Writer::from_writer(out);
+        let csv_err = |e: csv::Error| super::StudyError::Io(std::io::Error::other(e));
+        writer.write_record(GRADE_COLUMNS).map_err(csv_err)?;
+        let mut rows = 0u64;
+        let mut stmt = self.conn().prepare(
+            "SELECT e.reviewer, e.context_id, e.item_id, e.scale, e.value, e.reason, e.seconds,
+                    e.graded_at, e.note, '' AS settled_by, x.text, i.title
+             FROM current_grades c
+             JOIN grade_events e ON e.id = c.event_id
+             JOIN contexts x ON x.context_id = e.context_id
+             JOIN items i ON i.item_id = e.item_id
+             UNION ALL
+             SELECT ?1, s.context_id, s.item_id, s.scale, s.value, s.reason, NULL,
+                    s.settled_at, '', s.settled_by, x.text, i.title
+             FROM settle_events s
+             JOIN contexts x ON x.context_id = s.context_id
+             JOIN items i ON i.item_id = s.item_id
+             WHERE s.value IS NOT NULL AND NOT EXISTS (
+               SELECT 1 FROM settle_events t
+               WHERE t.scale = s.scale AND t.context_id = s.context_id AND t.item_id = s.item_id
+                 AND (t.settled_at > s.settled_at OR (t.settled_at = s.settled_at AND t.id > s.id)))
+             ORDER BY 4, 2, 3, 1",
+        )?;
+        let mut result = stmt.query([SETTLED_REVIEWER])?;
+        while let Some(r) = result.next()? {
+            let value: Option<u8> = r.get(4)?;
+            let seconds: Option<f64> = r.get(6)?;
+            let texts: [String; 12] = [
+                r.get(0)?,
+                r.get(1)?,
+                r.get(2)?,
+                r.get(3)?,
+                value.map(|v| v.to_string()).unwrap_or_default(),
+                r.get(5)?,
+                seconds.map(|s| s.to_string()).unwrap_or_default(),
+                r.get(7)?,
+                r.get(8)?,
+                r.get(9)?,
+                r.get(10)?,
+                r.get(11)?,
+            ];
+            writer
+                .write_record(texts.iter().map(|t| neutralise(t).into_owned()))
+                .map_err(csv_err)?;
+            rows += 1;
+        }
+        writer.flush()?;
+        Ok(rows)
+    }
+}

@@ -1,0 +1,97 @@
+//! Writing single grades as reviewers give them: each in its own transaction, committed
+//! before the desk shows the next card.
+
+use rusqlite::params;
+
+use super::import::content_uid;
+use super::{Result, Study, StudyError, time};
+
+/// What a reviewer did to one pair.
+#[derive(Debug, Clone, PartialEq)]
+pub enum GradeAction {
+    Grade(u8),
+    CantJudge {
+        reason: String,
+    },
+    /// Withdraws the reviewer's current grade of the pair.
+    Undo,
+}
+
+/// One grade as given at the desk.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NewGrade {
+    pub reviewer: String,
+    pub context_id: String,
+    pub item_id: String,
+    pub scale: String,
+    pub action: GradeAction,
+    pub seconds: f64,
+    pub note: String,
+}
+
+impl Study {
+    /// Adds a reviewer (idempotent).
+    pub fn add_reviewer(&self, reviewer: &str) -> Result<()> {
+        if reviewer.trim().is_empty() {
+            return Err(StudyError::Input("a reviewer needs a name".into()));
+        }
+        self.conn().execute(
+            "INSERT OR IGNORE INTO reviewers(reviewer) VALUES (?1)",
+            [reviewer],
+        )?;
+        Ok(())
+    }
+
+    /// Records a grade durably and returns its event id. The write is one transaction
+    /// with synchronous=FULL, so an acknowledged grade survives a crash.
+    pub fn record_grade(&mut self, grade: &NewGrade) -> Result<i64> {
+        if self.is_read_only() {
+            return Err(StudyError::ReadOnly);
+        }
+        let graded_at = time::now();
+        let (action, value, reason) = match &grade.action {
+            GradeAction::Grade(v) => ("grade", Some(*v), String::new()),
+            GradeAction::CantJudge { reason } => ("cant_judge", None, reason.clone()),
+            GradeAction::Undo => ("undo", None, String::new()),
+        };
+        let value_text = value.map(|v| v.to_string()).unwrap_or_default();
+        let seconds_text = grade.seconds.to_string();
+        let uid = content_uid(&[
+            &grade.reviewer,
+            &grade.context_id,
+            &grade.item_id,
+            &grade.scale,
+            &value_text,
+            &reason,
+            &seconds_text,
+            &graded_at,
+            &grade.note,
+            action,
+        ]);
+        let tx = self.conn_mut().transaction()?;
+        tx.execute(
+            "INSERT OR IGNORE INTO reviewers(reviewer) VALUES (?1)",
+            [&grade.reviewer],
+        )?;
+        tx.execute(
+            "INSERT INTO grade_events(uid, reviewer, context_id, item_id, scale, action, value, reason, seconds, graded_at, note)
+             VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11)",
+            params![
+                uid,
+                grade.reviewer,
+                grade.context_id,
+                grade.item_id,
+                grade.scale,
+                action,
+                value,
+                reason,
+                grade.seconds,
+                graded_at,
+                grade.note
+            ],
+        )?;
+        let id = tx.last_insert_rowid();
+        tx.commit()?;
+        Ok(id)
+    }
+}

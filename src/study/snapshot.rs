@@ -1,0 +1,227 @@
+//! A read-only picture of a study, loaded in a handful of queries, that the analysis
+//! layer works from. Nothing downstream touches SQL.
+
+use std::collections::HashMap;
+
+use crate::core::scale::{Level, Scale};
+
+use super::{Result, Study};
+
+#[derive(Debug, Clone)]
+pub struct ItemInfo {
+    pub id: String,
+    pub title: String,
+    pub category: String,
+    pub is_new: bool,
+}
+
+#[derive(Debug, Clone)]
+pub struct ContextInfo {
+    pub id: String,
+    pub kind: String,
+    pub text: String,
+    pub segment: String,
+}
+
+/// A reviewer's current grade of one pair on one scale; `value` None = can't judge.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct GradeRow {
+    pub reviewer: u32,
+    pub context: u32,
+    pub item: u32,
+    pub scale: u32,
+    pub value: Option<u8>,
+    pub seconds: Option<f64>,
+}
+
+/// A settled grade in force.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SettledRow {
+    pub context: u32,
+    pub item: u32,
+    pub scale: u32,
+    pub value: u8,
+}
+
+/// Everything scoring and agreement need, with ids replaced by dense indices.
+#[derive(Debug, Clone, Default)]
+pub struct Snapshot {
+    pub name: String,
+    pub items: Vec<ItemInfo>,
+    pub contexts: Vec<ContextInfo>,
+    pub rankers: Vec<String>,
+    /// `lists[ranker][context]`: item indices in rank order (empty when none).
+    pub lists: Vec<Vec<Vec<u32>>>,
+    pub scales: Vec<Scale>,
+    pub reviewers: Vec<String>,
+    pub grades: Vec<GradeRow>,
+    pub settled: Vec<SettledRow>,
+}
+
+impl Snapshot {
+    pub fn scale_index(&self, name: &str) -> Option<usize> {
+        self.scales.iter().position(|s| s.name == name)
+    }
+
+    pub fn ranker_index(&self, name: &str) -> Option<usize> {
+        self.rankers.iter().position(|r| r == name)
+    }
+
+    pub fn reviewer_index(&self, name: &str) -> Option<usize> {
+        self.reviewers.iter().position(|r| r == name)
+    }
+
+    /// The scale with the most grades (ties: first by name); the default for `--scale`.
+    pub fn busiest_scale(&self) -> Option<usize> {
+        let mut counts = vec![0usize; self.scales.len()];
+        for g in &self.grades {
+            counts[g.scale as usize] += 1;
+        }
+        (0..self.scales.len()).max_by(|a, b| counts[*a].cmp(&counts[*b]).then(b.cmp(a)))
+    }
+}
+
+fn index_of(ids: &[String]) -> HashMap<&str, u32> {
+    ids.iter()
+        .enumerate()
+        .map(|(i, s)| (s.as_str(), i as u32))
+        .collect()
+}
+
+impl Study {
+    /// Loads the snapshot. Cost is a few sequential scans; no per-context queries.
+    pub fn snapshot(&self) -> Result<Snapshot> {
+        let conn = self.conn();
+        let items: Vec<ItemInfo> = conn
+            .prepare("SELECT item_id, title, category, is_new FROM items ORDER BY item_id")?
+            .query_map([], |r| {
+                Ok(ItemInfo {
+                    id: r.get(0)?,
+                    title: r.get(1)?,
+                    category: r.get(2)?,
+                    is_new: r.get(3)?,
+                })
+            })?
+            .collect::<std::result::Result<_, _>>()?;
+        let contexts: Vec<ContextInfo> = conn
+            .prepare("SELECT context_id, kind, text, segment FROM contexts ORDER BY context_id")?
+            .query_map([], |r| {
+                Ok(ContextInfo {
+                    id: r.get(0)?,
+                    kind: r.get(1)?,
+                    text: r.get(2)?,
+                    segment: r.get(3)?,
+                })
+            })?
+            .collect::<std::result::Result<_, _>>()?;
+        let rankers: Vec<String> = conn
+            .prepare("SELECT ranker FROM rankers ORDER BY ranker")?
+            .query_map([], |r| r.get(0))?
+            .collect::<std::result::Result<_, _>>()?;
+        let reviewers: Vec<String> = conn
+            .prepare("SELECT reviewer FROM reviewers ORDER BY reviewer")?
+            .query_map([], |r| r.get(0))?
+            .collect::<std::result::Result<_, _>>()?;
+        let item_ids: Vec<String> = items.iter().map(|i| i.id.clone()).collect();
+        let context_ids: Vec<String> = contexts.iter().map(|c| c.id.clone()).collect();
+        let item_index = index_of(&item_ids);
+        let context_index = index_of(&context_ids);
+        let ranker_index = index_of(&rankers);
+        let reviewer_index = index_of(&reviewers);
+
+        let mut lists = vec![vec![Vec::new(); contexts.len()]; rankers.len()];
+        {
+            let mut stmt = conn.prepare(
+                "SELECT ranker, context_id, item_id FROM ranked_items ORDER BY ranker, context_id, rank",
+            )?;
+            let mut rows = stmt.query([])?;
+            while let Some(r) = rows.next()? {
+                let ranker = ranker_index[r.get_ref(0)?.as_str()?];
+                let context = context_index[r.get_ref(1)?.as_str()?];
+                let item = item_index[r.get_ref(2)?.as_str()?];
+                lists[ranker as usize][context as usize].push(item);
+            }
+        }
+
+        let mut scales: Vec<Scale> = Vec::new();
+        {
+            let mut stmt = conn.prepare(
+                "SELECT s.scale, l.value, l.label, l.gain, l.key, l.rubric, l.colour
+                 FROM scales s JOIN levels l ON l.scale = s.scale ORDER BY s.scale, l.value",
+            )?;
+            let mut rows = stmt.query([])?;
+            while let Some(r) = rows.next()? {
+                let name: String = r.get(0)?;
+                if scales.last().is_none_or(|s| s.name != name) {
+                    scales.push(Scale {
+                        name,
+                        levels: Vec::new(),
+                    });
+                }
+                scales.last_mut().expect("pushed above").levels.push(Level {
+                    value: r.get(1)?,
+                    label: r.get(2)?,
+                    gain: r.get(3)?,
+                    key: r.get(4)?,
+                    rubric: r.get(5)?,
+                    colour: r.get(6)?,
+                });
+            }
+        }
+        let scale_names: Vec<String> = scales.iter().map(|s| s.name.clone()).collect();
+        let scale_index = index_of(&scale_names);
+
+        let mut grades = Vec::new();
+        {
+            let mut stmt = conn.prepare(
+                "SELECT e.reviewer, e.context_id, e.item_id, e.scale, e.value, e.seconds
+                 FROM current_grades c JOIN grade_events e ON e.id = c.event_id",
+            )?;
+            let mut rows = stmt.query([])?;
+            while let Some(r) = rows.next()? {
+                grades.push(GradeRow {
+                    reviewer: reviewer_index[r.get_ref(0)?.as_str()?],
+                    context: context_index[r.get_ref(1)?.as_str()?],
+                    item: item_index[r.get_ref(2)?.as_str()?],
+                    scale: scale_index[r.get_ref(3)?.as_str()?],
+                    value: r.get(4)?,
+                    seconds: r.get(5)?,
+                });
+            }
+        }
+        grades.sort_by_key(|g| (g.scale, g.context, g.item, g.reviewer));
+
+        let mut settled = Vec::new();
+        {
+            // The latest settle event per pair and scale is in force; NULL = undone.
+            let mut stmt = conn.prepare(
+                "SELECT context_id, item_id, scale, value FROM settle_events s
+                 WHERE NOT EXISTS (
+                   SELECT 1 FROM settle_events t
+                   WHERE t.scale = s.scale AND t.context_id = s.context_id AND t.item_id = s.item_id
+                     AND (t.settled_at > s.settled_at OR (t.settled_at = s.settled_at AND t.id > s.id)))
+                 AND value IS NOT NULL",
+            )?;
+            let mut rows = stmt.query([])?;
+            while let Some(r) = rows.next()? {
+                settled.push(SettledRow {
+                    context: context_index[r.get_ref(0)?.as_str()?],
+                    item: item_index[r.get_ref(1)?.as_str()?],
+                    scale: scale_index[r.get_ref(2)?.as_str()?],
+                    value: r.get(3)?,
+                });
+            }
+        }
+        Ok(Snapshot {
+            name: self.name(),
+            items,
+            contexts,
+            rankers,
+            lists,
+            scales,
+            reviewers,
+            grades,
+            settled,
+        })
+    }
+}

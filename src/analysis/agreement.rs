@@ -1,0 +1,210 @@
+//! The agreement view model: reviewer pairs and panel-level coefficients for one scale,
+//! optionally after a collapse map. Shared by the Agreement screen and `plumbline agree`.
+
+use serde::Serialize;
+
+use crate::core::agreement::{
+    self, AlphaLevel, CollapseMap, Confusion, DOMINANT_SHARE_CAUTION, PrevalenceBias, Weights,
+};
+use crate::core::stats::Z_975;
+use crate::study::snapshot::Snapshot;
+
+#[derive(Debug, Clone, Serialize)]
+pub struct ReviewerPair {
+    pub reviewer_a: String,
+    pub reviewer_b: String,
+    /// Pairs graded by both (can't-judge left out).
+    pub n: u64,
+    pub kappa: f64,
+    pub kappa_se: f64,
+    pub kappa_ci_low: f64,
+    pub kappa_ci_high: f64,
+    pub kappa_linear: f64,
+    pub kappa_quadratic: f64,
+    pub ac1: f64,
+    pub observed_agreement: f64,
+    pub chance_agreement: f64,
+    pub band: &'static str,
+    pub prevalence: PrevalenceBias,
+    /// Row = reviewer_a's level, column = reviewer_b's level.
+    pub confusion: Vec<Vec<u64>>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct AgreementReport {
+    pub study: String,
+    pub scale: String,
+    pub collapse: Option<String>,
+    pub levels: usize,
+    pub reviewers: Vec<String>,
+    /// Pairs with at least one grade on this scale.
+    pub units: usize,
+    pub cant_judge: usize,
+    pub pairs: Vec<ReviewerPair>,
+    pub fleiss_kappa: f64,
+    /// Pairs graded by every reviewer of the panel (what Fleiss' kappa uses).
+    pub fleiss_n: usize,
+    pub alpha_nominal: f64,
+    pub alpha_ordinal: f64,
+    pub alpha_ordinal_ci_low: f64,
+    pub alpha_ordinal_ci_high: f64,
+    pub alpha_interval: f64,
+    /// Pairs with at least two grades (what alpha uses).
+    pub alpha_n: usize,
+    pub ac1: f64,
+    pub band_source: &'static str,
+    pub cautions: Vec<String>,
+}
+
+/// Grades of one scale laid out as units (pairs) × reviewers; None = not graded or can't judge.
+pub struct UnitTable {
+    pub reviewers: Vec<u32>,
+    pub units: Vec<Vec<Option<u8>>>,
+    pub seconds: Vec<f64>,
+    pub cant_judge: usize,
+}
+
+/// Builds the table of one scale from a snapshot (reviewers who graded this scale only).
+pub fn unit_table(snapshot: &Snapshot, scale: usize) -> UnitTable {
+    let grades: Vec<_> = snapshot
+        .grades
+        .iter()
+        .filter(|g| g.scale as usize == scale)
+        .collect();
+    let mut reviewers: Vec<u32> = grades.iter().map(|g| g.reviewer).collect();
+    reviewers.sort_unstable();
+    reviewers.dedup();
+    let column = |r: u32| reviewers.binary_search(&r).expect("reviewer listed");
+    let mut units: Vec<Vec<Option<u8>>> = Vec::new();
+    let mut last: Option<(u32, u32)> = None;
+    let mut cant_judge = 0;
+    let mut seconds = Vec::new();
+    for g in grades {
+        if last != Some((g.context, g.item)) {
+            units.push(vec![None; reviewers.len()]);
+            last = Some((g.context, g.item));
+        }
+        match g.value {
+            Some(v) => units.last_mut().expect("pushed")[column(g.reviewer)] = Some(v),
+            None => cant_judge += 1,
+        }
+        if let Some(s) = g.seconds {
+            seconds.push(s);
+        }
+    }
+    UnitTable {
+        reviewers,
+        units,
+        seconds,
+        cant_judge,
+    }
+}
+
+pub const LANDIS_KOCH: &str = "Landis & Koch (1977), Biometrics 33: 0–0.20 slight, 0.21–0.40 fair, 0.41–0.60 moderate, 0.61–0.80 substantial, 0.81–1 almost perfect. Bands are conventions, not tests.";
+
+/// Computes every coefficient for one scale (and optional collapse map).
+pub fn build(
+    snapshot: &Snapshot,
+    scale: usize,
+    collapse: Option<&CollapseMap>,
+    resamples: usize,
+    seed: u64,
+) -> AgreementReport {
+    let table = unit_table(snapshot, scale);
+    let (levels, units) = match collapse {
+        Some(map) => (map.coarse_levels(), map.apply_units(&table.units)),
+        None => (snapshot.scales[scale].levels.len(), table.units.clone()),
+    };
+    let mut pairs = Vec::new();
+    for a in 0..table.reviewers.len() {
+        for b in (a + 1)..table.reviewers.len() {
+            let col_a: Vec<Option<u8>> = units.iter().map(|u| u[a]).collect();
+            let col_b: Vec<Option<u8>> = units.iter().map(|u| u[b]).collect();
+            let confusion = Confusion::from_pairs(levels, &col_a, &col_b);
+            let n = confusion.total();
+            if n == 0 {
+                continue;
+            }
+            let kappa = agreement::cohen_kappa(&confusion, Weights::Unweighted);
+            let se = agreement::cohen_kappa_se(&confusion);
+            let (po, pe) = agreement::agreement_proportions(&confusion);
+            let both: Vec<Vec<Option<u8>>> = col_a
+                .iter()
+                .zip(&col_b)
+                .filter(|(x, y)| x.is_some() && y.is_some())
+                .map(|(x, y)| vec![*x, *y])
+                .collect();
+            pairs.push(ReviewerPair {
+                reviewer_a: snapshot.reviewers[table.reviewers[a] as usize].clone(),
+                reviewer_b: snapshot.reviewers[table.reviewers[b] as usize].clone(),
+                n,
+                kappa,
+                kappa_se: se,
+                kappa_ci_low: kappa - Z_975 * se,
+                kappa_ci_high: kappa + Z_975 * se,
+                kappa_linear: agreement::cohen_kappa(&confusion, Weights::Linear),
+                kappa_quadratic: agreement::cohen_kappa(&confusion, Weights::Quadratic),
+                ac1: agreement::gwet_ac1(levels, &both),
+                observed_agreement: po,
+                chance_agreement: pe,
+                band: agreement::landis_koch_band(kappa),
+                prevalence: agreement::prevalence_bias(&confusion),
+                confusion: (0..levels)
+                    .map(|i| (0..levels).map(|j| confusion.get(i, j)).collect())
+                    .collect(),
+            });
+        }
+    }
+    let (fleiss_kappa, fleiss_n) = agreement::fleiss_kappa(levels, &units);
+    let alpha_n = units
+        .iter()
+        .filter(|u| u.iter().flatten().count() >= 2)
+        .count();
+    let (ci_low, ci_high) =
+        agreement::krippendorff_alpha_ci(levels, &units, AlphaLevel::Ordinal, resamples, seed);
+    let mut cautions = Vec::new();
+    let mut level_counts = vec![0usize; levels];
+    for v in units.iter().flatten().flatten() {
+        level_counts[*v as usize] += 1;
+    }
+    let total: usize = level_counts.iter().sum();
+    if let Some((level, count)) = level_counts.iter().enumerate().max_by_key(|(_, c)| **c)
+        && total > 0
+        && *count as f64 / total as f64 >= DOMINANT_SHARE_CAUTION
+    {
+        cautions.push(format!(
+            "Level {level} holds {:.0} % of grades: kappa can be low even when reviewers mostly agree (Feinstein & Cicchetti 1990); read AC1 and the observed agreement beside it.",
+            100.0 * *count as f64 / total as f64
+        ));
+    }
+    if alpha_n < 50 {
+        cautions.push(format!(
+            "Only {alpha_n} pairs have two or more grades; the intervals are wide."
+        ));
+    }
+    AgreementReport {
+        study: snapshot.name.clone(),
+        scale: snapshot.scales[scale].name.clone(),
+        collapse: collapse.map(|c| c.name.clone()),
+        levels,
+        reviewers: table
+            .reviewers
+            .iter()
+            .map(|r| snapshot.reviewers[*r as usize].clone())
+            .collect(),
+        units: units.len(),
+        cant_judge: table.cant_judge,
+        pairs,
+        fleiss_kappa,
+        fleiss_n,
+        alpha_nominal: agreement::krippendorff_alpha(levels, &units, AlphaLevel::Nominal),
+        alpha_ordinal: agreement::krippendorff_alpha(levels, &units, AlphaLevel::Ordinal),
+        alpha_ordinal_ci_low: ci_low,
+        alpha_ordinal_ci_high: ci_high,
+        alpha_interval: agreement::krippendorff_alpha(levels, &units, AlphaLevel::Interval),
+        alpha_n,
+        ac1: agreement::gwet_ac1(levels, &units),
+        band_source: LANDIS_KOCH,
+        cautions,
+    }
+}

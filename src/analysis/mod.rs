@@ -1,0 +1,7 @@
+//! View models built from a study snapshot. Screens and the command line both use these,
+//! so they always show the same numbers.
+
+pub mod agreement;
+pub mod judgments;
+pub mod render;
+pub mod scoreboard;

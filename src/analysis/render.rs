@@ -1,0 +1,293 @@
+//! Text, CSV and JSON renderings of the view models, for the command line and exports.
+
+use std::fmt::Write;
+
+use super::agreement::AgreementReport;
+use super::scoreboard::Scoreboard;
+
+fn num(x: f64) -> String {
+    if x.is_finite() {
+        format!("{x:.3}")
+    } else {
+        "–".into()
+    }
+}
+
+fn p_value(p: f64) -> String {
+    if !p.is_finite() {
+        "–".into()
+    } else if p < 0.001 {
+        "<0.001".into()
+    } else {
+        format!("{p:.3}")
+    }
+}
+
+/// Pads columns so the table reads in a terminal.
+fn aligned(rows: &[Vec<String>]) -> String {
+    let cols = rows.iter().map(Vec::len).max().unwrap_or(0);
+    let widths: Vec<usize> = (0..cols)
+        .map(|c| {
+            rows.iter()
+                .filter_map(|r| r.get(c))
+                .map(|s| s.chars().count())
+                .max()
+                .unwrap_or(0)
+        })
+        .collect();
+    let mut out = String::new();
+    for row in rows {
+        let line: Vec<String> = row
+            .iter()
+            .enumerate()
+            .map(|(c, cell)| format!("{cell:<w$}", w = widths[c]))
+            .collect();
+        out.push_str(line.join("  ").trim_end());
+        out.push('\n');
+    }
+    out
+}
+
+pub fn scoreboard_text(board: &Scoreboard) -> String {
+    let s = &board.settings;
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "Study {} · scale {} · grades {} · gain {:?} · unjudged {:?} · segment {}",
+        board.study,
+        board.scale,
+        s.grades.label(),
+        s.gain,
+        s.unjudged,
+        s.segment.label()
+    );
+    let _ = writeln!(
+        out,
+        "{} contexts scored; {} left out with no relevant item. 95 % percentile bootstrap intervals (B = {}).\n",
+        board.contexts_scored, board.contexts_without_relevant, s.bootstrap_resamples
+    );
+    let mut keys: Vec<String> = Vec::new();
+    for k in &s.ks {
+        keys.push(format!("ndcg@{k}"));
+    }
+    for k in &s.ks {
+        keys.push(format!("judged@{k}"));
+    }
+    let k_main = s.ks.iter().copied().find(|k| *k == 10).unwrap_or(s.ks[0]);
+    keys.push(format!("precision@{k_main}"));
+    keys.push(format!("err@{k_main}"));
+    keys.push("rr".into());
+    let mut rows = vec![
+        std::iter::once("ranker".to_string())
+            .chain(keys.iter().cloned())
+            .collect::<Vec<_>>(),
+    ];
+    for r in &board.rankers {
+        let mut row = vec![r.ranker.clone()];
+        for key in &keys {
+            row.push(match r.metrics.get(key) {
+                Some(m) if key.starts_with("judged") => format!("{:.0}%", m.mean * 100.0),
+                Some(m) => format!("{} [{}, {}]", num(m.mean), num(m.ci_low), num(m.ci_high)),
+                None => "–".into(),
+            });
+        }
+        rows.push(row);
+    }
+    out.push_str(&aligned(&rows));
+    if !board.comparisons.is_empty() {
+        out.push_str("\nPaired comparisons against the baseline (diff = candidate − baseline):\n");
+        let mut rows = vec![
+            [
+                "ranker",
+                "metric",
+                "diff [95% CI]",
+                "p rand",
+                "p t",
+                "p Holm",
+                "W/T/L",
+                "contexts needed",
+            ]
+            .map(String::from)
+            .to_vec(),
+        ];
+        for c in &board.comparisons {
+            rows.push(vec![
+                format!("{} vs {}", c.ranker, c.baseline),
+                c.metric.clone(),
+                format!("{:+.3} [{:+.3}, {:+.3}]", c.diff, c.ci_low, c.ci_high),
+                p_value(c.p_randomization),
+                p_value(c.p_t),
+                p_value(c.p_holm),
+                format!("{}/{}/{}", c.wins, c.ties, c.losses),
+                c.contexts_needed.map_or("–".into(), |n| n.to_string()),
+            ]);
+        }
+        out.push_str(&aligned(&rows));
+        out.push_str("Contexts needed: for 80 % power at two-sided α = 0.05, normal approximation with the observed mean and SD of the differences.\n");
+    }
+    out.push('\n');
+    for c in &board.cautions {
+        let _ = writeln!(out, "Caution: {c}");
+    }
+    out
+}
+
+/// Tidy CSV: one row per ranker × context × metric, plus the settings used.
+pub fn scoreboard_csv(board: &Scoreboard) -> String {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let _ = w.write_record([
+        "ranker",
+        "context_id",
+        "metric",
+        "value",
+        "scale",
+        "grades",
+        "gain",
+        "unjudged",
+        "segment",
+    ]);
+    let s = &board.settings;
+    let gain = format!("{:?}", s.gain).to_lowercase();
+    let unjudged = format!("{:?}", s.unjudged).to_lowercase();
+    let grades = s.grades.label();
+    let segment = s.segment.label();
+    for r in &board.rankers {
+        for c in &r.per_context {
+            for (metric, value) in &c.values {
+                let _ = w.write_record([
+                    r.ranker.as_str(),
+                    c.context_id.as_str(),
+                    metric.as_str(),
+                    &value.to_string(),
+                    &board.scale,
+                    &grades,
+                    &gain,
+                    &unjudged,
+                    &segment,
+                ]);
+            }
+        }
+    }
+    String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
+}
+
+pub fn scoreboard_json(board: &Scoreboard) -> String {
+    serde_json::to_string_pretty(board).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))
+}
+
+pub fn agreement_text(report: &AgreementReport) -> String {
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "Study {} · scale {}{} · {} levels · reviewers {}",
+        report.study,
+        report.scale,
+        report
+            .collapse
+            .as_ref()
+            .map(|c| format!(" (collapsed by {c})"))
+            .unwrap_or_default(),
+        report.levels,
+        report.reviewers.join(", ")
+    );
+    let _ = writeln!(
+        out,
+        "{} pairs graded; {} can't-judge grades left out.\n",
+        report.units, report.cant_judge
+    );
+    let mut rows = vec![
+        [
+            "reviewers",
+            "n",
+            "kappa [95% CI]",
+            "band",
+            "linear",
+            "quadratic",
+            "AC1",
+            "p_o",
+        ]
+        .map(String::from)
+        .to_vec(),
+    ];
+    for p in &report.pairs {
+        rows.push(vec![
+            format!("{} × {}", p.reviewer_a, p.reviewer_b),
+            p.n.to_string(),
+            format!(
+                "{} [{}, {}]",
+                num(p.kappa),
+                num(p.kappa_ci_low),
+                num(p.kappa_ci_high)
+            ),
+            p.band.to_string(),
+            num(p.kappa_linear),
+            num(p.kappa_quadratic),
+            num(p.ac1),
+            num(p.observed_agreement),
+        ]);
+    }
+    out.push_str(&aligned(&rows));
+    let _ = writeln!(
+        out,
+        "\nPanel: Fleiss' kappa {} (n = {}), Krippendorff's alpha nominal {} · ordinal {} [{}, {}] · interval {} (n = {}), Gwet's AC1 {}",
+        num(report.fleiss_kappa),
+        report.fleiss_n,
+        num(report.alpha_nominal),
+        num(report.alpha_ordinal),
+        num(report.alpha_ordinal_ci_low),
+        num(report.alpha_ordinal_ci_high),
+        num(report.alpha_interval),
+        report.alpha_n,
+        num(report.ac1)
+    );
+    let _ = writeln!(out, "Bands: {}", report.band_source);
+    for c in &report.cautions {
+        let _ = writeln!(out, "Caution: {c}");
+    }
+    out
+}
+
+/// Tidy CSV: one row per reviewer pair and coefficient, then the panel coefficients.
+pub fn agreement_csv(report: &AgreementReport) -> String {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let _ = w.write_record([
+        "scope",
+        "reviewer_a",
+        "reviewer_b",
+        "coefficient",
+        "value",
+        "n",
+    ]);
+    for p in &report.pairs {
+        for (name, value) in [
+            ("kappa", p.kappa),
+            ("kappa_se", p.kappa_se),
+            ("kappa_linear", p.kappa_linear),
+            ("kappa_quadratic", p.kappa_quadratic),
+            ("ac1", p.ac1),
+        ] {
+            let _ = w.write_record([
+                "pair",
+                &p.reviewer_a,
+                &p.reviewer_b,
+                name,
+                &value.to_string(),
+                &p.n.to_string(),
+            ]);
+        }
+    }
+    for (name, value, n) in [
+        ("fleiss_kappa", report.fleiss_kappa, report.fleiss_n),
+        ("alpha_nominal", report.alpha_nominal, report.alpha_n),
+        ("alpha_ordinal", report.alpha_ordinal, report.alpha_n),
+        ("alpha_interval", report.alpha_interval, report.alpha_n),
+        ("ac1", report.ac1, report.units),
+    ] {
+        let _ = w.write_record(["panel", "", "", name, &value.to_string(), &n.to_string()]);
+    }
+    String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
+}
+
+pub fn agreement_json(report: &AgreementReport) -> String {
+    serde_json::to_string_pretty(report).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))
+}

@@ -1,0 +1,457 @@
+//! The scoreboard view model: every ranker's metrics with intervals, and paired
+//! comparisons against a baseline. Shared by the Scoreboard screen and `plumbline score`.
+
+use std::collections::BTreeMap;
+
+use serde::Serialize;
+
+use super::judgments::{self, GradeSource};
+use crate::core::metrics::{self, AtK, GainKind, JudgedList, ListSettings, Unjudged};
+use crate::core::stats;
+use crate::study::snapshot::Snapshot;
+
+/// Which items carry gain, and which contexts count.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub enum Segment {
+    All,
+    /// Only new items carry gain (in DCG and the ideal), over contexts with a relevant new item.
+    New,
+    /// Only established (not new) items carry gain.
+    Established,
+    /// Only contexts of this kind (`query` or `anchor`).
+    Kind(String),
+    /// Only contexts with this segment label.
+    ContextSegment(String),
+}
+
+impl Segment {
+    pub fn parse(text: &str) -> Segment {
+        match text {
+            "all" => Segment::All,
+            "new" => Segment::New,
+            "established" => Segment::Established,
+            "query" | "anchor" => Segment::Kind(text.to_string()),
+            other => {
+                Segment::ContextSegment(other.strip_prefix("segment:").unwrap_or(other).to_string())
+            }
+        }
+    }
+
+    pub fn label(&self) -> String {
+        match self {
+            Segment::All => "all".into(),
+            Segment::New => "new".into(),
+            Segment::Established => "established".into(),
+            Segment::Kind(k) => k.clone(),
+            Segment::ContextSegment(s) => format!("segment:{s}"),
+        }
+    }
+}
+
+/// Everything that decides the numbers; printed beside them in every export.
+#[derive(Debug, Clone, Serialize)]
+pub struct ScoreSettings {
+    pub scale: Option<String>,
+    pub ks: Vec<usize>,
+    pub gain: GainKind,
+    pub grades: GradeSource,
+    pub unjudged: Unjudged,
+    pub baseline: Option<String>,
+    pub segment: Segment,
+    /// Level from which an item is relevant for precision and RR.
+    pub relevant_from: u8,
+    pub bootstrap_resamples: usize,
+    pub randomization_resamples: usize,
+    pub seed: u64,
+}
+
+impl Default for ScoreSettings {
+    fn default() -> Self {
+        ScoreSettings {
+            scale: None,
+            ks: vec![5, 10, 20],
+            gain: GainKind::Exponential,
+            grades: GradeSource::Panel,
+            unjudged: Unjudged::Zero,
+            baseline: None,
+            segment: Segment::All,
+            relevant_from: 1,
+            bootstrap_resamples: 2000,
+            randomization_resamples: 10_000,
+            seed: 20_261_201,
+        }
+    }
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct MetricSummary {
+    pub mean: f64,
+    pub ci_low: f64,
+    pub ci_high: f64,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct ContextScores {
+    pub context_id: String,
+    #[serde(flatten)]
+    pub values: BTreeMap<String, f64>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct RankerScores {
+    pub ranker: String,
+    pub metrics: BTreeMap<String, MetricSummary>,
+    pub per_context: Vec<ContextScores>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct Comparison {
+    pub ranker: String,
+    pub baseline: String,
+    pub metric: String,
+    pub n: usize,
+    pub diff: f64,
+    pub ci_low: f64,
+    pub ci_high: f64,
+    pub p_randomization: f64,
+    pub p_t: f64,
+    pub p_holm: f64,
+    pub wins: usize,
+    pub ties: usize,
+    pub losses: usize,
+    /// Contexts for 80 % power at two-sided α = 0.05 (normal approximation); None if diff = 0.
+    pub contexts_needed: Option<u64>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct Scoreboard {
+    pub study: String,
+    pub scale: String,
+    pub settings: ScoreSettings,
+    /// Contexts scored (with at least one relevant item in the segment).
+    pub contexts_scored: usize,
+    /// Contexts left out because no item in them is above level 0.
+    pub contexts_without_relevant: usize,
+    pub rankers: Vec<RankerScores>,
+    pub comparisons: Vec<Comparison>,
+    pub cautions: Vec<String>,
+}
+
+/// The metric keys of one k, in display order.
+pub fn metric_keys(ks: &[usize]) -> Vec<String> {
+    let mut keys = Vec::new();
+    for k in ks {
+        for name in ["ndcg", "dcg", "precision", "err", "judged"] {
+            keys.push(format!("{name}@{k}"));
+        }
+    }
+    keys.push("rr".into());
+    keys
+}
+
+/// Standard caution printed with every comparison.
+pub const OFFLINE_CAUTION: &str = "Offline judgments rank candidates for an online experiment; they do not replace it. These grades reflect this panel only, and small samples give wide intervals.";
+
+/// Why the scoreboard could not be built.
+#[derive(Debug, thiserror::Error)]
+pub enum ScoreError {
+    #[error("the study has no scale with grades; import or give grades first")]
+    NoScale,
+    #[error("unknown scale \"{0}\"")]
+    UnknownScale(String),
+    #[error("unknown ranker \"{0}\" for --baseline")]
+    UnknownRanker(String),
+    #[error("unknown reviewer \"{0}\" for --grades")]
+    UnknownReviewer(String),
+    #[error("k must be at least 1")]
+    BadK,
+}
+
+/// Derives a seed per purpose from names, so adding a ranker leaves others' intervals alone.
+fn seed_for(base: u64, parts: &[&str]) -> u64 {
+    let uid = crate::study::import::content_uid(parts);
+    base ^ u64::from_str_radix(&uid[..16], 16).unwrap_or(0)
+}
+
+/// Builds the scoreboard. Heavy statistics run on all cores.
+pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard, ScoreError> {
+    if settings.ks.is_empty() || settings.ks.contains(&0) {
+        return Err(ScoreError::BadK);
+    }
+    let scale_index = match &settings.scale {
+        Some(name) => snapshot
+            .scale_index(name)
+            .ok_or_else(|| ScoreError::UnknownScale(name.clone()))?,
+        None => snapshot.busiest_scale().ok_or(ScoreError::NoScale)?,
+    };
+    if let GradeSource::Reviewer(r) = &settings.grades
+        && snapshot.reviewer_index(r).is_none()
+    {
+        return Err(ScoreError::UnknownReviewer(r.clone()));
+    }
+    let baseline = match &settings.baseline {
+        Some(name) => Some(
+            snapshot
+                .ranker_index(name)
+                .ok_or_else(|| ScoreError::UnknownRanker(name.clone()))?,
+        ),
+        None => (!snapshot.rankers.is_empty()).then_some(0),
+    };
+    let scale = &snapshot.scales[scale_index];
+    let list_settings = ListSettings {
+        gains: metrics::gain_table(scale.levels.len(), &scale.gains(), settings.gain),
+        max_level: scale.max_level(),
+        relevant_from: settings.relevant_from,
+        unjudged: settings.unjudged,
+    };
+    let mut judged = judgments::resolve(snapshot, scale_index, &settings.grades);
+    // Segments by item: items outside the segment stay judged but carry no gain.
+    let carries_gain = |item: u32| -> bool {
+        let is_new = snapshot.items[item as usize].is_new;
+        match settings.segment {
+            Segment::New => is_new,
+            Segment::Established => !is_new,
+            _ => true,
+        }
+    };
+    for list in &mut judged {
+        for (item, level) in list.iter_mut() {
+            if !carries_gain(*item) {
+                *level = 0;
+            }
+        }
+    }
+    let context_included = |c: usize| -> bool {
+        let info = &snapshot.contexts[c];
+        match &settings.segment {
+            Segment::Kind(kind) => info.kind == *kind,
+            Segment::ContextSegment(s) => info.segment == *s,
+            _ => true,
+        }
+    };
+    let mut scored_contexts: Vec<usize> = Vec::new();
+    let mut without_relevant = 0usize;
+    let mut ideal: Vec<Vec<f64>> = vec![Vec::new(); snapshot.contexts.len()];
+    for c in 0..snapshot.contexts.len() {
+        if !context_included(c) {
+            continue;
+        }
+        let has_any_list = snapshot.lists.iter().any(|l| !l[c].is_empty());
+        if judged[c].is_empty() && !has_any_list {
+            continue;
+        }
+        if !judged[c].iter().any(|(_, level)| *level > 0) {
+            without_relevant += 1;
+            continue;
+        }
+        let mut gains: Vec<f64> = judged[c]
+            .iter()
+            .map(|(_, level)| list_settings.gains[*level as usize])
+            .collect();
+        gains.sort_by(|a, b| b.total_cmp(a));
+        ideal[c] = gains;
+        scored_contexts.push(c);
+    }
+    let keys = metric_keys(&settings.ks);
+    // values[ranker][metric key index][scored context index]
+    let mut values: Vec<Vec<Vec<f64>>> = Vec::with_capacity(snapshot.rankers.len());
+    let mut levels_buf: Vec<Option<u8>> = Vec::new();
+    let mut scratch = Vec::new();
+    let mut at_k: Vec<AtK> = Vec::new();
+    for lists in &snapshot.lists {
+        let mut per_metric = vec![Vec::with_capacity(scored_contexts.len()); keys.len()];
+        for &c in &scored_contexts {
+            levels_buf.clear();
+            levels_buf.extend(
+                lists[c]
+                    .iter()
+                    .map(|item| judgments::level_of(&judged[c], *item)),
+            );
+            let list = JudgedList {
+                levels: &levels_buf,
+                ideal_gains: &ideal[c],
+                has_relevant: true,
+            };
+            let rr =
+                metrics::score_list(&list, &list_settings, &settings.ks, &mut scratch, &mut at_k);
+            for (ki, m) in at_k.iter().enumerate() {
+                let base = ki * 5;
+                per_metric[base].push(m.ndcg.unwrap_or(0.0));
+                per_metric[base + 1].push(m.dcg);
+                per_metric[base + 2].push(m.precision);
+                per_metric[base + 3].push(m.err);
+                per_metric[base + 4].push(m.judged);
+            }
+            per_metric[keys.len() - 1].push(rr);
+        }
+        values.push(per_metric);
+    }
+
+    let rankers: Vec<RankerScores> = std::thread::scope(|scope| {
+        let handles: Vec<_> = values
+            .iter()
+            .enumerate()
+            .map(|(r, per_metric)| {
+                let keys = &keys;
+                let name = &snapshot.rankers[r];
+                scope.spawn(move || {
+                    keys.iter()
+                        .zip(per_metric)
+                        .map(|(key, v)| {
+                            let seed = seed_for(settings.seed, &["bootstrap", name, key]);
+                            let ci =
+                                stats::bootstrap_mean(v, settings.bootstrap_resamples, 0.95, seed);
+                            (
+                                key.clone(),
+                                MetricSummary {
+                                    mean: ci.mean,
+                                    ci_low: ci.low,
+                                    ci_high: ci.high,
+                                },
+                            )
+                        })
+                        .collect::<BTreeMap<String, MetricSummary>>()
+                })
+            })
+            .collect();
+        handles
+            .into_iter()
+            .enumerate()
+            .map(|(r, h)| RankerScores {
+                ranker: snapshot.rankers[r].clone(),
+                metrics: h.join().expect("bootstrap thread panicked"),
+                per_context: scored_contexts
+                    .iter()
+                    .enumerate()
+                    .map(|(i, &c)| ContextScores {
+                        context_id: snapshot.contexts[c].id.clone(),
+                        values: keys
+                            .iter()
+                            .enumerate()
+                            .map(|(m, key)| (key.clone(), values[r][m][i]))
+                            .collect(),
+                    })
+                    .collect(),
+            })
+            .collect()
+    });
+
+    let comparisons = match baseline {
+        Some(b) => compare(snapshot, settings, &keys, &values, b),
+        None => Vec::new(),
+    };
+    let mut cautions = vec![OFFLINE_CAUTION.to_string()];
+    if scored_contexts.len() < 30 {
+        cautions.push(format!(
+            "Only {} contexts have a relevant item; intervals are wide and tests weak.",
+            scored_contexts.len()
+        ));
+    }
+    for r in &rankers {
+        for k in &settings.ks {
+            if let Some(j) = r.metrics.get(&format!("judged@{k}"))
+                && j.mean < 0.9
+            {
+                cautions.push(format!(
+                    "{} has only {:.0} % of its top {k} judged; unjudged items count as {}.",
+                    r.ranker,
+                    j.mean * 100.0,
+                    match settings.unjudged {
+                        Unjudged::Zero => "gain 0",
+                        Unjudged::Condense => "absent (condensed)",
+                    }
+                ));
+            }
+        }
+    }
+    Ok(Scoreboard {
+        study: snapshot.name.clone(),
+        scale: scale.name.clone(),
+        settings: settings.clone(),
+        contexts_scored: scored_contexts.len(),
+        contexts_without_relevant: without_relevant,
+        rankers,
+        comparisons,
+        cautions,
+    })
+}
+
+/// Paired comparisons of every other ranker against the baseline on each NDCG@k,
+/// with Holm's correction across the candidates of one metric.
+fn compare(
+    snapshot: &Snapshot,
+    settings: &ScoreSettings,
+    keys: &[String],
+    values: &[Vec<Vec<f64>>],
+    baseline: usize,
+) -> Vec<Comparison> {
+    let jobs: Vec<(usize, usize)> = (0..snapshot.rankers.len())
+        .filter(|r| *r != baseline)
+        .flat_map(|r| {
+            keys.iter()
+                .enumerate()
+                .filter(|(_, k)| k.starts_with("ndcg@"))
+                .map(move |(m, _)| (r, m))
+        })
+        .collect();
+    let mut comparisons: Vec<Comparison> = std::thread::scope(|scope| {
+        let handles: Vec<_> = jobs
+            .iter()
+            .map(|&(r, m)| {
+                scope.spawn(move || {
+                    let name = &snapshot.rankers[r];
+                    let key = &keys[m];
+                    let diffs: Vec<f64> = values[r][m]
+                        .iter()
+                        .zip(&values[baseline][m])
+                        .map(|(a, b)| a - b)
+                        .collect();
+                    let seed_b = seed_for(settings.seed, &["paired-bootstrap", name, key]);
+                    let seed_r = seed_for(settings.seed, &["randomization", name, key]);
+                    let ci =
+                        stats::bootstrap_mean(&diffs, settings.bootstrap_resamples, 0.95, seed_b);
+                    let wins = diffs.iter().filter(|d| **d > 1e-9).count();
+                    let losses = diffs.iter().filter(|d| **d < -1e-9).count();
+                    Comparison {
+                        ranker: name.clone(),
+                        baseline: snapshot.rankers[baseline].clone(),
+                        metric: key.clone(),
+                        n: diffs.len(),
+                        diff: ci.mean,
+                        ci_low: ci.low,
+                        ci_high: ci.high,
+                        p_randomization: stats::randomization_test(
+                            &diffs,
+                            settings.randomization_resamples,
+                            seed_r,
+                        ),
+                        p_t: stats::paired_t_test(&diffs).p,
+                        p_holm: f64::NAN,
+                        wins,
+                        ties: diffs.len() - wins - losses,
+                        losses,
+                        contexts_needed: stats::contexts_needed(ci.mean, stats::sample_sd(&diffs)),
+                    }
+                })
+            })
+            .collect();
+        handles
+            .into_iter()
+            .map(|h| h.join().expect("comparison thread panicked"))
+            .collect()
+    });
+    let metrics: Vec<String> = comparisons.iter().map(|c| c.metric.clone()).collect();
+    for metric in metrics.iter().collect::<std::collections::BTreeSet<_>>() {
+        let idx: Vec<usize> = (0..comparisons.len())
+            .filter(|i| comparisons[*i].metric == *metric)
+            .collect();
+        let p: Vec<f64> = idx
+            .iter()
+            .map(|i| comparisons[*i].p_randomization)
+            .collect();
+        for (i, adjusted) in idx.iter().zip(stats::holm(&p)) {
+            comparisons[*i].p_holm = adjusted;
+        }
+    }
+    comparisons
+}

@@ -1,0 +1,188 @@
+//! What each command does.
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+use super::{Command, Failure, Format, ScreenName};
+use crate::analysis::{agreement, judgments::GradeSource, render, scoreboard};
+use crate::core::metrics::{GainKind, Unjudged};
+use crate::study::Study;
+use crate::study::import::{self, ImportSet, Source};
+
+pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
+    match command {
+        None => crate::ui::run_workbench(None, ScreenName::Home),
+        Some(Command::Open { study, screen }) => crate::ui::run_workbench(Some(study), screen),
+        Some(Command::New { study }) => {
+            Study::create(&study)?;
+            println!("{}", study.display());
+            Ok(())
+        }
+        Some(Command::Demo { out }) => {
+            let path = match out {
+                Some(p) => p,
+                None => crate::demo::default_demo_path().map_err(Failure::other)?,
+            };
+            crate::demo::build_demo_study(&path)?;
+            println!("{}", path.display());
+            Ok(())
+        }
+        Some(Command::Import {
+            study,
+            items,
+            contexts,
+            rankings,
+            scales,
+            grades,
+        }) => import_files(&study, items, contexts, rankings, scales, grades),
+        Some(Command::Score {
+            study,
+            scale,
+            k,
+            gain,
+            grades,
+            unjudged,
+            baseline,
+            segment,
+            bootstrap,
+            randomization,
+            format,
+        }) => {
+            let snapshot = open(&study)?.snapshot()?;
+            let settings = scoreboard::ScoreSettings {
+                scale,
+                ks: k,
+                gain: GainKind::parse(&gain).unwrap_or(GainKind::Exponential),
+                grades: GradeSource::parse(&grades),
+                unjudged: Unjudged::parse(&unjudged).unwrap_or(Unjudged::Zero),
+                baseline: baseline.or_else(|| default_baseline(&study)),
+                segment: scoreboard::Segment::parse(&segment),
+                bootstrap_resamples: bootstrap,
+                randomization_resamples: randomization,
+                ..Default::default()
+            };
+            let board = scoreboard::build(&snapshot, &settings)
+                .map_err(|e| Failure::input(e.to_string()))?;
+            print(match format {
+                Format::Text => render::scoreboard_text(&board),
+                Format::Csv => render::scoreboard_csv(&board),
+                Format::Json => render::scoreboard_json(&board),
+            })
+        }
+        Some(Command::Agree {
+            study,
+            scale,
+            format,
+        }) => {
+            let snapshot = open(&study)?.snapshot()?;
+            let scale_index = match &scale {
+                Some(name) => snapshot
+                    .scale_index(name)
+                    .ok_or_else(|| Failure::input(format!("unknown scale \"{name}\"")))?,
+                None => snapshot
+                    .busiest_scale()
+                    .ok_or_else(|| Failure::input("the study has no scales"))?,
+            };
+            let report = agreement::build(&snapshot, scale_index, None, 1000, 20_261_201);
+            print(match format {
+                Format::Text => render::agreement_text(&report),
+                Format::Csv => render::agreement_csv(&report),
+                Format::Json => render::agreement_json(&report),
+            })
+        }
+        Some(Command::Export {
+            study,
+            grades,
+            scores,
+        }) => {
+            let study_file = open(&study)?;
+            if grades.is_none() && scores.is_none() {
+                return Err(Failure::input("name at least one of --grades or --scores"));
+            }
+            if let Some(path) = grades {
+                let mut file = std::fs::File::create(&path)
+                    .map_err(|e| Failure::other(format!("{}: {e}", path.display())))?;
+                let rows = study_file.export_grades(&mut file)?;
+                eprintln!("{}: {rows} grades written", path.display());
+            }
+            if let Some(path) = scores {
+                let snapshot = study_file.snapshot()?;
+                let settings = scoreboard::ScoreSettings {
+                    baseline: default_baseline(&study),
+                    ..Default::default()
+                };
+                let board = scoreboard::build(&snapshot, &settings)
+                    .map_err(|e| Failure::input(e.to_string()))?;
+                std::fs::write(&path, render::scoreboard_csv(&board))
+                    .map_err(|e| Failure::other(format!("{}: {e}", path.display())))?;
+                eprintln!("{}: scores written", path.display());
+            }
+            Ok(())
+        }
+        Some(Command::GenerateDemoCatalog { out }) => {
+            crate::demo::generate::write_demo_catalog(&out)
+                .map_err(|e| Failure::other(format!("{}: {e}", out.display())))?;
+            println!("{}", out.display());
+            Ok(())
+        }
+    }
+}
+
+fn print(text: String) -> Result<(), Failure> {
+    let mut out = std::io::stdout().lock();
+    // A closed pipe (e.g. `| head`) is not a failure of ours.
+    let _ = out.write_all(text.as_bytes());
+    Ok(())
+}
+
+fn open(path: &Path) -> Result<Study, Failure> {
+    if !path.exists() {
+        return Err(Failure::input(format!("{}: no such study", path.display())));
+    }
+    Ok(Study::open(path)?)
+}
+
+/// The study's chosen baseline, if it names one.
+fn default_baseline(path: &Path) -> Option<String> {
+    Study::open(path).ok()?.setting("baseline").ok().flatten()
+}
+
+fn import_files(
+    study: &Path,
+    items: Option<PathBuf>,
+    contexts: Option<PathBuf>,
+    rankings: Option<PathBuf>,
+    scales: Option<PathBuf>,
+    grades: Option<PathBuf>,
+) -> Result<(), Failure> {
+    let read = |p: Option<PathBuf>| -> Result<Option<Source>, Failure> {
+        p.map(|p| Source::from_path(&p).map_err(|e| Failure::input(e.to_string())))
+            .transpose()
+    };
+    let set = ImportSet {
+        items: read(items)?,
+        contexts: read(contexts)?,
+        rankings: read(rankings)?,
+        scales: read(scales)?,
+        grades: read(grades)?,
+    };
+    if set.items.is_none()
+        && set.contexts.is_none()
+        && set.rankings.is_none()
+        && set.scales.is_none()
+        && set.grades.is_none()
+    {
+        return Err(Failure::input(
+            "name at least one file to import (--items, --contexts, --rankings, --scales, --grades)",
+        ));
+    }
+    let mut study = open(study)?;
+    let reports = import::import(&mut study, &set)?;
+    for r in reports {
+        println!(
+            "{} ({}): {} added, {} updated, {} unchanged",
+            r.file, r.kind, r.added, r.updated, r.unchanged
+        );
+    }
+    Ok(())
+}

@@ -1,0 +1,163 @@
+//! Command-line interface. Every command that prints numbers goes through `analysis`, so
+//! the terminal and the screens agree.
+
+mod commands;
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand, ValueEnum};
+
+#[derive(Parser, Debug)]
+#[command(
+    name = "plumbline",
+    version,
+    about = "Graded relevance judgments and offline ranker evaluation"
+)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Option<Command>,
+}
+
+#[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
+pub enum Format {
+    Text,
+    Csv,
+    Json,
+}
+
+#[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
+pub enum ScreenName {
+    Home,
+    Catalog,
+    Scales,
+    Desk,
+    Agreement,
+    Scoreboard,
+    Trial,
+}
+
+#[derive(Subcommand, Debug)]
+pub enum Command {
+    /// Open a study in the workbench.
+    Open {
+        study: PathBuf,
+        #[arg(long, value_enum, default_value = "home")]
+        screen: ScreenName,
+    },
+    /// Create a new, empty study file.
+    New { study: PathBuf },
+    /// Build the demo study from the built-in demo catalog and print its path.
+    Demo {
+        #[arg(long)]
+        out: Option<PathBuf>,
+    },
+    /// Import CSV files into a study (all files in one transaction).
+    Import {
+        study: PathBuf,
+        #[arg(long)]
+        items: Option<PathBuf>,
+        #[arg(long)]
+        contexts: Option<PathBuf>,
+        #[arg(long)]
+        rankings: Option<PathBuf>,
+        #[arg(long)]
+        scales: Option<PathBuf>,
+        #[arg(long)]
+        grades: Option<PathBuf>,
+    },
+    /// Score every ranker with graded metrics, intervals and paired tests.
+    Score {
+        study: PathBuf,
+        #[arg(long)]
+        scale: Option<String>,
+        /// Cut-offs, comma separated.
+        #[arg(long, value_delimiter = ',', default_value = "5,10,20")]
+        k: Vec<usize>,
+        #[arg(long, default_value = "exponential", value_parser = ["exponential", "linear"])]
+        gain: String,
+        /// `panel` or a reviewer's name.
+        #[arg(long, default_value = "panel")]
+        grades: String,
+        #[arg(long, default_value = "zero", value_parser = ["zero", "condense"])]
+        unjudged: String,
+        #[arg(long)]
+        baseline: Option<String>,
+        /// all, new, established, query, anchor, or a context segment label.
+        #[arg(long, default_value = "all")]
+        segment: String,
+        #[arg(long, default_value_t = 2000)]
+        bootstrap: usize,
+        #[arg(long, default_value_t = 10_000)]
+        randomization: usize,
+        #[arg(long, value_enum, default_value = "text")]
+        format: Format,
+    },
+    /// Reviewer agreement on one scale.
+    Agree {
+        study: PathBuf,
+        #[arg(long)]
+        scale: Option<String>,
+        #[arg(long, value_enum, default_value = "text")]
+        format: Format,
+    },
+    /// Write grades or scores to files.
+    Export {
+        study: PathBuf,
+        #[arg(long)]
+        grades: Option<PathBuf>,
+        #[arg(long)]
+        scores: Option<PathBuf>,
+    },
+    /// Regenerate the demo catalog files (for maintainers).
+    #[command(hide = true)]
+    GenerateDemoCatalog { out: PathBuf },
+}
+
+/// A failure with the exit code it deserves: 2 for bad input, 1 for anything else.
+#[derive(Debug)]
+pub struct Failure {
+    pub code: u8,
+    pub message: String,
+}
+
+impl Failure {
+    pub fn input(message: impl Into<String>) -> Failure {
+        Failure {
+            code: 2,
+            message: message.into(),
+        }
+    }
+    pub fn other(message: impl Into<String>) -> Failure {
+        Failure {
+            code: 1,
+            message: message.into(),
+        }
+    }
+}
+
+impl From<crate::study::StudyError> for Failure {
+    fn from(e: crate::study::StudyError) -> Failure {
+        Failure {
+            code: if e.is_bad_input() { 2 } else { 1 },
+            message: e.to_string(),
+        }
+    }
+}
+
+pub fn run() -> ExitCode {
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => {
+            let _ = e.print();
+            return ExitCode::from(if e.use_stderr() { 2 } else { 0 });
+        }
+    };
+    match commands::dispatch(cli.command) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(f) => {
+            eprintln!("plumbline: {}", f.message);
+            ExitCode::from(f.code)
+        }
+    }
+}

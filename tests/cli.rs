@@ -1,0 +1,177 @@
+//! The command line, run as a real process.
+
+mod common;
+
+use std::process::Command;
+
+use common::{Fixture, study_dump};
+
+fn plumbline(args: &[&std::ffi::OsStr]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_plumbline"))
+        .args(args)
+        .output()
+        .expect("run plumbline")
+}
+
+macro_rules! args {
+    ($($a:expr),* $(,)?) => { &[$(std::ffi::OsStr::new($a)),*] };
+}
+
+#[test]
+fn new_import_score_agree_export() {
+    let fixture = Fixture::new();
+    let study = fixture.path("cli.plumb");
+    let s = study.to_str().unwrap();
+    let out = plumbline(args!["new", s]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+
+    let p = |n: &str| fixture.path(n).to_str().unwrap().to_string();
+    let (items, contexts, scales, rankings, grades) = (
+        p("items.csv"),
+        p("contexts.csv"),
+        p("scales.csv"),
+        p("rankings.csv"),
+        p("grades.csv"),
+    );
+    let out = plumbline(args![
+        "import",
+        s,
+        "--items",
+        &items,
+        "--contexts",
+        &contexts,
+        "--scales",
+        &scales,
+        "--rankings",
+        &rankings,
+        "--grades",
+        &grades
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(
+        text.contains("items.csv (items): 4 added, 0 updated, 0 unchanged"),
+        "{text}"
+    );
+
+    let out = plumbline(args![
+        "score",
+        s,
+        "--k",
+        "2,3",
+        "--baseline",
+        "base",
+        "--format",
+        "json"
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let rankers = json["rankers"].as_array().unwrap();
+    assert_eq!(rankers.len(), 2);
+    let base = rankers.iter().find(|r| r["ranker"] == "base").unwrap();
+    assert!(base["metrics"]["ndcg@3"]["mean"].as_f64().is_some());
+    assert!(base["metrics"]["ndcg@3"]["ci_low"].as_f64().is_some());
+    assert!(base["per_context"][0]["context_id"].is_string());
+    assert!(base["per_context"][0]["ndcg@2"].is_number());
+    let comparison = &json["comparisons"][0];
+    for key in [
+        "diff",
+        "ci_low",
+        "ci_high",
+        "p_randomization",
+        "p_t",
+        "p_holm",
+        "wins",
+        "ties",
+        "losses",
+    ] {
+        assert!(
+            !comparison[key].is_null() || key == "p_t",
+            "{key} missing: {comparison}"
+        );
+    }
+
+    let out = plumbline(args!["agree", s, "--format", "json"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let pair = &json["pairs"][0];
+    for key in [
+        "reviewer_a",
+        "reviewer_b",
+        "n",
+        "kappa",
+        "kappa_se",
+        "kappa_linear",
+        "kappa_quadratic",
+        "ac1",
+    ] {
+        assert!(pair.get(key).is_some(), "{key} missing");
+    }
+    for key in [
+        "fleiss_kappa",
+        "fleiss_n",
+        "alpha_nominal",
+        "alpha_ordinal",
+        "alpha_interval",
+    ] {
+        assert!(json.get(key).is_some(), "{key} missing");
+    }
+
+    let exported = fixture.path("out.csv");
+    let out = plumbline(args!["export", s, "--grades", exported.to_str().unwrap()]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = std::fs::read_to_string(&exported).unwrap();
+    assert!(text.starts_with("reviewer,context_id,item_id,scale,value,reason,seconds,graded_at,note,settled_by,context_text,item_title\n"));
+    assert_eq!(text.lines().count(), 9);
+}
+
+#[test]
+fn bad_input_exits_2_and_leaves_the_study_alone() {
+    let fixture = Fixture::new();
+    let (path, study) = fixture.study();
+    drop(study);
+    let before = study_dump(&path);
+    let bad = fixture.write(
+        "rankings.csv",
+        "ranker,context_id,item_id,rank\nb,q1,i1,1\nb,q1,i2,2\nb,q1,i3,3\nb,q2,i1,1\nb,q2,i3,x\n",
+    );
+    let out = plumbline(args![
+        "import",
+        path.to_str().unwrap(),
+        "--rankings",
+        bad.to_str().unwrap()
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let stderr = String::from_utf8(out.stderr).unwrap();
+    assert!(
+        stderr.contains("rankings.csv:6:4: rank must be a positive integer, got \"x\""),
+        "{stderr}"
+    );
+    assert_eq!(study_dump(&path), before);
+
+    let out = plumbline(args![
+        "score",
+        fixture.path("missing.plumb").to_str().unwrap()
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+}

@@ -3,7 +3,7 @@
 use crate::core::stats::Rng;
 
 /// Union of every ranker's top `depth` items per context (depth-k pooling, common
-/// practice since the early TREC collections). Input: (context, ranked items) per list.
+/// practice in evaluation campaigns). Input: (context, ranked items) per list.
 /// Output pairs are ordered by context, then by first appearance, so pools are stable.
 pub fn depth_pool<C: Ord + Clone, I: PartialEq + Clone>(
     lists: &[(C, Vec<I>)],

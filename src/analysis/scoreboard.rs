@@ -287,59 +287,106 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         values.push(per_metric);
     }
 
-    let rankers: Vec<RankerScores> = std::thread::scope(|scope| {
-        let handles: Vec<_> = values
-            .iter()
-            .enumerate()
-            .map(|(r, per_metric)| {
-                let keys = &keys;
-                let name = &snapshot.rankers[r];
-                scope.spawn(move || {
-                    keys.iter()
-                        .zip(per_metric)
-                        .map(|(key, v)| {
-                            let seed = seed_for(settings.seed, &["bootstrap", name, key]);
-                            let ci =
-                                stats::bootstrap_mean(v, settings.bootstrap_resamples, 0.95, seed);
-                            (
-                                key.clone(),
-                                MetricSummary {
-                                    mean: ci.mean,
-                                    ci_low: ci.low,
-                                    ci_high: ci.high,
-                                },
-                            )
-                        })
-                        .collect::<BTreeMap<String, MetricSummary>>()
-                })
-            })
-            .collect();
-        handles
-            .into_iter()
-            .enumerate()
-            .map(|(r, h)| RankerScores {
-                ranker: snapshot.rankers[r].clone(),
-                metrics: h.join().expect("bootstrap thread panicked"),
-                per_context: scored_contexts
-                    .iter()
+    let baseline_name = baseline.map(|b| snapshot.rankers[b].as_str());
+    let comparison_jobs: Vec<(usize, usize)> = match baseline {
+        Some(b) => (0..snapshot.rankers.len())
+            .filter(|r| *r != b)
+            .flat_map(|r| {
+                keys.iter()
                     .enumerate()
-                    .map(|(i, &c)| ContextScores {
-                        context_id: snapshot.contexts[c].id.clone(),
-                        values: keys
-                            .iter()
-                            .enumerate()
-                            .map(|(m, key)| (key.clone(), values[r][m][i]))
-                            .collect(),
-                    })
-                    .collect(),
+                    .filter(|(_, k)| k.starts_with("ndcg@"))
+                    .map(move |(m, _)| (r, m))
             })
-            .collect()
-    });
-
-    let comparisons = match baseline {
-        Some(b) => compare(snapshot, settings, &keys, &values, b),
+            .collect(),
         None => Vec::new(),
     };
+    let diffs: Vec<Vec<f64>> = comparison_jobs
+        .iter()
+        .map(|&(r, m)| {
+            let b = baseline.expect("jobs exist only with a baseline");
+            values[r][m]
+                .iter()
+                .zip(&values[b][m])
+                .map(|(x, y)| x - y)
+                .collect()
+        })
+        .collect();
+    // One bootstrap over contexts serves every ranker, metric and paired difference.
+    let series: Vec<&[f64]> = values
+        .iter()
+        .flat_map(|per_metric| per_metric.iter().map(Vec::as_slice))
+        .chain(diffs.iter().map(Vec::as_slice))
+        .collect();
+    let intervals = stats::bootstrap_means(
+        &series,
+        settings.bootstrap_resamples,
+        0.95,
+        seed_for(settings.seed, &["bootstrap"]),
+    );
+    let rankers: Vec<RankerScores> = (0..snapshot.rankers.len())
+        .map(|r| RankerScores {
+            ranker: snapshot.rankers[r].clone(),
+            metrics: keys
+                .iter()
+                .enumerate()
+                .map(|(m, key)| {
+                    let ci = intervals[r * keys.len() + m];
+                    (
+                        key.clone(),
+                        MetricSummary {
+                            mean: ci.mean,
+                            ci_low: ci.low,
+                            ci_high: ci.high,
+                        },
+                    )
+                })
+                .collect(),
+            per_context: scored_contexts
+                .iter()
+                .enumerate()
+                .map(|(i, &c)| ContextScores {
+                    context_id: snapshot.contexts[c].id.clone(),
+                    values: keys
+                        .iter()
+                        .enumerate()
+                        .map(|(m, key)| (key.clone(), values[r][m][i]))
+                        .collect(),
+                })
+                .collect(),
+        })
+        .collect();
+    let diff_intervals = &intervals[snapshot.rankers.len() * keys.len()..];
+    let mut comparisons: Vec<Comparison> = comparison_jobs
+        .iter()
+        .zip(&diffs)
+        .zip(diff_intervals)
+        .map(|((&(r, m), d), ci)| {
+            let name = &snapshot.rankers[r];
+            let wins = d.iter().filter(|x| **x > 1e-9).count();
+            let losses = d.iter().filter(|x| **x < -1e-9).count();
+            Comparison {
+                ranker: name.clone(),
+                baseline: baseline_name.unwrap_or_default().to_string(),
+                metric: keys[m].clone(),
+                n: d.len(),
+                diff: ci.mean,
+                ci_low: ci.low,
+                ci_high: ci.high,
+                p_randomization: stats::randomization_test(
+                    d,
+                    settings.randomization_resamples,
+                    seed_for(settings.seed, &["randomization", name, &keys[m]]),
+                ),
+                p_t: stats::paired_t_test(d).p,
+                p_holm: f64::NAN,
+                wins,
+                ties: d.len() - wins - losses,
+                losses,
+                contexts_needed: stats::contexts_needed(ci.mean, stats::sample_sd(d)),
+            }
+        })
+        .collect();
+    apply_holm(&mut comparisons);
     let mut cautions = vec![OFFLINE_CAUTION.to_string()];
     if scored_contexts.len() < 30 {
         cautions.push(format!(
@@ -376,74 +423,13 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
     })
 }
 
-/// Paired comparisons of every other ranker against the baseline on each NDCG@k,
-/// with Holm's correction across the candidates of one metric.
-fn compare(
-    snapshot: &Snapshot,
-    settings: &ScoreSettings,
-    keys: &[String],
-    values: &[Vec<Vec<f64>>],
-    baseline: usize,
-) -> Vec<Comparison> {
-    let jobs: Vec<(usize, usize)> = (0..snapshot.rankers.len())
-        .filter(|r| *r != baseline)
-        .flat_map(|r| {
-            keys.iter()
-                .enumerate()
-                .filter(|(_, k)| k.starts_with("ndcg@"))
-                .map(move |(m, _)| (r, m))
-        })
-        .collect();
-    let mut comparisons: Vec<Comparison> = std::thread::scope(|scope| {
-        let handles: Vec<_> = jobs
-            .iter()
-            .map(|&(r, m)| {
-                scope.spawn(move || {
-                    let name = &snapshot.rankers[r];
-                    let key = &keys[m];
-                    let diffs: Vec<f64> = values[r][m]
-                        .iter()
-                        .zip(&values[baseline][m])
-                        .map(|(a, b)| a - b)
-                        .collect();
-                    let seed_b = seed_for(settings.seed, &["paired-bootstrap", name, key]);
-                    let seed_r = seed_for(settings.seed, &["randomization", name, key]);
-                    let ci =
-                        stats::bootstrap_mean(&diffs, settings.bootstrap_resamples, 0.95, seed_b);
-                    let wins = diffs.iter().filter(|d| **d > 1e-9).count();
-                    let losses = diffs.iter().filter(|d| **d < -1e-9).count();
-                    Comparison {
-                        ranker: name.clone(),
-                        baseline: snapshot.rankers[baseline].clone(),
-                        metric: key.clone(),
-                        n: diffs.len(),
-                        diff: ci.mean,
-                        ci_low: ci.low,
-                        ci_high: ci.high,
-                        p_randomization: stats::randomization_test(
-                            &diffs,
-                            settings.randomization_resamples,
-                            seed_r,
-                        ),
-                        p_t: stats::paired_t_test(&diffs).p,
-                        p_holm: f64::NAN,
-                        wins,
-                        ties: diffs.len() - wins - losses,
-                        losses,
-                        contexts_needed: stats::contexts_needed(ci.mean, stats::sample_sd(&diffs)),
-                    }
-                })
-            })
-            .collect();
-        handles
-            .into_iter()
-            .map(|h| h.join().expect("comparison thread panicked"))
-            .collect()
-    });
-    let metrics: Vec<String> = comparisons.iter().map(|c| c.metric.clone()).collect();
-    for metric in metrics.iter().collect::<std::collections::BTreeSet<_>>() {
+/// Holm's correction across the candidates compared on one metric.
+fn apply_holm(comparisons: &mut [Comparison]) {
+    let metrics: std::collections::BTreeSet<String> =
+        comparisons.iter().map(|c| c.metric.clone()).collect();
+    for metric in metrics {
         let idx: Vec<usize> = (0..comparisons.len())
-            .filter(|i| comparisons[*i].metric == *metric)
+            .filter(|i| comparisons[*i].metric == metric)
             .collect();
         let p: Vec<f64> = idx
             .iter()
@@ -453,5 +439,4 @@ fn compare(
             comparisons[*i].p_holm = adjusted;
         }
     }
-    comparisons
 }

@@ -160,8 +160,11 @@ fn malformed_files_are_reported_with_line_and_column() {
         (Slot::Grades, b"reviewer,context_id,item_id,scale,value,graded_at\nann,q1,i1,fit,1,last tuesday\n", "bad.csv:2:6: graded_at must be an RFC 3339 time such as 2026-11-16T09:14:03Z, got \"last tuesday\""),
         (Slot::Items, b"item_id,title,image\ni7,Tarp,../../etc/passwd\n", "bad.csv:2:3: image path \"../../etc/passwd\" leaves the catalog folder; use a path relative to the CSV without \"..\""),
         (Slot::Rankings, b"ranker,context_id,item_id,rank\nb,q1,i1,1\nb,q1,i2,3\n", "bad.csv:3:4: ranks must run 1, 2, 3\u{2026} in each list; rank 2 is missing in the list of ranker \"b\" for context \"q1\""),
+        (Slot::Items, b"i7,Tarp\ni8,Stakes\n", "bad.csv:1:1: no header row: the first line must name the columns (item_id, title\u{2026}); it reads \"i7,tarp\""),
+        (Slot::Contexts, b"context_id,kind,text\nq9,query\n", "bad.csv:2:3: this row has 2 fields but the header has 3"),
+        (Slot::Grades, b"reviewer,context_id,item_id,scale,value\nann,q1,i1,fit,1.5\n", "bad.csv:2:5: value must be a level of scale \"fit\" (0 to 2), got \"1.5\""),
     ];
-    assert!(cases.len() >= 15);
+    assert!(cases.len() >= 20);
     for (slot, text, expected) in cases {
         let message = reject(slot, text);
         assert_eq!(first_line(&message), expected, "full message: {message}");
@@ -201,5 +204,17 @@ fn a_failing_file_rolls_back_the_files_before_it() {
         study_dump(&path),
         before,
         "items, contexts and rankings must roll back too"
+    );
+}
+
+#[test]
+fn a_field_over_one_mebibyte_is_refused() {
+    let mut text = b"item_id,title,description\ni7,Tarp,".to_vec();
+    text.extend(std::iter::repeat_n(b'a', (1 << 20) + 1));
+    text.push(b'\n');
+    let message = reject(Slot::Items, &text);
+    assert_eq!(
+        first_line(&message),
+        "bad.csv:2:3: field is 1048577 bytes long; the limit is 1048576 bytes"
     );
 }

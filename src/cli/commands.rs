@@ -119,6 +119,11 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             }
             Ok(())
         }
+        Some(Command::GradeLoop {
+            study,
+            reviewer,
+            count,
+        }) => grade_loop(&study, &reviewer, count),
         Some(Command::GenerateDemoCatalog { out }) => {
             crate::demo::generate::write_demo_catalog(&out)
                 .map_err(|e| Failure::other(format!("{}: {e}", out.display())))?;
@@ -183,6 +188,49 @@ fn import_files(
             "{} ({}): {} added, {} updated, {} unchanged",
             r.file, r.kind, r.added, r.updated, r.unchanged
         );
+    }
+    Ok(())
+}
+
+/// Records `count` grades in a tight loop over the study's ranked pairs; after each commit
+/// prints `ack EVENT_ID` and flushes, so a test can kill the process at any moment and
+/// check that every acknowledged grade survived.
+fn grade_loop(path: &Path, reviewer: &str, count: usize) -> Result<(), Failure> {
+    use crate::study::grades::{GradeAction, NewGrade};
+    let mut study = open(path)?;
+    let snapshot = study.snapshot()?;
+    let scale = snapshot
+        .busiest_scale()
+        .or((!snapshot.scales.is_empty()).then_some(0))
+        .ok_or_else(|| Failure::input("the study has no scale"))?;
+    let levels = snapshot.scales[scale].levels.len();
+    let pairs: Vec<(usize, u32)> = snapshot
+        .lists
+        .iter()
+        .flat_map(|per_context| {
+            per_context
+                .iter()
+                .enumerate()
+                .flat_map(|(c, list)| list.iter().map(move |i| (c, *i)))
+        })
+        .collect();
+    if pairs.is_empty() {
+        return Err(Failure::input("the study has no ranked pairs to grade"));
+    }
+    let mut out = std::io::stdout().lock();
+    for n in 0..count {
+        let (context, item) = pairs[n % pairs.len()];
+        let id = study.record_grade(&NewGrade {
+            reviewer: reviewer.to_string(),
+            context_id: snapshot.contexts[context].id.clone(),
+            item_id: snapshot.items[item as usize].id.clone(),
+            scale: snapshot.scales[scale].name.clone(),
+            action: GradeAction::Grade((n % levels) as u8),
+            seconds: 1.0 + n as f64 * 1e-3,
+            note: String::new(),
+        })?;
+        writeln!(out, "ack {id}").map_err(|e| Failure::other(e.to_string()))?;
+        out.flush().map_err(|e| Failure::other(e.to_string()))?;
     }
     Ok(())
 }

@@ -109,6 +109,16 @@ pub enum Command {
         #[arg(long)]
         scores: Option<PathBuf>,
     },
+    /// Grade pairs as fast as possible, printing each acknowledged event id (for the
+    /// crash-safety tests).
+    #[command(hide = true)]
+    GradeLoop {
+        study: PathBuf,
+        #[arg(long)]
+        reviewer: String,
+        #[arg(long)]
+        count: usize,
+    },
     /// Regenerate the demo catalog files (for maintainers).
     #[command(hide = true)]
     GenerateDemoCatalog { out: PathBuf },

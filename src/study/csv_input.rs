@@ -246,6 +246,17 @@ fn check_field(raw: &[u8]) -> Result<String, String> {
 }
 
 fn check_header(names: &[String], shape: &Shape, report: &mut dyn FnMut(usize, String)) {
+    if !shape.required.iter().any(|r| names.iter().any(|n| n == r)) {
+        report(
+            1,
+            format!(
+                "no header row: the first line must name the columns ({}…); it reads \"{}\"",
+                shape.required.join(", "),
+                names.join(",")
+            ),
+        );
+        return;
+    }
     for (i, name) in names.iter().enumerate() {
         if names[..i].contains(name) {
             report(i + 1, format!("column \"{name}\" appears more than once"));

@@ -4,6 +4,7 @@ pub mod csv_input;
 pub mod export;
 pub mod grades;
 pub mod import;
+pub mod queues;
 pub mod schema;
 pub mod snapshot;
 pub mod time;
@@ -278,4 +279,14 @@ fn check_is_study(path: &Path) -> Result<()> {
         ));
     }
     Ok(())
+}
+
+impl Study {
+    /// Caps the file at `pages` pages for this connection, which makes SQLite answer
+    /// "disk full" once the study would grow past it (used to test full-disk handling).
+    pub fn limit_size_in_pages(&self, pages: u64) -> Result<()> {
+        self.conn
+            .pragma_update(None, "max_page_count", pages as i64)?;
+        Ok(())
+    }
 }

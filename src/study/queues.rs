@@ -1,0 +1,433 @@
+//! The pool and the reviewers' queues, and the card data the screens show.
+//!
+//! The pool is the union of every ranker's top k per context (`pool_depth`, default 10).
+//! Each reviewer's queue is a shuffled order of their share of it: an overlap share
+//! (`overlap_share`, default 0.3) goes to every reviewer, the rest is dealt evenly, and
+//! gold pairs are mixed in at `gold_rate` (default 0.05) when the study has any. Queues
+//! are written to `queue_entries` once, with the seed in the setting `queue_seed`, so
+//! the order is the same after a restart. Pairs that enter the pool later (new rankings)
+//! are appended to the ends of the queues; nothing already queued moves.
+
+use std::collections::{HashMap, HashSet};
+
+use rusqlite::params;
+
+use super::{Result, Study, StudyError};
+use crate::core::pooling::{assign_queues, depth_pool, shuffle};
+use crate::core::stats::Rng;
+
+pub const DEFAULT_POOL_DEPTH: usize = 10;
+pub const DEFAULT_OVERLAP_SHARE: f64 = 0.30;
+pub const DEFAULT_GOLD_RATE: f64 = 0.05;
+
+/// A (context_id, item_id) pair.
+pub type PairId = (String, String);
+
+/// A reviewer's current mark on a pair: a level, or can't judge (None).
+pub type Mark = Option<u8>;
+
+/// Everything an item shows on a card or in the catalog.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct ItemCard {
+    pub id: String,
+    pub title: String,
+    pub category: String,
+    pub description: String,
+    pub price: Option<f64>,
+    /// Path relative to the catalog folder, as imported.
+    pub image: String,
+    pub is_new: bool,
+    /// Free attributes in the order of the imported columns' names (sorted).
+    pub attributes: Vec<(String, String)>,
+}
+
+/// Everything a context shows.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct ContextCard {
+    pub id: String,
+    pub kind: String,
+    pub text: String,
+    pub anchor_item_id: Option<String>,
+    pub segment: String,
+}
+
+/// How far one reviewer is through their queue on a scale.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct QueueProgress {
+    pub reviewer: String,
+    pub done: u64,
+    pub total: u64,
+}
+
+impl Study {
+    fn setting_or<T: std::str::FromStr>(&self, key: &str, default: T) -> Result<T> {
+        Ok(self
+            .setting(key)?
+            .and_then(|v| v.trim().parse().ok())
+            .unwrap_or(default))
+    }
+
+    /// Pool depth k (setting `pool_depth`, default 10).
+    pub fn pool_depth(&self) -> Result<usize> {
+        Ok(self.setting_or("pool_depth", DEFAULT_POOL_DEPTH)?.max(1))
+    }
+
+    /// The pool at the study's depth: pairs ordered by context, then first appearance.
+    pub fn pool(&self) -> Result<Vec<PairId>> {
+        let depth = self.pool_depth()?;
+        let mut stmt = self.conn().prepare(
+            "SELECT ranker, context_id, item_id FROM ranked_items WHERE rank <= ?1
+             ORDER BY ranker, context_id, rank",
+        )?;
+        let mut rows = stmt.query([depth as i64])?;
+        let mut lists: Vec<(String, Vec<String>)> = Vec::new();
+        let mut last_ranker = String::new();
+        while let Some(r) = rows.next()? {
+            let ranker: String = r.get(0)?;
+            let context: String = r.get(1)?;
+            let item: String = r.get(2)?;
+            let same = ranker == last_ranker && lists.last().is_some_and(|l| l.0 == context);
+            if !same {
+                lists.push((context, Vec::new()));
+            }
+            lists.last_mut().expect("pushed above").1.push(item);
+            last_ranker = ranker;
+        }
+        Ok(depth_pool(&lists, depth))
+    }
+
+    /// The queue seed (setting `queue_seed`), created from the clock on first use.
+    pub fn queue_seed(&self) -> Result<u64> {
+        if let Some(seed) = self.setting("queue_seed")?.and_then(|s| s.parse().ok()) {
+            return Ok(seed);
+        }
+        let seed = std::time::SystemTime::now()
+            .duration_since(std::time::UNIX_EPOCH)
+            .map(|d| d.as_nanos() as u64)
+            .unwrap_or(1);
+        self.set_setting("queue_seed", &seed.to_string())?;
+        Ok(seed)
+    }
+
+    /// A reviewer's stored queue on a scale, in order (empty when none is stored).
+    pub fn queue(&self, reviewer: &str, scale: &str) -> Result<Vec<PairId>> {
+        let mut stmt = self.conn().prepare(
+            "SELECT context_id, item_id FROM queue_entries
+             WHERE reviewer = ?1 AND scale = ?2 ORDER BY position",
+        )?;
+        let rows = stmt
+            .query_map([reviewer, scale], |r| Ok((r.get(0)?, r.get(1)?)))?
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(rows)
+    }
+
+    /// Makes sure `reviewer` (who must be on the panel) has a queue on `scale` and that
+    /// every pool pair is queued somewhere; returns the reviewer's queue. One transaction.
+    pub fn ensure_queue(&mut self, reviewer: &str, scale: &str) -> Result<Vec<PairId>> {
+        if self.is_read_only() {
+            let queue = self.queue(reviewer, scale)?;
+            if queue.is_empty() {
+                return Err(StudyError::ReadOnly);
+            }
+            return Ok(queue);
+        }
+        let pool = self.pool()?;
+        let seed = self.queue_seed()?;
+        let overlap = self.setting_or("overlap_share", DEFAULT_OVERLAP_SHARE)?;
+        let gold_rate = self.setting_or("gold_rate", DEFAULT_GOLD_RATE)?;
+        let gold = self.gold_pairs(scale)?;
+        let panel: Vec<String> = {
+            let mut stmt = self
+                .conn()
+                .prepare("SELECT reviewer FROM reviewers ORDER BY reviewer")?;
+            stmt.query_map([], |r| r.get(0))?
+                .collect::<std::result::Result<_, _>>()?
+        };
+        if !panel.iter().any(|r| r == reviewer) {
+            return Err(StudyError::Input(format!(
+                "{reviewer} is not on the panel; add the reviewer first"
+            )));
+        }
+        let mut queues: Vec<Vec<PairId>> = Vec::with_capacity(panel.len());
+        for r in &panel {
+            queues.push(self.queue(r, scale)?);
+        }
+        let stored: Vec<usize> = queues.iter().map(Vec::len).collect();
+        let me = panel.iter().position(|r| r == reviewer).expect("checked");
+        let mut rng = Rng::new(seed ^ text_hash(scale));
+        let with_queue: Vec<usize> = (0..panel.len()).filter(|&r| stored[r] > 0).collect();
+
+        if with_queue.is_empty() {
+            // First assignment on this scale: split the pool over the whole panel.
+            let split = assign_queues(pool.len(), panel.len(), overlap, rng.next_u64());
+            for (r, share) in split.iter().enumerate() {
+                let pairs: Vec<PairId> = share.iter().map(|&p| pool[p].clone()).collect();
+                queues[r] = mix_gold(pairs, &gold, gold_rate, &mut rng);
+            }
+        } else {
+            if stored[me] == 0 {
+                // A reviewer who joins later: the shared pairs everyone has, plus an even
+                // share of the rest, shuffled.
+                let mut rng = Rng::new(seed ^ text_hash(scale) ^ text_hash(reviewer));
+                let sets: Vec<HashSet<&PairId>> = with_queue
+                    .iter()
+                    .map(|&r| queues[r].iter().collect())
+                    .collect();
+                let gold_set: HashSet<PairId> = gold
+                    .iter()
+                    .map(|(c, i, _)| (c.clone(), i.clone()))
+                    .collect();
+                let mut shared = Vec::new();
+                let mut rest = Vec::new();
+                for pair in &pool {
+                    if sets.iter().all(|s| s.contains(pair)) {
+                        shared.push(pair.clone());
+                    } else if !gold_set.contains(pair) {
+                        rest.push(pair.clone());
+                    }
+                }
+                shuffle(&mut rest, &mut rng);
+                let n = with_queue.len() + 1;
+                let mut mine: Vec<PairId> = shared;
+                mine.extend(rest.into_iter().step_by(n));
+                shuffle(&mut mine, &mut rng);
+                queues[me] = mix_gold(mine, &gold, gold_rate, &mut rng);
+            }
+            // Pairs that entered the pool after the queues were made go to the ends.
+            let queued: HashSet<&PairId> = queues.iter().flatten().collect();
+            let fresh: Vec<PairId> = pool
+                .iter()
+                .filter(|p| !queued.contains(p))
+                .cloned()
+                .collect();
+            if !fresh.is_empty() {
+                let holders: Vec<usize> = (0..panel.len())
+                    .filter(|&r| stored[r] > 0 || r == me)
+                    .collect();
+                let split = assign_queues(
+                    fresh.len(),
+                    holders.len(),
+                    overlap,
+                    seed ^ fresh.len() as u64,
+                );
+                for (h, share) in split.iter().enumerate() {
+                    let r = holders[h];
+                    queues[r].extend(share.iter().map(|&p| fresh[p].clone()));
+                }
+            }
+        }
+
+        let tx = self.conn_mut().transaction()?;
+        {
+            let mut insert = tx.prepare(
+                "INSERT OR REPLACE INTO queue_entries(reviewer, scale, position, context_id, item_id)
+                 VALUES (?1, ?2, ?3, ?4, ?5)",
+            )?;
+            for (r, queue) in queues.iter().enumerate() {
+                for (pos, (c, i)) in queue.iter().enumerate().skip(stored[r]) {
+                    insert.execute(params![panel[r], scale, pos as i64, c, i])?;
+                }
+            }
+        }
+        tx.commit()?;
+        Ok(std::mem::take(&mut queues[me]))
+    }
+
+    /// Gold pairs of a scale: (context_id, item_id, known level).
+    pub fn gold_pairs(&self, scale: &str) -> Result<Vec<(String, String, u8)>> {
+        let mut stmt = self.conn().prepare(
+            "SELECT context_id, item_id, value FROM gold_pairs WHERE scale = ?1
+             ORDER BY context_id, item_id",
+        )?;
+        let rows = stmt
+            .query_map([scale], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?)))?
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(rows)
+    }
+
+    /// A reviewer's current marks on a scale, keyed by pair.
+    pub fn reviewer_marks(&self, reviewer: &str, scale: &str) -> Result<HashMap<PairId, Mark>> {
+        let mut stmt = self.conn().prepare(
+            "SELECT c.context_id, c.item_id, e.value
+             FROM current_grades c JOIN grade_events e ON e.id = c.event_id
+             WHERE c.reviewer = ?1 AND c.scale = ?2",
+        )?;
+        let mut rows = stmt.query([reviewer, scale])?;
+        let mut marks = HashMap::new();
+        while let Some(r) = rows.next()? {
+            marks.insert((r.get(0)?, r.get(1)?), r.get(2)?);
+        }
+        Ok(marks)
+    }
+
+    /// (grades given, seconds spent on them) by a reviewer on a scale, for the pace.
+    pub fn reviewer_effort(&self, reviewer: &str, scale: &str) -> Result<(u64, f64)> {
+        Ok(self.conn().query_row(
+            "SELECT COUNT(*), COALESCE(SUM(seconds), 0.0) FROM grade_events
+             WHERE reviewer = ?1 AND scale = ?2 AND action != 'undo' AND seconds > 0",
+            [reviewer, scale],
+            |r| Ok((r.get::<_, i64>(0)? as u64, r.get(1)?)),
+        )?)
+    }
+
+    /// Done / total of every stored queue on a scale.
+    pub fn queue_progress(&self, scale: &str) -> Result<Vec<QueueProgress>> {
+        let mut stmt = self.conn().prepare(
+            "SELECT q.reviewer, COUNT(c.event_id), COUNT(*) FROM queue_entries q
+             LEFT JOIN current_grades c ON c.scale = q.scale AND c.context_id = q.context_id
+               AND c.item_id = q.item_id AND c.reviewer = q.reviewer
+             WHERE q.scale = ?1 GROUP BY q.reviewer ORDER BY q.reviewer",
+        )?;
+        let rows = stmt
+            .query_map([scale], |r| {
+                Ok(QueueProgress {
+                    reviewer: r.get(0)?,
+                    done: r.get::<_, i64>(1)? as u64,
+                    total: r.get::<_, i64>(2)? as u64,
+                })
+            })?
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(rows)
+    }
+
+    /// Every item with all it shows, ordered by id.
+    pub fn item_cards(&self) -> Result<Vec<ItemCard>> {
+        let mut stmt = self.conn().prepare(
+            "SELECT item_id, title, category, description, price, image, is_new, attributes
+             FROM items ORDER BY item_id",
+        )?;
+        let rows = stmt
+            .query_map([], |r| {
+                let attributes: String = r.get(7)?;
+                Ok(ItemCard {
+                    id: r.get(0)?,
+                    title: r.get(1)?,
+                    category: r.get(2)?,
+                    description: r.get(3)?,
+                    price: r.get(4)?,
+                    image: r.get(5)?,
+                    is_new: r.get(6)?,
+                    attributes: parse_attributes(&attributes),
+                })
+            })?
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(rows)
+    }
+
+    /// Every context, ordered by id.
+    pub fn context_cards(&self) -> Result<Vec<ContextCard>> {
+        let mut stmt = self.conn().prepare(
+            "SELECT context_id, kind, text, anchor_item_id, segment FROM contexts
+             ORDER BY context_id",
+        )?;
+        let rows = stmt
+            .query_map([], |r| {
+                Ok(ContextCard {
+                    id: r.get(0)?,
+                    kind: r.get(1)?,
+                    text: r.get(2)?,
+                    anchor_item_id: r.get(3)?,
+                    segment: r.get(4)?,
+                })
+            })?
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(rows)
+    }
+}
+
+/// The free attributes stored as a JSON object; values shown as text.
+fn parse_attributes(json: &str) -> Vec<(String, String)> {
+    match serde_json::from_str::<serde_json::Value>(json) {
+        Ok(serde_json::Value::Object(map)) => map
+            .into_iter()
+            .map(|(k, v)| {
+                let text = match v {
+                    serde_json::Value::String(s) => s,
+                    other => other.to_string(),
+                };
+                (k, text)
+            })
+            .collect(),
+        _ => Vec::new(),
+    }
+}
+
+/// Puts one gold pair after every `1 / rate − 1` pairs, each gold pair at most once and
+/// never one the queue already holds.
+fn mix_gold(
+    pairs: Vec<PairId>,
+    gold: &[(String, String, u8)],
+    rate: f64,
+    rng: &mut Rng,
+) -> Vec<PairId> {
+    if gold.is_empty() || !(rate > 0.0 && rate < 1.0) {
+        return pairs;
+    }
+    let present: HashSet<&PairId> = pairs.iter().collect();
+    let mut golds: Vec<PairId> = gold
+        .iter()
+        .map(|(c, i, _)| (c.clone(), i.clone()))
+        .filter(|p| !present.contains(p))
+        .collect();
+    shuffle(&mut golds, rng);
+    let every = ((1.0 / rate).round() as usize).saturating_sub(1).max(1);
+    let mut golds = golds.into_iter();
+    let mut out = Vec::with_capacity(pairs.len() + pairs.len() / every + 1);
+    for (n, pair) in pairs.into_iter().enumerate() {
+        out.push(pair);
+        if (n + 1) % every == 0
+            && let Some(g) = golds.next()
+        {
+            out.push(g);
+        }
+    }
+    out
+}
+
+/// FNV-1a, to derive per-scale and per-reviewer seeds from the study seed.
+fn text_hash(text: &str) -> u64 {
+    text.bytes().fold(0xcbf2_9ce4_8422_2325, |h, b| {
+        (h ^ b as u64).wrapping_mul(0x0100_0000_01b3)
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn pair(c: &str, i: &str) -> PairId {
+        (c.to_string(), i.to_string())
+    }
+
+    #[test]
+    fn gold_is_mixed_in_at_the_rate_and_never_twice() {
+        let pairs: Vec<PairId> = (0..40).map(|n| pair("q", &n.to_string())).collect();
+        let gold = vec![
+            ("g".to_string(), "1".to_string(), 2),
+            ("g".to_string(), "2".to_string(), 0),
+            ("q".to_string(), "3".to_string(), 1),
+        ];
+        let mixed = mix_gold(pairs, &gold, 0.2, &mut Rng::new(1));
+        // "q/3" is already queued, so two gold pairs are added, each after 4 pairs.
+        assert_eq!(mixed.len(), 42);
+        let golds: Vec<usize> = mixed
+            .iter()
+            .enumerate()
+            .filter(|(_, p)| p.0 == "g")
+            .map(|(n, _)| n)
+            .collect();
+        assert_eq!(golds, vec![4, 9]);
+    }
+
+    #[test]
+    fn attributes_come_back_as_text() {
+        assert_eq!(
+            parse_attributes(r#"{"weight_g":"2120","season":3}"#),
+            vec![
+                ("season".to_string(), "3".to_string()),
+                ("weight_g".to_string(), "2120".to_string())
+            ]
+        );
+        assert!(parse_attributes("not json").is_empty());
+    }
+}

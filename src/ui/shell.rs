@@ -1,66 +1,257 @@
-//! The window frame: top bar, navigation rail and the current screen.
+//! The window frame: top bar (study, reviewer, save indicator), navigation rail and the
+//! current screen. Every screen draws from cached models; jobs load them.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
+use super::catalog::Catalog;
+use super::desk::Desk;
 use super::home::{self, HomeModel};
 use super::jobs::Pending;
+use super::sign_in::SignIn;
+use super::study_picker::{PickerOutcome, Prefs, StudyPicker};
 use crate::cli::ScreenName;
+
+/// The screens that exist, in rail order, with their shortcut digit.
+const SCREENS: [(ScreenName, &str, egui::Key, &str); 3] = [
+    (ScreenName::Home, "Home", egui::Key::Num1, "Ctrl+1"),
+    (ScreenName::Catalog, "Catalog", egui::Key::Num2, "Ctrl+2"),
+    (ScreenName::Desk, "Grading desk", egui::Key::Num3, "Ctrl+3"),
+];
 
 /// The workbench application state.
 pub struct Workbench {
     pub path: PathBuf,
     pub screen: ScreenName,
-    home: Option<Result<HomeModel, String>>,
-    loading: Option<Pending<Result<HomeModel, String>>>,
+    pub reviewer: Option<String>,
+    pub prefs: Prefs,
+    pub home: Option<Result<HomeModel, String>>,
+    home_loading: Option<Pending<Result<HomeModel, String>>>,
+    pub catalog: Catalog,
+    pub desk: Desk,
+    sign_in: SignIn,
+    picker: StudyPicker,
+    title: Option<String>,
+    shown_screen: Option<ScreenName>,
 }
 
 impl Workbench {
-    pub fn new(ctx: egui::Context, path: PathBuf, screen: ScreenName) -> Workbench {
-        let job_path = path.clone();
+    /// A workbench that remembers nothing between runs (tests, benchmarks).
+    pub fn new(path: PathBuf, screen: ScreenName) -> Workbench {
+        Workbench::with_prefs(path, screen, Prefs::default())
+    }
+
+    /// A workbench that keeps recent studies and the last reviewer in `prefs`.
+    pub fn with_prefs(path: PathBuf, screen: ScreenName, mut prefs: Prefs) -> Workbench {
+        let screen = match screen {
+            ScreenName::Catalog | ScreenName::Desk => screen,
+            _ => ScreenName::Home,
+        };
+        prefs.remember_study(&path);
+        let reviewer = prefs.reviewer_for(&path);
         Workbench {
-            loading: Some(Pending::spawn(&ctx, move || home::load(&job_path))),
             path,
             screen,
+            reviewer,
+            prefs,
             home: None,
+            home_loading: None,
+            catalog: Catalog::default(),
+            desk: Desk::default(),
+            sign_in: SignIn::default(),
+            picker: StudyPicker::default(),
+            title: None,
+            shown_screen: None,
         }
     }
 
+    /// Signs a reviewer in (as picking a name does) and starts loading their queue.
+    pub fn sign_in(&mut self, ctx: &egui::Context, reviewer: &str) {
+        self.reviewer = Some(reviewer.to_string());
+        self.prefs.remember_reviewer(&self.path.clone(), reviewer);
+        self.desk = Desk::default();
+        self.desk.start_loading(ctx, &self.path, reviewer, None);
+    }
+
+    fn switch_study(&mut self, path: PathBuf) {
+        if self.desk.save_status().is_err() {
+            return; // a grade is waiting to be saved; keep this study until it is
+        }
+        let screen = self.screen;
+        let prefs = std::mem::take(&mut self.prefs);
+        *self = Workbench::with_prefs(path, screen, prefs);
+    }
+
+    fn reload_home(&mut self, ctx: &egui::Context) {
+        let p = self.path.clone();
+        self.home_loading = Some(Pending::spawn(ctx, move || home::load(&p)));
+    }
+
     /// Takes finished background results; cheap, called every frame.
-    fn collect_jobs(&mut self) {
-        if let Some(result) = self.loading.as_ref().and_then(Pending::poll) {
+    fn collect_jobs(&mut self, ctx: &egui::Context) {
+        if self.home.is_none() && self.home_loading.is_none() {
+            self.reload_home(ctx);
+        }
+        if let Some(result) = self.home_loading.as_ref().and_then(Pending::poll) {
+            self.home_loading = None;
+            if let Ok(m) = &result
+                && self.title.as_deref() != Some(m.name.as_str())
+            {
+                self.title = Some(m.name.clone());
+                ctx.send_viewport_cmd(egui::ViewportCommand::Title(format!(
+                    "{} — Plumbline",
+                    m.name
+                )));
+            }
             self.home = Some(result);
-            self.loading = None;
+        }
+        if std::mem::take(&mut self.catalog.study_changed) {
+            self.reload_home(ctx);
+            self.sign_in.reset();
+            if let Some(r) = self.reviewer.clone() {
+                self.desk.start_loading(ctx, &self.path, &r, None);
+            }
+        }
+        if let Some(scale) = self.desk.pending_scale.take()
+            && let Some(r) = self.reviewer.clone()
+        {
+            self.desk.start_loading(ctx, &self.path, &r, Some(scale));
+        }
+        if self.shown_screen != Some(self.screen) {
+            // Entering a screen refreshes what it shows (grades may have changed).
+            if self.screen == ScreenName::Home && self.shown_screen.is_some() {
+                self.reload_home(ctx);
+            }
+            if self.screen == ScreenName::Desk
+                && let Some(r) = self.reviewer.clone()
+                && !self.desk.is_loading()
+                && self.desk.save_status().is_ok()
+            {
+                self.desk.start_loading(ctx, &self.path, &r, None);
+            }
+            self.shown_screen = Some(self.screen);
+        }
+    }
+
+    fn shortcuts(&mut self, ctx: &egui::Context) {
+        for (screen, _, key, _) in SCREENS {
+            if ctx.input_mut(|i| i.consume_key(egui::Modifiers::COMMAND, key)) {
+                self.screen = screen;
+            }
+        }
+        if ctx.input_mut(|i| i.consume_key(egui::Modifiers::COMMAND, egui::Key::O)) {
+            self.picker.open = true;
         }
     }
 
     /// Draws one frame into `ui` (used by eframe and by headless tests alike).
     pub fn show(&mut self, ui: &mut egui::Ui) {
-        self.collect_jobs();
-        egui::Panel::top("top_bar").show(ui, |ui| {
-            ui.horizontal(|ui| {
-                ui.strong("Plumbline");
-                ui.separator();
-                ui.label(format!("Study: {}", self.path.display()));
-            });
-        });
+        let ctx = ui.ctx().clone();
+        self.shortcuts(&ctx);
+        self.collect_jobs(&ctx);
+        if let Some(PickerOutcome::Open(path)) = self.picker.ui(&ctx, &self.prefs) {
+            self.switch_study(path);
+            return;
+        }
+        egui::Panel::top("top_bar").show(ui, |ui| self.top_bar(ui));
         egui::Panel::left("navigation")
             .resizable(false)
-            .default_size(150.0)
+            .exact_size(170.0)
             .show(ui, |ui| {
-                ui.add_space(6.0);
-                ui.selectable_value(&mut self.screen, ScreenName::Home, "Home");
+                ui.add_space(8.0);
+                for (screen, label, _, keys) in SCREENS {
+                    let button = egui::Button::selectable(self.screen == screen, label)
+                        .shortcut_text(keys)
+                        .min_size(egui::vec2(156.0, 30.0));
+                    if ui.add(button).clicked() {
+                        self.screen = screen;
+                    }
+                }
             });
-        egui::CentralPanel::default_margins().show(ui, |ui| match &self.home {
-            None => {
-                ui.spinner();
-                ui.label("Opening the study…");
-            }
-            Some(Err(message)) => {
-                ui.colored_label(ui.visuals().error_fg_color, message);
-            }
-            Some(Ok(model)) => home::ui(ui, model),
+        egui::CentralPanel::default_margins().show(ui, |ui| match self.screen {
+            ScreenName::Catalog => self.catalog.ui(ui, &self.path),
+            ScreenName::Desk => self.desk_screen(ui),
+            _ => match &self.home {
+                None => {
+                    ui.horizontal(|ui| {
+                        ui.spinner();
+                        ui.label("Opening the study…");
+                    });
+                }
+                Some(Err(message)) => {
+                    ui.colored_label(ui.visuals().error_fg_color, message);
+                }
+                Some(Ok(model)) => home::ui(ui, model),
+            },
         });
     }
+
+    fn desk_screen(&mut self, ui: &mut egui::Ui) {
+        if self.reviewer.is_none() {
+            let path = self.path.clone();
+            if let Some(name) = self.sign_in.ui(ui, &path) {
+                let ctx = ui.ctx().clone();
+                self.sign_in(&ctx, &name);
+            }
+            return;
+        }
+        self.desk.ui(ui);
+    }
+
+    fn top_bar(&mut self, ui: &mut egui::Ui) {
+        ui.horizontal(|ui| {
+            ui.strong("Plumbline");
+            ui.separator();
+            let name = match &self.home {
+                Some(Ok(m)) => m.name.clone(),
+                _ => study_label(&self.path),
+            };
+            ui.label(format!("Study: {name}"))
+                .on_hover_text(self.path.display().to_string());
+            if ui
+                .add(egui::Button::new("Studies…").shortcut_text("Ctrl+O"))
+                .clicked()
+            {
+                self.picker.open = true;
+            }
+            ui.separator();
+            match self.reviewer.clone() {
+                Some(r) => {
+                    ui.label(format!("Signed in: {r}"));
+                    if ui.button("Switch reviewer").clicked() && self.desk.save_status().is_ok() {
+                        self.reviewer = None;
+                        self.desk = Desk::default();
+                        self.sign_in.reset();
+                        self.screen = ScreenName::Desk;
+                    }
+                }
+                None => {
+                    if ui.button("Sign in").clicked() {
+                        self.screen = ScreenName::Desk;
+                    }
+                }
+            }
+            ui.with_layout(
+                egui::Layout::right_to_left(egui::Align::Center),
+                |ui| match self.desk.save_status() {
+                    Ok(()) => {
+                        ui.label(
+                            egui::RichText::new("All grades saved")
+                                .color(egui::Color32::from_rgb(0x3c, 0x9a, 0x5f)),
+                        );
+                    }
+                    Err(e) => {
+                        ui.colored_label(ui.visuals().error_fg_color, format!("Not saved: {e}"));
+                    }
+                },
+            );
+        });
+    }
+}
+
+fn study_label(path: &Path) -> String {
+    path.file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| path.display().to_string())
 }
 
 impl eframe::App for Workbench {

@@ -1,0 +1,232 @@
+//! Opening and creating studies: native dialogs where the desktop offers them, a typed
+//! path otherwise, and the list of recent studies (kept in the user's config folder).
+
+use std::path::{Path, PathBuf};
+
+use super::jobs::Pending;
+use crate::study::Study;
+
+const RECENT_LIMIT: usize = 10;
+
+/// What the workbench remembers between runs.
+#[derive(Debug, Clone, Default, serde::Serialize, serde::Deserialize)]
+pub struct Prefs {
+    /// Most recent first.
+    #[serde(default)]
+    pub recent: Vec<PathBuf>,
+    /// The last reviewer signed in, per study path.
+    #[serde(default)]
+    pub reviewers: Vec<(PathBuf, String)>,
+    /// Where these prefs are saved; None = not saved (tests).
+    #[serde(skip)]
+    pub file: Option<PathBuf>,
+}
+
+impl Prefs {
+    /// The prefs file in the platform's config folder.
+    pub fn default_file() -> Option<PathBuf> {
+        directories::ProjectDirs::from("", "", "plumbline")
+            .map(|d| d.config_dir().join("workbench.json"))
+    }
+
+    /// Loads prefs from `file` (missing or unreadable → empty prefs saved there later).
+    pub fn load(file: Option<PathBuf>) -> Prefs {
+        let mut prefs: Prefs = file
+            .as_deref()
+            .and_then(|f| std::fs::read(f).ok())
+            .and_then(|bytes| serde_json::from_slice(&bytes).ok())
+            .unwrap_or_default();
+        prefs.file = file;
+        prefs
+    }
+
+    /// Writes the prefs; failures are ignored (they only cost a convenience).
+    pub fn save(&self) {
+        let Some(file) = &self.file else { return };
+        if let Some(dir) = file.parent() {
+            let _ = std::fs::create_dir_all(dir);
+        }
+        if let Ok(json) = serde_json::to_vec_pretty(self) {
+            let tmp = file.with_extension("json.tmp");
+            if std::fs::write(&tmp, json).is_ok() {
+                let _ = std::fs::rename(&tmp, file);
+            }
+        }
+    }
+
+    pub fn remember_study(&mut self, path: &Path) {
+        let path = std::path::absolute(path).unwrap_or_else(|_| path.to_path_buf());
+        self.recent.retain(|p| p != &path);
+        self.recent.insert(0, path);
+        self.recent.truncate(RECENT_LIMIT);
+        self.save();
+    }
+
+    pub fn remember_reviewer(&mut self, study: &Path, reviewer: &str) {
+        let study = std::path::absolute(study).unwrap_or_else(|_| study.to_path_buf());
+        self.reviewers.retain(|(p, _)| p != &study);
+        self.reviewers.push((study, reviewer.to_string()));
+        self.save();
+    }
+
+    pub fn reviewer_for(&self, study: &Path) -> Option<String> {
+        let study = std::path::absolute(study).unwrap_or_else(|_| study.to_path_buf());
+        self.reviewers
+            .iter()
+            .find(|(p, _)| p == &study)
+            .map(|(_, r)| r.clone())
+    }
+
+    /// The most recent study that still exists.
+    pub fn last_study(&self) -> Option<PathBuf> {
+        self.recent.iter().find(|p| p.exists()).cloned()
+    }
+}
+
+/// What the picker asks the workbench to do.
+pub enum PickerOutcome {
+    Open(PathBuf),
+}
+
+/// The "Studies" window: recent list, typed path, open / create.
+#[derive(Default)]
+pub struct StudyPicker {
+    pub open: bool,
+    typed: String,
+    message: Option<String>,
+    dialog: Option<Pending<Option<(PathBuf, bool)>>>,
+    checking: Option<Pending<Result<PathBuf, String>>>,
+}
+
+impl StudyPicker {
+    pub fn ui(&mut self, ctx: &egui::Context, prefs: &Prefs) -> Option<PickerOutcome> {
+        let mut outcome = None;
+        if let Some(result) = self.dialog.as_ref().and_then(Pending::poll) {
+            self.dialog = None;
+            match result {
+                Some((path, create)) => self.check(ctx, path, create),
+                None => {
+                    self.message = Some(
+                        "No file chosen (or no file dialog on this desktop): type a path instead."
+                            .into(),
+                    )
+                }
+            }
+        }
+        if let Some(result) = self.checking.as_ref().and_then(Pending::poll) {
+            self.checking = None;
+            match result {
+                Ok(path) => {
+                    outcome = Some(PickerOutcome::Open(path));
+                    self.open = false;
+                    self.message = None;
+                }
+                Err(e) => self.message = Some(e),
+            }
+        }
+        if !self.open {
+            return outcome;
+        }
+        let mut open = self.open;
+        egui::Window::new("Studies")
+            .open(&mut open)
+            .collapsible(false)
+            .default_width(520.0)
+            .show(ctx, |ui| {
+                ui.label("Recent studies");
+                if prefs.recent.is_empty() {
+                    ui.weak("None yet.");
+                }
+                for path in &prefs.recent {
+                    let exists = path.exists();
+                    let text = path.display().to_string();
+                    let button = ui.add_enabled(exists, egui::Button::new(&text).truncate());
+                    if button.clicked() {
+                        self.check(ctx, path.clone(), false);
+                    }
+                }
+                ui.separator();
+                ui.horizontal(|ui| {
+                    if ui.button("Browse to open…").clicked() {
+                        self.dialog = Some(Pending::spawn(ctx, || {
+                            rfd::FileDialog::new()
+                                .add_filter("Plumbline study", &["plumb"])
+                                .pick_file()
+                                .map(|p| (p, false))
+                        }));
+                    }
+                    if ui.button("Browse to create…").clicked() {
+                        self.dialog = Some(Pending::spawn(ctx, || {
+                            rfd::FileDialog::new()
+                                .add_filter("Plumbline study", &["plumb"])
+                                .set_file_name("study.plumb")
+                                .save_file()
+                                .map(|p| (p, true))
+                        }));
+                    }
+                    if self.dialog.is_some() {
+                        ui.spinner();
+                    }
+                });
+                let label = ui.label("Or type the path of a study file:");
+                ui.add(
+                    egui::TextEdit::singleline(&mut self.typed)
+                        .hint_text("/path/to/study.plumb")
+                        .desired_width(f32::INFINITY),
+                )
+                .labelled_by(label.id);
+                ui.horizontal(|ui| {
+                    let typed = PathBuf::from(self.typed.trim());
+                    let has = !self.typed.trim().is_empty();
+                    if ui.add_enabled(has, egui::Button::new("Open")).clicked() {
+                        self.check(ctx, typed.clone(), false);
+                    }
+                    if ui.add_enabled(has, egui::Button::new("Create")).clicked() {
+                        self.check(ctx, typed, true);
+                    }
+                });
+                if let Some(m) = &self.message {
+                    ui.colored_label(ui.visuals().error_fg_color, m);
+                }
+            });
+        self.open &= open;
+        outcome
+    }
+
+    /// Opens (or creates) on a thread; the study is used only once that succeeded.
+    fn check(&mut self, ctx: &egui::Context, path: PathBuf, create: bool) {
+        self.message = None;
+        self.checking = Some(Pending::spawn(ctx, move || {
+            let result = if create {
+                Study::create(&path).map(drop)
+            } else {
+                Study::open(&path).map(drop)
+            };
+            result.map(|_| path).map_err(|e| e.to_string())
+        }));
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn recent_studies_survive_a_restart_most_recent_first() {
+        let dir = tempfile::tempdir().unwrap();
+        let file = dir.path().join("prefs.json");
+        let a = dir.path().join("a.plumb");
+        let b = dir.path().join("b.plumb");
+        std::fs::write(&a, b"").unwrap();
+        let mut prefs = Prefs::load(Some(file.clone()));
+        prefs.remember_study(&a);
+        prefs.remember_study(&b);
+        prefs.remember_study(&a);
+        prefs.remember_reviewer(&a, "rev-amber");
+        let again = Prefs::load(Some(file));
+        assert_eq!(again.recent, vec![a.clone(), b]);
+        // b does not exist on disk, a does.
+        assert_eq!(again.last_study(), Some(a.clone()));
+        assert_eq!(again.reviewer_for(&a).as_deref(), Some("rev-amber"));
+    }
+}

@@ -1,0 +1,315 @@
+//! The grading desk driven through the real workbench (`Workbench::show`) with
+//! egui_kittest, on a fresh copy of the demo study in a temporary folder.
+
+use std::path::{Path, PathBuf};
+use std::time::{Duration, Instant};
+
+use egui::{Key, Modifiers};
+use egui_kittest::Harness;
+use egui_kittest::kittest::{NodeT, Queryable};
+use plumbline::cli::ScreenName;
+use plumbline::ui::Workbench;
+
+fn demo_copy() -> (tempfile::TempDir, PathBuf) {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("demo.plumb");
+    plumbline::demo::build_demo_study(&path).unwrap();
+    (dir, path)
+}
+
+fn harness(path: &Path) -> Harness<'static, Workbench> {
+    Harness::builder()
+        .with_size([1360.0, 860.0])
+        .build_ui_state(
+            |ui, wb: &mut Workbench| wb.show(ui),
+            Workbench::new(path.to_path_buf(), ScreenName::Desk),
+        )
+}
+
+/// Steps frames until `done` holds (background jobs run on threads meanwhile).
+fn step_until(
+    h: &mut Harness<'static, Workbench>,
+    what: &str,
+    done: impl Fn(&Harness<'static, Workbench>) -> bool,
+) {
+    let start = Instant::now();
+    while !done(h) {
+        assert!(
+            start.elapsed() < Duration::from_secs(20),
+            "timed out waiting for {what}"
+        );
+        h.step();
+        std::thread::sleep(Duration::from_millis(2));
+    }
+}
+
+/// Signs in as `reviewer` by clicking the name, then waits for the first card.
+fn sign_in(h: &mut Harness<'static, Workbench>, reviewer: &str) {
+    let label = format!("Sign in as {reviewer}");
+    step_until(h, "the sign-in list", |h| {
+        h.query_by_label(&label).is_some()
+    });
+    h.get_by_label(&label).click();
+    h.step();
+    step_until(h, "the first card", |h| {
+        h.state().desk.data.is_some() && h.state().desk.current.is_some()
+    });
+    h.step();
+}
+
+/// (context_id, item_id) of the card on screen.
+fn current_pair(h: &Harness<'static, Workbench>) -> (String, String) {
+    let desk = &h.state().desk;
+    let data = desk.data.as_ref().unwrap();
+    let (c, i) = data.queue[desk.current.unwrap()];
+    (
+        data.contexts[c as usize].id.clone(),
+        data.items[i as usize].id.clone(),
+    )
+}
+
+fn press(h: &mut Harness<'static, Workbench>, key: Key) {
+    h.key_press(key);
+    h.step();
+}
+
+/// Every label, value and description in the accessibility tree.
+fn all_texts(h: &Harness<'static, Workbench>) -> Vec<String> {
+    let mut out = Vec::new();
+    for node in h.root().children_recursive() {
+        let n = node.accesskit_node();
+        out.extend(n.label());
+        out.extend(n.value());
+        out.extend(n.description());
+    }
+    out
+}
+
+fn max_event_id(path: &Path) -> i64 {
+    let conn = rusqlite::Connection::open(path).unwrap();
+    conn.query_row("SELECT COALESCE(MAX(id), 0) FROM grade_events", [], |r| {
+        r.get(0)
+    })
+    .unwrap()
+}
+
+const DIGITS: [Key; 4] = [Key::Num0, Key::Num1, Key::Num2, Key::Num3];
+
+#[test]
+fn grading_ten_pairs_by_keyboard_is_saved_row_by_row() {
+    let (_dir, path) = demo_copy();
+    let before = max_event_id(&path);
+    let mut h = harness(&path);
+    sign_in(&mut h, "rev-amber");
+    let (done0, total) = {
+        let data = h.state().desk.data.as_ref().unwrap();
+        (data.done(), data.queue.len())
+    };
+    assert!(total > done0 + 11, "the demo queue should have work left");
+    // Ten grades with the number keys; each card changes in the frame of the key.
+    let mut graded = Vec::new();
+    for n in 0..10 {
+        let pair = current_pair(&h);
+        press(&mut h, DIGITS[n % 4]);
+        assert_ne!(current_pair(&h), pair, "grade {n} did not advance the card");
+        graded.push((pair, (n % 4) as i64));
+    }
+    h.step();
+    let shown = format!("{} / {total} graded", done0 + 10);
+    assert!(
+        h.query_by_label_contains(&shown).is_some(),
+        "progress should read {shown}"
+    );
+
+    // Undo the tenth grade (Ctrl+Z): its card comes back.
+    h.key_press_modifiers(Modifiers::COMMAND, Key::Z);
+    h.step();
+    let undone = graded.pop().unwrap().0;
+    assert_eq!(current_pair(&h), undone);
+    h.step();
+    let shown = format!("{} / {total} graded", done0 + 9);
+    assert!(
+        h.query_by_label_contains(&shown).is_some(),
+        "progress should read {shown}"
+    );
+
+    // Mark it can't judge: C opens the reasons, I picks "image missing".
+    press(&mut h, Key::C);
+    assert!(h.query_by_label_contains("Image missing").is_some());
+    press(&mut h, Key::I);
+    assert_ne!(current_pair(&h), undone);
+    h.step();
+    assert!(h.query_by_label_contains("All grades saved").is_some());
+
+    let conn = rusqlite::Connection::open(&path).unwrap();
+    let events: Vec<(String, String, String, Option<i64>, String, f64)> = conn
+        .prepare(
+            "SELECT context_id, item_id, action, value, reason, COALESCE(seconds, 0) FROM grade_events
+             WHERE id > ?1 ORDER BY id",
+        )
+        .unwrap()
+        .query_map([before], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?, r.get(4)?, r.get(5)?)))
+        .unwrap()
+        .collect::<Result<_, _>>()
+        .unwrap();
+    assert_eq!(
+        events.len(),
+        12,
+        "ten grades, one undo, one can't judge: {events:?}"
+    );
+    for (k, ((c, i), v)) in graded.iter().enumerate() {
+        assert_eq!((&events[k].0, &events[k].1), (c, i));
+        assert_eq!(events[k].2, "grade");
+        assert_eq!(events[k].3, Some(*v));
+        assert!(events[k].5 > 0.0, "seconds on screen are recorded");
+    }
+    assert_eq!(events[9].2, "grade");
+    assert_eq!(events[10].2, "undo");
+    assert_eq!((&events[10].0, &events[10].1), (&undone.0, &undone.1));
+    assert_eq!(events[11].2, "cant_judge");
+    assert_eq!(events[11].4, "image missing");
+    assert_eq!((&events[11].0, &events[11].1), (&undone.0, &undone.1));
+
+    // current_grades holds exactly what the reviewer ended with.
+    let current = |c: &str, i: &str| -> Option<(String, Option<i64>)> {
+        conn.query_row(
+            "SELECT e.action, e.value FROM current_grades g JOIN grade_events e ON e.id = g.event_id
+             WHERE g.reviewer = 'rev-amber' AND g.scale = 'fit4' AND g.context_id = ?1 AND g.item_id = ?2",
+            [c, i],
+            |r| Ok((r.get(0)?, r.get(1)?)),
+        )
+        .ok()
+    };
+    for ((c, i), v) in &graded {
+        assert_eq!(current(c, i), Some(("grade".to_string(), Some(*v))));
+    }
+    assert_eq!(
+        current(&undone.0, &undone.1),
+        Some(("cant_judge".to_string(), None))
+    );
+}
+
+#[test]
+fn nothing_on_the_desk_reveals_rankers_ranks_or_scores() {
+    let (_dir, path) = demo_copy();
+    let rankers = plumbline::study::Study::open(&path)
+        .unwrap()
+        .snapshot()
+        .unwrap()
+        .rankers;
+    assert_eq!(rankers.len(), 3);
+    let mut h = harness(&path);
+    sign_in(&mut h, "rev-birch");
+    for n in 0..6 {
+        // Let the images arrive so their labels are in the tree too.
+        for _ in 0..5 {
+            h.step();
+            std::thread::sleep(Duration::from_millis(5));
+        }
+        let texts = all_texts(&h);
+        let data = h.state().desk.data.as_ref().unwrap();
+        let (_, i) = data.queue[h.state().desk.current.unwrap()];
+        let title = &data.items[i as usize].title;
+        assert!(
+            texts.iter().any(|t| t.contains(title.as_str())),
+            "the card shows its item"
+        );
+        for t in &texts {
+            let lower = t.to_lowercase();
+            for r in &rankers {
+                assert!(
+                    !lower.contains(&r.to_lowercase()),
+                    "ranker {r} shown in {t:?}"
+                );
+            }
+            for word in lower.split(|ch: char| !ch.is_alphanumeric()) {
+                assert!(
+                    !matches!(
+                        word,
+                        "rank" | "ranked" | "ranker" | "rankers" | "score" | "scores" | "position"
+                    ),
+                    "{word:?} shown in {t:?}"
+                );
+            }
+            for other in ["rev-amber", "rev-cedar"] {
+                assert!(!t.contains(other), "another reviewer shown in {t:?}");
+            }
+        }
+        press(&mut h, if n == 2 { Key::S } else { DIGITS[n % 4] });
+    }
+}
+
+#[test]
+fn after_a_restart_the_reviewer_continues_at_the_next_ungraded_pair() {
+    let (_dir, path) = demo_copy();
+    let (queue_before, next) = {
+        let mut h = harness(&path);
+        sign_in(&mut h, "rev-cedar");
+        for n in 0..3 {
+            press(&mut h, DIGITS[n + 1]);
+        }
+        let data = h.state().desk.data.as_ref().unwrap();
+        let queue: Vec<(u32, u32)> = data.queue.clone();
+        (queue, current_pair(&h))
+    };
+    let mut h = harness(&path);
+    sign_in(&mut h, "rev-cedar");
+    assert_eq!(
+        h.state().desk.data.as_ref().unwrap().queue,
+        queue_before,
+        "same order"
+    );
+    assert_eq!(current_pair(&h), next);
+    let data = h.state().desk.data.as_ref().unwrap();
+    let title = data.items[data.queue[h.state().desk.current.unwrap()].1 as usize]
+        .title
+        .clone();
+    h.step();
+    assert!(h.query_all_by_label_contains(&title).next().is_some());
+}
+
+#[test]
+fn a_failed_write_is_shown_kept_and_retried() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path);
+    sign_in(&mut h, "rev-amber");
+    let pair = current_pair(&h);
+    let other = rusqlite::Connection::open(&path).unwrap();
+    other
+        .execute_batch(
+            "CREATE TRIGGER refuse BEFORE INSERT ON grade_events
+             BEGIN SELECT RAISE(ABORT, 'simulated write failure'); END;",
+        )
+        .unwrap();
+    press(&mut h, Key::Num2);
+    h.step();
+    assert_eq!(
+        current_pair(&h),
+        pair,
+        "the card stays until its grade is saved"
+    );
+    assert!(
+        h.query_by_label_contains("simulated write failure")
+            .is_some()
+    );
+    assert!(h.query_by_label_contains("All grades saved").is_none());
+    // Further keys do nothing while the grade waits.
+    press(&mut h, Key::Num3);
+    assert_eq!(current_pair(&h), pair);
+    other.execute_batch("DROP TRIGGER refuse;").unwrap();
+    step_until(&mut h, "the retry", |h| {
+        h.state().desk.save_status().is_ok()
+    });
+    h.step();
+    assert_ne!(current_pair(&h), pair);
+    assert!(h.query_by_label_contains("All grades saved").is_some());
+    let value: i64 = other
+        .query_row(
+            "SELECT e.value FROM current_grades g JOIN grade_events e ON e.id = g.event_id
+             WHERE g.reviewer = 'rev-amber' AND g.scale = 'fit4' AND g.context_id = ?1 AND g.item_id = ?2",
+            [&pair.0, &pair.1],
+            |r| r.get(0),
+        )
+        .unwrap();
+    assert_eq!(value, 2, "the first key's grade is the one kept");
+}

@@ -5,3 +5,4 @@ pub mod agreement;
 pub mod judgments;
 pub mod render;
 pub mod scoreboard;
+pub mod trial;

@@ -4,6 +4,7 @@ use std::fmt::Write;
 
 use super::agreement::AgreementReport;
 use super::scoreboard::Scoreboard;
+use super::trial::Trial;
 
 fn num(x: f64) -> String {
     if x.is_finite() {
@@ -290,4 +291,88 @@ pub fn agreement_csv(report: &AgreementReport) -> String {
 
 pub fn agreement_json(report: &AgreementReport) -> String {
     serde_json::to_string_pretty(report).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))
+}
+
+pub fn trial_text(trial: &Trial) -> String {
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "Study {} · scale trial on {} pairs graded on every scale\n",
+        trial.study, trial.common_pairs
+    );
+    let mut rows = vec![
+        [
+            "scale",
+            "levels",
+            "pairs",
+            "alpha ord. [95% CI]",
+            "κ quad.",
+            "AC1",
+            "median s (IQR)",
+            "can't judge",
+            "τ vs finest",
+            "disc. power",
+            "alpha / rev-min",
+        ]
+        .map(String::from)
+        .to_vec(),
+    ];
+    for r in &trial.scales {
+        rows.push(vec![
+            match &r.collapse {
+                Some(c) => format!("{} → {c}", r.scale),
+                None => r.scale.clone(),
+            },
+            r.levels.to_string(),
+            r.pairs.to_string(),
+            format!(
+                "{} [{}, {}]",
+                num(r.alpha_ordinal),
+                num(r.alpha_ci_low),
+                num(r.alpha_ci_high)
+            ),
+            num(r.kappa_quadratic_mean),
+            num(r.ac1_mean),
+            format!("{:.1} ({:.1})", r.median_seconds, r.iqr_seconds),
+            format!("{:.1}%", r.cant_judge_rate * 100.0),
+            num(r.kendall_tau),
+            num(r.discriminative_power),
+            num(r.alpha_per_reviewer_minute),
+        ]);
+    }
+    out.push_str(&aligned(&rows));
+    let _ = writeln!(out, "\n{}", trial.recommendation);
+    for c in &trial.cautions {
+        let _ = writeln!(out, "Caution: {c}");
+    }
+    out
+}
+
+/// Tidy CSV: one row per trial row and measure.
+pub fn trial_csv(trial: &Trial) -> String {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let _ = w.write_record(["scale", "collapse", "measure", "value"]);
+    for r in &trial.scales {
+        let collapse = r.collapse.clone().unwrap_or_default();
+        for (name, value) in [
+            ("pairs", r.pairs as f64),
+            ("alpha_ordinal", r.alpha_ordinal),
+            ("alpha_ci_low", r.alpha_ci_low),
+            ("alpha_ci_high", r.alpha_ci_high),
+            ("kappa_quadratic_mean", r.kappa_quadratic_mean),
+            ("ac1_mean", r.ac1_mean),
+            ("median_seconds", r.median_seconds),
+            ("cant_judge_rate", r.cant_judge_rate),
+            ("kendall_tau", r.kendall_tau),
+            ("discriminative_power", r.discriminative_power),
+            ("alpha_per_reviewer_minute", r.alpha_per_reviewer_minute),
+        ] {
+            let _ = w.write_record([r.scale.as_str(), &collapse, name, &value.to_string()]);
+        }
+    }
+    String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
+}
+
+pub fn trial_json(trial: &Trial) -> String {
+    serde_json::to_string_pretty(trial).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))
 }

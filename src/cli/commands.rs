@@ -4,7 +4,7 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use super::{Command, Failure, Format, ScreenName};
-use crate::analysis::{agreement, judgments::GradeSource, render, scoreboard};
+use crate::analysis::{agreement, judgments::GradeSource, render, scoreboard, trial};
 use crate::core::metrics::{GainKind, Unjudged};
 use crate::study::Study;
 use crate::study::import::{self, ImportSet, Source};
@@ -90,6 +90,17 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                 Format::Json => render::agreement_json(&report),
             })
         }
+        Some(Command::Trial { study, format }) => {
+            let study = open(&study)?;
+            let snapshot = study.snapshot()?;
+            let maps = study.collapse_maps()?;
+            let trial = trial::build(&snapshot, &maps, 2000, 20_261_201);
+            print(match format {
+                Format::Text => render::trial_text(&trial),
+                Format::Csv => render::trial_csv(&trial),
+                Format::Json => render::trial_json(&trial),
+            })
+        }
         Some(Command::Export {
             study,
             grades,
@@ -117,6 +128,38 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                     .map_err(|e| Failure::other(format!("{}: {e}", path.display())))?;
                 eprintln!("{}: scores written", path.display());
             }
+            Ok(())
+        }
+        Some(Command::Merge { study, others }) => {
+            let mut target = open(&study)?;
+            let mut refused = Vec::new();
+            for other in &others {
+                match target.merge_from(other) {
+                    Ok(r) => println!(
+                        "{}: {} grades, {} settled grades and {} reviewers came in",
+                        r.file, r.grades_added, r.settled_added, r.reviewers_added
+                    ),
+                    Err(e) => {
+                        eprintln!("plumbline: {e}");
+                        refused.push(e);
+                    }
+                }
+            }
+            match refused.into_iter().next() {
+                None => Ok(()),
+                Some(e) => Err(Failure {
+                    code: if e.is_bad_input() { 2 } else { 1 },
+                    message: "some studies were not merged (see above)".into(),
+                }),
+            }
+        }
+        Some(Command::HandOut {
+            study,
+            reviewer,
+            out,
+        }) => {
+            open(&study)?.hand_out(&reviewer, &out)?;
+            println!("{}", out.display());
             Ok(())
         }
         Some(Command::GradeLoop {

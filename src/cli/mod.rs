@@ -101,6 +101,12 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "text")]
         format: Format,
     },
+    /// Compare piloted scales (and saved collapse maps): agreement, speed and ranker separation.
+    Trial {
+        study: PathBuf,
+        #[arg(long, value_enum, default_value = "text")]
+        format: Format,
+    },
     /// Write grades or scores to files.
     Export {
         study: PathBuf,
@@ -108,6 +114,20 @@ pub enum Command {
         grades: Option<PathBuf>,
         #[arg(long)]
         scores: Option<PathBuf>,
+    },
+    /// Bring in grades and settled grades from studies graded elsewhere.
+    Merge {
+        study: PathBuf,
+        #[arg(required = true)]
+        others: Vec<PathBuf>,
+    },
+    /// Write a reviewer copy of a study for grading on another machine (merge it back later).
+    HandOut {
+        study: PathBuf,
+        #[arg(long)]
+        reviewer: String,
+        #[arg(long)]
+        out: PathBuf,
     },
     /// Grade pairs as fast as possible, printing each acknowledged event id (for the
     /// crash-safety tests).

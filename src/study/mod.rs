@@ -1,9 +1,11 @@
 //! The study file: one SQLite database holding a whole evaluation. All SQL lives here.
 
+pub mod collapse;
 pub mod csv_input;
 pub mod export;
 pub mod grades;
 pub mod import;
+pub mod merge;
 pub mod queues;
 pub mod schema;
 pub mod snapshot;

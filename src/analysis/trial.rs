@@ -1,0 +1,322 @@
+//! The scale trial: for each piloted scale (and each saved collapse map), how much
+//! agreement and ranker separation it buys per reviewer-minute, on the pairs that every
+//! compared scale graded, so the rows are comparable.
+
+use std::collections::HashSet;
+
+use serde::Serialize;
+
+use super::agreement;
+use super::judgments::{self, GradeSource};
+use crate::core::agreement::{AlphaLevel, CollapseMap, krippendorff_alpha, krippendorff_alpha_ci};
+use crate::core::metrics::{self, JudgedList, ListSettings, Unjudged};
+use crate::core::scale::{Level, Scale};
+use crate::core::stats;
+use crate::study::snapshot::Snapshot;
+
+#[derive(Debug, Clone, Serialize)]
+pub struct TrialRow {
+    pub scale: String,
+    /// The collapse map applied, if this row is a coarsened copy of a scale.
+    pub collapse: Option<String>,
+    pub levels: usize,
+    pub pairs: usize,
+    pub reviewers: usize,
+    pub alpha_ordinal: f64,
+    pub alpha_ci_low: f64,
+    pub alpha_ci_high: f64,
+    pub kappa_quadratic_mean: f64,
+    pub ac1_mean: f64,
+    pub median_seconds: f64,
+    pub iqr_seconds: f64,
+    pub cant_judge_rate: f64,
+    /// Rankers from best to worst by mean NDCG@10 on these pairs.
+    pub ranker_order: Vec<String>,
+    /// Kendall's tau-b of this row's ranker means against the finest scale's.
+    pub kendall_tau: f64,
+    /// Share of ranker pairs separated at Holm-adjusted p < 0.05 (Sakai 2006).
+    pub discriminative_power: f64,
+    /// alpha (ordinal) per reviewer-minute spent on one pair: alpha / (seconds per pair / 60).
+    pub alpha_per_reviewer_minute: f64,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct Trial {
+    pub study: String,
+    /// Pairs graded on every compared scale; every row is computed on these.
+    pub common_pairs: usize,
+    pub scales: Vec<TrialRow>,
+    pub recommendation: String,
+    pub cautions: Vec<String>,
+}
+
+/// A copy of the snapshot holding only `scale`'s grades on the common pairs, with the
+/// collapse map applied (as a new coarse scale) when given.
+fn restricted(
+    snapshot: &Snapshot,
+    scale: usize,
+    common: &HashSet<(u32, u32)>,
+    map: Option<&CollapseMap>,
+) -> Snapshot {
+    let mut copy = snapshot.clone();
+    copy.grades
+        .retain(|g| g.scale as usize == scale && common.contains(&(g.context, g.item)));
+    copy.settled
+        .retain(|s| s.scale as usize == scale && common.contains(&(s.context, s.item)));
+    if let Some(map) = map {
+        for g in &mut copy.grades {
+            g.value = map.apply(g.value);
+        }
+        for s in &mut copy.settled {
+            s.value = map.targets[s.value as usize];
+        }
+        copy.scales[scale] = Scale {
+            name: format!("{} ({})", snapshot.scales[scale].name, map.name),
+            levels: (0..map.coarse_levels())
+                .map(|v| Level {
+                    value: v as u8,
+                    label: v.to_string(),
+                    gain: None,
+                    key: v.to_string(),
+                    rubric: String::new(),
+                    colour: String::new(),
+                })
+                .collect(),
+        };
+    }
+    copy
+}
+
+/// Per-context NDCG@10 per ranker on the restricted snapshot (condensed lists, so only
+/// the common pairs count), over contexts with a relevant item.
+fn ndcg_by_ranker(snapshot: &Snapshot, scale: usize) -> Vec<Vec<f64>> {
+    let judged = judgments::resolve(snapshot, scale, &GradeSource::Panel);
+    let s = &snapshot.scales[scale];
+    let settings = ListSettings {
+        gains: metrics::gain_table(s.levels.len(), &s.gains(), metrics::GainKind::Exponential),
+        max_level: s.max_level(),
+        relevant_from: 1,
+        unjudged: Unjudged::Condense,
+    };
+    let contexts: Vec<usize> = (0..snapshot.contexts.len())
+        .filter(|c| judged[*c].iter().any(|(_, l)| *l > 0))
+        .collect();
+    let (mut scratch, mut out, mut levels) = (Vec::new(), Vec::new(), Vec::new());
+    snapshot
+        .lists
+        .iter()
+        .map(|lists| {
+            contexts
+                .iter()
+                .map(|&c| {
+                    let mut ideal: Vec<f64> = judged[c]
+                        .iter()
+                        .map(|(_, l)| settings.gains[*l as usize])
+                        .collect();
+                    ideal.sort_by(|a, b| b.total_cmp(a));
+                    levels.clear();
+                    levels.extend(lists[c].iter().map(|i| judgments::level_of(&judged[c], *i)));
+                    let list = JudgedList {
+                        levels: &levels,
+                        ideal_gains: &ideal,
+                        has_relevant: true,
+                    };
+                    metrics::score_list(&list, &settings, &[10], &mut scratch, &mut out);
+                    out[0].ndcg.unwrap_or(0.0)
+                })
+                .collect()
+        })
+        .collect()
+}
+
+fn discriminative_power(per_ranker: &[Vec<f64>], resamples: usize, seed: u64) -> f64 {
+    let mut p = Vec::new();
+    for a in 0..per_ranker.len() {
+        for b in (a + 1)..per_ranker.len() {
+            let diffs: Vec<f64> = per_ranker[a]
+                .iter()
+                .zip(&per_ranker[b])
+                .map(|(x, y)| x - y)
+                .collect();
+            p.push(stats::randomization_test(
+                &diffs,
+                resamples,
+                seed ^ (a * 31 + b) as u64,
+            ));
+        }
+    }
+    if p.is_empty() {
+        return f64::NAN;
+    }
+    let adjusted = stats::holm(&p);
+    adjusted.iter().filter(|q| **q < 0.05).count() as f64 / adjusted.len() as f64
+}
+
+/// Builds the trial over every scale with grades and every saved collapse map.
+pub fn build(
+    snapshot: &Snapshot,
+    maps: &[(String, CollapseMap)],
+    resamples: usize,
+    seed: u64,
+) -> Trial {
+    let graded: Vec<usize> = (0..snapshot.scales.len())
+        .filter(|s| snapshot.grades.iter().any(|g| g.scale as usize == *s))
+        .collect();
+    // Pairs with a real grade on every graded scale.
+    let mut common: Option<HashSet<(u32, u32)>> = None;
+    for &s in &graded {
+        let pairs: HashSet<(u32, u32)> = snapshot
+            .grades
+            .iter()
+            .filter(|g| g.scale as usize == s && g.value.is_some())
+            .map(|g| (g.context, g.item))
+            .collect();
+        common = Some(match common {
+            None => pairs,
+            Some(c) => c.intersection(&pairs).copied().collect(),
+        });
+    }
+    let common = common.unwrap_or_default();
+    let mut variants: Vec<(usize, Option<&CollapseMap>)> =
+        graded.iter().map(|s| (*s, None)).collect();
+    for (scale, map) in maps {
+        if let Some(s) = snapshot.scale_index(scale).filter(|s| graded.contains(s)) {
+            variants.push((s, Some(map)));
+        }
+    }
+    let finest = graded
+        .iter()
+        .copied()
+        .max_by_key(|s| (snapshot.scales[*s].levels.len(), usize::MAX - s));
+    let mut finest_means: Option<Vec<f64>> = None;
+    let mut rows = Vec::new();
+    // The finest scale first, so every row can be compared with its ranker order.
+    variants.sort_by_key(|(s, m)| {
+        (
+            Some(*s) != finest || m.is_some(),
+            *s,
+            m.map(|m| m.name.clone()),
+        )
+    });
+    for (s, map) in variants {
+        let view = restricted(snapshot, s, &common, map);
+        let table = agreement::unit_table(&view, s);
+        let levels = view.scales[s].levels.len();
+        let report = agreement::build(&view, s, None, resamples.min(1000), seed);
+        let (ci_low, ci_high) = krippendorff_alpha_ci(
+            levels,
+            &table.units,
+            AlphaLevel::Ordinal,
+            resamples.min(1000),
+            seed,
+        );
+        let alpha = krippendorff_alpha(levels, &table.units, AlphaLevel::Ordinal);
+        let mut seconds = table.seconds.clone();
+        seconds.sort_by(f64::total_cmp);
+        let median = stats::quantile_sorted(&seconds, 0.5);
+        let iqr = stats::quantile_sorted(&seconds, 0.75) - stats::quantile_sorted(&seconds, 0.25);
+        let graded_count = table.units.iter().flatten().flatten().count();
+        let seconds_per_pair = seconds.iter().sum::<f64>() / table.units.len().max(1) as f64;
+        let per_ranker = ndcg_by_ranker(&view, s);
+        let means: Vec<f64> = per_ranker.iter().map(|v| stats::mean(v)).collect();
+        let mut order: Vec<usize> = (0..means.len()).collect();
+        order.sort_by(|a, b| means[*b].total_cmp(&means[*a]));
+        if finest_means.is_none() {
+            finest_means = Some(means.clone());
+        }
+        let mean_of = |f: &dyn Fn(&agreement::ReviewerPair) -> f64| {
+            stats::mean(&report.pairs.iter().map(f).collect::<Vec<_>>())
+        };
+        rows.push(TrialRow {
+            scale: snapshot.scales[s].name.clone(),
+            collapse: map.map(|m| m.name.clone()),
+            levels,
+            pairs: table.units.len(),
+            reviewers: table.reviewers.len(),
+            alpha_ordinal: alpha,
+            alpha_ci_low: ci_low,
+            alpha_ci_high: ci_high,
+            kappa_quadratic_mean: mean_of(&|p| p.kappa_quadratic),
+            ac1_mean: mean_of(&|p| p.ac1),
+            median_seconds: median,
+            iqr_seconds: iqr,
+            cant_judge_rate: table.cant_judge as f64
+                / (table.cant_judge + graded_count).max(1) as f64,
+            ranker_order: order.iter().map(|r| snapshot.rankers[*r].clone()).collect(),
+            kendall_tau: stats::kendall_tau_b(finest_means.as_deref().unwrap_or(&means), &means),
+            discriminative_power: discriminative_power(&per_ranker, resamples, seed),
+            alpha_per_reviewer_minute: alpha / (seconds_per_pair / 60.0),
+        });
+    }
+    let (recommendation, cautions) = recommend(&rows, common.len());
+    Trial {
+        study: snapshot.name.clone(),
+        common_pairs: common.len(),
+        scales: rows,
+        recommendation,
+        cautions,
+    }
+}
+
+/// A plain-language verdict: the scale whose agreement per reviewer-minute is highest,
+/// unless its alpha interval overlaps the runner-up's, in which case the pilot cannot
+/// decide yet and a rough count of further pairs is given (interval width ∝ 1/√n).
+fn recommend(rows: &[TrialRow], pairs: usize) -> (String, Vec<String>) {
+    let mut cautions = vec![
+        "Kappa values are not comparable across scales with different numbers of levels; compare Krippendorff's alpha.".to_string(),
+        "Rows are computed on the pairs graded on every scale, so they share one pilot sample.".to_string(),
+    ];
+    if pairs < 100 {
+        cautions.push(format!(
+            "The pilot has only {pairs} common pairs; intervals are wide."
+        ));
+    }
+    let candidates: Vec<&TrialRow> = rows
+        .iter()
+        .filter(|r| r.collapse.is_none() && r.alpha_per_reviewer_minute.is_finite())
+        .collect();
+    let mut ranked = candidates.clone();
+    ranked.sort_by(|a, b| {
+        b.alpha_per_reviewer_minute
+            .total_cmp(&a.alpha_per_reviewer_minute)
+    });
+    let text = match ranked.as_slice() {
+        [] => "No scale has enough grades on shared pairs to compare yet.".to_string(),
+        [only] => format!(
+            "Only \"{}\" has been piloted; pilot a second scale on the same pairs to compare.",
+            only.scale
+        ),
+        [best, second, ..] => {
+            let overlap = best.alpha_ci_low <= second.alpha_ci_high
+                && second.alpha_ci_low <= best.alpha_ci_high;
+            let gap = (best.alpha_ordinal - second.alpha_ordinal).abs();
+            let half_width = (best.alpha_ci_high - best.alpha_ci_low)
+                .max(second.alpha_ci_high - second.alpha_ci_low)
+                / 2.0;
+            if overlap && gap > 0.0 {
+                let factor = (2.0 * half_width / gap).powi(2);
+                let more = ((factor - 1.0) * pairs as f64).ceil().max(1.0) as u64;
+                format!(
+                    "The pilot cannot decide yet: the alpha intervals of \"{}\" ({:.2}) and \"{}\" ({:.2}) overlap. Roughly {more} more common pairs would separate a gap this size.",
+                    best.scale, best.alpha_ordinal, second.scale, second.alpha_ordinal
+                )
+            } else {
+                format!(
+                    "Adopt \"{}\": it buys the most agreement per reviewer-minute (alpha {:.2} at a median {:.1} s per grade, against {:.2} at {:.1} s for \"{}\"), and it orders the rankers {}.",
+                    best.scale,
+                    best.alpha_ordinal,
+                    best.median_seconds,
+                    second.alpha_ordinal,
+                    second.median_seconds,
+                    second.scale,
+                    if best.kendall_tau >= 0.999 {
+                        "as the finest scale does"
+                    } else {
+                        "differently from the finest scale; check why"
+                    }
+                )
+            }
+        }
+    };
+    (text, cautions)
+}

@@ -130,6 +130,9 @@ const KINDS: [&str; 5] = ["items", "contexts", "rankings", "scales", "grades"];
 /// Shared between the import thread and the screen: (fraction, what is happening).
 type Progress = Arc<Mutex<(f32, String)>>;
 
+/// The import running on its thread: per-file reports, or every problem found.
+type ImportJob = Pending<Result<Vec<FileReport>, Vec<ImportProblem>>>;
+
 fn run_import(
     path: &Path,
     files: [Option<PathBuf>; 5],
@@ -180,10 +183,7 @@ pub struct Catalog {
     images: Option<ImageCache>,
     files: [String; 5],
     dialogs: [Option<Pending<Option<PathBuf>>>; 5],
-    importing: Option<(
-        Pending<Result<Vec<FileReport>, Vec<ImportProblem>>>,
-        Progress,
-    )>,
+    importing: Option<(ImportJob, Progress)>,
     pub reports: Vec<FileReport>,
     pub problems: Vec<ImportProblem>,
     /// Set when an import changed the study; the workbench reloads the other screens.
@@ -413,16 +413,24 @@ impl Catalog {
 fn header(ui: &mut egui::Ui, columns: &[(&str, f32)]) {
     ui.horizontal(|ui| {
         for (name, width) in columns {
-            ui.add_sized(
-                [*width, 18.0],
-                egui::Label::new(egui::RichText::new(*name).strong()),
-            );
+            left_aligned(ui, *width, 18.0, egui::RichText::new(*name).strong());
         }
     });
 }
 
+fn left_aligned(ui: &mut egui::Ui, width: f32, height: f32, text: impl Into<egui::WidgetText>) {
+    ui.allocate_ui_with_layout(
+        egui::vec2(width, height),
+        egui::Layout::left_to_right(egui::Align::Center),
+        |ui| {
+            ui.set_min_size(egui::vec2(width, height));
+            ui.add(egui::Label::new(text).truncate());
+        },
+    );
+}
+
 fn cell(ui: &mut egui::Ui, width: f32, text: impl Into<egui::WidgetText>) {
-    ui.add_sized([width, ROW_HEIGHT - 4.0], egui::Label::new(text).truncate());
+    left_aligned(ui, width, ROW_HEIGHT - 4.0, text);
 }
 
 fn items_table(
@@ -432,7 +440,7 @@ fn items_table(
     mut images: Option<&mut ImageCache>,
 ) {
     let cols = [
-        ("", 48.0),
+        ("", 56.0),
         ("Item", 80.0),
         ("Title", 280.0),
         ("Category", 120.0),
@@ -471,7 +479,10 @@ fn items_table(
                         cols[4].1,
                         item.price.map(|p| format!("{p:.2}")).unwrap_or_default(),
                     );
-                    ui.allocate_ui(egui::vec2(cols[5].1, ROW_HEIGHT - 4.0), |ui| {
+                    let size = egui::vec2(cols[5].1, ROW_HEIGHT - 4.0);
+                    let layout = egui::Layout::left_to_right(egui::Align::Center);
+                    ui.allocate_ui_with_layout(size, layout, |ui| {
+                        ui.set_min_size(size);
                         if item.is_new {
                             new_badge(ui);
                         }

@@ -670,7 +670,7 @@ impl Desk {
                     if ui.add_enabled(!saving_blocked, button).clicked() {
                         chosen = Some(level.value);
                     }
-                    ui.add(egui::Label::new(egui::RichText::new(&level.rubric).small()).wrap());
+                    ui.add(egui::Label::new(egui::RichText::new(&level.rubric).size(12.5)).wrap());
                 });
             }
         });

@@ -159,13 +159,12 @@ fn body(ui: &mut egui::Ui, model: &HomeModel) {
         let ui = &mut cols[1];
         let scale = model.scale.as_deref().unwrap_or("no scale yet");
         ui.strong(format!("Pool coverage on {scale} (top {})", model.depth));
-        ui.horizontal(|ui| {
-            ui.label("Whole pool");
-            fraction_bar(ui, model.pool_graded, model.pool_size, 260.0);
-        });
         egui::Grid::new("home_coverage")
             .num_columns(2)
             .show(ui, |ui| {
+                ui.label("Whole pool");
+                fraction_bar(ui, model.pool_graded, model.pool_size, 260.0);
+                ui.end_row();
                 for c in &model.coverage {
                     ui.label(&c.ranker);
                     fraction_bar(ui, c.graded, c.pairs, 260.0);
@@ -208,6 +207,18 @@ fn next_step(model: &HomeModel) -> String {
         "Import the rankers' lists on the Catalog screen: rankings.csv.".into()
     } else if c.scales == 0 {
         "Define a graded scale: import scales.csv on the Catalog screen.".into()
+    } else if let Some(r) = model
+        .reviewers
+        .iter()
+        .find(|r| r.queue.is_some_and(|(done, total)| done < total))
+        .filter(|_| model.pool_graded == model.pool_size)
+    {
+        let (done, total) = r.queue.unwrap_or_default();
+        format!(
+            "Every pool pair has a grade; queues are still open ({} has {} of {total} to go). Shared pairs graded by everyone make agreement measurable: keep grading on the Grading desk.",
+            r.reviewer,
+            total - done
+        )
     } else if model.pool_graded < model.pool_size {
         format!(
             "Grade the pool on the Grading desk: {} of {} pairs still have no grade.",

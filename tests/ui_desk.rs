@@ -313,3 +313,36 @@ fn a_failed_write_is_shown_kept_and_retried() {
         .unwrap();
     assert_eq!(value, 2, "the first key's grade is the one kept");
 }
+
+#[test]
+fn seconds_count_only_while_the_window_has_focus() {
+    let (_dir, path) = demo_copy();
+    let before = max_event_id(&path);
+    let mut h = harness(&path);
+    sign_in(&mut h, "rev-amber");
+    // Each step is 0.25 s of simulated time: 1 s focused, 10 s away, 1 s focused.
+    for _ in 0..4 {
+        h.step();
+    }
+    h.input_mut().focused = false;
+    for _ in 0..40 {
+        h.step();
+    }
+    h.input_mut().focused = true;
+    for _ in 0..4 {
+        h.step();
+    }
+    press(&mut h, Key::Num1);
+    let conn = rusqlite::Connection::open(&path).unwrap();
+    let seconds: f64 = conn
+        .query_row(
+            "SELECT seconds FROM grade_events WHERE id > ?1",
+            [before],
+            |r| r.get(0),
+        )
+        .unwrap();
+    assert!(
+        (2.0..=3.0).contains(&seconds),
+        "about 2.5 s on screen with focus, got {seconds}"
+    );
+}

@@ -419,6 +419,110 @@ mod tests {
         assert_eq!(golds, vec![4, 9]);
     }
 
+    fn demo() -> (tempfile::TempDir, Study) {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("demo.plumb");
+        crate::demo::build_demo_study(&path).unwrap();
+        let study = Study::open(&path).unwrap();
+        (dir, study)
+    }
+
+    #[test]
+    fn queues_share_the_overlap_cover_the_pool_and_keep_their_order() {
+        let (_dir, mut study) = demo();
+        let pool = study.pool().unwrap();
+        let distinct: HashSet<&PairId> = pool.iter().collect();
+        assert_eq!(distinct.len(), pool.len(), "the pool has no duplicates");
+        let amber = study.ensure_queue("rev-amber", "fit4").unwrap();
+        let birch = study.queue("rev-birch", "fit4").unwrap();
+        let cedar = study.queue("rev-cedar", "fit4").unwrap();
+        let mut seen: HashMap<&PairId, usize> = HashMap::new();
+        for p in amber.iter().chain(&birch).chain(&cedar) {
+            *seen.entry(p).or_default() += 1;
+        }
+        assert_eq!(seen.len(), pool.len(), "every pool pair is queued");
+        let shared = seen.values().filter(|&&n| n == 3).count();
+        let expected = (pool.len() as f64 * DEFAULT_OVERLAP_SHARE).round() as usize;
+        assert_eq!(shared, expected);
+        assert_eq!(
+            seen.values().filter(|&&n| n == 1).count(),
+            pool.len() - shared
+        );
+        // The rest is spread evenly: queue lengths differ by at most one.
+        let lens = [amber.len(), birch.len(), cedar.len()];
+        assert!(
+            lens.iter().max().unwrap() - lens.iter().min().unwrap() <= 1,
+            "{lens:?}"
+        );
+        // Asking again (a restart) changes nothing.
+        assert_eq!(study.ensure_queue("rev-amber", "fit4").unwrap(), amber);
+        assert_eq!(study.ensure_queue("rev-birch", "fit4").unwrap(), birch);
+        // The order does not follow the pool's (rank) order.
+        let in_pool_order: Vec<&PairId> = pool.iter().filter(|p| amber.contains(p)).collect();
+        assert_ne!(amber.iter().collect::<Vec<_>>(), in_pool_order);
+    }
+
+    #[test]
+    fn a_late_reviewer_gets_the_shared_pairs_and_a_fair_share() {
+        let (_dir, mut study) = demo();
+        let amber = study.ensure_queue("rev-amber", "fit4").unwrap();
+        study.add_reviewer("rev-dune").unwrap();
+        let dune = study.ensure_queue("rev-dune", "fit4").unwrap();
+        let pool = study.pool().unwrap();
+        let shared = (pool.len() as f64 * DEFAULT_OVERLAP_SHARE).round() as usize;
+        let rest = pool.len() - shared;
+        assert_eq!(dune.len(), shared + rest.div_ceil(4));
+        let amber_set: HashSet<&PairId> = amber.iter().collect();
+        assert!(dune.iter().filter(|p| amber_set.contains(p)).count() >= shared);
+        assert_eq!(
+            study.queue("rev-amber", "fit4").unwrap(),
+            amber,
+            "others keep theirs"
+        );
+    }
+
+    #[test]
+    fn gold_pairs_are_mixed_into_new_queues() {
+        let (_dir, mut study) = demo();
+        let pool = study.pool().unwrap();
+        // Three gold pairs outside the pool: an item ranked by nobody for context q01.
+        let ranked: HashSet<&str> = pool
+            .iter()
+            .filter(|p| p.0 == "q01")
+            .map(|p| p.1.as_str())
+            .collect();
+        let outside: Vec<String> = study
+            .item_cards()
+            .unwrap()
+            .into_iter()
+            .map(|i| i.id)
+            .filter(|id| !ranked.contains(id.as_str()))
+            .take(3)
+            .collect();
+        for id in &outside {
+            study
+                .conn()
+                .execute(
+                    "INSERT INTO gold_pairs(context_id, item_id, scale, value) VALUES ('q01', ?1, 'useful2', 1)",
+                    [id],
+                )
+                .unwrap();
+        }
+        study.set_setting("gold_rate", "0.1").unwrap();
+        let queue = study.ensure_queue("rev-amber", "useful2").unwrap();
+        let golds: Vec<usize> = queue
+            .iter()
+            .enumerate()
+            .filter(|(_, p)| p.0 == "q01" && outside.contains(&p.1))
+            .map(|(n, _)| n)
+            .collect();
+        assert_eq!(
+            golds,
+            vec![9, 19, 29],
+            "one gold pair after every nine pairs"
+        );
+    }
+
     #[test]
     fn attributes_come_back_as_text() {
         assert_eq!(

@@ -446,6 +446,14 @@ impl Desk {
         self.keys(&ctx);
         self.header(ui);
         ui.separator();
+        if self.data.as_ref().is_some_and(|d| d.queue.is_empty()) {
+            ui.add_space(24.0);
+            ui.heading("Nothing to grade yet");
+            ui.label(
+                "The pool is empty: import the rankers' lists (rankings.csv) on the Catalog screen.",
+            );
+            return;
+        }
         let Some(position) = self.current else {
             ui.add_space(24.0);
             ui.heading("Queue complete");

@@ -346,3 +346,59 @@ fn seconds_count_only_while_the_window_has_focus() {
         "about 2.5 s on screen with focus, got {seconds}"
     );
 }
+
+#[test]
+fn images_outside_the_catalog_folder_or_missing_show_why() {
+    let (dir, path) = demo_copy();
+    let mut h = harness(&path);
+    sign_in(&mut h, "rev-amber");
+    let (_, first) = current_pair(&h);
+    let conn = rusqlite::Connection::open(&path).unwrap();
+    std::fs::write(dir.path().join("secret.png"), b"not for the desk").unwrap();
+    conn.execute(
+        "UPDATE items SET image = '../secret.png' WHERE item_id = ?1",
+        [&first],
+    )
+    .unwrap();
+    // Leaving and re-entering the desk reloads its data; the same pair is still next.
+    h.state_mut().screen = ScreenName::Home;
+    h.step();
+    h.state_mut().screen = ScreenName::Desk;
+    h.step();
+    step_until(&mut h, "the reload", |h| !h.state().desk.is_loading());
+    h.step();
+    assert_eq!(current_pair(&h).1, first);
+    step_until(&mut h, "the refusal", |h| {
+        h.query_by_label_contains("../secret.png leaves the catalog folder; refused")
+            .is_some()
+    });
+
+    // A missing file on the next card.
+    press(&mut h, Key::Num0);
+    let (_, second) = current_pair(&h);
+    let image: String = conn
+        .query_row(
+            "SELECT image FROM items WHERE item_id = ?1",
+            [&second],
+            |r| r.get(0),
+        )
+        .unwrap();
+    let catalog: String = conn
+        .query_row(
+            "SELECT value FROM settings WHERE key = 'catalog_dir'",
+            [],
+            |r| r.get(0),
+        )
+        .unwrap();
+    let file = Path::new(&catalog).join(&image);
+    // The prefetch may already hold it; a fresh workbench has an empty cache.
+    std::fs::remove_file(&file).unwrap();
+    drop(h);
+    let mut h = harness(&path);
+    sign_in(&mut h, "rev-amber");
+    assert_eq!(current_pair(&h).1, second);
+    let expected = format!("image file missing: {image}");
+    step_until(&mut h, "the missing-image placeholder", |h| {
+        h.query_by_label_contains(&expected).is_some()
+    });
+}

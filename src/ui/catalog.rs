@@ -7,6 +7,7 @@ use std::sync::{Arc, Mutex};
 use super::desk::new_badge;
 use super::image_cache::{self, ImageCache};
 use super::jobs::Pending;
+use super::study_picker::block_on;
 use crate::study::Study;
 use crate::study::import::{FileReport, ImportSet, Source, import};
 use crate::study::queues::{ContextCard, ItemCard};
@@ -336,9 +337,10 @@ impl Catalog {
                                 .clicked()
                             {
                                 self.dialogs[k] = Some(Pending::spawn(&ctx, || {
-                                    rfd::FileDialog::new()
+                                    let dialog = rfd::AsyncFileDialog::new()
                                         .add_filter("CSV", &["csv"])
-                                        .pick_file()
+                                        .pick_file();
+                                    block_on(dialog).map(|h| h.path().to_path_buf())
                                 }));
                             }
                             ui.end_row();

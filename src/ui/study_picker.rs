@@ -83,6 +83,30 @@ impl Prefs {
     }
 }
 
+/// Runs a future to completion on the current (job) thread. The native dialogs are
+/// used through rfd's async API, which hands the dialog itself to the thread the
+/// desktop requires, so a job thread can wait for the answer without freezing frames.
+pub fn block_on<F: std::future::Future>(future: F) -> F::Output {
+    use std::sync::Arc;
+    use std::task::{Context, Poll, Wake, Waker};
+
+    struct Unpark(std::thread::Thread);
+    impl Wake for Unpark {
+        fn wake(self: Arc<Self>) {
+            self.0.unpark();
+        }
+    }
+    let waker = Waker::from(Arc::new(Unpark(std::thread::current())));
+    let mut cx = Context::from_waker(&waker);
+    let mut future = std::pin::pin!(future);
+    loop {
+        match future.as_mut().poll(&mut cx) {
+            Poll::Ready(out) => return out,
+            Poll::Pending => std::thread::park(),
+        }
+    }
+}
+
 /// What the picker asks the workbench to do.
 pub enum PickerOutcome {
     Open(PathBuf),
@@ -132,6 +156,7 @@ impl StudyPicker {
             .open(&mut open)
             .collapsible(false)
             .default_width(520.0)
+            .anchor(egui::Align2::CENTER_TOP, [0.0, 80.0])
             .show(ctx, |ui| {
                 ui.label("Recent studies");
                 if prefs.recent.is_empty() {
@@ -149,19 +174,19 @@ impl StudyPicker {
                 ui.horizontal(|ui| {
                     if ui.button("Browse to open…").clicked() {
                         self.dialog = Some(Pending::spawn(ctx, || {
-                            rfd::FileDialog::new()
+                            let dialog = rfd::AsyncFileDialog::new()
                                 .add_filter("Plumbline study", &["plumb"])
-                                .pick_file()
-                                .map(|p| (p, false))
+                                .pick_file();
+                            block_on(dialog).map(|h| (h.path().to_path_buf(), false))
                         }));
                     }
                     if ui.button("Browse to create…").clicked() {
                         self.dialog = Some(Pending::spawn(ctx, || {
-                            rfd::FileDialog::new()
+                            let dialog = rfd::AsyncFileDialog::new()
                                 .add_filter("Plumbline study", &["plumb"])
                                 .set_file_name("study.plumb")
-                                .save_file()
-                                .map(|p| (p, true))
+                                .save_file();
+                            block_on(dialog).map(|h| (h.path().to_path_buf(), true))
                         }));
                     }
                     if self.dialog.is_some() {

@@ -402,3 +402,37 @@ fn images_outside_the_catalog_folder_or_missing_show_why() {
         h.query_by_label_contains(&expected).is_some()
     });
 }
+
+#[test]
+fn a_new_reviewer_signs_in_by_name_and_gets_a_queue() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path);
+    step_until(&mut h, "the sign-in form", |h| {
+        h.query_by_label("Sign in as rev-amber").is_some()
+    });
+    let field = h.get_by_role_and_label(egui::Role::TextInput, "New reviewer");
+    field.focus();
+    h.step();
+    h.get_by_role_and_label(egui::Role::TextInput, "New reviewer")
+        .type_text("rev-dune");
+    h.step();
+    h.get_by_label_contains("Add and sign in").click();
+    step_until(&mut h, "the new reviewer's first card", |h| {
+        h.state().desk.data.is_some() && h.state().desk.current.is_some()
+    });
+    assert_eq!(h.state().reviewer.as_deref(), Some("rev-dune"));
+    h.step();
+    assert!(h.query_by_label_contains("Signed in: rev-dune").is_some());
+    let data = h.state().desk.data.as_ref().unwrap();
+    assert_eq!(data.done(), 0, "a new reviewer starts with nothing graded");
+    let conn = rusqlite::Connection::open(&path).unwrap();
+    let queued: i64 = conn
+        .query_row(
+            "SELECT COUNT(*) FROM queue_entries WHERE reviewer = 'rev-dune' AND scale = 'fit4'",
+            [],
+            |r| r.get(0),
+        )
+        .unwrap();
+    assert_eq!(queued as usize, data.queue.len());
+    assert!(queued > 0);
+}

@@ -141,6 +141,9 @@ fn desk_frames_on_a_study_with_200k_grades() {
     for _ in 0..20 {
         h.step();
     }
+    // The frames measured below draw a real card: the scale's levels are on screen.
+    assert!(h.query_by_label_contains("Spot on").is_some());
+    assert!(h.state().desk.current.is_some());
     let mut idle = Vec::new();
     for _ in 0..300 {
         let t = Instant::now();

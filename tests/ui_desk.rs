@@ -436,3 +436,38 @@ fn a_new_reviewer_signs_in_by_name_and_gets_a_queue() {
     assert_eq!(queued as usize, data.queue.len());
     assert!(queued > 0);
 }
+
+#[test]
+fn every_control_on_the_desk_has_an_accessible_label() {
+    use egui::Role;
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path);
+    sign_in(&mut h, "rev-amber");
+    press(&mut h, Key::C); // the can't-judge reasons are controls too
+    let mut controls = 0;
+    for node in h.root().children_recursive() {
+        let n = node.accesskit_node();
+        if matches!(
+            n.role(),
+            Role::Button | Role::TextInput | Role::ComboBox | Role::CheckBox | Role::Image
+        ) {
+            controls += 1;
+            let label = n.label().unwrap_or_default();
+            assert!(!label.trim().is_empty(), "unlabelled {:?}: {n:?}", n.role());
+        }
+    }
+    assert!(controls >= 15, "only {controls} controls found");
+    // Shortcuts are shown on the controls themselves.
+    for shortcut in [
+        "key 0",
+        "key 3",
+        "S / Right",
+        "B / Left",
+        "Ctrl+Z / Backspace",
+    ] {
+        assert!(
+            h.query_all_by_label_contains(shortcut).next().is_some(),
+            "{shortcut} not shown"
+        );
+    }
+}

@@ -544,8 +544,8 @@ impl Desk {
         let pace = self.pace_per_hour();
         let mut chosen: Option<String> = None;
         ui.horizontal(|ui| {
-            ui.label("Scale");
-            egui::ComboBox::from_id_salt("desk_scale")
+            let label = ui.label("Scale");
+            let combo = egui::ComboBox::from_id_salt("desk_scale")
                 .selected_text(&data.scale.name)
                 .show_ui(ui, |ui| {
                     for name in &data.scale_names {
@@ -558,6 +558,7 @@ impl Desk {
                         }
                     }
                 });
+            let _ = combo.response.labelled_by(label.id);
             ui.separator();
             let fraction = if total == 0 {
                 1.0

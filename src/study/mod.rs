@@ -19,6 +19,9 @@ use rusqlite::{Connection, OpenFlags, OptionalExtension};
 /// How long a write waits for another program holding the study before giving up.
 pub const BUSY_TIMEOUT: Duration = Duration::from_secs(5);
 
+/// Page cache per connection in KiB (SQLite's negative `cache_size`): 64 MiB.
+pub const DEFAULT_CACHE_KIB: i64 = -65_536;
+
 /// Why a study operation failed. `Input` and `Refused` are the user's to fix (exit 2).
 #[derive(Debug, thiserror::Error)]
 pub enum StudyError {
@@ -153,6 +156,11 @@ impl Study {
 
     fn configure(&mut self) -> Result<()> {
         self.conn.busy_timeout(BUSY_TIMEOUT)?;
+        self.conn
+            .pragma_update(None, "cache_size", DEFAULT_CACHE_KIB)?;
+        // Statement journals (needed by the grade trigger) stay in memory instead of
+        // costing a temp-file write per row.
+        self.conn.pragma_update(None, "temp_store", "MEMORY")?;
         self.conn.pragma_update(None, "foreign_keys", true)?;
         if !self.read_only {
             self.conn.pragma_update(None, "journal_mode", "WAL")?;

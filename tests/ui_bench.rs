@@ -126,6 +126,10 @@ fn desk_frames_on_a_study_with_200k_grades() {
         h.step();
         std::thread::sleep(Duration::from_millis(5));
     }
+    println!(
+        "open: study with {total} grade events to the first usable frame (sign-in list): {:.0} ms",
+        start.elapsed().as_secs_f64() * 1000.0
+    );
     h.get_by_label("Sign in as rev-amber").click();
     let t = Instant::now();
     while h.state().desk.data.is_none() {

@@ -207,6 +207,12 @@ impl Workbench {
             };
             ui.label(format!("Study: {name}"))
                 .on_hover_text(self.path.display().to_string());
+            if matches!(&self.home, Some(Ok(m)) if m.read_only) {
+                ui.colored_label(
+                    ui.visuals().warn_fg_color,
+                    "Read-only: this study can be viewed but not changed",
+                );
+            }
             if ui
                 .add(egui::Button::new("Studies…").shortcut_text("Ctrl+O"))
                 .clicked()

@@ -1,0 +1,180 @@
+//! Grades and settled grades, as history rows with content uids.
+
+use std::collections::{HashMap, HashSet};
+
+use rusqlite::{Transaction, params};
+
+use super::{
+    Fields, FileReport, GRADES, SETTLED_REVIEWER, Source, content_uid, id_set, input_error, parse,
+    report, unneutralise,
+};
+use crate::study::csv_input::ProblemLog;
+use crate::study::{Result, time};
+
+pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport> {
+    let table = parse(src, &GRADES)?;
+    let contexts = id_set(tx, "SELECT context_id FROM contexts")?;
+    let items = id_set(tx, "SELECT item_id FROM items")?;
+    let mut scale_sizes: HashMap<String, u8> = HashMap::new();
+    {
+        let mut stmt = tx.prepare("SELECT scale, COUNT(*) FROM levels GROUP BY scale")?;
+        for row in stmt.query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, u8>(1)?)))? {
+            let (s, n) = row?;
+            scale_sizes.insert(s, n);
+        }
+    }
+    let mut log = ProblemLog::default();
+    let mut grades = Vec::new();
+    for row in &table.rows {
+        let f = Fields { table: &table, row };
+        let (Some(reviewer), Some(context), Some(item), Some(scale)) = (
+            f.required("reviewer", &mut log),
+            f.required("context_id", &mut log),
+            f.required("item_id", &mut log),
+            f.required("scale", &mut log),
+        ) else {
+            continue;
+        };
+        if !contexts.contains(context) {
+            log.push(f.problem("context_id", format!("unknown context \"{context}\"")));
+            continue;
+        }
+        if !items.contains(item) {
+            log.push(f.problem("item_id", format!("unknown item \"{item}\"")));
+            continue;
+        }
+        let Some(&levels) = scale_sizes.get(scale) else {
+            log.push(f.problem(
+                "scale",
+                format!("unknown scale \"{scale}\"; import it in scales.csv first"),
+            ));
+            continue;
+        };
+        let value_text = f.text("value").trim();
+        let value = if value_text.is_empty() {
+            None
+        } else {
+            match value_text.parse::<u8>() {
+                Ok(v) if v < levels => Some(v),
+                _ => {
+                    log.push(f.problem(
+                        "value",
+                        format!("value must be a level of scale \"{scale}\" (0 to {}), got \"{value_text}\"", levels - 1),
+                    ));
+                    continue;
+                }
+            }
+        };
+        let Some(seconds) = f.optional_f64("seconds", &mut log) else {
+            continue;
+        };
+        if seconds.is_some_and(|s| s < 0.0) {
+            log.push(f.problem("seconds", "seconds must not be negative"));
+            continue;
+        }
+        let at_text = f.text("graded_at").trim();
+        let graded_at = if at_text.is_empty() {
+            time::format_millis(0)
+        } else if let Some(t) = time::normalise(at_text) {
+            t
+        } else {
+            log.push(f.problem("graded_at", format!("graded_at must be an RFC 3339 time such as 2026-11-16T09:14:03Z, got \"{at_text}\"")));
+            continue;
+        };
+        grades.push(ImportedGrade {
+            reviewer: reviewer.to_string(),
+            context: context.to_string(),
+            item: item.to_string(),
+            scale: scale.to_string(),
+            value,
+            reason: unneutralise(f.text("reason")).to_string(),
+            seconds,
+            graded_at,
+            note: unneutralise(f.text("note")).to_string(),
+            settled_by: f.text("settled_by").trim().to_string(),
+        });
+        if log.is_full() {
+            break;
+        }
+    }
+    log.into_result().map_err(input_error)?;
+    let mut report = report(src, "grades");
+    let mut add_reviewer = tx.prepare("INSERT OR IGNORE INTO reviewers(reviewer) VALUES (?1)")?;
+    let mut insert = tx.prepare(
+        "INSERT OR IGNORE INTO grade_events(uid, reviewer, context_id, item_id, scale, action, value, reason, seconds, graded_at, note)
+         VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11)",
+    )?;
+    let mut settle = tx.prepare(
+        "INSERT OR IGNORE INTO settle_events(uid, context_id, item_id, scale, value, method, settled_by, settled_at, reason)
+         VALUES (?1, ?2, ?3, ?4, ?5, 'imported', ?6, ?7, ?8)",
+    )?;
+    let mut known_reviewers: HashSet<String> = HashSet::new();
+    for g in &grades {
+        let value_text = g.value.map(|v| v.to_string()).unwrap_or_default();
+        let seconds_text = g.seconds.map(|s| s.to_string()).unwrap_or_default();
+        let uid = content_uid(&[
+            &g.reviewer,
+            &g.context,
+            &g.item,
+            &g.scale,
+            &value_text,
+            &g.reason,
+            &seconds_text,
+            &g.graded_at,
+            &g.note,
+        ]);
+        let changed = if g.reviewer == SETTLED_REVIEWER {
+            settle.execute(params![
+                uid,
+                g.context,
+                g.item,
+                g.scale,
+                g.value,
+                g.settled_by,
+                g.graded_at,
+                g.reason
+            ])?
+        } else {
+            if known_reviewers.insert(g.reviewer.clone()) {
+                add_reviewer.execute([&g.reviewer])?;
+            }
+            let action = if g.value.is_some() {
+                "grade"
+            } else {
+                "cant_judge"
+            };
+            insert.execute(params![
+                uid,
+                g.reviewer,
+                g.context,
+                g.item,
+                g.scale,
+                action,
+                g.value,
+                g.reason,
+                g.seconds,
+                g.graded_at,
+                g.note
+            ])?
+        };
+        if changed == 0 {
+            report.unchanged += 1;
+        } else {
+            report.added += 1;
+        }
+    }
+    Ok(report)
+}
+
+struct ImportedGrade {
+    reviewer: String,
+    context: String,
+    item: String,
+    scale: String,
+    value: Option<u8>,
+    reason: String,
+    seconds: Option<f64>,
+    graded_at: String,
+    note: String,
+    settled_by: String,
+}

@@ -1,0 +1,266 @@
+//! CSV import into a study. All files of one import go in one transaction: every row of
+//! every file, or nothing. Re-importing the same files changes nothing.
+
+use std::collections::HashSet;
+use std::path::{Component, Path, PathBuf};
+
+use rusqlite::Transaction;
+
+use super::csv_input::{self, Problem, ProblemLog, Problems, Row, Shape, Table};
+use super::{Result, Study, StudyError};
+
+mod catalog;
+mod grades;
+mod rankings;
+mod scales;
+
+pub const ITEMS: Shape = Shape {
+    required: &["item_id", "title"],
+    optional: &["category", "description", "price", "image", "new"],
+    ignored: &[],
+    extra_allowed: true,
+};
+pub const CONTEXTS: Shape = Shape {
+    required: &["context_id", "kind"],
+    optional: &["text", "anchor_item_id", "segment"],
+    ignored: &[],
+    extra_allowed: false,
+};
+pub const RANKINGS: Shape = Shape {
+    required: &["ranker", "context_id", "item_id"],
+    optional: &["rank", "score"],
+    ignored: &[],
+    extra_allowed: false,
+};
+pub const SCALES: Shape = Shape {
+    required: &["scale", "value", "label"],
+    optional: &["gain", "key", "rubric", "colour"],
+    ignored: &[],
+    extra_allowed: false,
+};
+pub const GRADES: Shape = Shape {
+    required: &["reviewer", "context_id", "item_id", "scale"],
+    optional: &[
+        "value",
+        "reason",
+        "seconds",
+        "graded_at",
+        "note",
+        "settled_by",
+    ],
+    ignored: &["context_text", "item_title"],
+    extra_allowed: false,
+};
+
+/// The reviewer name under which exports write settled grades.
+pub const SETTLED_REVIEWER: &str = "settled";
+
+/// One input: a name for messages, its bytes, and the folder image paths are relative to.
+#[derive(Debug, Clone)]
+pub struct Source {
+    pub name: String,
+    pub bytes: Vec<u8>,
+    pub folder: PathBuf,
+}
+
+impl Source {
+    pub fn from_path(path: &Path) -> std::result::Result<Source, Problems> {
+        let name = path
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_else(|| path.display().to_string());
+        let bytes = std::fs::read(path).map_err(|e| {
+            Problems(vec![Problem {
+                file: name.clone(),
+                line: 0,
+                column: 0,
+                message: format!("cannot read the file: {e}"),
+            }])
+        })?;
+        let folder = path
+            .parent()
+            .map(|p| std::path::absolute(p).unwrap_or_else(|_| p.to_path_buf()))
+            .unwrap_or_default();
+        Ok(Source {
+            name,
+            bytes,
+            folder,
+        })
+    }
+}
+
+/// The files of one import; any may be absent.
+#[derive(Debug, Clone, Default)]
+pub struct ImportSet {
+    pub items: Option<Source>,
+    pub contexts: Option<Source>,
+    pub rankings: Option<Source>,
+    pub scales: Option<Source>,
+    pub grades: Option<Source>,
+}
+
+/// What one file did to the study.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct FileReport {
+    pub file: String,
+    pub kind: &'static str,
+    pub added: u64,
+    pub updated: u64,
+    pub unchanged: u64,
+}
+
+/// Imports every file given, in dependency order, in one transaction.
+pub fn import(study: &mut Study, set: &ImportSet) -> Result<Vec<FileReport>> {
+    if study.is_read_only() {
+        return Err(StudyError::ReadOnly);
+    }
+    // A large page cache keeps a big import's index pages in memory instead of
+    // spilling them to the WAL mid-transaction (the default cache is 2 MB).
+    study
+        .conn()
+        .pragma_update(None, "cache_size", IMPORT_CACHE_KIB)?;
+    // Every reference was checked row by row before the store is touched (with its line
+    // and column), so SQLite's own foreign-key probes would only repeat that work.
+    study.conn().pragma_update(None, "foreign_keys", false)?;
+    let result = import_in_transaction(study, set);
+    study.conn().pragma_update(None, "foreign_keys", true)?;
+    study
+        .conn()
+        .pragma_update(None, "cache_size", super::DEFAULT_CACHE_KIB)?;
+    result
+}
+
+/// Page cache during imports, in KiB (negative = KiB for SQLite's `cache_size`).
+const IMPORT_CACHE_KIB: i64 = -262_144;
+
+fn import_in_transaction(study: &mut Study, set: &ImportSet) -> Result<Vec<FileReport>> {
+    let tx = study.conn_mut().transaction()?;
+    let mut reports = Vec::new();
+    if let Some(src) = &set.scales {
+        reports.push(scales::import_scales(&tx, src)?);
+    }
+    if let Some(src) = &set.items {
+        reports.push(catalog::import_items(&tx, src)?);
+    }
+    if let Some(src) = &set.contexts {
+        reports.push(catalog::import_contexts(&tx, src)?);
+    }
+    if let Some(src) = &set.rankings {
+        reports.push(rankings::import_rankings(&tx, src)?);
+    }
+    if let Some(src) = &set.grades {
+        reports.push(grades::import_grades(&tx, src)?);
+    }
+    tx.commit()?;
+    Ok(reports)
+}
+
+fn input_error(problems: Problems) -> StudyError {
+    StudyError::Input(problems.to_string())
+}
+
+fn parse(src: &Source, shape: &Shape) -> Result<Table> {
+    csv_input::parse(&src.name, &src.bytes, shape).map_err(input_error)
+}
+
+/// Typed access to a row's named fields, recording problems with their column.
+struct Fields<'a> {
+    table: &'a Table,
+    row: &'a Row,
+}
+
+impl<'a> Fields<'a> {
+    /// The field's text, with an export's formula guard removed.
+    fn text(&self, name: &str) -> &'a str {
+        self.table
+            .column(name)
+            .map_or("", |i| unneutralise(self.row.fields[i].as_str()))
+    }
+
+    fn col(&self, name: &str) -> usize {
+        self.table.column(name).map_or(0, |i| i + 1)
+    }
+
+    fn problem(&self, name: &str, message: impl Into<String>) -> Problem {
+        self.table.problem(self.row.line, self.col(name), message)
+    }
+
+    fn required(&self, name: &str, log: &mut ProblemLog) -> Option<&'a str> {
+        let value = self.text(name).trim();
+        if value.is_empty() {
+            log.push(self.problem(name, format!("{name} must not be empty")));
+            None
+        } else {
+            Some(value)
+        }
+    }
+
+    fn optional_f64(&self, name: &str, log: &mut ProblemLog) -> Option<Option<f64>> {
+        let value = self.text(name).trim();
+        if value.is_empty() {
+            return Some(None);
+        }
+        match value.parse::<f64>() {
+            Ok(v) if v.is_finite() => Some(Some(v)),
+            _ => {
+                log.push(self.problem(name, format!("{name} must be a number, got \"{value}\"")));
+                None
+            }
+        }
+    }
+}
+
+/// Removes the apostrophe that exports put before formula-like cells.
+pub fn unneutralise(text: &str) -> &str {
+    match text.strip_prefix('\'') {
+        Some(rest) if rest.starts_with(['=', '+', '-', '@', '\t', '\r']) => rest,
+        _ => text,
+    }
+}
+
+fn parse_bool(text: &str) -> Option<bool> {
+    match text.trim().to_ascii_lowercase().as_str() {
+        "" | "false" | "0" | "no" => Some(false),
+        "true" | "1" | "yes" => Some(true),
+        _ => None,
+    }
+}
+
+/// Image paths must stay inside the catalog folder: relative, with no `..`.
+fn image_path_is_safe(path: &str) -> bool {
+    let p = Path::new(path);
+    !p.is_absolute()
+        && p.components()
+            .all(|c| matches!(c, Component::Normal(_) | Component::CurDir))
+}
+
+fn report(src: &Source, kind: &'static str) -> FileReport {
+    FileReport {
+        file: src.name.clone(),
+        kind,
+        added: 0,
+        updated: 0,
+        unchanged: 0,
+    }
+}
+
+fn id_set(tx: &Transaction, sql: &str) -> Result<HashSet<String>> {
+    let mut stmt = tx.prepare(sql)?;
+    let ids = stmt
+        .query_map([], |r| r.get::<_, String>(0))?
+        .collect::<std::result::Result<HashSet<String>, _>>()?;
+    Ok(ids)
+}
+
+/// A stable 128-bit FNV-1a digest; gives imported events an identity so that importing
+/// or merging the same grade twice adds it once.
+pub fn content_uid(parts: &[&str]) -> String {
+    let mut h: u128 = 0x6c62_272e_07bb_0142_62b8_2175_6295_c58d;
+    for part in parts {
+        for b in part.bytes().chain(std::iter::once(0x1f)) {
+            h ^= b as u128;
+            h = h.wrapping_mul(0x0000_0000_0100_0000_0000_0000_0000_013b);
+        }
+    }
+    format!("{h:032x}")
+}

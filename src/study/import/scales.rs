@@ -1,0 +1,146 @@
+//! Scales and their levels; graded scales keep their meaning.
+
+use std::collections::BTreeMap;
+
+use rusqlite::{OptionalExtension, Transaction, params};
+
+use super::{Fields, FileReport, SCALES, Source, input_error, parse, report, unneutralise};
+use crate::study::Result;
+use crate::study::csv_input::{ProblemLog, Problems};
+
+pub(super) fn import_scales(tx: &Transaction, src: &Source) -> Result<FileReport> {
+    let table = parse(src, &SCALES)?;
+    let mut log = ProblemLog::default();
+    type LevelRow = (u64, u8, String, Option<f64>, String, String, String);
+    let mut scales: BTreeMap<String, Vec<LevelRow>> = BTreeMap::new();
+    for row in &table.rows {
+        let f = Fields { table: &table, row };
+        let (Some(scale), Some(value_text), Some(label)) = (
+            f.required("scale", &mut log),
+            f.required("value", &mut log),
+            f.required("label", &mut log),
+        ) else {
+            continue;
+        };
+        let Ok(value) = value_text.parse::<u8>() else {
+            log.push(f.problem(
+                "value",
+                format!("value must be a whole number from 0 to 255, got \"{value_text}\""),
+            ));
+            continue;
+        };
+        let Some(gain) = f.optional_f64("gain", &mut log) else {
+            continue;
+        };
+        if gain.is_some_and(|g| g < 0.0) {
+            log.push(f.problem("gain", "gain must not be negative"));
+            continue;
+        }
+        scales.entry(scale.to_string()).or_default().push((
+            row.line,
+            value,
+            unneutralise(label).to_string(),
+            gain,
+            f.text("key").trim().to_string(),
+            unneutralise(f.text("rubric")).to_string(),
+            f.text("colour").trim().to_string(),
+        ));
+    }
+    let value_col = table.column("value").unwrap_or(0) + 1;
+    let key_col = table.column("key").map_or(0, |c| c + 1);
+    for (name, levels) in &mut scales {
+        levels.sort_by_key(|l| (l.1, l.0));
+        for (n, level) in levels.iter().enumerate() {
+            if n > 0 && levels[n - 1].1 == level.1 {
+                log.push(table.problem(
+                    level.0,
+                    value_col,
+                    format!("value {} appears twice in scale \"{name}\"", level.1),
+                ));
+            } else if level.1 as usize != n && (n == 0 || levels[n - 1].1 != level.1) {
+                log.push(table.problem(
+                    level.0,
+                    value_col,
+                    format!(
+                        "values of scale \"{name}\" must run 0, 1, 2… without gaps; {n} is missing"
+                    ),
+                ));
+                break;
+            }
+        }
+        for (n, level) in levels.iter().enumerate() {
+            if !level.4.is_empty() && levels[..n].iter().any(|l| l.4 == level.4) {
+                log.push(table.problem(
+                    level.0,
+                    key_col,
+                    format!("key \"{}\" is used twice in scale \"{name}\"", level.4),
+                ));
+            }
+        }
+        if levels.len() < 2 {
+            log.push(table.problem(
+                levels[0].0,
+                value_col,
+                format!("scale \"{name}\" needs at least two levels"),
+            ));
+        }
+    }
+    log.into_result().map_err(input_error)?;
+    let mut report = report(src, "scales");
+    for (name, levels) in scales {
+        let old: Vec<(u8, String, Option<f64>, String, String, String)> = {
+            let mut stmt = tx.prepare(
+                "SELECT value, label, gain, key, rubric, colour FROM levels WHERE scale = ?1 ORDER BY value",
+            )?;
+            stmt.query_map([&name], |r| {
+                Ok((
+                    r.get(0)?,
+                    r.get(1)?,
+                    r.get(2)?,
+                    r.get(3)?,
+                    r.get(4)?,
+                    r.get(5)?,
+                ))
+            })?
+            .collect::<std::result::Result<_, _>>()?
+        };
+        let new: Vec<(u8, String, Option<f64>, String, String, String)> = levels
+            .iter()
+            .map(|l| (l.1, l.2.clone(), l.3, l.4.clone(), l.5.clone(), l.6.clone()))
+            .collect();
+        if old == new {
+            report.unchanged += new.len() as u64;
+            continue;
+        }
+        if !old.is_empty() {
+            let graded: bool = tx
+                .query_row(
+                    "SELECT 1 FROM grade_events WHERE scale = ?1 LIMIT 1",
+                    [&name],
+                    |_| Ok(true),
+                )
+                .optional()?
+                .unwrap_or(false);
+            let same_values = old.iter().map(|l| l.0).eq(new.iter().map(|l| l.0));
+            if graded && !same_values {
+                return Err(input_error(Problems(vec![table.problem(
+                    levels[0].0,
+                    value_col,
+                    format!("scale \"{name}\" already has grades; its levels cannot be added, removed or renumbered — give the changed scale a new name"),
+                )])));
+            }
+            report.updated += new.len() as u64;
+            tx.execute("DELETE FROM levels WHERE scale = ?1", [&name])?;
+        } else {
+            report.added += new.len() as u64;
+            tx.execute("INSERT INTO scales(scale) VALUES (?1)", [&name])?;
+        }
+        let mut insert = tx.prepare(
+            "INSERT INTO levels(scale, value, label, gain, key, rubric, colour) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7)",
+        )?;
+        for (value, label, gain, key, rubric, colour) in new {
+            insert.execute(params![name, value, label, gain, key, rubric, colour])?;
+        }
+    }
+    Ok(report)
+}

@@ -111,6 +111,9 @@ pub const EXACT_SIGN_FLIP_LIMIT: usize = 16;
 /// on how many threads share the work.
 const BLOCK: usize = 64;
 
+/// Bootstrap resamples computed together in one pass over the data.
+const BATCH: usize = 8;
+
 fn block_seed(seed: u64, block: usize) -> u64 {
     seed ^ (block as u64)
         .wrapping_mul(0x9E37_79B9_7F4A_7C15)
@@ -247,16 +250,37 @@ pub fn bootstrap_means(
         let mut rng = Rng::new(block_seed(seed, block));
         let count = BLOCK.min(resamples - block * BLOCK);
         let mut out = Vec::with_capacity(count * m);
-        let mut sums = vec![0.0; m];
-        for _ in 0..count {
+        // Resamples go in batches of BATCH: first how often each context was drawn in
+        // each resample of the batch, then one sequential pass over the rows adds
+        // count × row into every resample's sums. The rows are read once per batch
+        // instead of once per draw, which keeps the pass compute-bound.
+        let mut counts = vec![0u32; n * BATCH];
+        let mut sums = vec![0.0; BATCH * m];
+        let mut done = 0;
+        while done < count {
+            let batch = BATCH.min(count - done);
+            counts.iter_mut().for_each(|c| *c = 0);
             sums.iter_mut().for_each(|x| *x = 0.0);
-            for _ in 0..n {
-                let row = &rows[rng.below(n) * m..][..m];
-                for (acc, v) in sums.iter_mut().zip(row) {
-                    *acc += v;
+            for r in 0..batch {
+                for _ in 0..n {
+                    counts[rng.below(n) * BATCH + r] += 1;
                 }
             }
-            out.extend(sums.iter().map(|s| s / n as f64));
+            for (i, row) in rows.chunks_exact(m).enumerate() {
+                let drawn = &counts[i * BATCH..][..BATCH];
+                for (r, &c) in drawn.iter().enumerate().take(batch) {
+                    if c != 0 {
+                        let w = c as f64;
+                        for (acc, v) in sums[r * m..][..m].iter_mut().zip(row) {
+                            *acc += w * v;
+                        }
+                    }
+                }
+            }
+            for r in 0..batch {
+                out.extend(sums[r * m..][..m].iter().map(|s| s / n as f64));
+            }
+            done += batch;
         }
         out
     });

@@ -175,3 +175,48 @@ fn bad_input_exits_2_and_leaves_the_study_alone() {
     ]);
     assert_eq!(out.status.code(), Some(2));
 }
+
+/// Malformed files through the binary: exit 2, a FILE:LINE:COLUMN message, no panic,
+/// and the study unchanged.
+#[test]
+fn malformed_files_exit_2_with_a_position() {
+    let fixture = Fixture::new();
+    let (path, study) = fixture.study();
+    drop(study);
+    let before = study_dump(&path);
+    let cases: [(&str, &[u8]); 8] = [
+        ("--items", b""),
+        ("--items", b"item_id,title\ni7,\"Tarp\n"),
+        ("--items", b"item_id,title\ni7,Caf\xe9\n"),
+        ("--items", b"item_id,title\ni7,T\x00arp\n"),
+        ("--contexts", b"context_id,kind\nq9,query,extra\n"),
+        (
+            "--rankings",
+            b"ranker,context_id,item_id,rank\nb,q1,i1,one\n",
+        ),
+        (
+            "--grades",
+            b"reviewer,context_id,item_id,scale,value\nann,q1,i1,fit,9\n",
+        ),
+        ("--scales", b"scale,value,label\nx,0,a\nx,2,b\n"),
+    ];
+    for (flag, bytes) in cases {
+        std::fs::write(fixture.path("bad.csv"), bytes).unwrap();
+        let out = plumbline(args![
+            "import",
+            path.to_str().unwrap(),
+            flag,
+            fixture.path("bad.csv").to_str().unwrap()
+        ]);
+        let stderr = String::from_utf8_lossy(&out.stderr).into_owned();
+        assert_eq!(out.status.code(), Some(2), "{flag}: {stderr}");
+        assert!(!stderr.contains("panicked"), "{stderr}");
+        let position = stderr
+            .strip_prefix("plumbline: bad.csv:")
+            .unwrap_or_else(|| panic!("{stderr}"));
+        let mut parts = position.splitn(3, ':');
+        assert!(parts.next().unwrap().parse::<u64>().is_ok(), "{stderr}");
+        assert!(parts.next().unwrap().parse::<u64>().is_ok(), "{stderr}");
+        assert_eq!(study_dump(&path), before, "{flag}");
+    }
+}

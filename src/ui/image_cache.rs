@@ -286,6 +286,30 @@ mod tests {
         assert!(resolve(&root, "").unwrap_err().contains("no image"));
     }
 
+    /// A PNG signature and an IHDR chunk declaring the given size (8-bit RGB), with its CRC.
+    fn png_declaring(width: u32, height: u32) -> Vec<u8> {
+        let mut chunk = b"IHDR".to_vec();
+        chunk.extend(width.to_be_bytes());
+        chunk.extend(height.to_be_bytes());
+        chunk.extend([8, 2, 0, 0, 0]);
+        let mut crc = 0xFFFF_FFFFu32;
+        for byte in &chunk {
+            crc ^= *byte as u32;
+            for _ in 0..8 {
+                crc = if crc & 1 == 1 {
+                    (crc >> 1) ^ 0xEDB8_8320
+                } else {
+                    crc >> 1
+                };
+            }
+        }
+        let mut png = b"\x89PNG\r\n\x1a\n".to_vec();
+        png.extend(13u32.to_be_bytes());
+        png.extend(&chunk);
+        png.extend((!crc).to_be_bytes());
+        png
+    }
+
     #[test]
     fn broken_and_oversized_images_say_why() {
         let dir = tempfile::tempdir().unwrap();
@@ -300,6 +324,25 @@ mod tests {
         let big = dir.path().join("big.png");
         image::RgbImage::new(MAX_SIDE + 1, 1).save(&big).unwrap();
         assert!(decode_scaled(&big, 64).unwrap_err().contains("too large"));
+
+        // A decompression bomb: a tiny file whose header declares 100 000 × 100 000
+        // pixels. The limits refuse it before any pixel buffer is allocated.
+        let bomb = dir.path().join("bomb.png");
+        std::fs::write(&bomb, png_declaring(100_000, 100_000)).unwrap();
+        assert!(decode_scaled(&bomb, 64).unwrap_err().contains("too large"));
+
+        // A text file named .png, and a real PNG cut off half-way.
+        let text = dir.path().join("notes.png");
+        std::fs::write(&text, "just some words").unwrap();
+        assert!(decode_scaled(&text, 64).is_err());
+        let whole = dir.path().join("whole.png");
+        image::RgbImage::from_pixel(40, 40, image::Rgb([200, 10, 10]))
+            .save(&whole)
+            .unwrap();
+        let bytes = std::fs::read(&whole).unwrap();
+        let cut = dir.path().join("cut.png");
+        std::fs::write(&cut, &bytes[..bytes.len() / 2]).unwrap();
+        assert!(decode_scaled(&cut, 64).is_err());
 
         let fine = dir.path().join("fine.png");
         image::RgbImage::new(300, 150).save(&fine).unwrap();

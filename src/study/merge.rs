@@ -89,6 +89,16 @@ impl Study {
     /// Merges reviewers, grade history and settled grades from `other` in one transaction.
     /// Refuses the whole file, naming the ids, when its definitions do not match.
     pub fn merge_from(&mut self, other: &Path) -> Result<MergeReport> {
+        self.merge_or_preview(other, true)
+    }
+
+    /// What `merge_from` would bring in, without changing the study: the same checks and
+    /// inserts inside a transaction that is rolled back.
+    pub fn merge_preview(&mut self, other: &Path) -> Result<MergeReport> {
+        self.merge_or_preview(other, false)
+    }
+
+    fn merge_or_preview(&mut self, other: &Path, commit: bool) -> Result<MergeReport> {
         if self.is_read_only() {
             return Err(StudyError::ReadOnly);
         }
@@ -102,14 +112,14 @@ impl Study {
         drop(Study::open(other)?);
         self.conn()
             .execute("ATTACH DATABASE ?1 AS other", [other.to_string_lossy()])?;
-        let result = self.merge_attached(other);
+        let result = self.merge_attached(other, commit);
         let detach = self.conn().execute("DETACH DATABASE other", []);
         let report = result?;
         detach?;
         Ok(report)
     }
 
-    fn merge_attached(&mut self, other: &Path) -> Result<MergeReport> {
+    fn merge_attached(&mut self, other: &Path, commit: bool) -> Result<MergeReport> {
         let problems = conflicts(self)?;
         if !problems.is_empty() {
             return Err(refused(
@@ -134,7 +144,11 @@ impl Study {
              FROM other.settle_events ORDER BY settled_at, id",
             [],
         )? as u64;
-        tx.commit()?;
+        if commit {
+            tx.commit()?;
+        } else {
+            tx.rollback()?;
+        }
         Ok(MergeReport {
             file: other.display().to_string(),
             grades_added,

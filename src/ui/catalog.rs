@@ -189,6 +189,7 @@ pub struct Catalog {
     pub problems: Vec<ImportProblem>,
     /// Set when an import changed the study; the workbench reloads the other screens.
     pub study_changed: bool,
+    pub merge: super::merge_panel::MergePanel,
 }
 
 impl Catalog {
@@ -216,6 +217,11 @@ impl Catalog {
             images.collect(&ctx);
         }
         self.import_panel(ui, path);
+        self.merge.ui(ui, path);
+        if std::mem::take(&mut self.merge.study_changed) {
+            self.study_changed = true;
+            self.reload(&ctx, path);
+        }
         ui.separator();
         match &self.model {
             None => {

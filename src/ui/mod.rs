@@ -7,6 +7,7 @@ pub mod desk;
 pub mod home;
 pub mod image_cache;
 pub mod jobs;
+pub mod merge_panel;
 pub mod shell;
 pub mod sign_in;
 pub mod study_picker;

@@ -1,0 +1,166 @@
+//! "Bring in grades": merge studies graded on other machines from the workbench. The
+//! lead picks files, sees what would come in (a dry run), confirms, and sees the result.
+//! Every step runs on a background thread.
+
+use std::path::{Path, PathBuf};
+
+use super::jobs::Pending;
+use super::study_picker::block_on;
+use crate::study::Study;
+use crate::study::merge::MergeReport;
+
+/// One file's outcome: what came (or would come) in, or why it was refused.
+pub type MergeOutcome = (PathBuf, Result<MergeReport, String>);
+
+#[derive(Default)]
+pub struct MergePanel {
+    /// Paths, one per line (typed, or filled in by the dialog).
+    pub paths: String,
+    dialog: Option<Pending<Vec<PathBuf>>>,
+    job: Option<(bool, Pending<Vec<MergeOutcome>>)>,
+    /// The last dry run (not yet confirmed).
+    pub preview: Vec<MergeOutcome>,
+    /// The last real merge.
+    pub merged: Vec<MergeOutcome>,
+    /// Set when a merge changed the study, so the workbench reloads its screens.
+    pub study_changed: bool,
+}
+
+fn run(study: &Path, files: Vec<PathBuf>, commit: bool) -> Vec<MergeOutcome> {
+    let mut target = match Study::open(study) {
+        Ok(s) => s,
+        Err(e) => return files.into_iter().map(|f| (f, Err(e.to_string()))).collect(),
+    };
+    files
+        .into_iter()
+        .map(|f| {
+            let r = if commit {
+                target.merge_from(&f)
+            } else {
+                target.merge_preview(&f)
+            };
+            (f, r.map_err(|e| e.to_string()))
+        })
+        .collect()
+}
+
+impl MergePanel {
+    fn files(&self) -> Vec<PathBuf> {
+        self.paths
+            .lines()
+            .map(str::trim)
+            .filter(|l| !l.is_empty())
+            .map(PathBuf::from)
+            .collect()
+    }
+
+    pub fn ui(&mut self, ui: &mut egui::Ui, study: &Path) {
+        let ctx = ui.ctx().clone();
+        if let Some(picked) = self.dialog.as_ref().and_then(Pending::poll) {
+            self.dialog = None;
+            for p in picked {
+                if !self.paths.is_empty() && !self.paths.ends_with('\n') {
+                    self.paths.push('\n');
+                }
+                self.paths.push_str(&p.display().to_string());
+            }
+        }
+        if let Some((commit, job)) = &self.job
+            && let Some(outcomes) = job.poll()
+        {
+            if *commit {
+                self.study_changed |= outcomes.iter().any(|(_, r)| r.is_ok());
+                self.merged = outcomes;
+                self.preview.clear();
+            } else {
+                self.preview = outcomes;
+            }
+            self.job = None;
+        }
+        egui::CollapsingHeader::new("Bring in grades from other studies")
+            .default_open(false)
+            .show(ui, |ui| {
+                ui.label("Studies graded on other machines (reviewer copies or whole studies), one path per line:");
+                let label = ui.label("Studies to merge");
+                ui.add(
+                    egui::TextEdit::multiline(&mut self.paths)
+                        .desired_rows(2)
+                        .desired_width(520.0)
+                        .hint_text("/path/to/rev-birch-copy.plumb"),
+                )
+                .labelled_by(label.id);
+                ui.horizontal(|ui| {
+                    let busy = self.job.is_some();
+                    if ui
+                        .add_enabled(self.dialog.is_none() && !busy, egui::Button::new("Choose studies…"))
+                        .clicked()
+                    {
+                        self.dialog = Some(Pending::spawn(&ctx, || {
+                            let dialog = rfd::AsyncFileDialog::new()
+                                .add_filter("Plumbline study", &["plumb"])
+                                .pick_files();
+                            block_on(dialog)
+                                .map(|hs| hs.iter().map(|h| h.path().to_path_buf()).collect())
+                                .unwrap_or_default()
+                        }));
+                    }
+                    let files = self.files();
+                    if ui
+                        .add_enabled(!files.is_empty() && !busy, egui::Button::new("Show what would come in"))
+                        .clicked()
+                    {
+                        let s = study.to_path_buf();
+                        self.merged.clear();
+                        self.job = Some((false, Pending::spawn(&ctx, move || run(&s, files, false))));
+                    }
+                    let ready = !self.preview.is_empty() && self.preview.iter().any(|(_, r)| r.is_ok());
+                    if ui
+                        .add_enabled(ready && !busy, egui::Button::new("Merge now"))
+                        .clicked()
+                    {
+                        let s = study.to_path_buf();
+                        let files: Vec<PathBuf> = self
+                            .preview
+                            .iter()
+                            .filter(|(_, r)| r.is_ok())
+                            .map(|(f, _)| f.clone())
+                            .collect();
+                        self.job = Some((true, Pending::spawn(&ctx, move || run(&s, files, true))));
+                    }
+                    if busy {
+                        ui.add(egui::ProgressBar::new(0.0).animate(true).text("merging…").desired_width(200.0));
+                        ctx.request_repaint_after_secs(0.1);
+                    }
+                });
+                outcome_list(ui, "Would come in", &self.preview);
+                outcome_list(ui, "Merged", &self.merged);
+            });
+    }
+}
+
+fn outcome_list(ui: &mut egui::Ui, title: &str, outcomes: &[MergeOutcome]) {
+    if outcomes.is_empty() {
+        return;
+    }
+    ui.strong(title);
+    for (file, result) in outcomes {
+        let name = file.file_name().map_or_else(
+            || file.display().to_string(),
+            |n| n.to_string_lossy().into_owned(),
+        );
+        match result {
+            Ok(r) => {
+                ui.label(format!(
+                    "{name}: {} grades, {} settled grades, {} reviewers",
+                    r.grades_added, r.settled_added, r.reviewers_added
+                ));
+            }
+            Err(e) => {
+                ui.colored_label(
+                    ui.visuals().error_fg_color,
+                    format!("{name}: refused — {e}"),
+                );
+            }
+        }
+    }
+}

@@ -1,0 +1,92 @@
+//! Merging from the workbench: choose a reviewer copy, see what would come in, confirm,
+//! see the result — and the study holds exactly the new grade.
+
+use std::time::{Duration, Instant};
+
+use egui_kittest::Harness;
+use egui_kittest::kittest::Queryable;
+use plumbline::cli::ScreenName;
+use plumbline::study::Study;
+use plumbline::study::grades::{GradeAction, NewGrade};
+use plumbline::ui::Workbench;
+
+fn step_until(
+    h: &mut Harness<'static, Workbench>,
+    what: &str,
+    done: impl Fn(&Harness<'static, Workbench>) -> bool,
+) {
+    let start = Instant::now();
+    while !done(h) {
+        assert!(
+            start.elapsed() < Duration::from_secs(20),
+            "timed out waiting for {what}"
+        );
+        h.step();
+        std::thread::sleep(Duration::from_millis(2));
+    }
+}
+
+fn events(path: &std::path::Path) -> i64 {
+    rusqlite::Connection::open(path)
+        .unwrap()
+        .query_row("SELECT COUNT(*) FROM grade_events", [], |r| r.get(0))
+        .unwrap()
+}
+
+#[test]
+fn a_reviewer_copy_is_previewed_then_merged() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("demo.plumb");
+    plumbline::demo::build_demo_study(&path).unwrap();
+    let copy = dir.path().join("birch-copy.plumb");
+    Study::open(&path)
+        .unwrap()
+        .hand_out("rev-birch", &copy)
+        .unwrap();
+    Study::open(&copy)
+        .unwrap()
+        .record_grade(&NewGrade {
+            reviewer: "rev-birch".into(),
+            context_id: "q01".into(),
+            item_id: "fh-0240".into(),
+            scale: "fit4".into(),
+            action: GradeAction::Grade(2),
+            seconds: 5.0,
+            note: String::new(),
+        })
+        .unwrap();
+    let before = events(&path);
+
+    let mut h: Harness<'static, Workbench> = Harness::builder()
+        .with_size([1360.0, 860.0])
+        .build_ui_state(
+            |ui, wb: &mut Workbench| wb.show(ui),
+            Workbench::new(path.clone(), ScreenName::Catalog),
+        );
+    step_until(&mut h, "the catalog", |h| {
+        h.query_by_label_contains("Items (240)").is_some()
+    });
+    h.get_by_label("Bring in grades from other studies").click();
+    h.step();
+    let field = || egui::Role::MultilineTextInput;
+    h.get_by_role_and_label(field(), "Studies to merge").focus();
+    h.step();
+    h.get_by_role_and_label(field(), "Studies to merge")
+        .type_text(&copy.display().to_string());
+    h.step();
+    h.get_by_label("Show what would come in").click();
+    step_until(&mut h, "the preview", |h| {
+        h.query_by_label_contains("Would come in").is_some()
+    });
+    assert!(
+        h.query_by_label_contains("birch-copy.plumb: 1 grades, 0 settled grades, 0 reviewers")
+            .is_some()
+    );
+    assert_eq!(events(&path), before, "a preview changes nothing");
+
+    h.get_by_label("Merge now").click();
+    step_until(&mut h, "the result", |h| {
+        h.query_by_label_contains("Merged").is_some()
+    });
+    assert_eq!(events(&path), before + 1);
+}

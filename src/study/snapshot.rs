@@ -81,7 +81,32 @@ impl Snapshot {
     }
 }
 
-fn index_of(ids: &[String]) -> HashMap<&str, u32> {
+/// A small multiply-rotate hasher (the FxHash scheme of the Rust compiler): ids are
+/// looked up once per loaded row, where the default SipHash dominated snapshot time.
+#[derive(Default, Clone, Copy)]
+struct IdHasher(u64);
+
+impl std::hash::Hasher for IdHasher {
+    fn write(&mut self, bytes: &[u8]) {
+        const K: u64 = 0x517c_c1b7_2722_0a95;
+        let mut chunks = bytes.chunks_exact(8);
+        for c in &mut chunks {
+            let word = u64::from_le_bytes(c.try_into().expect("8 bytes"));
+            self.0 = (self.0.rotate_left(5) ^ word).wrapping_mul(K);
+        }
+        for b in chunks.remainder() {
+            self.0 = (self.0.rotate_left(5) ^ *b as u64).wrapping_mul(K);
+        }
+    }
+
+    fn finish(&self) -> u64 {
+        self.0
+    }
+}
+
+type IdMap<'a> = HashMap<&'a str, u32, std::hash::BuildHasherDefault<IdHasher>>;
+
+fn index_of(ids: &[String]) -> IdMap<'_> {
     ids.iter()
         .enumerate()
         .map(|(i, s)| (s.as_str(), i as u32))
@@ -135,11 +160,17 @@ impl Study {
                 "SELECT ranker, context_id, item_id FROM ranked_items ORDER BY ranker, context_id, rank",
             )?;
             let mut rows = stmt.query([])?;
+            // Rows arrive list by list: look the list's ids up once, not once per row.
+            let mut list_key = (String::new(), String::new());
+            let mut list_at = (0u32, 0u32);
             while let Some(r) = rows.next()? {
-                let ranker = ranker_index[r.get_ref(0)?.as_str()?];
-                let context = context_index[r.get_ref(1)?.as_str()?];
+                let (ranker, context) = (r.get_ref(0)?.as_str()?, r.get_ref(1)?.as_str()?);
+                if ranker != list_key.0 || context != list_key.1 {
+                    list_at = (ranker_index[ranker], context_index[context]);
+                    list_key = (ranker.to_string(), context.to_string());
+                }
                 let item = item_index[r.get_ref(2)?.as_str()?];
-                lists[ranker as usize][context as usize].push(item);
+                lists[list_at.0 as usize][list_at.1 as usize].push(item);
             }
         }
 

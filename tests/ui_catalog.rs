@@ -2,28 +2,14 @@
 //! problems are listed by file, line and column, and the tables are searchable.
 
 use std::path::Path;
-use std::time::{Duration, Instant};
+
+mod ui_support;
 
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
 use plumbline::cli::ScreenName;
 use plumbline::ui::Workbench;
-
-fn step_until(
-    h: &mut Harness<'static, Workbench>,
-    what: &str,
-    done: impl Fn(&Harness<'static, Workbench>) -> bool,
-) {
-    let start = Instant::now();
-    while !done(h) {
-        assert!(
-            start.elapsed() < Duration::from_secs(20),
-            "timed out waiting for {what}"
-        );
-        h.step();
-        std::thread::sleep(Duration::from_millis(2));
-    }
-}
+use ui_support::step_until;
 
 fn type_into(h: &mut Harness<'static, Workbench>, label: &str, text: &str) {
     field(h, label).focus();

@@ -1,46 +1,20 @@
 //! The grading desk driven through the real workbench (`Workbench::show`) with
 //! egui_kittest, on a fresh copy of the demo study in a temporary folder.
 
-use std::path::{Path, PathBuf};
-use std::time::{Duration, Instant};
+mod ui_support;
+
+use std::path::Path;
+use std::time::Duration;
 
 use egui::{Key, Modifiers};
 use egui_kittest::Harness;
 use egui_kittest::kittest::{NodeT, Queryable};
 use plumbline::cli::ScreenName;
 use plumbline::ui::Workbench;
+use ui_support::{Bench, demo_copy, step_until};
 
-fn demo_copy() -> (tempfile::TempDir, PathBuf) {
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("demo.plumb");
-    plumbline::demo::build_demo_study(&path).unwrap();
-    (dir, path)
-}
-
-fn harness(path: &Path) -> Harness<'static, Workbench> {
-    Harness::builder()
-        .with_size([1360.0, 860.0])
-        .build_ui_state(
-            |ui, wb: &mut Workbench| wb.show(ui),
-            Workbench::new(path.to_path_buf(), ScreenName::Desk),
-        )
-}
-
-/// Steps frames until `done` holds (background jobs run on threads meanwhile).
-fn step_until(
-    h: &mut Harness<'static, Workbench>,
-    what: &str,
-    done: impl Fn(&Harness<'static, Workbench>) -> bool,
-) {
-    let start = Instant::now();
-    while !done(h) {
-        assert!(
-            start.elapsed() < Duration::from_secs(20),
-            "timed out waiting for {what}"
-        );
-        h.step();
-        std::thread::sleep(Duration::from_millis(2));
-    }
+fn harness(path: &Path) -> Bench {
+    ui_support::harness(path, ScreenName::Desk)
 }
 
 /// Signs in as `reviewer` by clicking the name, then waits for the first card.

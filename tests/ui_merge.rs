@@ -1,30 +1,13 @@
 //! Merging from the workbench: choose a reviewer copy, see what would come in, confirm,
 //! see the result — and the study holds exactly the new grade.
 
-use std::time::{Duration, Instant};
+mod ui_support;
 
-use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
 use plumbline::cli::ScreenName;
 use plumbline::study::Study;
 use plumbline::study::grades::{GradeAction, NewGrade};
-use plumbline::ui::Workbench;
-
-fn step_until(
-    h: &mut Harness<'static, Workbench>,
-    what: &str,
-    done: impl Fn(&Harness<'static, Workbench>) -> bool,
-) {
-    let start = Instant::now();
-    while !done(h) {
-        assert!(
-            start.elapsed() < Duration::from_secs(20),
-            "timed out waiting for {what}"
-        );
-        h.step();
-        std::thread::sleep(Duration::from_millis(2));
-    }
-}
+use ui_support::{harness, step_until};
 
 fn events(path: &std::path::Path) -> i64 {
     rusqlite::Connection::open(path)
@@ -35,9 +18,7 @@ fn events(path: &std::path::Path) -> i64 {
 
 #[test]
 fn a_reviewer_copy_is_previewed_then_merged() {
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("demo.plumb");
-    plumbline::demo::build_demo_study(&path).unwrap();
+    let (dir, path) = ui_support::demo_copy();
     let copy = dir.path().join("birch-copy.plumb");
     Study::open(&path)
         .unwrap()
@@ -57,12 +38,7 @@ fn a_reviewer_copy_is_previewed_then_merged() {
         .unwrap();
     let before = events(&path);
 
-    let mut h: Harness<'static, Workbench> = Harness::builder()
-        .with_size([1360.0, 860.0])
-        .build_ui_state(
-            |ui, wb: &mut Workbench| wb.show(ui),
-            Workbench::new(path.clone(), ScreenName::Catalog),
-        );
+    let mut h = harness(&path, ScreenName::Catalog);
     step_until(&mut h, "the catalog", |h| {
         h.query_by_label_contains("Items (240)").is_some()
     });

@@ -1,35 +1,22 @@
 //! A read-only study opens read-only, with a banner in the top bar.
 
-use std::os::unix::fs::PermissionsExt;
-use std::time::{Duration, Instant};
+mod ui_support;
 
-use egui_kittest::Harness;
+use std::os::unix::fs::PermissionsExt;
+
 use egui_kittest::kittest::Queryable;
 use plumbline::cli::ScreenName;
-use plumbline::ui::Workbench;
+use ui_support::{harness, step_until};
 
 #[test]
 fn a_read_only_study_shows_a_banner() {
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("demo.plumb");
-    plumbline::demo::build_demo_study(&path).unwrap();
+    let (_dir, path) = ui_support::demo_copy();
     std::fs::set_permissions(&path, std::fs::Permissions::from_mode(0o444)).unwrap();
     let before = std::fs::read(&path).unwrap();
-    let mut h: Harness<'static, Workbench> = Harness::builder()
-        .with_size([1360.0, 860.0])
-        .build_ui_state(
-            |ui, wb: &mut Workbench| wb.show(ui),
-            Workbench::new(path.clone(), ScreenName::Home),
-        );
-    let start = Instant::now();
-    while h.query_by_label_contains("Read-only").is_none() {
-        assert!(
-            start.elapsed() < Duration::from_secs(20),
-            "no read-only banner"
-        );
-        h.step();
-        std::thread::sleep(Duration::from_millis(5));
-    }
+    let mut h = harness(&path, ScreenName::Home);
+    step_until(&mut h, "the read-only banner", |h| {
+        h.query_by_label_contains("Read-only").is_some()
+    });
     for _ in 0..5 {
         h.step();
     }

@@ -108,7 +108,10 @@ pub fn cohen_kappa_se(table: &Confusion) -> f64 {
     }
     let term_b = (1.0 - kappa).powi(2) * term_b;
     let term_c = (kappa - chance * (1.0 - kappa)).powi(2);
-    ((term_a + term_b - term_c) / (1.0 - chance).powi(2) / n).sqrt()
+    // Rounding can push the variance of a perfect table a hair below zero.
+    ((term_a + term_b - term_c) / (1.0 - chance).powi(2) / n)
+        .max(0.0)
+        .sqrt()
 }
 
 /// Prevalence and bias indices (Byrt, Bishop & Carlin 1993) of the 2 × 2 table formed by

@@ -156,6 +156,8 @@ fn settling_by_hand_then_by_the_median_rule_reaches_the_panel_scores() {
         format!("Settle at {} {}", l.value, l.label)
     };
 
+    h.get_by_label_contains("Disagreements (").click();
+    h.step();
     h.get_by_label(&format!("Open pair {} / {}", top.context_id, top.item_id))
         .click();
     h.step();
@@ -311,6 +313,9 @@ fn the_blind_rule_hides_other_grades_from_a_reviewer_with_pending_pairs() {
     );
     assert!(m.report.units < model(&open).report.units);
     // No settling while grading.
+    h.get_by_label_contains("Disagreements (").click();
+    h.step();
+    h.step();
     assert!(
         h.query_by_label_contains("Settling is for after grading")
             .is_some()

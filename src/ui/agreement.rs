@@ -135,6 +135,8 @@ pub struct AgreementScreen {
     last_pass: u64,
     /// The reviewer pair whose confusion heatmap is shown.
     pub selected_cell: Option<(String, String)>,
+    /// Which half is shown: the panel figures (false) or the disagreements to settle.
+    pub show_disagreements: bool,
     pub settle: SettleForm,
 }
 
@@ -214,7 +216,22 @@ impl AgreementScreen {
                         ),
                     );
                 }
-                ui.add_space(6.0);
+                ui.horizontal(|ui| {
+                    let figures = egui::Button::selectable(!self.show_disagreements, "Panel figures");
+                    if ui.add(figures).clicked() {
+                        self.show_disagreements = false;
+                    }
+                    let text = format!("Disagreements ({})", model.review.disagreements.len());
+                    let list = egui::Button::selectable(self.show_disagreements, text);
+                    if ui.add(list).clicked() {
+                        self.show_disagreements = true;
+                    }
+                });
+                ui.separator();
+                if self.show_disagreements {
+                    self.settle.ui(ui, &model, path);
+                    return;
+                }
                 panel_summary(ui, &model.report);
                 ui.add_space(10.0);
                 ui.columns(2, |cols| {
@@ -225,8 +242,6 @@ impl AgreementScreen {
                 strictness(ui, &model);
                 ui.add_space(10.0);
                 drift(ui, &model.review);
-                ui.add_space(12.0);
-                self.settle.ui(ui, &model, path);
             });
         self.model = Some(Ok(model));
     }
@@ -364,7 +379,7 @@ fn kappa_cell(
     let label = format!("Reviewers {a} and {b}");
     response.widget_info(|| egui::WidgetInfo::labeled(egui::Role::Button, true, &label));
     response.on_hover_text(format!(
-        "{} and {}: {} pairs graded by both\nweighted kappa (linear) {:.3}, quadratic {:.3}\nkappa {:.3}, 95 % CI {:.3} to {:.3} ({})\nAC1 {:.3}; observed agreement {:.0} %, chance {:.0} %\n{}",
+        "{} and {}: {} pairs graded by both\nweighted kappa (linear) {:.3}, quadratic {:.3}\nkappa {:.3}, 95 % CI {:.3} to {:.3} ({})\nAC1 {:.3}; observed agreement {:.0} %, chance {:.0} %\nband of the weighted value: {} (Landis & Koch 1977)",
         p.reviewer_a,
         p.reviewer_b,
         p.n,
@@ -377,10 +392,7 @@ fn kappa_cell(
         p.ac1,
         100.0 * p.observed_agreement,
         100.0 * p.chance_agreement,
-        format!(
-            "band of the weighted value: {} (Landis & Koch 1977)",
-            crate::core::agreement::landis_koch_band(p.kappa_linear)
-        )
+        crate::core::agreement::landis_koch_band(p.kappa_linear)
     ))
 }
 
@@ -400,7 +412,7 @@ fn heatmap(ui: &mut egui::Ui, model: &AgreementModel, selected: Option<&(String,
         return;
     };
     ui.label(format!(
-        "Rows: {} · columns: {} · {} pairs",
+        "Rows: {}'s level · columns: {}'s level · {} pairs",
         p.reviewer_a, p.reviewer_b, p.n
     ));
     let max = p
@@ -424,7 +436,7 @@ fn heatmap(ui: &mut egui::Ui, model: &AgreementModel, selected: Option<&(String,
         .show(ui, |ui| {
             ui.label("");
             for j in 0..p.confusion.len() {
-                ui.weak(level_name(j));
+                ui.weak(format!("{j}")).on_hover_text(level_name(j));
             }
             ui.end_row();
             for (i, row) in p.confusion.iter().enumerate() {

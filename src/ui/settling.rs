@@ -260,7 +260,7 @@ impl SettleForm {
         let height = ui.text_style_height(&egui::TextStyle::Body) * 2.6;
         egui::ScrollArea::vertical()
             .id_salt("disagreement_list")
-            .max_height(380.0)
+            .max_height(ui.available_height().max(240.0) - 8.0)
             .auto_shrink([false, true])
             .show_rows(ui, height, rows.len(), |ui, range| {
                 for d in &rows[range] {
@@ -276,11 +276,11 @@ impl SettleForm {
                         .and_then(|s| s.value)
                         .map_or(String::new(), |v| format!(" · settled {v}"));
                     let text = format!(
-                        "spread {} · levels {} · in top {} of {} rankers{}\n{} — {}",
+                        "spread {} · levels {} · in {} rankers' top {}{}\n{} — {}",
                         d.spread,
                         levels.join(" "),
-                        model.review.top_k,
                         d.rankers_in_top_k,
+                        model.review.top_k,
                         settled,
                         context_words(d),
                         d.item_title
@@ -328,8 +328,8 @@ impl SettleForm {
         ui.label(format!("Item {}: {}", d.item_id, d.item_title));
         ui.label(match d.best_rank {
             Some(r) => format!(
-                "Best rank {r}; in the top {} of {} rankers.",
-                model.review.top_k, d.rankers_in_top_k
+                "Best rank {r}; in {} rankers' top {}.",
+                d.rankers_in_top_k, model.review.top_k
             ),
             None => "No ranker returns this item here.".into(),
         });

@@ -3,6 +3,7 @@
 
 pub mod agreement;
 pub mod judgments;
+pub mod panel_review;
 pub mod render;
 pub mod scoreboard;
 pub mod trial;

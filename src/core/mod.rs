@@ -5,4 +5,5 @@ pub mod agreement;
 pub mod metrics;
 pub mod pooling;
 pub mod scale;
+pub mod settle_rules;
 pub mod stats;

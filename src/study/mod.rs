@@ -8,6 +8,7 @@ pub mod import;
 pub mod merge;
 pub mod queues;
 pub mod schema;
+pub mod settle;
 pub mod snapshot;
 pub mod time;
 

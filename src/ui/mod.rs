@@ -2,12 +2,14 @@
 //! happen on background threads (see `jobs`), never inside `ui()`. The one exception
 //! by design is committing a grade on the desk: one small transaction.
 
+pub mod agreement;
 pub mod catalog;
 pub mod desk;
 pub mod home;
 pub mod image_cache;
 pub mod jobs;
 pub mod merge_panel;
+pub mod settling;
 pub mod shell;
 pub mod sign_in;
 pub mod study_picker;

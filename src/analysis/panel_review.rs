@@ -1,0 +1,288 @@
+//! What the Agreement screen shows beside the coefficients: how strict each reviewer is,
+//! how they do on gold pairs, how their agreement with the rest of the panel moves by
+//! day, and the list of disagreeing pairs to settle. Pure: built from rows the study
+//! already loaded.
+
+use std::collections::{BTreeMap, HashMap};
+
+use crate::analysis::judgments::lower_median;
+use crate::core::agreement::CollapseMap;
+use crate::core::settle_rules::spread;
+use crate::study::settle::{GradeDetail, SettleRecord};
+use crate::study::snapshot::Snapshot;
+
+/// One reviewer's use of the levels.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Strictness {
+    pub reviewer: String,
+    /// Share of this reviewer's grades at each level (sums to 1 when `graded` > 0).
+    pub shares: Vec<f64>,
+    pub graded: usize,
+    /// Mean of (own level − lower median of the other reviewers' levels) over pairs the
+    /// others graded too; below 0 = stricter than the rest of the panel.
+    pub mean_difference: f64,
+    pub compared: usize,
+}
+
+/// Share of gold pairs a reviewer graded at the known level.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GoldAccuracy {
+    pub reviewer: String,
+    pub correct: usize,
+    pub graded: usize,
+}
+
+/// On one day (UTC, from `graded_at`), how often a reviewer's level equalled the lower
+/// median of the others' levels on the same pair.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DayAgreement {
+    pub reviewer: String,
+    pub day: String,
+    pub agreed: usize,
+    pub compared: usize,
+}
+
+/// A disagreeing pair with everything needed to settle it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Disagreement {
+    pub context_id: String,
+    pub context_text: String,
+    pub item_id: String,
+    pub item_title: String,
+    /// Highest minus lowest level given (can't-judge left out).
+    pub spread: u8,
+    /// Every reviewer's current grade of the pair, can't-judge included.
+    pub grades: Vec<GradeDetail>,
+    /// Rankers that hold the item in their top k for this context.
+    pub rankers_in_top_k: usize,
+    /// Best rank any ranker gives the item here (1-based).
+    pub best_rank: Option<usize>,
+    /// What `panel` scoring uses without a settlement.
+    pub panel_level: u8,
+    pub settled: Option<SettleRecord>,
+}
+
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct PanelReview {
+    pub levels: usize,
+    /// Share of all grades at each level.
+    pub panel_shares: Vec<f64>,
+    pub strictness: Vec<Strictness>,
+    pub gold_pairs: usize,
+    pub gold: Vec<GoldAccuracy>,
+    pub days: Vec<String>,
+    pub drift: Vec<DayAgreement>,
+    pub top_k: usize,
+    /// Sorted: widest spread first, then pairs more rankers hold in their top k, then by
+    /// best rank, so the pairs that can move a ranker comparison come first.
+    pub disagreements: Vec<Disagreement>,
+}
+
+/// Builds the review. `grades` are the scale's current grades (already without any
+/// pairs hidden by the blind rule); `collapse` applies to shares, gold and drift, not
+/// to disagreements, which are settled on the scale's own levels.
+pub fn build(
+    snapshot: &Snapshot,
+    scale: usize,
+    grades: &[GradeDetail],
+    settled: &[SettleRecord],
+    gold: &[(String, String, u8)],
+    collapse: Option<&CollapseMap>,
+    top_k: usize,
+) -> PanelReview {
+    let fine_levels = snapshot.scales[scale].levels.len();
+    let levels = collapse.map_or(fine_levels, |m| m.coarse_levels());
+    let map = |v: u8| collapse.map_or(v, |m| m.targets[v as usize]);
+    let mut by_pair: BTreeMap<(&str, &str), Vec<&GradeDetail>> = BTreeMap::new();
+    for g in grades {
+        by_pair
+            .entry((g.context_id.as_str(), g.item_id.as_str()))
+            .or_default()
+            .push(g);
+    }
+    let mut reviewers: Vec<&str> = grades.iter().map(|g| g.reviewer.as_str()).collect();
+    reviewers.sort_unstable();
+    reviewers.dedup();
+
+    let mut counts = vec![vec![0usize; levels]; reviewers.len()];
+    let mut diff_sum = vec![(0i64, 0usize); reviewers.len()];
+    let mut drift: BTreeMap<(usize, String), (usize, usize)> = BTreeMap::new();
+    for list in by_pair.values() {
+        for g in list {
+            let Some(v) = g.value.map(map) else { continue };
+            let r = reviewers
+                .binary_search(&g.reviewer.as_str())
+                .expect("listed");
+            counts[r][v as usize] += 1;
+            let mut others: Vec<u8> = list
+                .iter()
+                .filter(|o| o.reviewer != g.reviewer)
+                .filter_map(|o| o.value.map(map))
+                .collect();
+            if let Some(m) = lower_median(&mut others) {
+                diff_sum[r].0 += v as i64 - m as i64;
+                diff_sum[r].1 += 1;
+                let day = g.graded_at.get(..10).unwrap_or(&g.graded_at).to_string();
+                let cell = drift.entry((r, day)).or_default();
+                cell.0 += (v == m) as usize;
+                cell.1 += 1;
+            }
+        }
+    }
+    let share = |c: &[usize]| {
+        let total: usize = c.iter().sum();
+        c.iter()
+            .map(|x| {
+                if total == 0 {
+                    0.0
+                } else {
+                    *x as f64 / total as f64
+                }
+            })
+            .collect::<Vec<f64>>()
+    };
+    let mut panel_counts = vec![0usize; levels];
+    for c in &counts {
+        for (l, x) in c.iter().enumerate() {
+            panel_counts[l] += x;
+        }
+    }
+    let strictness = reviewers
+        .iter()
+        .enumerate()
+        .map(|(r, name)| Strictness {
+            reviewer: name.to_string(),
+            shares: share(&counts[r]),
+            graded: counts[r].iter().sum(),
+            mean_difference: if diff_sum[r].1 == 0 {
+                f64::NAN
+            } else {
+                diff_sum[r].0 as f64 / diff_sum[r].1 as f64
+            },
+            compared: diff_sum[r].1,
+        })
+        .collect();
+
+    let gold_level: HashMap<(&str, &str), u8> = gold
+        .iter()
+        .map(|(c, i, v)| ((c.as_str(), i.as_str()), *v))
+        .collect();
+    let gold_rows = reviewers
+        .iter()
+        .map(|name| {
+            let mut acc = GoldAccuracy {
+                reviewer: name.to_string(),
+                correct: 0,
+                graded: 0,
+            };
+            for g in grades.iter().filter(|g| g.reviewer == *name) {
+                if let (Some(v), Some(known)) = (
+                    g.value,
+                    gold_level.get(&(g.context_id.as_str(), g.item_id.as_str())),
+                ) {
+                    acc.graded += 1;
+                    acc.correct += (map(v) == map(*known)) as usize;
+                }
+            }
+            acc
+        })
+        .filter(|a| a.graded > 0)
+        .collect();
+
+    let mut days: Vec<String> = drift.keys().map(|(_, d)| d.clone()).collect();
+    days.sort();
+    days.dedup();
+    let drift = drift
+        .into_iter()
+        .map(|((r, day), (agreed, compared))| DayAgreement {
+            reviewer: reviewers[r].to_string(),
+            day,
+            agreed,
+            compared,
+        })
+        .collect();
+
+    PanelReview {
+        levels,
+        panel_shares: share(&panel_counts),
+        strictness,
+        gold_pairs: gold.len(),
+        gold: gold_rows,
+        days,
+        drift,
+        top_k,
+        disagreements: disagreements(snapshot, &by_pair, settled, top_k),
+    }
+}
+
+fn disagreements(
+    snapshot: &Snapshot,
+    by_pair: &BTreeMap<(&str, &str), Vec<&GradeDetail>>,
+    settled: &[SettleRecord],
+    top_k: usize,
+) -> Vec<Disagreement> {
+    let contexts: HashMap<&str, usize> = snapshot
+        .contexts
+        .iter()
+        .enumerate()
+        .map(|(i, c)| (c.id.as_str(), i))
+        .collect();
+    let items: HashMap<&str, usize> = snapshot
+        .items
+        .iter()
+        .enumerate()
+        .map(|(i, c)| (c.id.as_str(), i))
+        .collect();
+    let settled: HashMap<(&str, &str), &SettleRecord> = settled
+        .iter()
+        .map(|s| ((s.context_id.as_str(), s.item_id.as_str()), s))
+        .collect();
+    let mut out = Vec::new();
+    for ((context_id, item_id), list) in by_pair {
+        let mut levels: Vec<u8> = list.iter().filter_map(|g| g.value).collect();
+        let spread = spread(&levels);
+        if spread == 0 {
+            continue;
+        }
+        let (c, i) = (contexts.get(context_id), items.get(item_id));
+        let mut rankers_in_top_k = 0;
+        let mut best_rank: Option<usize> = None;
+        if let (Some(&c), Some(&i)) = (c, i) {
+            for lists in &snapshot.lists {
+                if let Some(pos) = lists[c].iter().position(|x| *x as usize == i) {
+                    rankers_in_top_k += (pos < top_k) as usize;
+                    best_rank = Some(best_rank.map_or(pos + 1, |b| b.min(pos + 1)));
+                }
+            }
+        }
+        out.push(Disagreement {
+            context_id: context_id.to_string(),
+            context_text: c
+                .map(|&c| snapshot.contexts[c].text.clone())
+                .unwrap_or_default(),
+            item_id: item_id.to_string(),
+            item_title: i
+                .map(|&i| snapshot.items[i].title.clone())
+                .unwrap_or_default(),
+            spread,
+            grades: list.iter().map(|g| (*g).clone()).collect(),
+            rankers_in_top_k,
+            best_rank,
+            panel_level: lower_median(&mut levels).expect("two levels at least"),
+            settled: settled.get(&(*context_id, *item_id)).map(|s| (*s).clone()),
+        });
+    }
+    out.sort_by(|a, b| {
+        b.spread
+            .cmp(&a.spread)
+            .then(b.rankers_in_top_k.cmp(&a.rankers_in_top_k))
+            .then(
+                a.best_rank
+                    .unwrap_or(usize::MAX)
+                    .cmp(&b.best_rank.unwrap_or(usize::MAX)),
+            )
+            .then(a.context_id.cmp(&b.context_id))
+            .then(a.item_id.cmp(&b.item_id))
+    });
+    out
+}

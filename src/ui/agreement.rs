@@ -1,0 +1,645 @@
+//! Agreement: does the panel agree, who drifts, and which disagreements matter. The model
+//! is built on a job thread (study snapshot → `analysis::agreement` and
+//! `analysis::panel_review`); `ui` only draws it. Settling lives in `settling.rs`.
+
+use std::collections::HashSet;
+use std::path::{Path, PathBuf};
+
+use super::jobs::Pending;
+use super::settling::SettleForm;
+use crate::analysis::agreement::{self, AgreementReport, ReviewerPair};
+use crate::analysis::panel_review::{self, PanelReview};
+use crate::core::scale::Scale;
+use crate::study::Study;
+
+/// Bootstrap resamples and seed for the alpha interval: the same as `plumbline agree`,
+/// so the screen and the command line print the same interval.
+pub const RESAMPLES: usize = 1000;
+pub const SEED: u64 = 20_261_201;
+
+/// What to compute: the scale and collapse map picked on screen, and who is looking.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct AgreementRequest {
+    pub scale: Option<String>,
+    pub collapse: Option<String>,
+    /// The signed-in reviewer; the blind rule hides pairs they still have to grade.
+    pub viewer: Option<String>,
+}
+
+/// Everything the screen shows, computed off the UI thread.
+#[derive(Debug, Clone)]
+pub struct AgreementModel {
+    pub request: AgreementRequest,
+    pub scale: Scale,
+    pub scale_names: Vec<String>,
+    /// Collapse maps saved for this scale.
+    pub collapse_names: Vec<String>,
+    pub report: AgreementReport,
+    pub review: PanelReview,
+    /// Pairs left out because the viewer has not graded them yet (blind rule).
+    pub hidden_pairs: usize,
+    pub read_only: bool,
+}
+
+impl AgreementModel {
+    /// True while the viewer still has ungraded pairs: settling waits until after grading.
+    pub fn viewer_is_grading(&self) -> bool {
+        self.hidden_pairs > 0
+    }
+
+    pub fn pair(&self, a: &str, b: &str) -> Option<&ReviewerPair> {
+        self.report.pairs.iter().find(|p| {
+            (p.reviewer_a == a && p.reviewer_b == b) || (p.reviewer_a == b && p.reviewer_b == a)
+        })
+    }
+}
+
+/// Loads and computes the model (runs on a job thread).
+pub fn load(path: &Path, request: AgreementRequest) -> Result<AgreementModel, String> {
+    let err = |e: crate::study::StudyError| e.to_string();
+    let study = Study::open(path).map_err(err)?;
+    let mut snapshot = study.snapshot().map_err(err)?;
+    if snapshot.scales.is_empty() {
+        return Err("The study has no scales yet: import scales.csv first.".into());
+    }
+    let scale = request
+        .scale
+        .as_deref()
+        .and_then(|s| snapshot.scale_index(s))
+        .unwrap_or_else(|| super::desk::active_scale(&study, &snapshot));
+    let scale_name = snapshot.scales[scale].name.clone();
+    let maps: Vec<_> = study
+        .collapse_maps()
+        .map_err(err)?
+        .into_iter()
+        .filter(|(s, _)| *s == scale_name)
+        .map(|(_, m)| m)
+        .collect();
+    let collapse = request
+        .collapse
+        .as_deref()
+        .and_then(|name| maps.iter().find(|m| m.name == name));
+    let pending = match &request.viewer {
+        Some(viewer) => study.pending_pairs(viewer, &scale_name).map_err(err)?,
+        None => HashSet::new(),
+    };
+    let mut grades = study.grade_details(&scale_name).map_err(err)?;
+    if !pending.is_empty() {
+        // Blind rule: drop every grade of the viewer's ungraded pairs before computing
+        // anything, so no number, list or detail can reveal the others' levels.
+        grades.retain(|g| !pending.contains(&(g.context_id.clone(), g.item_id.clone())));
+        let hidden: HashSet<(u32, u32)> = pending
+            .iter()
+            .filter_map(|(c, i)| {
+                let c = snapshot.contexts.iter().position(|x| &x.id == c)?;
+                let i = snapshot
+                    .items
+                    .binary_search_by(|x| x.id.as_str().cmp(i))
+                    .ok()?;
+                Some((c as u32, i as u32))
+            })
+            .collect();
+        snapshot
+            .grades
+            .retain(|g| g.scale as usize != scale || !hidden.contains(&(g.context, g.item)));
+    }
+    let settled = study.settled_in_force(&scale_name).map_err(err)?;
+    let gold = study.gold_pairs(&scale_name).map_err(err)?;
+    let top_k = study.pool_depth().map_err(err)?;
+    let report = agreement::build(&snapshot, scale, collapse, RESAMPLES, SEED);
+    let review = panel_review::build(&snapshot, scale, &grades, &settled, &gold, collapse, top_k);
+    Ok(AgreementModel {
+        request: AgreementRequest {
+            scale: Some(scale_name),
+            collapse: collapse.map(|c| c.name.clone()),
+            viewer: request.viewer,
+        },
+        scale: snapshot.scales[scale].clone(),
+        scale_names: snapshot.scales.iter().map(|s| s.name.clone()).collect(),
+        collapse_names: maps.iter().map(|m| m.name.clone()).collect(),
+        report,
+        review,
+        hidden_pairs: pending.len(),
+        read_only: study.is_read_only(),
+    })
+}
+
+/// The screen's state between frames.
+#[derive(Default)]
+pub struct AgreementScreen {
+    pub model: Option<Result<AgreementModel, String>>,
+    loading: Option<Pending<Result<AgreementModel, String>>>,
+    /// What the next load asks for (the selectors write here).
+    pub wanted: AgreementRequest,
+    loaded_path: Option<PathBuf>,
+    last_pass: u64,
+    /// The reviewer pair whose confusion heatmap is shown.
+    pub selected_cell: Option<(String, String)>,
+    /// Which half is shown: the panel figures (false) or the disagreements to settle.
+    pub show_disagreements: bool,
+    pub settle: SettleForm,
+}
+
+impl AgreementScreen {
+    pub fn is_loading(&self) -> bool {
+        self.loading.is_some()
+    }
+
+    pub fn start_loading(&mut self, ctx: &egui::Context, path: &Path) {
+        let path_buf = path.to_path_buf();
+        let request = self.wanted.clone();
+        self.loaded_path = Some(path_buf.clone());
+        self.loading = Some(Pending::spawn(ctx, move || load(&path_buf, request)));
+    }
+
+    /// Reloads when the screen is entered again, the study or viewer changed, a
+    /// selector changed, or a settlement was written.
+    fn refresh(&mut self, ctx: &egui::Context, path: &Path, viewer: Option<&str>) {
+        let pass = ctx.cumulative_pass_nr();
+        let entered = pass > self.last_pass + 1;
+        self.last_pass = pass;
+        self.wanted.viewer = viewer.map(str::to_string);
+        if let Some(result) = self.loading.as_ref().and_then(Pending::poll) {
+            self.loading = None;
+            self.model = Some(result);
+        }
+        if self.settle.poll_write() {
+            self.start_loading(ctx, path);
+        }
+        let stale = match &self.model {
+            Some(Ok(m)) => {
+                m.request.viewer != self.wanted.viewer
+                    || (self.wanted.scale.is_some() && m.request.scale != self.wanted.scale)
+                    || m.request.collapse != self.wanted.collapse
+            }
+            _ => false,
+        };
+        let other_study = self.loaded_path.as_deref() != Some(path);
+        if self.loading.is_none() && (entered || stale || other_study || self.model.is_none()) {
+            if other_study {
+                *self = AgreementScreen::default();
+                self.last_pass = pass;
+                self.wanted.viewer = viewer.map(str::to_string);
+            }
+            self.start_loading(ctx, path);
+        }
+    }
+
+    pub fn ui(&mut self, ui: &mut egui::Ui, path: &Path, viewer: Option<&str>) {
+        self.refresh(ui.ctx(), path, viewer);
+        // Taken out for the frame (not cloned) so the sections can borrow self mutably.
+        let model = match self.model.take() {
+            None => {
+                ui.horizontal(|ui| {
+                    ui.spinner();
+                    ui.label("Computing agreement…");
+                });
+                return;
+            }
+            Some(Err(message)) => {
+                ui.colored_label(ui.visuals().error_fg_color, &message);
+                self.model = Some(Err(message));
+                return;
+            }
+            Some(Ok(model)) => model,
+        };
+        egui::ScrollArea::vertical()
+            .auto_shrink([false, false])
+            .show(ui, |ui| {
+                self.selectors(ui, &model);
+                if model.viewer_is_grading() {
+                    ui.colored_label(
+                        egui::Color32::from_rgb(0xc0, 0x7a, 0x10),
+                        format!(
+                            "Blind rule: you still have {} ungraded pairs on this scale, so the other reviewers' grades for them are left out of everything below. Settling opens once your queue is done.",
+                            model.hidden_pairs
+                        ),
+                    );
+                }
+                ui.horizontal(|ui| {
+                    let figures = egui::Button::selectable(!self.show_disagreements, "Panel figures");
+                    if ui.add(figures).clicked() {
+                        self.show_disagreements = false;
+                    }
+                    let text = format!("Disagreements ({})", model.review.disagreements.len());
+                    let list = egui::Button::selectable(self.show_disagreements, text);
+                    if ui.add(list).clicked() {
+                        self.show_disagreements = true;
+                    }
+                });
+                ui.separator();
+                if self.show_disagreements {
+                    self.settle.ui(ui, &model, path);
+                    return;
+                }
+                panel_summary(ui, &model.report);
+                ui.add_space(10.0);
+                ui.columns(2, |cols| {
+                    self.matrix(&mut cols[0], &model.report);
+                    heatmap(&mut cols[1], &model, self.selected_cell.as_ref());
+                });
+                ui.add_space(10.0);
+                strictness(ui, &model);
+                ui.add_space(10.0);
+                drift(ui, &model.review);
+            });
+        self.model = Some(Ok(model));
+    }
+
+    fn selectors(&mut self, ui: &mut egui::Ui, model: &AgreementModel) {
+        ui.horizontal(|ui| {
+            let label = ui.label("Scale");
+            let current = model.scale.name.clone();
+            let combo = egui::ComboBox::from_id_salt("agreement_scale")
+                .selected_text(&current)
+                .show_ui(ui, |ui| {
+                    for name in &model.scale_names {
+                        if ui.selectable_label(*name == current, name).clicked() {
+                            self.wanted.scale = Some(name.clone());
+                            self.wanted.collapse = None;
+                            self.selected_cell = None;
+                        }
+                    }
+                });
+            let _ = combo.response.labelled_by(label.id);
+            ui.separator();
+            let label = ui.label("Collapse map");
+            let shown = model
+                .request
+                .collapse
+                .clone()
+                .unwrap_or("none (all levels)".into());
+            let combo = egui::ComboBox::from_id_salt("agreement_collapse")
+                .selected_text(shown)
+                .show_ui(ui, |ui| {
+                    if ui
+                        .selectable_label(model.request.collapse.is_none(), "none (all levels)")
+                        .clicked()
+                    {
+                        self.wanted.collapse = None;
+                    }
+                    for name in &model.collapse_names {
+                        let on = model.request.collapse.as_deref() == Some(name);
+                        if ui.selectable_label(on, name).clicked() {
+                            self.wanted.collapse = Some(name.clone());
+                        }
+                    }
+                });
+            let _ = combo.response.labelled_by(label.id);
+            if model.collapse_names.is_empty() {
+                ui.weak("(no collapse maps saved for this scale)");
+            }
+            if self.loading.is_some() {
+                ui.spinner();
+                ui.weak("recomputing…");
+            }
+        });
+    }
+
+    fn matrix(&mut self, ui: &mut egui::Ui, report: &AgreementReport) {
+        ui.heading("Reviewer pairs");
+        ui.weak("Linear-weighted kappa per pair; hover for n, interval and band, click for the heatmap.");
+        let names = &report.reviewers;
+        egui::Grid::new("kappa_matrix")
+            .spacing([4.0, 4.0])
+            .show(ui, |ui| {
+                ui.label("");
+                for b in names {
+                    ui.strong(b);
+                }
+                ui.end_row();
+                for a in names {
+                    ui.strong(a);
+                    for b in names {
+                        let pair = report.pairs.iter().find(|p| {
+                            (&p.reviewer_a == a && &p.reviewer_b == b)
+                                || (&p.reviewer_a == b && &p.reviewer_b == a)
+                        });
+                        match (a == b, pair) {
+                            (true, _) => {
+                                ui.weak("—");
+                            }
+                            (false, None) => {
+                                ui.weak("no shared pairs");
+                            }
+                            (false, Some(p)) => {
+                                let chosen = self.selected_cell.as_ref()
+                                    == Some(&(p.reviewer_a.clone(), p.reviewer_b.clone()));
+                                if kappa_cell(ui, a, b, p, chosen).clicked() {
+                                    self.selected_cell =
+                                        Some((p.reviewer_a.clone(), p.reviewer_b.clone()));
+                                }
+                            }
+                        }
+                    }
+                    ui.end_row();
+                }
+            });
+    }
+}
+
+/// Red (poor) through amber to green (almost perfect) for a kappa value.
+fn kappa_colour(k: f64) -> egui::Color32 {
+    if k.is_nan() {
+        return egui::Color32::GRAY;
+    }
+    let t = k.clamp(0.0, 1.0) as f32;
+    let red = egui::Color32::from_rgb(0xc8, 0x4b, 0x3c);
+    let amber = egui::Color32::from_rgb(0xd9, 0xa4, 0x2b);
+    let green = egui::Color32::from_rgb(0x3c, 0x9a, 0x5f);
+    if t < 0.5 {
+        red.lerp_to_gamma(amber, t * 2.0)
+    } else {
+        amber.lerp_to_gamma(green, (t - 0.5) * 2.0)
+    }
+}
+
+fn kappa_cell(
+    ui: &mut egui::Ui,
+    a: &str,
+    b: &str,
+    p: &ReviewerPair,
+    chosen: bool,
+) -> egui::Response {
+    let (rect, response) = ui.allocate_exact_size(egui::vec2(92.0, 34.0), egui::Sense::click());
+    let fill = kappa_colour(p.kappa_linear);
+    ui.painter().rect_filled(rect, 4.0, fill);
+    if chosen || response.hovered() {
+        let stroke = egui::Stroke::new(2.0, ui.visuals().strong_text_color());
+        ui.painter()
+            .rect_stroke(rect, 4.0, stroke, egui::StrokeKind::Inside);
+    }
+    ui.painter().text(
+        rect.center(),
+        egui::Align2::CENTER_CENTER,
+        format!("{:.2}", p.kappa_linear),
+        egui::FontId::proportional(15.0),
+        egui::Color32::WHITE,
+    );
+    let label = format!("Reviewers {a} and {b}");
+    response.widget_info(|| egui::WidgetInfo::labeled(egui::Role::Button, true, &label));
+    response.on_hover_text(format!(
+        "{} and {}: {} pairs graded by both\nweighted kappa (linear) {:.3}, quadratic {:.3}\nkappa {:.3}, 95 % CI {:.3} to {:.3} ({})\nAC1 {:.3}; observed agreement {:.0} %, chance {:.0} %\nband of the weighted value: {} (Landis & Koch 1977)",
+        p.reviewer_a,
+        p.reviewer_b,
+        p.n,
+        p.kappa_linear,
+        p.kappa_quadratic,
+        p.kappa,
+        p.kappa_ci_low,
+        p.kappa_ci_high,
+        p.band,
+        p.ac1,
+        100.0 * p.observed_agreement,
+        100.0 * p.chance_agreement,
+        crate::core::agreement::landis_koch_band(p.kappa_linear)
+    ))
+}
+
+/// The accessible label of one heatmap cell (tests look cells up by it).
+pub fn heatmap_cell_label(a: &str, level_a: usize, b: &str, level_b: usize, count: u64) -> String {
+    format!("{a} level {level_a}, {b} level {level_b}: {count} pairs")
+}
+
+fn heatmap(ui: &mut egui::Ui, model: &AgreementModel, selected: Option<&(String, String)>) {
+    ui.heading("Where two reviewers differ");
+    let Some((a, b)) = selected else {
+        ui.weak("Pick a cell of the reviewer matrix to see how that pair's levels cross.");
+        return;
+    };
+    let Some(p) = model.pair(a, b) else {
+        ui.weak("This pair shares no graded pairs on the chosen scale.");
+        return;
+    };
+    ui.label(format!(
+        "Rows: {}'s level · columns: {}'s level · {} pairs",
+        p.reviewer_a, p.reviewer_b, p.n
+    ));
+    let max = p
+        .confusion
+        .iter()
+        .flatten()
+        .copied()
+        .max()
+        .unwrap_or(0)
+        .max(1);
+    let level_name = |l: usize| match &model.request.collapse {
+        Some(_) => format!("{l}"),
+        None => model
+            .scale
+            .levels
+            .get(l)
+            .map_or(format!("{l}"), |x| format!("{l} {}", x.label)),
+    };
+    egui::Grid::new("confusion_heatmap")
+        .spacing([3.0, 3.0])
+        .show(ui, |ui| {
+            ui.label("");
+            for j in 0..p.confusion.len() {
+                ui.weak(format!("{j}")).on_hover_text(level_name(j));
+            }
+            ui.end_row();
+            for (i, row) in p.confusion.iter().enumerate() {
+                ui.weak(level_name(i));
+                for (j, count) in row.iter().enumerate() {
+                    let (rect, response) =
+                        ui.allocate_exact_size(egui::vec2(58.0, 30.0), egui::Sense::hover());
+                    let t = *count as f32 / max as f32;
+                    let base = if i == j {
+                        egui::Color32::from_rgb(0x3c, 0x9a, 0x5f)
+                    } else {
+                        egui::Color32::from_rgb(0x3a, 0x6e, 0xa8)
+                    };
+                    let fill = ui
+                        .visuals()
+                        .extreme_bg_color
+                        .lerp_to_gamma(base, 0.15 + 0.85 * t);
+                    ui.painter().rect_filled(rect, 3.0, fill);
+                    ui.painter().text(
+                        rect.center(),
+                        egui::Align2::CENTER_CENTER,
+                        count.to_string(),
+                        egui::FontId::monospace(14.0),
+                        if t > 0.5 {
+                            egui::Color32::WHITE
+                        } else {
+                            ui.visuals().text_color()
+                        },
+                    );
+                    let label = heatmap_cell_label(&p.reviewer_a, i, &p.reviewer_b, j, *count);
+                    response
+                        .widget_info(|| egui::WidgetInfo::labeled(egui::Role::Label, true, &label));
+                }
+                ui.end_row();
+            }
+        });
+    if p.prevalence.dominant_share >= crate::core::agreement::DOMINANT_SHARE_CAUTION {
+        ui.colored_label(
+            egui::Color32::from_rgb(0xc0, 0x7a, 0x10),
+            format!(
+                "Level {} holds {:.0} % of this pair's grades: kappa can be low although they mostly agree.",
+                p.prevalence.dominant_level,
+                100.0 * p.prevalence.dominant_share
+            ),
+        );
+    }
+}
+
+fn coefficient_row(ui: &mut egui::Ui, name: &str, value: f64, extra: String, source: &str) {
+    ui.label(name);
+    ui.monospace(format!("{value:.3}"));
+    ui.label(extra);
+    ui.label(crate::core::agreement::landis_koch_band(value))
+        .on_hover_text(source);
+    ui.end_row();
+}
+
+fn panel_summary(ui: &mut egui::Ui, r: &AgreementReport) {
+    ui.heading("Panel");
+    ui.label(format!(
+        "Scale {}{} · {} reviewers · {} pairs graded · {} can't-judge left out",
+        r.scale,
+        r.collapse
+            .as_ref()
+            .map_or(String::new(), |c| format!(" collapsed by {c}")),
+        r.reviewers.len(),
+        r.units,
+        r.cant_judge
+    ));
+    egui::Grid::new("panel_coefficients")
+        .num_columns(4)
+        .striped(true)
+        .show(ui, |ui| {
+            ui.strong("Coefficient");
+            ui.strong("Value");
+            ui.strong("Based on");
+            ui.strong("Band (hover for source)");
+            ui.end_row();
+            let s = r.band_source;
+            coefficient_row(
+                ui,
+                "Fleiss' kappa",
+                r.fleiss_kappa,
+                format!("{} pairs graded by everyone", r.fleiss_n),
+                s,
+            );
+            coefficient_row(
+                ui,
+                "Krippendorff's alpha (nominal)",
+                r.alpha_nominal,
+                format!("{} pairs with two or more grades", r.alpha_n),
+                s,
+            );
+            coefficient_row(
+                ui,
+                "Krippendorff's alpha (ordinal)",
+                r.alpha_ordinal,
+                format!(
+                    "95 % CI {:.3} to {:.3} (bootstrap, {RESAMPLES} resamples)",
+                    r.alpha_ordinal_ci_low, r.alpha_ordinal_ci_high
+                ),
+                s,
+            );
+            coefficient_row(
+                ui,
+                "Krippendorff's alpha (interval)",
+                r.alpha_interval,
+                format!("{} pairs", r.alpha_n),
+                s,
+            );
+            coefficient_row(
+                ui,
+                "Gwet's AC1",
+                r.ac1,
+                "less swayed by one dominant level".into(),
+                s,
+            );
+        });
+    for caution in &r.cautions {
+        ui.colored_label(
+            egui::Color32::from_rgb(0xc0, 0x7a, 0x10),
+            format!("⚠ {caution}"),
+        );
+    }
+    ui.weak(
+        "Kappa-type numbers mislead when one level dominates; small samples give wide intervals.",
+    );
+}
+
+fn strictness(ui: &mut egui::Ui, model: &AgreementModel) {
+    let review = &model.review;
+    ui.heading("How each reviewer uses the levels");
+    egui::Grid::new("strictness")
+        .striped(true)
+        .show(ui, |ui| {
+            ui.strong("Reviewer");
+            for l in 0..review.levels {
+                ui.strong(format!("level {l}"));
+            }
+            ui.strong("grades");
+            ui.strong("mean difference from the others")
+                .on_hover_text("Own level minus the lower median of the other reviewers' levels on the same pair; below 0 means stricter.");
+            ui.strong("gold pairs right");
+            ui.end_row();
+            for s in &review.strictness {
+                ui.label(&s.reviewer);
+                for (l, share) in s.shares.iter().enumerate() {
+                    let panel = review.panel_shares.get(l).copied().unwrap_or(0.0);
+                    ui.label(format!("{:.0} % (panel {:.0} %)", 100.0 * share, 100.0 * panel));
+                }
+                ui.label(s.graded.to_string());
+                if s.compared == 0 {
+                    ui.weak("no shared pairs");
+                } else {
+                    ui.label(format!("{:+.2} over {} pairs", s.mean_difference, s.compared));
+                }
+                match review.gold.iter().find(|g| g.reviewer == s.reviewer) {
+                    Some(g) => ui.label(format!(
+                        "{} of {} ({:.0} %)",
+                        g.correct,
+                        g.graded,
+                        100.0 * g.correct as f64 / g.graded as f64
+                    )),
+                    None => ui.weak("none graded"),
+                };
+                ui.end_row();
+            }
+        });
+    if review.gold_pairs == 0 {
+        ui.weak("This scale has no gold pairs, so there is no gold accuracy to show.");
+    }
+}
+
+fn drift(ui: &mut egui::Ui, review: &PanelReview) {
+    ui.heading("Agreement with the others by day");
+    ui.weak("Share of a reviewer's grades equal to the lower median of the others' levels on the same pair, by the day graded (UTC). A falling share can mean drift; few pairs on a day mean a wide margin.");
+    if review.days.is_empty() {
+        ui.weak("No pairs were graded by two or more reviewers yet.");
+        return;
+    }
+    egui::Grid::new("drift").striped(true).show(ui, |ui| {
+        ui.strong("Reviewer");
+        for d in &review.days {
+            ui.strong(d);
+        }
+        ui.end_row();
+        for s in &review.strictness {
+            ui.label(&s.reviewer);
+            for d in &review.days {
+                match review
+                    .drift
+                    .iter()
+                    .find(|x| x.reviewer == s.reviewer && &x.day == d)
+                {
+                    Some(x) => ui.label(format!(
+                        "{:.0} % of {}",
+                        100.0 * x.agreed as f64 / x.compared as f64,
+                        x.compared
+                    )),
+                    None => ui.weak("—"),
+                };
+            }
+            ui.end_row();
+        }
+    });
+}

@@ -1,0 +1,437 @@
+//! Disagreements and settling on the Agreement screen: the sorted, filtered list of
+//! disagreeing pairs, one pair's grades side by side, a settled level chosen by hand
+//! with a reason, bulk rules for the rest, and undo. Writes run on a job thread.
+
+use std::path::Path;
+
+use super::agreement::AgreementModel;
+use super::jobs::Pending;
+use crate::analysis::panel_review::Disagreement;
+use crate::core::settle_rules::SettleRule;
+use crate::study::Study;
+
+/// A settling action waiting to be written.
+#[derive(Debug, Clone, PartialEq)]
+pub enum SettleAction {
+    ByHand {
+        pair: (String, String),
+        value: u8,
+        reason: String,
+    },
+    Undo {
+        pair: (String, String),
+        reason: String,
+    },
+    Rule(SettleRule),
+}
+
+/// Writes one action as `settled_by`; returns the line to show afterwards.
+pub fn write(
+    path: &Path,
+    scale: &str,
+    settled_by: &str,
+    action: SettleAction,
+) -> Result<String, String> {
+    let err = |e: crate::study::StudyError| e.to_string();
+    let mut study = Study::open(path).map_err(err)?;
+    match action {
+        SettleAction::ByHand {
+            pair,
+            value,
+            reason,
+        } => {
+            study
+                .settle_pair(scale, &pair, value, settled_by, &reason)
+                .map_err(err)?;
+            Ok(format!("{} / {} settled at level {value}.", pair.0, pair.1))
+        }
+        SettleAction::Undo { pair, reason } => {
+            study
+                .undo_settlement(scale, &pair, settled_by, &reason)
+                .map_err(err)?;
+            Ok(format!("Settlement of {} / {} undone.", pair.0, pair.1))
+        }
+        SettleAction::Rule(rule) => {
+            let n = study.settle_by_rule(scale, rule, settled_by).map_err(err)?;
+            Ok(format!("{n} pairs settled by the {} rule.", rule.method()))
+        }
+    }
+}
+
+/// Filters, the open pair and the form, kept between frames.
+pub struct SettleForm {
+    pub filter_context: String,
+    pub filter_reviewer: Option<String>,
+    pub min_spread: u8,
+    pub open: Option<(String, String)>,
+    pub level: Option<u8>,
+    pub reason: String,
+    /// Who settles when nobody is signed in.
+    pub settler: String,
+    writing: Option<Pending<Result<String, String>>>,
+    pub message: Option<Result<String, String>>,
+}
+
+impl Default for SettleForm {
+    fn default() -> Self {
+        SettleForm {
+            filter_context: String::new(),
+            filter_reviewer: None,
+            min_spread: 1,
+            open: None,
+            level: None,
+            reason: String::new(),
+            settler: String::new(),
+            writing: None,
+            message: None,
+        }
+    }
+}
+
+impl SettleForm {
+    pub fn is_writing(&self) -> bool {
+        self.writing.is_some()
+    }
+
+    /// True once when a write has finished (the screen then reloads its model).
+    pub fn poll_write(&mut self) -> bool {
+        match self.writing.as_ref().and_then(Pending::poll) {
+            Some(result) => {
+                self.writing = None;
+                if result.is_ok() {
+                    self.reason.clear();
+                    self.level = None;
+                }
+                self.message = Some(result);
+                true
+            }
+            None => false,
+        }
+    }
+
+    /// The rows that pass the filters, in the model's order.
+    pub fn visible<'m>(&self, model: &'m AgreementModel) -> Vec<&'m Disagreement> {
+        let needle = self.filter_context.trim().to_lowercase();
+        model
+            .review
+            .disagreements
+            .iter()
+            .filter(|d| d.spread >= self.min_spread)
+            .filter(|d| {
+                needle.is_empty()
+                    || d.context_id.to_lowercase().contains(&needle)
+                    || d.context_text.to_lowercase().contains(&needle)
+            })
+            .filter(|d| {
+                self.filter_reviewer
+                    .as_ref()
+                    .is_none_or(|r| d.grades.iter().any(|g| &g.reviewer == r))
+            })
+            .collect()
+    }
+
+    fn start(
+        &mut self,
+        ctx: &egui::Context,
+        path: &Path,
+        model: &AgreementModel,
+        who: String,
+        action: SettleAction,
+    ) {
+        let path = path.to_path_buf();
+        let scale = model.scale.name.clone();
+        self.message = None;
+        self.writing = Some(Pending::spawn(ctx, move || {
+            write(&path, &scale, &who, action)
+        }));
+    }
+
+    pub fn ui(&mut self, ui: &mut egui::Ui, model: &AgreementModel, path: &Path) {
+        let review = &model.review;
+        let settled = review
+            .disagreements
+            .iter()
+            .filter(|d| d.settled.is_some())
+            .count();
+        ui.heading("Disagreements");
+        ui.label(format!(
+            "{} pairs where reviewers chose different levels, {settled} of them settled. Widest spread first, then pairs inside more rankers' top {}, since those can move a ranker comparison.",
+            review.disagreements.len(),
+            review.top_k
+        ));
+        self.filters(ui, model);
+        let who = model
+            .request
+            .viewer
+            .clone()
+            .unwrap_or_else(|| self.settler.trim().to_string());
+        let can_settle = !model.viewer_is_grading() && !model.read_only && self.writing.is_none();
+        if model.viewer_is_grading() {
+            ui.colored_label(
+                egui::Color32::from_rgb(0xc0, 0x7a, 0x10),
+                "Settling is for after grading: finish your queue on the Grading desk first.",
+            );
+        } else if model.read_only {
+            ui.colored_label(
+                ui.visuals().warn_fg_color,
+                "This study is open read-only; settling is off.",
+            );
+        } else {
+            ui.horizontal(|ui| {
+                if model.request.viewer.is_some() {
+                    ui.label(format!("Settling as {who}"));
+                } else {
+                    let label = ui.label("Who settles");
+                    ui.add(egui::TextEdit::singleline(&mut self.settler).desired_width(140.0))
+                        .labelled_by(label.id);
+                }
+                ui.separator();
+                ui.label("The rest, in one step:");
+                for rule in SettleRule::ALL {
+                    let button = egui::Button::new(format!("Settle the rest by {}", rule.method()));
+                    if ui
+                        .add_enabled(can_settle && !who.is_empty(), button)
+                        .on_hover_text(format!(
+                            "Every disagreeing pair without a settled grade gets the {}. Undo per pair.",
+                            rule.explain()
+                        ))
+                        .clicked()
+                    {
+                        self.start(ui.ctx(), path, model, who.clone(), SettleAction::Rule(rule));
+                    }
+                }
+            });
+        }
+        if self.writing.is_some() {
+            ui.horizontal(|ui| {
+                ui.spinner();
+                ui.label("Saving…");
+            });
+        }
+        match &self.message {
+            Some(Ok(m)) => {
+                ui.label(m);
+            }
+            Some(Err(e)) => {
+                ui.colored_label(ui.visuals().error_fg_color, e);
+            }
+            None => {}
+        }
+        ui.columns(2, |cols| {
+            self.list(&mut cols[0], model);
+            self.detail(&mut cols[1], model, path, can_settle, &who);
+        });
+    }
+
+    fn filters(&mut self, ui: &mut egui::Ui, model: &AgreementModel) {
+        ui.horizontal(|ui| {
+            let label = ui.label("Context contains");
+            ui.add(egui::TextEdit::singleline(&mut self.filter_context).desired_width(160.0))
+                .labelled_by(label.id);
+            let label = ui.label("Reviewer");
+            let shown = self.filter_reviewer.clone().unwrap_or("anyone".into());
+            let combo = egui::ComboBox::from_id_salt("disagreement_reviewer")
+                .selected_text(shown)
+                .show_ui(ui, |ui| {
+                    if ui
+                        .selectable_label(self.filter_reviewer.is_none(), "anyone")
+                        .clicked()
+                    {
+                        self.filter_reviewer = None;
+                    }
+                    for r in &model.report.reviewers {
+                        let on = self.filter_reviewer.as_ref() == Some(r);
+                        if ui.selectable_label(on, r).clicked() {
+                            self.filter_reviewer = Some(r.clone());
+                        }
+                    }
+                });
+            let _ = combo.response.labelled_by(label.id);
+            let label = ui.label("Smallest spread");
+            let top = model.scale.levels.len().saturating_sub(1).max(1) as u8;
+            ui.add(egui::Slider::new(&mut self.min_spread, 1..=top))
+                .labelled_by(label.id);
+        });
+    }
+
+    fn list(&mut self, ui: &mut egui::Ui, model: &AgreementModel) {
+        let rows = self.visible(model);
+        ui.label(format!("{} shown", rows.len()));
+        let height = ui.text_style_height(&egui::TextStyle::Body) * 2.6;
+        egui::ScrollArea::vertical()
+            .id_salt("disagreement_list")
+            .max_height(ui.available_height().max(240.0) - 8.0)
+            .auto_shrink([false, true])
+            .show_rows(ui, height, rows.len(), |ui, range| {
+                for d in &rows[range] {
+                    let pair = (d.context_id.clone(), d.item_id.clone());
+                    let levels: Vec<String> = d
+                        .grades
+                        .iter()
+                        .map(|g| g.value.map_or("?".into(), |v| v.to_string()))
+                        .collect();
+                    let settled = d
+                        .settled
+                        .as_ref()
+                        .and_then(|s| s.value)
+                        .map_or(String::new(), |v| format!(" · settled {v}"));
+                    let text = format!(
+                        "spread {} · levels {} · in {} rankers' top {}{}\n{} — {}",
+                        d.spread,
+                        levels.join(" "),
+                        d.rankers_in_top_k,
+                        model.review.top_k,
+                        settled,
+                        context_words(d),
+                        d.item_title
+                    );
+                    let open = self.open.as_ref() == Some(&pair);
+                    let response = ui.add(
+                        egui::Button::selectable(open, text)
+                            .min_size(egui::vec2(ui.available_width(), height - 4.0)),
+                    );
+                    let label = format!("Open pair {} / {}", d.context_id, d.item_id);
+                    response.widget_info(|| {
+                        egui::WidgetInfo::labeled(egui::Role::Button, true, &label)
+                    });
+                    if response.clicked() {
+                        self.open = Some(pair);
+                        self.level = d.settled.as_ref().and_then(|s| s.value);
+                        self.reason.clear();
+                    }
+                }
+            });
+    }
+
+    fn detail(
+        &mut self,
+        ui: &mut egui::Ui,
+        model: &AgreementModel,
+        path: &Path,
+        can_settle: bool,
+        who: &str,
+    ) {
+        let Some(open) = self.open.clone() else {
+            ui.weak("Open a pair from the list to see each reviewer's level, note and time.");
+            return;
+        };
+        let Some(d) = model
+            .review
+            .disagreements
+            .iter()
+            .find(|d| d.context_id == open.0 && d.item_id == open.1)
+        else {
+            ui.weak("This pair is no longer in disagreement on this scale (or is hidden by the blind rule).");
+            return;
+        };
+        ui.strong(format!("Context {}: {}", d.context_id, context_words(d)));
+        ui.label(format!("Item {}: {}", d.item_id, d.item_title));
+        ui.label(match d.best_rank {
+            Some(r) => format!(
+                "Best rank {r}; in {} rankers' top {}.",
+                d.rankers_in_top_k, model.review.top_k
+            ),
+            None => "No ranker returns this item here.".into(),
+        });
+        egui::Grid::new("pair_grades").striped(true).show(ui, |ui| {
+            ui.strong("Reviewer");
+            ui.strong("Level");
+            ui.strong("Note");
+            ui.strong("Seconds");
+            ui.end_row();
+            for g in &d.grades {
+                ui.label(&g.reviewer);
+                ui.label(match g.value {
+                    Some(v) => level_text(model, v),
+                    None => format!("can't judge: {}", g.reason),
+                });
+                ui.label(&g.note);
+                ui.label(g.seconds.map_or("—".into(), |s| format!("{s:.1}")));
+                ui.end_row();
+            }
+        });
+        ui.label(format!(
+            "Panel grade without settling (lower median): {}",
+            level_text(model, d.panel_level)
+        ));
+        if let Some(s) = &d.settled {
+            ui.label(format!(
+                "Settled at {} by {} ({}) on {}{}",
+                s.value.map_or("—".into(), |v| level_text(model, v)),
+                s.settled_by,
+                s.method,
+                s.settled_at,
+                if s.reason.is_empty() {
+                    String::new()
+                } else {
+                    format!(": {}", s.reason)
+                }
+            ));
+        }
+        if !can_settle {
+            return;
+        }
+        ui.add_space(6.0);
+        ui.label("Settled level");
+        ui.horizontal_wrapped(|ui| {
+            for level in &model.scale.levels {
+                let text = format!("Settle at {} {}", level.value, level.label);
+                if ui
+                    .selectable_label(self.level == Some(level.value), text)
+                    .clicked()
+                {
+                    self.level = Some(level.value);
+                }
+            }
+        });
+        let label = ui.label("Why");
+        ui.add(egui::TextEdit::singleline(&mut self.reason).desired_width(f32::INFINITY))
+            .labelled_by(label.id);
+        ui.horizontal(|ui| {
+            let ready = self.level.is_some() && !who.is_empty();
+            if ui
+                .add_enabled(ready, egui::Button::new("Record settled level"))
+                .clicked()
+                && let Some(value) = self.level
+            {
+                let action = SettleAction::ByHand {
+                    pair: open.clone(),
+                    value,
+                    reason: self.reason.clone(),
+                };
+                self.start(ui.ctx(), path, model, who.to_string(), action);
+            }
+            if d.settled.is_some()
+                && ui
+                    .add_enabled(!who.is_empty(), egui::Button::new("Undo settlement"))
+                    .clicked()
+            {
+                let action = SettleAction::Undo {
+                    pair: open.clone(),
+                    reason: self.reason.clone(),
+                };
+                self.start(ui.ctx(), path, model, who.to_string(), action);
+            }
+        });
+        if who.is_empty() {
+            ui.weak("Type who settles (or sign in) to record a settled level.");
+        }
+    }
+}
+
+fn context_words(d: &Disagreement) -> String {
+    if d.context_text.is_empty() {
+        format!("more like {}", d.context_id)
+    } else {
+        format!("“{}”", d.context_text)
+    }
+}
+
+fn level_text(model: &AgreementModel, v: u8) -> String {
+    model
+        .scale
+        .levels
+        .iter()
+        .find(|l| l.value == v)
+        .map_or(v.to_string(), |l| format!("{v} {}", l.label))
+}

@@ -1,0 +1,325 @@
+//! The Agreement screen driven through the real workbench (`Workbench::show`) with
+//! egui_kittest on a fresh copy of the demo study. Numbers on screen are compared with
+//! what the engines (`analysis::agreement`, `analysis::scoreboard`) compute from the
+//! study file on their own.
+
+use std::path::{Path, PathBuf};
+use std::time::{Duration, Instant};
+
+use egui_kittest::Harness;
+use egui_kittest::kittest::Queryable;
+use plumbline::analysis::agreement;
+use plumbline::analysis::judgments::{GradeSource, level_of, lower_median, resolve};
+use plumbline::analysis::scoreboard::{self, ScoreSettings, Scoreboard};
+use plumbline::cli::ScreenName;
+use plumbline::study::Study;
+use plumbline::ui::Workbench;
+use plumbline::ui::agreement::{AgreementModel, RESAMPLES, SEED, heatmap_cell_label};
+
+fn demo_copy() -> (tempfile::TempDir, PathBuf) {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("demo.plumb");
+    plumbline::demo::build_demo_study(&path).unwrap();
+    (dir, path)
+}
+
+fn harness(wb: Workbench) -> Harness<'static, Workbench> {
+    Harness::builder()
+        .with_size([1360.0, 2400.0])
+        .build_ui_state(|ui, wb: &mut Workbench| wb.show(ui), wb)
+}
+
+fn step_until(
+    h: &mut Harness<'static, Workbench>,
+    what: &str,
+    done: impl Fn(&Harness<'static, Workbench>) -> bool,
+) {
+    let start = Instant::now();
+    while !done(h) {
+        assert!(
+            start.elapsed() < Duration::from_secs(60),
+            "timed out waiting for {what}"
+        );
+        h.step();
+        std::thread::sleep(Duration::from_millis(5));
+    }
+}
+
+fn model<'h>(h: &'h Harness<'static, Workbench>) -> &'h AgreementModel {
+    match &h.state().agreement.model {
+        Some(Ok(m)) => m,
+        other => panic!("no model: {:?}", other.as_ref().map(|_| ())),
+    }
+}
+
+/// Waits for the first model (and for any reload in flight to land).
+fn wait_for_model(h: &mut Harness<'static, Workbench>) {
+    step_until(h, "the agreement model", |h| {
+        matches!(h.state().agreement.model, Some(Ok(_)))
+            && !h.state().agreement.is_loading()
+            && !h.state().agreement.settle.is_writing()
+    });
+    h.step();
+}
+
+fn scores(path: &Path) -> Scoreboard {
+    let study = Study::open(path).unwrap();
+    let snapshot = study.snapshot().unwrap();
+    let settings = ScoreSettings {
+        bootstrap_resamples: 50,
+        randomization_resamples: 50,
+        ..ScoreSettings::default()
+    };
+    scoreboard::build(&snapshot, &settings).unwrap()
+}
+
+/// Every ranker's per-context value (as bits, so NaN compares equal to itself).
+fn per_context(board: &Scoreboard, key: &str) -> Vec<u64> {
+    board
+        .rankers
+        .iter()
+        .flat_map(|r| r.per_context.iter().map(|c| c.values[key].to_bits()))
+        .collect()
+}
+
+#[test]
+fn picking_a_matrix_cell_shows_the_engines_confusion_counts() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(Workbench::new(path.clone(), ScreenName::Agreement));
+    wait_for_model(&mut h);
+
+    let study = Study::open(&path).unwrap();
+    let snapshot = study.snapshot().unwrap();
+    let scale = snapshot.busiest_scale().unwrap();
+    let engine = agreement::build(&snapshot, scale, None, RESAMPLES, SEED);
+    assert_eq!(model(&h).report.scale, engine.scale);
+
+    // Panel numbers on screen are the engine's.
+    for value in [
+        engine.fleiss_kappa,
+        engine.alpha_nominal,
+        engine.alpha_ordinal,
+        engine.alpha_interval,
+        engine.ac1,
+    ] {
+        let shown = format!("{value:.3}");
+        assert!(h.query_by_label(&shown).is_some(), "{shown} not on screen");
+    }
+
+    assert!(engine.pairs.len() >= 3);
+    for pair in &engine.pairs {
+        let cell = format!("Reviewers {} and {}", pair.reviewer_a, pair.reviewer_b);
+        h.get_by_label(&cell).click();
+        h.step();
+        h.step();
+        let mut cells = 0;
+        for (i, row) in pair.confusion.iter().enumerate() {
+            for (j, count) in row.iter().enumerate() {
+                let label = heatmap_cell_label(&pair.reviewer_a, i, &pair.reviewer_b, j, *count);
+                assert!(h.query_by_label(&label).is_some(), "missing: {label}");
+                cells += 1;
+            }
+        }
+        assert_eq!(cells, engine.levels * engine.levels);
+        // A wrong count is not on screen (guards against a label that ignores counts).
+        let wrong = heatmap_cell_label(
+            &pair.reviewer_a,
+            0,
+            &pair.reviewer_b,
+            0,
+            pair.confusion[0][0] + 1,
+        );
+        assert!(h.query_by_label(&wrong).is_none());
+    }
+}
+
+#[test]
+fn settling_by_hand_then_by_the_median_rule_reaches_the_panel_scores() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(Workbench::new(path.clone(), ScreenName::Agreement));
+    wait_for_model(&mut h);
+    let before = scores(&path);
+    let key = "ndcg@10";
+
+    // The top row: widest spread, inside the most rankers' top k.
+    let top = model(&h).review.disagreements[0].clone();
+    assert!(top.rankers_in_top_k > 0);
+    let levels: Vec<u8> = top.grades.iter().filter_map(|g| g.value).collect();
+    let hand = if *levels.iter().max().unwrap() != top.panel_level {
+        *levels.iter().max().unwrap()
+    } else {
+        *levels.iter().min().unwrap()
+    };
+    let level_label = {
+        let scale = &model(&h).scale;
+        let l = scale.levels.iter().find(|l| l.value == hand).unwrap();
+        format!("Settle at {} {}", l.value, l.label)
+    };
+
+    h.get_by_label_contains("Disagreements (").click();
+    h.step();
+    h.get_by_label(&format!("Open pair {} / {}", top.context_id, top.item_id))
+        .click();
+    h.step();
+    h.step();
+    // The pair detail shows each reviewer's note and seconds.
+    for g in &top.grades {
+        if let Some(s) = g.seconds {
+            assert!(h.query_by_label(&format!("{s:.1}")).is_some());
+        }
+    }
+    type_into(&mut h, "Who settles", "lead-juniper");
+    h.get_by_label(&level_label).click();
+    h.step();
+    type_into(&mut h, "Why", "two of three read the rubric this way");
+    h.get_by_label("Record settled level").click();
+    h.step();
+    wait_for_model(&mut h);
+
+    let study = Study::open(&path).unwrap();
+    let in_force = study.settled_in_force(&model(&h).scale.name).unwrap();
+    assert_eq!(in_force.len(), 1);
+    assert_eq!(in_force[0].value, Some(hand));
+    assert_eq!(in_force[0].settled_by, "lead-juniper");
+    assert_eq!(in_force[0].reason, "two of three read the rubric this way");
+    let after_hand = scores(&path);
+    assert_ne!(
+        per_context(&before, key),
+        per_context(&after_hand, key),
+        "a settled level that differs from the lower median must move some NDCG"
+    );
+    let shown_row = model(&h).review.disagreements[0].settled.clone();
+    assert_eq!(shown_row.and_then(|s| s.value), Some(hand));
+
+    h.get_by_label("Settle the rest by median").click();
+    h.step();
+    wait_for_model(&mut h);
+    let study = Study::open(&path).unwrap();
+    let snapshot = study.snapshot().unwrap();
+    let scale = snapshot.scale_index(&model(&h).scale.name).unwrap();
+    let settled = study
+        .settled_in_force(&snapshot.scales[scale].name)
+        .unwrap();
+    assert_eq!(settled.len(), model(&h).review.disagreements.len());
+    // Every pair the rule settled holds the lower median of its reviewers' levels, and
+    // panel scoring reads the settled grades; the hand-settled pair keeps its level.
+    let judged = resolve(&snapshot, scale, &GradeSource::Panel);
+    for s in &settled {
+        let c = snapshot
+            .contexts
+            .iter()
+            .position(|x| x.id == s.context_id)
+            .unwrap();
+        let i = snapshot
+            .items
+            .iter()
+            .position(|x| x.id == s.item_id)
+            .unwrap() as u32;
+        assert_eq!(level_of(&judged[c], i), s.value);
+        if (s.context_id.as_str(), s.item_id.as_str())
+            == (top.context_id.as_str(), top.item_id.as_str())
+        {
+            assert_eq!(s.value, Some(hand));
+            assert_eq!(s.method, "hand");
+        } else {
+            let mut levels: Vec<u8> = snapshot
+                .grades
+                .iter()
+                .filter(|g| g.scale as usize == scale && g.context as usize == c && g.item == i)
+                .filter_map(|g| g.value)
+                .collect();
+            assert_eq!(s.value, lower_median(&mut levels));
+            assert_eq!(s.method, "median");
+        }
+    }
+    // The median rule agrees with panel scoring's own fallback, so only the hand
+    // settlement moved the scores.
+    assert_eq!(
+        per_context(&after_hand, key),
+        per_context(&scores(&path), key)
+    );
+}
+
+fn type_into(h: &mut Harness<'static, Workbench>, label: &str, text: &str) {
+    h.get_by_role_and_label(egui::Role::TextInput, label)
+        .focus();
+    h.step();
+    h.get_by_role_and_label(egui::Role::TextInput, label)
+        .type_text(text);
+    h.step();
+}
+
+#[test]
+fn the_blind_rule_hides_other_grades_from_a_reviewer_with_pending_pairs() {
+    let (_dir, path) = demo_copy();
+    let scale_name = {
+        let mut study = Study::open(&path).unwrap();
+        let snapshot = study.snapshot().unwrap();
+        let name = snapshot.scales[snapshot.busiest_scale().unwrap()]
+            .name
+            .clone();
+        study.add_reviewer("rev-dune").unwrap();
+        study.ensure_queue("rev-dune", &name).unwrap();
+        name
+    };
+    let pending = Study::open(&path)
+        .unwrap()
+        .pending_pairs("rev-dune", &scale_name)
+        .unwrap();
+    assert!(!pending.is_empty());
+
+    // Seen by nobody in particular, some of those pairs are disagreements.
+    let mut open = harness(Workbench::new(path.clone(), ScreenName::Agreement));
+    wait_for_model(&mut open);
+    let visible_to_all = model(&open).review.disagreements.clone();
+    assert!(
+        visible_to_all
+            .iter()
+            .any(|d| pending.contains(&(d.context_id.clone(), d.item_id.clone()))),
+        "the check needs a pending pair that is a disagreement"
+    );
+
+    let mut wb = Workbench::new(path.clone(), ScreenName::Agreement);
+    wb.reviewer = Some("rev-dune".into());
+    let mut h = harness(wb);
+    wait_for_model(&mut h);
+    let m = model(&h);
+    assert_eq!(m.hidden_pairs, pending.len());
+    for d in &m.review.disagreements {
+        assert!(!pending.contains(&(d.context_id.clone(), d.item_id.clone())));
+    }
+    // The coefficients leave the hidden pairs out too: the engine on a snapshot without
+    // them gives the same numbers.
+    let study = Study::open(&path).unwrap();
+    let mut snapshot = study.snapshot().unwrap();
+    let scale = snapshot.scale_index(&scale_name).unwrap();
+    let ids: Vec<(String, String)> = snapshot
+        .grades
+        .iter()
+        .map(|g| {
+            (
+                snapshot.contexts[g.context as usize].id.clone(),
+                snapshot.items[g.item as usize].id.clone(),
+            )
+        })
+        .collect();
+    let mut keep = ids.iter().map(|p| !pending.contains(p));
+    snapshot.grades.retain(|_| keep.next().unwrap());
+    let engine = agreement::build(&snapshot, scale, None, RESAMPLES, SEED);
+    assert_eq!(m.report.units, engine.units);
+    assert_eq!(
+        m.report.fleiss_kappa.to_bits(),
+        engine.fleiss_kappa.to_bits()
+    );
+    assert!(m.report.units < model(&open).report.units);
+    // No settling while grading.
+    h.get_by_label_contains("Disagreements (").click();
+    h.step();
+    h.step();
+    assert!(
+        h.query_by_label_contains("Settling is for after grading")
+            .is_some()
+    );
+    assert!(h.query_by_label("Settle the rest by median").is_none());
+    assert!(h.query_by_label("Record settled level").is_none());
+}

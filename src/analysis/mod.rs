@@ -2,7 +2,9 @@
 //! so they always show the same numbers.
 
 pub mod agreement;
+pub mod gaps;
 pub mod judgments;
 pub mod render;
+pub mod report;
 pub mod scoreboard;
 pub mod trial;

@@ -7,6 +7,8 @@ pub mod desk;
 pub mod home;
 pub mod image_cache;
 pub mod jobs;
+pub mod scoreboard;
+pub mod scoreboard_plots;
 pub mod shell;
 pub mod sign_in;
 pub mod study_picker;

@@ -7,15 +7,22 @@ use super::catalog::Catalog;
 use super::desk::Desk;
 use super::home::{self, HomeModel};
 use super::jobs::Pending;
+use super::scoreboard::{ScoreboardAction, ScoreboardScreen};
 use super::sign_in::SignIn;
 use super::study_picker::{PickerOutcome, Prefs, StudyPicker};
 use crate::cli::ScreenName;
 
 /// The screens that exist, in rail order, with their shortcut digit.
-const SCREENS: [(ScreenName, &str, egui::Key, &str); 3] = [
+const SCREENS: [(ScreenName, &str, egui::Key, &str); 4] = [
     (ScreenName::Home, "Home", egui::Key::Num1, "Ctrl+1"),
     (ScreenName::Catalog, "Catalog", egui::Key::Num2, "Ctrl+2"),
     (ScreenName::Desk, "Grading desk", egui::Key::Num3, "Ctrl+3"),
+    (
+        ScreenName::Scoreboard,
+        "Scoreboard",
+        egui::Key::Num6,
+        "Ctrl+6",
+    ),
 ];
 
 /// The workbench application state.
@@ -28,6 +35,7 @@ pub struct Workbench {
     home_loading: Option<Pending<Result<HomeModel, String>>>,
     pub catalog: Catalog,
     pub desk: Desk,
+    pub scoreboard: ScoreboardScreen,
     sign_in: SignIn,
     picker: StudyPicker,
     title: Option<String>,
@@ -43,7 +51,7 @@ impl Workbench {
     /// A workbench that keeps recent studies and the last reviewer in `prefs`.
     pub fn with_prefs(path: PathBuf, screen: ScreenName, mut prefs: Prefs) -> Workbench {
         let screen = match screen {
-            ScreenName::Catalog | ScreenName::Desk => screen,
+            ScreenName::Catalog | ScreenName::Desk | ScreenName::Scoreboard => screen,
             _ => ScreenName::Home,
         };
         prefs.remember_study(&path);
@@ -57,6 +65,7 @@ impl Workbench {
             home_loading: None,
             catalog: Catalog::default(),
             desk: Desk::default(),
+            scoreboard: ScoreboardScreen::default(),
             sign_in: SignIn::default(),
             picker: StudyPicker::default(),
             title: None,
@@ -170,6 +179,16 @@ impl Workbench {
         egui::CentralPanel::default_margins().show(ui, |ui| match self.screen {
             ScreenName::Catalog => self.catalog.ui(ui, &self.path),
             ScreenName::Desk => self.desk_screen(ui),
+            ScreenName::Scoreboard => {
+                let signed_in = self.reviewer.clone();
+                let action = self.scoreboard.ui(ui, &self.path, signed_in.as_deref());
+                if let Some(ScoreboardAction::OpenDesk(r)) = action
+                    && self.desk.save_status().is_ok()
+                {
+                    self.sign_in(&ui.ctx().clone(), &r);
+                    self.screen = ScreenName::Desk;
+                }
+            }
             _ => match &self.home {
                 None => {
                     ui.horizontal(|ui| {

@@ -333,6 +333,9 @@ pub enum ScoreboardAction {
     OpenDesk(String),
 }
 
+/// Queues the gaps for a reviewer: (reviewer, pairs queued, pairs new to their queue).
+type GapJob = Pending<Result<(String, usize, usize), String>>;
+
 /// The screen's state: the settings being edited, the last model and running jobs.
 pub struct ScoreboardScreen {
     /// Settings the controls edit; a change starts a new computation.
@@ -345,7 +348,7 @@ pub struct ScoreboardScreen {
     last_frame: u64,
     pub candidate: Option<String>,
     pub gap_reviewer: Option<String>,
-    gap_job: Option<Pending<Result<(String, usize, usize), String>>>,
+    gap_job: Option<GapJob>,
     pub message: Option<String>,
     export_job: Option<Pending<Result<String, String>>>,
 }
@@ -738,22 +741,22 @@ impl ScoreboardScreen {
             let busy = self.export_job.is_some();
             let csv = ui.add_enabled(!busy, egui::Button::new("Save scores CSV…"));
             let md = ui.add_enabled(!busy, egui::Button::new("Save report (Markdown)…"));
-            let (name, text, filter) = if csv.clicked() {
-                (
-                    "scores.csv",
-                    render::scoreboard_csv(&model.board),
-                    ("CSV", "csv"),
-                )
+            let report_wanted = if csv.clicked() {
+                false
             } else if md.clicked() {
-                (
-                    "report.md",
-                    report::markdown(&model.board, model.agreement.as_ref()),
-                    ("Markdown", "md"),
-                )
+                true
             } else {
                 return;
             };
+            // Rendering and writing happen on the job thread with a copy of the model.
+            let board = model.board.clone();
+            let agreement = model.agreement.clone();
             self.export_job = Some(Pending::spawn(ctx, move || {
+                let (name, filter) = if report_wanted {
+                    ("report.md", ("Markdown", "md"))
+                } else {
+                    ("scores.csv", ("CSV", "csv"))
+                };
                 let dialog = rfd::AsyncFileDialog::new()
                     .add_filter(filter.0, &[filter.1])
                     .set_file_name(name)
@@ -762,6 +765,11 @@ impl ScoreboardScreen {
                     return Err("Nothing saved.".to_string());
                 };
                 let target = handle.path().to_path_buf();
+                let text = if report_wanted {
+                    report::markdown(&board, agreement.as_ref())
+                } else {
+                    render::scoreboard_csv(&board)
+                };
                 std::fs::write(&target, text)
                     .map(|_| format!("Saved {}.", target.display()))
                     .map_err(|e| format!("{}: {e}", target.display()))

@@ -2,7 +2,7 @@
 //! interval bands, sorted per-context differences against the baseline, and a histogram
 //! of per-context NDCG.
 
-use egui_plot::{Bar, BarChart, FilledArea, Legend, Line, Plot, PlotPoints};
+use egui_plot::{Bar, BarChart, Corner, FilledArea, Legend, Line, Plot, PlotPoints};
 
 use super::scoreboard::ScoreboardModel;
 
@@ -60,7 +60,7 @@ pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate
             Plot::new("sb_curve")
                 .width(width)
                 .height(height)
-                .legend(Legend::default())
+                .legend(Legend::default().position(Corner::RightBottom))
                 .include_y(1.0)
                 .x_axis_label("k")
                 .allow_scroll(false)
@@ -120,7 +120,7 @@ pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate
             Plot::new("sb_histogram")
                 .width(width)
                 .height(height)
-                .legend(Legend::default())
+                .legend(Legend::default().position(Corner::LeftTop))
                 .x_axis_label(format!("NDCG@{focus}"))
                 .allow_scroll(false)
                 .show(ui, |p| {

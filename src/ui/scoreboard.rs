@@ -943,7 +943,7 @@ fn caution_box(ui: &mut egui::Ui, board: &Scoreboard) {
 fn sensitivity(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize) {
     let key = format!("ndcg@{focus}");
     ui.strong(format!("Reviewer sensitivity (NDCG@{focus})"));
-    ui.label("Each reviewer's own grades scored alone. Kendall's tau-b compares the ranker order with the panel's; a changed order means the ranking rests on whose judgment counts.");
+    ui.label("Each reviewer's own grades scored alone. Kendall's tau-b compares the ranker order with the panel's; a changed order means the ranking rests on whose judgment counts. A reviewer who graded only a share of the pool leaves the rest unjudged (counted by the unjudged setting), so compare orders here, not levels.");
     let Some(panel) = model.panel_means.get(&key) else {
         return;
     };

@@ -105,10 +105,13 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             study,
             grades,
             scores,
+            report,
         }) => {
             let study_file = open(&study)?;
-            if grades.is_none() && scores.is_none() {
-                return Err(Failure::input("name at least one of --grades or --scores"));
+            if grades.is_none() && scores.is_none() && report.is_none() {
+                return Err(Failure::input(
+                    "name at least one of --grades, --scores or --report",
+                ));
             }
             if let Some(path) = grades {
                 let mut file = std::fs::File::create(&path)
@@ -116,7 +119,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                 let rows = study_file.export_grades(&mut file)?;
                 eprintln!("{}: {rows} grades written", path.display());
             }
-            if let Some(path) = scores {
+            if scores.is_some() || report.is_some() {
                 let snapshot = study_file.snapshot()?;
                 let settings = scoreboard::ScoreSettings {
                     baseline: default_baseline(&study),
@@ -124,9 +127,25 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                 };
                 let board = scoreboard::build(&snapshot, &settings)
                     .map_err(|e| Failure::input(e.to_string()))?;
-                std::fs::write(&path, render::scoreboard_csv(&board))
-                    .map_err(|e| Failure::other(format!("{}: {e}", path.display())))?;
-                eprintln!("{}: scores written", path.display());
+                let write = |path: &Path, text: String, what: &str| {
+                    std::fs::write(path, text)
+                        .map_err(|e| Failure::other(format!("{}: {e}", path.display())))?;
+                    eprintln!("{}: {what} written", path.display());
+                    Ok::<(), Failure>(())
+                };
+                if let Some(path) = scores {
+                    write(&path, render::scoreboard_csv(&board), "scores")?;
+                }
+                if let Some(path) = report {
+                    let agreement = snapshot
+                        .scale_index(&board.scale)
+                        .map(|s| agreement::build(&snapshot, s, None, 1000, 20_261_201));
+                    write(
+                        &path,
+                        crate::analysis::report::markdown(&board, agreement.as_ref()),
+                        "report",
+                    )?;
+                }
             }
             Ok(())
         }

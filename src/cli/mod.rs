@@ -114,6 +114,9 @@ pub enum Command {
         grades: Option<PathBuf>,
         #[arg(long)]
         scores: Option<PathBuf>,
+        /// A Markdown report: settings, rankers with intervals, comparisons, agreement, cautions.
+        #[arg(long)]
+        report: Option<PathBuf>,
     },
     /// Bring in grades and settled grades from studies graded elsewhere.
     Merge {

@@ -3,6 +3,7 @@
 pub mod collapse;
 pub mod csv_input;
 pub mod export;
+pub mod gap_queue;
 pub mod grades;
 pub mod import;
 pub mod merge;

@@ -8,12 +8,13 @@ use super::catalog::Catalog;
 use super::desk::Desk;
 use super::home::{self, HomeModel};
 use super::jobs::Pending;
+use super::scoreboard::{ScoreboardAction, ScoreboardScreen};
 use super::sign_in::SignIn;
 use super::study_picker::{PickerOutcome, Prefs, StudyPicker};
 use crate::cli::ScreenName;
 
 /// The screens that exist, in rail order, with their shortcut digit.
-const SCREENS: [(ScreenName, &str, egui::Key, &str); 4] = [
+const SCREENS: [(ScreenName, &str, egui::Key, &str); 5] = [
     (ScreenName::Home, "Home", egui::Key::Num1, "Ctrl+1"),
     (ScreenName::Catalog, "Catalog", egui::Key::Num2, "Ctrl+2"),
     (ScreenName::Desk, "Grading desk", egui::Key::Num3, "Ctrl+3"),
@@ -22,6 +23,12 @@ const SCREENS: [(ScreenName, &str, egui::Key, &str); 4] = [
         "Agreement",
         egui::Key::Num5,
         "Ctrl+5",
+    ),
+    (
+        ScreenName::Scoreboard,
+        "Scoreboard",
+        egui::Key::Num6,
+        "Ctrl+6",
     ),
 ];
 
@@ -36,6 +43,7 @@ pub struct Workbench {
     pub catalog: Catalog,
     pub desk: Desk,
     pub agreement: AgreementScreen,
+    pub scoreboard: ScoreboardScreen,
     sign_in: SignIn,
     picker: StudyPicker,
     title: Option<String>,
@@ -51,7 +59,10 @@ impl Workbench {
     /// A workbench that keeps recent studies and the last reviewer in `prefs`.
     pub fn with_prefs(path: PathBuf, screen: ScreenName, mut prefs: Prefs) -> Workbench {
         let screen = match screen {
-            ScreenName::Catalog | ScreenName::Desk | ScreenName::Agreement => screen,
+            ScreenName::Catalog
+            | ScreenName::Desk
+            | ScreenName::Agreement
+            | ScreenName::Scoreboard => screen,
             _ => ScreenName::Home,
         };
         prefs.remember_study(&path);
@@ -66,6 +77,7 @@ impl Workbench {
             catalog: Catalog::default(),
             desk: Desk::default(),
             agreement: AgreementScreen::default(),
+            scoreboard: ScoreboardScreen::default(),
             sign_in: SignIn::default(),
             picker: StudyPicker::default(),
             title: None,
@@ -180,6 +192,16 @@ impl Workbench {
             ScreenName::Catalog => self.catalog.ui(ui, &self.path),
             ScreenName::Desk => self.desk_screen(ui),
             ScreenName::Agreement => self.agreement.ui(ui, &self.path, self.reviewer.as_deref()),
+            ScreenName::Scoreboard => {
+                let signed_in = self.reviewer.clone();
+                let action = self.scoreboard.ui(ui, &self.path, signed_in.as_deref());
+                if let Some(ScoreboardAction::OpenDesk(r)) = action
+                    && self.desk.save_status().is_ok()
+                {
+                    self.sign_in(&ui.ctx().clone(), &r);
+                    self.screen = ScreenName::Desk;
+                }
+            }
             _ => match &self.home {
                 None => {
                     ui.horizontal(|ui| {

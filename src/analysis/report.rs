@@ -1,0 +1,268 @@
+//! The Markdown report: settings, rankers with intervals, comparisons against the
+//! baseline, an agreement summary and the cautions. Plain GitHub-flavoured Markdown
+//! (pipe tables, no HTML) so it reads the same on code-hosting sites and in a terminal.
+
+use std::fmt::Write;
+
+use super::agreement::AgreementReport;
+use super::scoreboard::{OFFLINE_CAUTION, Scoreboard};
+use crate::core::metrics::{GainKind, Unjudged};
+
+fn num(x: f64) -> String {
+    if x.is_finite() {
+        format!("{x:.3}")
+    } else {
+        "–".into()
+    }
+}
+
+fn p_value(p: f64) -> String {
+    if !p.is_finite() {
+        "–".into()
+    } else if p < 0.001 {
+        "< 0.001".into()
+    } else {
+        format!("{p:.3}")
+    }
+}
+
+/// A table cell: pipes and line breaks would break the table.
+fn cell(text: &str) -> String {
+    text.replace('|', "\\|").replace(['\n', '\r'], " ")
+}
+
+fn table(out: &mut String, header: &[String], rows: &[Vec<String>]) {
+    let line = |cells: &[String]| {
+        let cells: Vec<String> = cells.iter().map(|c| cell(c)).collect();
+        format!("| {} |\n", cells.join(" | "))
+    };
+    out.push_str(&line(header));
+    let rule: Vec<String> = header
+        .iter()
+        .enumerate()
+        .map(|(i, _)| if i == 0 { ":--" } else { "--:" }.to_string())
+        .collect();
+    out.push_str(&format!("|{}|\n", rule.join("|")));
+    for row in rows {
+        out.push_str(&line(row));
+    }
+    out.push('\n');
+}
+
+/// Names the settings in words a reader outside the team understands.
+fn settings_lines(board: &Scoreboard) -> Vec<(String, String)> {
+    let s = &board.settings;
+    let ks: Vec<String> = s.ks.iter().map(usize::to_string).collect();
+    vec![
+        ("Study".into(), board.study.clone()),
+        ("Scale".into(), board.scale.clone()),
+        (
+            "Grades".into(),
+            match s.grades.label().as_str() {
+                "panel" => "panel (settled grade, else lower median of the reviewers)".into(),
+                r => format!("reviewer {r} only"),
+            },
+        ),
+        ("Cut-offs k".into(), ks.join(", ")),
+        (
+            "Gain".into(),
+            match s.gain {
+                GainKind::Exponential => "exponential (2^level − 1)".into(),
+                GainKind::Linear => "linear (level)".into(),
+            },
+        ),
+        (
+            "Unjudged items".into(),
+            match s.unjudged {
+                Unjudged::Zero => "count as gain 0".into(),
+                Unjudged::Condense => "removed before cutting at k (condensed lists)".into(),
+            },
+        ),
+        ("Segment".into(), s.segment.label()),
+        (
+            "Baseline".into(),
+            board
+                .comparisons
+                .first()
+                .map(|c| c.baseline.clone())
+                .or_else(|| s.baseline.clone())
+                .unwrap_or_else(|| "–".into()),
+        ),
+        (
+            "Contexts".into(),
+            format!(
+                "{} scored; {} left out with no relevant item",
+                board.contexts_scored, board.contexts_without_relevant
+            ),
+        ),
+        (
+            "Intervals".into(),
+            format!(
+                "95 % percentile bootstrap over contexts, {} resamples; randomization tests with {} resamples; seed {}",
+                s.bootstrap_resamples, s.randomization_resamples, s.seed
+            ),
+        ),
+    ]
+}
+
+/// The metric columns of the ranker table: NDCG at every k, then the rest at each k, then RR.
+pub fn report_metric_keys(ks: &[usize]) -> Vec<String> {
+    let mut keys = Vec::new();
+    for name in ["ndcg", "precision", "err", "judged"] {
+        for k in ks {
+            keys.push(format!("{name}@{k}"));
+        }
+    }
+    keys.push("rr".into());
+    keys
+}
+
+/// Renders the report. `agreement` is left out (with a note) when the scale has too few
+/// reviewers to measure it.
+pub fn markdown(board: &Scoreboard, agreement: Option<&AgreementReport>) -> String {
+    let mut out = String::new();
+    let _ = writeln!(out, "# Scoreboard report: {}\n", board.study);
+    let _ = writeln!(out, "> **Caution.** {OFFLINE_CAUTION}\n");
+
+    out.push_str("## Settings\n\n");
+    for (name, value) in settings_lines(board) {
+        let _ = writeln!(out, "- **{name}:** {value}");
+    }
+    out.push('\n');
+
+    out.push_str("## Rankers\n\n");
+    out.push_str("Mean over contexts with the 95 % interval in brackets; judged@k is the share of the top k that has a grade.\n\n");
+    let keys = report_metric_keys(&board.settings.ks);
+    let header: Vec<String> = std::iter::once("ranker".to_string())
+        .chain(keys.iter().map(|k| k.replace("ndcg", "NDCG")))
+        .collect();
+    let rows: Vec<Vec<String>> = board
+        .rankers
+        .iter()
+        .map(|r| {
+            std::iter::once(r.ranker.clone())
+                .chain(keys.iter().map(|key| match r.metrics.get(key) {
+                    Some(m) if key.starts_with("judged") => format!("{:.0} %", m.mean * 100.0),
+                    Some(m) => format!("{} [{}, {}]", num(m.mean), num(m.ci_low), num(m.ci_high)),
+                    None => "–".into(),
+                }))
+                .collect()
+        })
+        .collect();
+    table(&mut out, &header, &rows);
+
+    out.push_str("## Comparisons against the baseline\n\n");
+    if board.comparisons.is_empty() {
+        out.push_str("No comparisons: the study has a single ranker.\n\n");
+    } else {
+        out.push_str("Difference = candidate − baseline, per context, then averaged. Holm's correction runs over the candidates on each metric.\n\n");
+        let header: Vec<String> = [
+            "candidate",
+            "baseline",
+            "metric",
+            "difference [95 % CI]",
+            "p (randomization)",
+            "p (paired t)",
+            "p (Holm)",
+            "wins / ties / losses",
+            "contexts needed",
+        ]
+        .map(String::from)
+        .to_vec();
+        let rows: Vec<Vec<String>> = board
+            .comparisons
+            .iter()
+            .map(|c| {
+                vec![
+                    c.ranker.clone(),
+                    c.baseline.clone(),
+                    c.metric.replace("ndcg", "NDCG"),
+                    format!("{:+.3} [{:+.3}, {:+.3}]", c.diff, c.ci_low, c.ci_high),
+                    p_value(c.p_randomization),
+                    p_value(c.p_t),
+                    p_value(c.p_holm),
+                    format!("{} / {} / {}", c.wins, c.ties, c.losses),
+                    c.contexts_needed.map_or("–".into(), |n| n.to_string()),
+                ]
+            })
+            .collect();
+        table(&mut out, &header, &rows);
+        out.push_str("Contexts needed: for 80 % power at two-sided α = 0.05, by the normal approximation with the observed mean and SD of the differences.\n\n");
+        let _ = writeln!(out, "> {OFFLINE_CAUTION}\n");
+    }
+
+    out.push_str("## Reviewer agreement\n\n");
+    match agreement {
+        Some(a) if !a.pairs.is_empty() => {
+            let _ = writeln!(
+                out,
+                "Scale {} · reviewers {} · {} pairs graded, {} can't-judge grades left out.\n",
+                a.scale,
+                a.reviewers.join(", "),
+                a.units,
+                a.cant_judge
+            );
+            let header: Vec<String> = [
+                "reviewers",
+                "n",
+                "Cohen's kappa [95 % CI]",
+                "band",
+                "Gwet's AC1",
+            ]
+            .map(String::from)
+            .to_vec();
+            let rows: Vec<Vec<String>> = a
+                .pairs
+                .iter()
+                .map(|p| {
+                    vec![
+                        format!("{} × {}", p.reviewer_a, p.reviewer_b),
+                        p.n.to_string(),
+                        format!(
+                            "{} [{}, {}]",
+                            num(p.kappa),
+                            num(p.kappa_ci_low),
+                            num(p.kappa_ci_high)
+                        ),
+                        p.band.to_string(),
+                        num(p.ac1),
+                    ]
+                })
+                .collect();
+            table(&mut out, &header, &rows);
+            let _ = writeln!(
+                out,
+                "- **Fleiss' kappa:** {} (pairs graded by every reviewer: {})",
+                num(a.fleiss_kappa),
+                a.fleiss_n
+            );
+            let _ = writeln!(
+                out,
+                "- **Krippendorff's alpha:** nominal {}, ordinal {} [{}, {}], interval {} (pairs with two or more grades: {})",
+                num(a.alpha_nominal),
+                num(a.alpha_ordinal),
+                num(a.alpha_ordinal_ci_low),
+                num(a.alpha_ordinal_ci_high),
+                num(a.alpha_interval),
+                a.alpha_n
+            );
+            let _ = writeln!(out, "- **Gwet's AC1 (panel):** {}", num(a.ac1));
+            let _ = writeln!(out, "- **Bands:** {}\n", a.band_source);
+            for c in &a.cautions {
+                let _ = writeln!(out, "- Caution: {c}");
+            }
+            if !a.cautions.is_empty() {
+                out.push('\n');
+            }
+        }
+        _ => out.push_str(
+            "Not measurable yet: no two reviewers graded the same pairs on this scale.\n\n",
+        ),
+    }
+
+    out.push_str("## Cautions\n\n");
+    for c in &board.cautions {
+        let _ = writeln!(out, "- {c}");
+    }
+    out
+}

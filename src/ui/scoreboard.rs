@@ -1,0 +1,507 @@
+//! Scoreboard: rank the rankers with intervals, compare candidates with the baseline,
+//! see how much the answer depends on who graded, and queue the unjudged pairs that
+//! could change it. Every number comes from `analysis::scoreboard::build` on a job
+//! thread (see `scoreboard_model`), the same function `plumbline score` prints, so
+//! screen and terminal agree.
+
+use std::path::{Path, PathBuf};
+
+use super::jobs::Pending;
+pub use super::scoreboard_model::*;
+use super::scoreboard_plots as plots;
+use super::scoreboard_tables::{comparisons, coverage_warning, ranker_table, sensitivity};
+use super::study_picker::block_on;
+use crate::analysis::judgments::GradeSource;
+use crate::analysis::scoreboard::{ScoreSettings, Segment};
+use crate::analysis::{render, report};
+use crate::core::metrics::{GainKind, Unjudged};
+use crate::study::Study;
+
+/// What the screen asks the workbench to do.
+pub enum ScoreboardAction {
+    /// Open the Grading desk for this reviewer (their gap pairs now come first).
+    OpenDesk(String),
+}
+
+/// Queues the gaps for a reviewer: (reviewer, pairs queued, pairs new to their queue).
+type GapJob = Pending<Result<(String, usize, usize), String>>;
+
+/// The screen's state: the settings being edited, the last model and running jobs.
+pub struct ScoreboardScreen {
+    /// Settings the controls edit; a change starts a new computation.
+    pub wanted: ScoreSettings,
+    pub focus_k: usize,
+    pub model: Option<ScoreboardModel>,
+    pub error: Option<String>,
+    loading: Option<(String, Pending<Result<ScoreboardModel, String>>)>,
+    computed_for: Option<String>,
+    last_frame: u64,
+    pub candidate: Option<String>,
+    pub gap_reviewer: Option<String>,
+    gap_job: Option<GapJob>,
+    pub message: Option<String>,
+    export_job: Option<Pending<Result<String, String>>>,
+}
+
+impl Default for ScoreboardScreen {
+    fn default() -> Self {
+        ScoreboardScreen {
+            wanted: ScoreSettings::default(),
+            focus_k: 10,
+            model: None,
+            error: None,
+            loading: None,
+            computed_for: None,
+            last_frame: 0,
+            candidate: None,
+            gap_reviewer: None,
+            gap_job: None,
+            message: None,
+            export_job: None,
+        }
+    }
+}
+
+fn key_of(settings: &ScoreSettings) -> String {
+    format!("{settings:?}")
+}
+
+impl ScoreboardScreen {
+    pub fn is_loading(&self) -> bool {
+        self.loading.is_some()
+    }
+
+    /// True when the model on screen was computed for the settings the controls show.
+    pub fn is_current(&self) -> bool {
+        self.model.is_some()
+            && self.loading.is_none()
+            && self.computed_for.as_deref() == Some(key_of(&self.wanted).as_str())
+    }
+
+    /// Starts a computation when the settings changed (or on entering the screen, since
+    /// grades may have changed); the last model stays drawn meanwhile.
+    fn refresh(&mut self, ctx: &egui::Context, path: &Path) {
+        let frame = ctx.cumulative_frame_nr();
+        let entered = frame > self.last_frame + 1;
+        self.last_frame = frame;
+        if let Some((sent, job)) = &self.loading
+            && let Some(result) = job.poll()
+        {
+            let sent = sent.clone();
+            self.loading = None;
+            match result {
+                Ok(model) => {
+                    if sent == key_of(&self.wanted) {
+                        // Adopt what the job filled in (scale, baseline) without recomputing.
+                        self.wanted = model.settings.clone();
+                        self.computed_for = Some(key_of(&self.wanted));
+                    } else {
+                        self.computed_for = Some(sent);
+                    }
+                    if !self.wanted.ks.contains(&self.focus_k) {
+                        self.focus_k = default_focus(&self.wanted.ks);
+                    }
+                    self.error = None;
+                    self.model = Some(model);
+                }
+                Err(e) => {
+                    self.computed_for = Some(sent);
+                    self.error = Some(e);
+                }
+            }
+        }
+        let key = key_of(&self.wanted);
+        if self.loading.is_none() && (entered || self.computed_for.as_ref() != Some(&key)) {
+            let p = path.to_path_buf();
+            let settings = self.wanted.clone();
+            self.loading = Some((key, Pending::spawn(ctx, move || load(&p, settings))));
+        }
+    }
+
+    fn collect_side_jobs(&mut self) -> Option<ScoreboardAction> {
+        if let Some(result) = self.export_job.as_ref().and_then(Pending::poll) {
+            self.export_job = None;
+            self.message = Some(result.unwrap_or_else(|e| e));
+        }
+        if let Some(result) = self.gap_job.as_ref().and_then(Pending::poll) {
+            self.gap_job = None;
+            match result {
+                Ok((reviewer, queued, added)) => {
+                    self.message = Some(format!(
+                        "{queued} unjudged pairs now lead {reviewer}'s queue ({added} of them new to it)."
+                    ));
+                    return Some(ScoreboardAction::OpenDesk(reviewer));
+                }
+                Err(e) => self.message = Some(format!("The gaps were not queued: {e}")),
+            }
+        }
+        None
+    }
+
+    /// Draws the screen; returns a request for the workbench (e.g. open the desk).
+    pub fn ui(
+        &mut self,
+        ui: &mut egui::Ui,
+        path: &Path,
+        signed_in: Option<&str>,
+    ) -> Option<ScoreboardAction> {
+        let ctx = ui.ctx().clone();
+        self.refresh(&ctx, path);
+        let action = self.collect_side_jobs();
+        if self.gap_reviewer.is_none() {
+            self.gap_reviewer = signed_in.map(str::to_string);
+        }
+        ui.horizontal(|ui| {
+            ui.heading("Scoreboard");
+            if self.loading.is_some() {
+                ui.spinner();
+                ui.weak("Computing…");
+            }
+        });
+        let Some(model) = self.model.take() else {
+            match &self.error {
+                Some(e) => {
+                    ui.colored_label(ui.visuals().error_fg_color, e);
+                }
+                None => {
+                    ui.weak("Scoring the rankers…");
+                }
+            }
+            return action;
+        };
+        self.controls(ui, &model);
+        if let Some(e) = &self.error {
+            ui.colored_label(
+                ui.visuals().error_fg_color,
+                format!("{e} (showing the last result)"),
+            );
+        }
+        egui::ScrollArea::vertical()
+            .auto_shrink([false, false])
+            .show(ui, |ui| self.body(ui, &ctx, path, &model));
+        self.model = Some(model);
+        action
+    }
+
+    fn controls(&mut self, ui: &mut egui::Ui, model: &ScoreboardModel) {
+        let c = &model.choices;
+        ui.horizontal_wrapped(|ui| {
+            let scale = self.wanted.scale.clone().unwrap_or_default();
+            if let Some(s) = pick(ui, "Scale", "sb_scale", &scale, &c.scales, |s| s.clone()) {
+                self.wanted.scale = Some(s);
+            }
+            let mut sources = vec!["panel".to_string()];
+            sources.extend(c.reviewers.iter().cloned());
+            let grades = self.wanted.grades.label();
+            if let Some(g) = pick(ui, "Grades", "sb_grades", &grades, &sources, |g| {
+                if g == "panel" {
+                    "panel (settled, else median)".into()
+                } else {
+                    format!("{g} only")
+                }
+            }) {
+                self.wanted.grades = GradeSource::parse(&g);
+            }
+            let gain = match self.wanted.gain {
+                GainKind::Exponential => "exponential",
+                GainKind::Linear => "linear",
+            };
+            let gains = ["exponential".to_string(), "linear".to_string()];
+            if let Some(g) = pick(ui, "Gain", "sb_gain", gain, &gains, |g| {
+                if g == "exponential" {
+                    "exponential (2^level − 1)".into()
+                } else {
+                    "linear (level)".into()
+                }
+            }) {
+                self.wanted.gain = GainKind::parse(&g).unwrap_or(GainKind::Exponential);
+            }
+            let unjudged = match self.wanted.unjudged {
+                Unjudged::Zero => "zero",
+                Unjudged::Condense => "condense",
+            };
+            let policies = ["zero".to_string(), "condense".to_string()];
+            if let Some(u) = pick(ui, "Unjudged", "sb_unjudged", unjudged, &policies, |u| {
+                if u == "zero" {
+                    "count as gain 0".into()
+                } else {
+                    "condense (drop)".into()
+                }
+            }) {
+                self.wanted.unjudged = Unjudged::parse(&u).unwrap_or(Unjudged::Zero);
+            }
+            let segment = self.wanted.segment.label();
+            if let Some(s) = pick(
+                ui,
+                "Segment",
+                "sb_segment",
+                &segment,
+                &c.segments,
+                |s| match s.as_str() {
+                    "all" => "all contexts".into(),
+                    "new" => "new items carry gain".into(),
+                    "established" => "established items carry gain".into(),
+                    "query" => "query contexts".into(),
+                    "anchor" => "anchor contexts".into(),
+                    other => other.replace("segment:", "segment "),
+                },
+            ) {
+                self.wanted.segment = Segment::parse(&s);
+            }
+            let baseline = self.wanted.baseline.clone().unwrap_or_default();
+            if let Some(b) = pick(ui, "Baseline", "sb_baseline", &baseline, &c.rankers, |b| {
+                b.clone()
+            }) {
+                self.wanted.baseline = Some(b);
+            }
+        });
+        ui.horizontal_wrapped(|ui| {
+            ui.label("Cut-offs");
+            let mut offered: Vec<usize> = OFFERED_KS.to_vec();
+            offered.extend(self.wanted.ks.iter().copied());
+            offered.sort_unstable();
+            offered.dedup();
+            for k in offered {
+                let mut on = self.wanted.ks.contains(&k);
+                let response = ui
+                    .toggle_value(&mut on, format!("k={k}"))
+                    .on_hover_text(format!("Score at cut-off {k}"));
+                if response.changed() {
+                    if on {
+                        self.wanted.ks.push(k);
+                        self.wanted.ks.sort_unstable();
+                    } else if self.wanted.ks.len() > 1 {
+                        self.wanted.ks.retain(|x| *x != k);
+                    }
+                }
+            }
+            ui.separator();
+            let focus = self.focus_k.to_string();
+            let ks: Vec<String> = self.wanted.ks.iter().map(usize::to_string).collect();
+            if let Some(f) = pick(
+                ui,
+                "Focus k (plots, sensitivity)",
+                "sb_focus",
+                &focus,
+                &ks,
+                |k| format!("k={k}"),
+            ) {
+                self.focus_k = f.parse().unwrap_or(10);
+            }
+        });
+    }
+
+    fn body(
+        &mut self,
+        ui: &mut egui::Ui,
+        ctx: &egui::Context,
+        path: &Path,
+        model: &ScoreboardModel,
+    ) {
+        let board = &model.board;
+        let focus = if board.settings.ks.contains(&self.focus_k) {
+            self.focus_k
+        } else {
+            default_focus(&board.settings.ks)
+        };
+        ui.label(format!(
+            "{} contexts scored on scale {}; {} left out with no relevant item. Means over contexts with 95 % percentile bootstrap intervals ({} resamples).",
+            board.contexts_scored,
+            board.scale,
+            board.contexts_without_relevant,
+            board.settings.bootstrap_resamples
+        ));
+        coverage_warning(ui, board);
+        ui.add_space(6.0);
+        ui.horizontal(|ui| {
+            ui.strong("Rankers");
+            if ui.button("Copy table (tab-separated)").clicked() {
+                ctx.copy_text(table_tsv(board, focus));
+                self.message = Some("The ranker table is on the clipboard.".into());
+            }
+        });
+        ranker_table(ui, board, focus);
+        ui.add_space(10.0);
+        ui.horizontal(|ui| {
+            ui.strong("Against the baseline");
+            if ui.button("Copy comparisons (tab-separated)").clicked() {
+                ctx.copy_text(comparisons_tsv(board));
+                self.message = Some("The comparisons are on the clipboard.".into());
+            }
+        });
+        comparisons(ui, board);
+        ui.add_space(10.0);
+        let candidates: Vec<String> = board
+            .rankers
+            .iter()
+            .map(|r| r.ranker.clone())
+            .filter(|r| Some(r) != board.settings.baseline.as_ref())
+            .collect();
+        if self
+            .candidate
+            .as_ref()
+            .is_none_or(|c| !candidates.contains(c))
+        {
+            self.candidate = candidates.first().cloned();
+        }
+        plots::plots(ui, model, focus, self.candidate.as_deref());
+        if candidates.len() > 1 {
+            let current = self.candidate.clone().unwrap_or_default();
+            if let Some(c) = pick(
+                ui,
+                "Candidate in the differences plot",
+                "sb_candidate",
+                &current,
+                &candidates,
+                |c| c.clone(),
+            ) {
+                self.candidate = Some(c);
+            }
+        }
+        ui.add_space(10.0);
+        sensitivity(ui, model, focus);
+        ui.add_space(10.0);
+        self.gaps(ui, ctx, path, model);
+        ui.add_space(10.0);
+        self.export(ui, ctx, model);
+        if let Some(m) = &self.message {
+            ui.add_space(6.0);
+            ui.label(m);
+        }
+    }
+
+    fn gaps(
+        &mut self,
+        ui: &mut egui::Ui,
+        ctx: &egui::Context,
+        path: &Path,
+        model: &ScoreboardModel,
+    ) {
+        let k = model.settings.ks.iter().copied().max().unwrap_or(10);
+        ui.strong("Judge the gaps");
+        ui.label(format!(
+            "{} pairs in the rankers' top {k} have no grade ({}). Pairs one ranker places high and another low or not at all come first: they can move the comparison most.",
+            model.gaps.len(),
+            model.settings.grades.label()
+        ));
+        if model.gaps.is_empty() {
+            return;
+        }
+        ui.horizontal(|ui| {
+            let current = self.gap_reviewer.clone().unwrap_or_default();
+            if let Some(r) = pick(
+                ui,
+                "Reviewer for the gaps",
+                "sb_gap_reviewer",
+                &current,
+                &model.choices.reviewers,
+                |r| r.clone(),
+            ) {
+                self.gap_reviewer = Some(r);
+            }
+            let enabled = self.gap_reviewer.is_some() && self.gap_job.is_none();
+            let label = format!("Queue {} gaps and open the desk", model.gaps.len());
+            if ui.add_enabled(enabled, egui::Button::new(label)).clicked()
+                && let Some(reviewer) = self.gap_reviewer.clone()
+            {
+                let pairs: Vec<(String, String)> = model
+                    .gaps
+                    .iter()
+                    .map(|g| (g.context_id.clone(), g.item_id.clone()))
+                    .collect();
+                let scale = model.board.scale.clone();
+                let p: PathBuf = path.to_path_buf();
+                self.gap_job = Some(Pending::spawn(ctx, move || {
+                    let mut study = Study::open(&p).map_err(|e| e.to_string())?;
+                    let added = study
+                        .queue_gaps_first(&reviewer, &scale, &pairs)
+                        .map_err(|e| e.to_string())?;
+                    Ok((reviewer, pairs.len(), added))
+                }));
+            }
+            if self.gap_job.is_some() {
+                ui.spinner();
+            }
+        });
+    }
+
+    fn export(&mut self, ui: &mut egui::Ui, ctx: &egui::Context, model: &ScoreboardModel) {
+        ui.strong("Export");
+        ui.horizontal(|ui| {
+            let busy = self.export_job.is_some();
+            let csv = ui.add_enabled(!busy, egui::Button::new("Save scores CSV…"));
+            let md = ui.add_enabled(!busy, egui::Button::new("Save report (Markdown)…"));
+            let report_wanted = if csv.clicked() {
+                false
+            } else if md.clicked() {
+                true
+            } else {
+                return;
+            };
+            // Rendering and writing happen on the job thread with a copy of the model.
+            let board = model.board.clone();
+            let agreement = model.agreement.clone();
+            self.export_job = Some(Pending::spawn(ctx, move || {
+                let (name, filter) = if report_wanted {
+                    ("report.md", ("Markdown", "md"))
+                } else {
+                    ("scores.csv", ("CSV", "csv"))
+                };
+                let dialog = rfd::AsyncFileDialog::new()
+                    .add_filter(filter.0, &[filter.1])
+                    .set_file_name(name)
+                    .save_file();
+                let Some(handle) = block_on(dialog) else {
+                    return Err("Nothing saved.".to_string());
+                };
+                let target = handle.path().to_path_buf();
+                let text = if report_wanted {
+                    report::markdown(&board, agreement.as_ref())
+                } else {
+                    render::scoreboard_csv(&board)
+                };
+                std::fs::write(&target, text)
+                    .map(|_| format!("Saved {}.", target.display()))
+                    .map_err(|e| format!("{}: {e}", target.display()))
+            }));
+        });
+    }
+}
+
+/// A labelled combo box over `options`; returns the option picked this frame, if any.
+fn pick(
+    ui: &mut egui::Ui,
+    label: &str,
+    id: &str,
+    current: &str,
+    options: &[String],
+    shown: impl Fn(&String) -> String,
+) -> Option<String> {
+    let mut chosen = None;
+    let label_response = ui.label(label);
+    let current_text = options
+        .iter()
+        .find(|o| o.as_str() == current)
+        .map_or(current.to_string(), &shown);
+    let combo = egui::ComboBox::from_id_salt(id)
+        .selected_text(current_text)
+        .show_ui(ui, |ui| {
+            for option in options {
+                let response = ui.selectable_label(option == current, shown(option));
+                // Screen readers (and tests) hear which control the option belongs to.
+                response.widget_info(|| {
+                    egui::WidgetInfo::selected(
+                        egui::Role::Button,
+                        true,
+                        option == current,
+                        format!("{label}: {}", shown(option)),
+                    )
+                });
+                if response.clicked() && option != current {
+                    chosen = Some(option.clone());
+                }
+            }
+        });
+    let _ = combo.response.labelled_by(label_response.id);
+    chosen
+}

@@ -1,0 +1,322 @@
+//! The Scoreboard's view model, built on a job thread from the same
+//! `analysis::scoreboard::build` that `plumbline score` prints, plus the text formats
+//! its cells and clipboard exports use.
+
+use std::collections::BTreeMap;
+use std::path::Path;
+
+use crate::analysis::agreement::{self, AgreementReport};
+use crate::analysis::gaps::{GapPair, gap_pairs};
+use crate::analysis::judgments::GradeSource;
+use crate::analysis::scoreboard::{self, ScoreSettings, Scoreboard};
+use crate::core::stats::kendall_tau_b;
+use crate::study::Study;
+
+/// Cut-offs offered as toggles; NDCG@k is also drawn for every k from 1 to `CURVE_MAX_K`.
+pub const OFFERED_KS: [usize; 6] = [1, 3, 5, 10, 15, 20];
+pub const CURVE_MAX_K: usize = 20;
+/// judged@k below this share earns a coverage warning.
+pub const COVERAGE_WARNING: f64 = 0.9;
+
+/// What the controls can be set to, read from the study.
+#[derive(Debug, Clone, Default)]
+pub struct Choices {
+    pub scales: Vec<String>,
+    pub rankers: Vec<String>,
+    pub reviewers: Vec<String>,
+    /// Segment labels as `Segment::parse` reads them.
+    pub segments: Vec<String>,
+}
+
+/// NDCG@k with its interval at one k, for the curve plot.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CurvePoint {
+    pub k: usize,
+    pub mean: f64,
+    pub low: f64,
+    pub high: f64,
+}
+
+/// One reviewer's own grades scored alone, against the panel's ranker order.
+#[derive(Debug, Clone)]
+pub struct SensitivityRow {
+    pub reviewer: String,
+    pub contexts_scored: usize,
+    /// Per NDCG key: mean per ranker (board order), Kendall's tau-b with the panel's means,
+    /// and whether the ranker order is the same as the panel's.
+    pub by_key: BTreeMap<String, (Vec<f64>, f64, bool)>,
+}
+
+/// Everything the screen shows; built on a job thread.
+#[derive(Debug, Clone)]
+pub struct ScoreboardModel {
+    /// The settings as used (baseline filled in from the study when none was chosen).
+    pub settings: ScoreSettings,
+    pub board: Scoreboard,
+    pub curves: Vec<(String, Vec<CurvePoint>)>,
+    /// The panel's NDCG means per key (board order), what sensitivity rows compare with.
+    pub panel_means: BTreeMap<String, Vec<f64>>,
+    pub sensitivity: Vec<SensitivityRow>,
+    pub agreement: Option<AgreementReport>,
+    /// Unjudged pairs in the top max(k), most decisive first.
+    pub gaps: Vec<GapPair>,
+    pub choices: Choices,
+}
+
+fn ndcg_keys(ks: &[usize]) -> Vec<String> {
+    ks.iter().map(|k| format!("ndcg@{k}")).collect()
+}
+
+fn means(board: &Scoreboard, key: &str) -> Vec<f64> {
+    board
+        .rankers
+        .iter()
+        .map(|r| r.metrics.get(key).map_or(f64::NAN, |m| m.mean))
+        .collect()
+}
+
+/// Ranker indices from best to worst mean (ties keep board order).
+pub fn order_of(means: &[f64]) -> Vec<usize> {
+    let mut order: Vec<usize> = (0..means.len()).collect();
+    order.sort_by(|a, b| means[*b].total_cmp(&means[*a]));
+    order
+}
+
+/// Builds the model. Heavy: runs on a job thread.
+pub fn load(path: &Path, requested: ScoreSettings) -> Result<ScoreboardModel, String> {
+    let err = |e: crate::study::StudyError| e.to_string();
+    let study = Study::open(path).map_err(err)?;
+    let snapshot = study.snapshot().map_err(err)?;
+    let mut settings = requested;
+    if settings.baseline.is_none() {
+        settings.baseline = study
+            .setting("baseline")
+            .map_err(err)?
+            .filter(|b| snapshot.ranker_index(b).is_some())
+            .or_else(|| snapshot.rankers.first().cloned());
+    }
+    let board = scoreboard::build(&snapshot, &settings).map_err(|e| e.to_string())?;
+    let scale = snapshot
+        .scale_index(&board.scale)
+        .ok_or("the scale vanished")?;
+    settings.scale = Some(board.scale.clone());
+
+    // NDCG at every k from 1 to 20: one more build, with few randomization resamples
+    // because only the rankers' intervals are drawn.
+    let curve_board = scoreboard::build(
+        &snapshot,
+        &ScoreSettings {
+            ks: (1..=CURVE_MAX_K).collect(),
+            randomization_resamples: 100,
+            ..settings.clone()
+        },
+    )
+    .map_err(|e| e.to_string())?;
+    let curves = curve_board
+        .rankers
+        .iter()
+        .map(|r| {
+            let points = (1..=CURVE_MAX_K)
+                .filter_map(|k| {
+                    let m = r.metrics.get(&format!("ndcg@{k}"))?;
+                    Some(CurvePoint {
+                        k,
+                        mean: m.mean,
+                        low: m.ci_low,
+                        high: m.ci_high,
+                    })
+                })
+                .collect();
+            (r.ranker.clone(), points)
+        })
+        .collect();
+
+    // Reviewer sensitivity: means only, so few resamples.
+    let quick = |grades: GradeSource| {
+        scoreboard::build(
+            &snapshot,
+            &ScoreSettings {
+                grades,
+                bootstrap_resamples: 200,
+                randomization_resamples: 100,
+                ..settings.clone()
+            },
+        )
+    };
+    let panel_board = match settings.grades {
+        GradeSource::Panel => board.clone(),
+        _ => quick(GradeSource::Panel).map_err(|e| e.to_string())?,
+    };
+    let keys = ndcg_keys(&settings.ks);
+    let panel_means: BTreeMap<String, Vec<f64>> = keys
+        .iter()
+        .map(|k| (k.clone(), means(&panel_board, k)))
+        .collect();
+    let graders: Vec<&String> = snapshot
+        .reviewers
+        .iter()
+        .enumerate()
+        .filter(|(r, _)| {
+            snapshot
+                .grades
+                .iter()
+                .any(|g| g.reviewer as usize == *r && g.scale as usize == scale)
+        })
+        .map(|(_, name)| name)
+        .collect();
+    let mut sensitivity = Vec::new();
+    for reviewer in graders {
+        let own = quick(GradeSource::Reviewer(reviewer.clone())).map_err(|e| e.to_string())?;
+        let by_key = keys
+            .iter()
+            .map(|k| {
+                let mine = means(&own, k);
+                let panel = &panel_means[k];
+                let tau = kendall_tau_b(&mine, panel);
+                let same = order_of(&mine) == order_of(panel);
+                (k.clone(), (mine, tau, same))
+            })
+            .collect();
+        sensitivity.push(SensitivityRow {
+            reviewer: reviewer.clone(),
+            contexts_scored: own.contexts_scored,
+            by_key,
+        });
+    }
+
+    let agreement = Some(agreement::build(&snapshot, scale, None, 1000, 20_261_201));
+    let gap_k = settings.ks.iter().copied().max().unwrap_or(10);
+    let gaps = gap_pairs(&snapshot, scale, &settings.grades, gap_k);
+    let mut segments = vec!["all".to_string(), "new".into(), "established".into()];
+    for kind in ["query", "anchor"] {
+        if snapshot.contexts.iter().any(|c| c.kind == kind) {
+            segments.push(kind.into());
+        }
+    }
+    let mut labels: Vec<&String> = snapshot
+        .contexts
+        .iter()
+        .map(|c| &c.segment)
+        .filter(|s| !s.is_empty())
+        .collect();
+    labels.sort();
+    labels.dedup();
+    segments.extend(labels.into_iter().map(|s| format!("segment:{s}")));
+    let choices = Choices {
+        scales: snapshot.scales.iter().map(|s| s.name.clone()).collect(),
+        rankers: snapshot.rankers.clone(),
+        reviewers: snapshot.reviewers.clone(),
+        segments,
+    };
+    Ok(ScoreboardModel {
+        settings,
+        board,
+        curves,
+        panel_means,
+        sensitivity,
+        agreement,
+        gaps,
+        choices,
+    })
+}
+
+/// The focus k of the plots and the sensitivity table: 10 when chosen, else the largest.
+pub fn default_focus(ks: &[usize]) -> usize {
+    if ks.contains(&10) {
+        10
+    } else {
+        ks.iter().copied().max().unwrap_or(10)
+    }
+}
+
+/// "mean [low, high]" as the table shows it.
+pub fn with_interval(mean: f64, low: f64, high: f64) -> String {
+    format!("{mean:.3} [{low:.3}, {high:.3}]")
+}
+
+/// "+diff [+low, +high]" as the comparison rows show it.
+pub fn difference_text(diff: f64, low: f64, high: f64) -> String {
+    format!("{diff:+.3} [{low:+.3}, {high:+.3}]")
+}
+
+pub fn p_text(p: f64) -> String {
+    if !p.is_finite() {
+        "–".into()
+    } else if p < 0.001 {
+        "< 0.001".into()
+    } else {
+        format!("{p:.3}")
+    }
+}
+
+/// The ranker table's columns: NDCG at every k, P, ERR and judged at the focus k, then RR.
+pub fn table_keys(ks: &[usize], focus: usize) -> Vec<String> {
+    let mut keys = ndcg_keys(ks);
+    keys.push(format!("precision@{focus}"));
+    keys.push(format!("err@{focus}"));
+    keys.push("rr".into());
+    keys.extend(ks.iter().map(|k| format!("judged@{k}")));
+    keys
+}
+
+pub fn column_title(key: &str) -> String {
+    key.replace("ndcg", "NDCG")
+        .replace("precision", "P")
+        .replace("err", "ERR")
+        .replace("rr", "RR")
+}
+
+pub fn cell_text(key: &str, m: &scoreboard::MetricSummary) -> String {
+    if key.starts_with("judged") {
+        format!("{:.0} %", m.mean * 100.0)
+    } else {
+        with_interval(m.mean, m.ci_low, m.ci_high)
+    }
+}
+
+/// The ranker table as tab-separated text (header row first), for the clipboard.
+pub fn table_tsv(board: &Scoreboard, focus: usize) -> String {
+    let keys = table_keys(&board.settings.ks, focus);
+    let mut out = String::from("ranker");
+    for key in &keys {
+        out.push_str(&format!("\t{key}\t{key} low\t{key} high"));
+    }
+    out.push('\n');
+    for r in &board.rankers {
+        out.push_str(&r.ranker);
+        for key in &keys {
+            match r.metrics.get(key) {
+                Some(m) => out.push_str(&format!("\t{}\t{}\t{}", m.mean, m.ci_low, m.ci_high)),
+                None => out.push_str("\t\t\t"),
+            }
+        }
+        out.push('\n');
+    }
+    out
+}
+
+/// The comparison rows as tab-separated text, for the clipboard.
+pub fn comparisons_tsv(board: &Scoreboard) -> String {
+    let mut out = String::from(
+        "candidate\tbaseline\tmetric\tdifference\tci_low\tci_high\tp_randomization\tp_t\tp_holm\twins\tties\tlosses\tcontexts_needed\n",
+    );
+    for c in &board.comparisons {
+        out.push_str(&format!(
+            "{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\n",
+            c.ranker,
+            c.baseline,
+            c.metric,
+            c.diff,
+            c.ci_low,
+            c.ci_high,
+            c.p_randomization,
+            c.p_t,
+            c.p_holm,
+            c.wins,
+            c.ties,
+            c.losses,
+            c.contexts_needed.map_or(String::new(), |n| n.to_string())
+        ));
+    }
+    out
+}

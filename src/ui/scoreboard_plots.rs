@@ -1,0 +1,160 @@
+//! The Scoreboard's three plots, drawn from the cached model: NDCG@k for k = 1…20 with
+//! interval bands, sorted per-context differences against the baseline, and a histogram
+//! of per-context NDCG.
+
+use egui_plot::{Bar, BarChart, Corner, FilledArea, Legend, Line, Plot, PlotPoints};
+
+use super::scoreboard_model::ScoreboardModel;
+
+/// Distinct colours per ranker, readable on light and dark backgrounds.
+const PALETTE: [egui::Color32; 6] = [
+    egui::Color32::from_rgb(0x4c, 0x78, 0xa8),
+    egui::Color32::from_rgb(0xe4, 0x7f, 0x2b),
+    egui::Color32::from_rgb(0x3c, 0x9a, 0x5f),
+    egui::Color32::from_rgb(0xb0, 0x4a, 0x8f),
+    egui::Color32::from_rgb(0x8c, 0x6d, 0x3f),
+    egui::Color32::from_rgb(0x5f, 0x5f, 0x9e),
+];
+
+pub fn colour(r: usize) -> egui::Color32 {
+    PALETTE[r % PALETTE.len()]
+}
+
+/// Histogram bins of width 0.1 over [0, 1]; the last bin includes 1.
+pub fn histogram(values: &[f64]) -> [usize; 10] {
+    let mut bins = [0usize; 10];
+    for v in values.iter().filter(|v| v.is_finite()) {
+        bins[((v * 10.0).floor() as usize).min(9)] += 1;
+    }
+    bins
+}
+
+/// Per-context candidate − baseline values on `key`, sorted ascending.
+pub fn sorted_differences(model: &ScoreboardModel, candidate: &str, key: &str) -> Vec<f64> {
+    let board = &model.board;
+    let find = |name: &str| board.rankers.iter().find(|r| r.ranker == name);
+    let (Some(c), Some(b)) = (
+        find(candidate),
+        board.settings.baseline.as_deref().and_then(find),
+    ) else {
+        return Vec::new();
+    };
+    let mut d: Vec<f64> = c
+        .per_context
+        .iter()
+        .zip(&b.per_context)
+        .filter_map(|(x, y)| Some(x.values.get(key)? - y.values.get(key)?))
+        .collect();
+    d.sort_by(f64::total_cmp);
+    d
+}
+
+pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate: Option<&str>) {
+    let key = format!("ndcg@{focus}");
+    let width = ((ui.available_width() - 24.0) / 3.0).max(220.0);
+    let height = 230.0;
+    ui.horizontal_top(|ui| {
+        ui.vertical(|ui| {
+            ui.set_width(width);
+            ui.strong("NDCG@k for k = 1…20 (bands: 95 % CI)");
+            Plot::new("sb_curve")
+                .width(width)
+                .height(height)
+                .legend(Legend::default().position(Corner::RightBottom))
+                .include_y(1.0)
+                .x_axis_label("k")
+                .allow_scroll(false)
+                .show(ui, |p| {
+                    for (r, (name, points)) in model.curves.iter().enumerate() {
+                        let xs: Vec<f64> = points.iter().map(|c| c.k as f64).collect();
+                        let lows: Vec<f64> = points.iter().map(|c| c.low).collect();
+                        let highs: Vec<f64> = points.iter().map(|c| c.high).collect();
+                        p.add(
+                            FilledArea::new(name.clone(), &xs, &lows, &highs)
+                                .fill_color(colour(r).gamma_multiply(0.25)),
+                        );
+                        let line: PlotPoints =
+                            points.iter().map(|c| [c.k as f64, c.mean]).collect();
+                        p.line(Line::new(name.clone(), line).color(colour(r)).width(2.0));
+                    }
+                });
+        });
+        ui.vertical(|ui| {
+            ui.set_width(width);
+            let baseline = model.board.settings.baseline.clone().unwrap_or_default();
+            match candidate {
+                Some(c) => {
+                    ui.strong(format!("{c} − {baseline}, NDCG@{focus} per context"));
+                    let d = sorted_differences(model, c, &key);
+                    let wins = d.iter().filter(|x| **x > 1e-9).count();
+                    let losses = d.iter().filter(|x| **x < -1e-9).count();
+                    let bars: Vec<Bar> = d
+                        .iter()
+                        .enumerate()
+                        .map(|(i, v)| {
+                            let fill = if *v >= 0.0 {
+                                egui::Color32::from_rgb(0x3c, 0x9a, 0x5f)
+                            } else {
+                                egui::Color32::from_rgb(0xc0, 0x50, 0x40)
+                            };
+                            Bar::new(i as f64, *v).width(0.9).fill(fill)
+                        })
+                        .collect();
+                    Plot::new("sb_differences")
+                        .width(width)
+                        .height(height)
+                        .x_axis_label(format!("contexts, sorted ({wins} better, {losses} worse)"))
+                        .allow_scroll(false)
+                        .show(ui, |p| p.bar_chart(BarChart::new("difference", bars)));
+                }
+                None => {
+                    ui.weak("One ranker only: no differences to draw.");
+                }
+            }
+        });
+        ui.vertical(|ui| {
+            ui.set_width(width);
+            ui.strong(format!("Per-context NDCG@{focus}, contexts per 0.1 bin"));
+            let n = model.board.rankers.len().max(1) as f64;
+            let bar_width = 0.1 / n * 0.9;
+            Plot::new("sb_histogram")
+                .width(width)
+                .height(height)
+                .legend(Legend::default().position(Corner::LeftTop))
+                .x_axis_label(format!("NDCG@{focus}"))
+                .allow_scroll(false)
+                .show(ui, |p| {
+                    for (r, ranker) in model.board.rankers.iter().enumerate() {
+                        let values: Vec<f64> = ranker
+                            .per_context
+                            .iter()
+                            .filter_map(|c| c.values.get(&key).copied())
+                            .collect();
+                        let bars: Vec<Bar> = histogram(&values)
+                            .iter()
+                            .enumerate()
+                            .map(|(b, count)| {
+                                let x = b as f64 * 0.1 + 0.1 / n * (r as f64 + 0.5);
+                                Bar::new(x, *count as f64).width(bar_width)
+                            })
+                            .collect();
+                        p.bar_chart(BarChart::new(ranker.ranker.clone(), bars).color(colour(r)));
+                    }
+                });
+        });
+    });
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn histogram_puts_one_in_the_last_bin() {
+        let bins = histogram(&[0.0, 0.05, 0.1, 0.99, 1.0, f64::NAN]);
+        assert_eq!(bins[0], 2);
+        assert_eq!(bins[1], 1);
+        assert_eq!(bins[9], 2);
+        assert_eq!(bins.iter().sum::<usize>(), 5);
+    }
+}

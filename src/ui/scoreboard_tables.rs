@@ -1,0 +1,195 @@
+//! The Scoreboard's tables and warnings, drawn from the cached model.
+
+use super::scoreboard_model::{
+    COVERAGE_WARNING, ScoreboardModel, cell_text, column_title, difference_text, order_of, p_text,
+    table_keys,
+};
+use crate::analysis::scoreboard::{OFFLINE_CAUTION, Scoreboard};
+
+pub fn coverage_warning(ui: &mut egui::Ui, board: &Scoreboard) {
+    let mut low: Vec<String> = Vec::new();
+    for r in &board.rankers {
+        for k in &board.settings.ks {
+            if let Some(j) = r.metrics.get(&format!("judged@{k}"))
+                && j.mean < COVERAGE_WARNING
+            {
+                low.push(format!("{} at k={k}: {:.0} %", r.ranker, j.mean * 100.0));
+            }
+        }
+    }
+    if !low.is_empty() {
+        ui.colored_label(
+            ui.visuals().warn_fg_color,
+            format!(
+                "Coverage warning: below 90 % of the top k judged for {}. Unjudged items pull scores toward 0 (or vanish when condensed); judge the gaps below.",
+                low.join("; ")
+            ),
+        );
+    }
+}
+
+pub fn ranker_table(ui: &mut egui::Ui, board: &Scoreboard, focus: usize) {
+    let keys = table_keys(&board.settings.ks, focus);
+    egui::ScrollArea::horizontal()
+        .id_salt("sb_table_scroll")
+        .show(ui, |ui| {
+            egui::Grid::new("sb_rankers")
+                .striped(true)
+                .spacing([14.0, 4.0])
+                .show(ui, |ui| {
+                    ui.strong("ranker");
+                    for key in &keys {
+                        ui.strong(column_title(key));
+                    }
+                    ui.end_row();
+                    for r in &board.rankers {
+                        ui.label(&r.ranker);
+                        for key in &keys {
+                            match r.metrics.get(key) {
+                                Some(m)
+                                    if key.starts_with("judged") && m.mean < COVERAGE_WARNING =>
+                                {
+                                    ui.colored_label(ui.visuals().warn_fg_color, cell_text(key, m));
+                                }
+                                Some(m) => {
+                                    ui.label(cell_text(key, m));
+                                }
+                                None => {
+                                    ui.label("–");
+                                }
+                            }
+                        }
+                        ui.end_row();
+                    }
+                });
+        });
+}
+
+pub fn comparisons(ui: &mut egui::Ui, board: &Scoreboard) {
+    if board.comparisons.is_empty() {
+        ui.weak("One ranker only: nothing to compare.");
+        return;
+    }
+    ui.horizontal_top(|ui| {
+        egui::Grid::new("sb_comparisons")
+            .striped(true)
+            .spacing([12.0, 4.0])
+            .show(ui, |ui| {
+                for title in [
+                    "candidate vs baseline",
+                    "metric",
+                    "difference [95 % CI]",
+                    "p randomization",
+                    "p t",
+                    "p Holm",
+                    "W / T / L",
+                    "contexts needed",
+                ] {
+                    ui.strong(title);
+                }
+                ui.end_row();
+                for c in &board.comparisons {
+                    ui.label(format!("{} vs {}", c.ranker, c.baseline));
+                    ui.label(column_title(&c.metric));
+                    let text = difference_text(c.diff, c.ci_low, c.ci_high);
+                    if c.ci_low > 0.0 || c.ci_high < 0.0 {
+                        ui.strong(text);
+                    } else {
+                        ui.label(text);
+                    }
+                    ui.label(p_text(c.p_randomization));
+                    ui.label(p_text(c.p_t));
+                    ui.label(p_text(c.p_holm));
+                    ui.label(format!("{} / {} / {}", c.wins, c.ties, c.losses));
+                    ui.label(c.contexts_needed.map_or("–".into(), |n| n.to_string()))
+                        .on_hover_text("Contexts for 80 % power at two-sided α = 0.05 (normal approximation with the observed differences).");
+                    ui.end_row();
+                }
+            });
+        caution_box(ui, board);
+    });
+}
+
+/// The cautions that stand beside every comparison.
+fn caution_box(ui: &mut egui::Ui, board: &Scoreboard) {
+    egui::Frame::group(ui.style())
+        .fill(ui.visuals().faint_bg_color)
+        .show(ui, |ui| {
+            ui.vertical(|ui| {
+                ui.set_max_width(ui.available_width().clamp(240.0, 380.0));
+                ui.strong("Before acting on these numbers");
+                ui.label(OFFLINE_CAUTION);
+                for c in board
+                    .cautions
+                    .iter()
+                    .filter(|c| c.as_str() != OFFLINE_CAUTION)
+                {
+                    ui.colored_label(ui.visuals().warn_fg_color, c);
+                }
+            });
+        });
+}
+
+pub fn sensitivity(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize) {
+    let key = format!("ndcg@{focus}");
+    ui.strong(format!("Reviewer sensitivity (NDCG@{focus})"));
+    ui.label("Each reviewer's own grades scored alone. Kendall's tau-b compares the ranker order with the panel's; a changed order means the ranking rests on whose judgment counts. A reviewer who graded only a share of the pool leaves the rest unjudged (counted by the unjudged setting), so compare orders here, not levels.");
+    let Some(panel) = model.panel_means.get(&key) else {
+        return;
+    };
+    egui::Grid::new("sb_sensitivity")
+        .striped(true)
+        .spacing([14.0, 4.0])
+        .show(ui, |ui| {
+            ui.strong("grades");
+            for r in &model.board.rankers {
+                ui.strong(&r.ranker);
+            }
+            ui.strong("contexts");
+            ui.strong("tau-b vs panel");
+            ui.strong("ranker order");
+            ui.end_row();
+            ui.label("panel");
+            for m in panel {
+                ui.label(format!("{m:.3}"));
+            }
+            ui.label(model.board.contexts_scored.to_string());
+            ui.label("–");
+            ui.label(order_text(&model.board, panel));
+            ui.end_row();
+            for row in &model.sensitivity {
+                let Some((means, tau, same)) = row.by_key.get(&key) else {
+                    continue;
+                };
+                ui.label(&row.reviewer);
+                for m in means {
+                    ui.label(if m.is_finite() {
+                        format!("{m:.3}")
+                    } else {
+                        "–".into()
+                    });
+                }
+                ui.label(row.contexts_scored.to_string());
+                ui.label(if tau.is_finite() {
+                    format!("{tau:.2}")
+                } else {
+                    "–".into()
+                });
+                let order = order_text(&model.board, means);
+                if *same {
+                    ui.label(format!("{order} (same)"));
+                } else {
+                    ui.colored_label(ui.visuals().warn_fg_color, format!("{order} (changed)"));
+                }
+                ui.end_row();
+            }
+        });
+}
+
+fn order_text(board: &Scoreboard, means: &[f64]) -> String {
+    order_of(means)
+        .iter()
+        .map(|&r| board.rankers[r].ranker.as_str())
+        .collect::<Vec<_>>()
+        .join(" > ")
+}

@@ -1,0 +1,312 @@
+//! The Scoreboard driven through the real workbench with egui_kittest, on a fresh demo
+//! study: the numbers on screen are those `plumbline score --format json` prints for the
+//! same settings, before and after changing k and the baseline; the cautions are shown;
+//! "judge the gaps" hands the desk its most decisive unjudged pair first.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+use std::time::{Duration, Instant};
+
+use egui::Role;
+use egui_kittest::Harness;
+use egui_kittest::kittest::{NodeT, Queryable};
+use plumbline::cli::ScreenName;
+use plumbline::ui::Workbench;
+
+fn demo_copy() -> (tempfile::TempDir, PathBuf) {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("demo.plumb");
+    plumbline::demo::build_demo_study(&path).unwrap();
+    (dir, path)
+}
+
+fn harness(path: &Path) -> Harness<'static, Workbench> {
+    Harness::builder()
+        .with_size([1400.0, 900.0])
+        .build_ui_state(
+            |ui, wb: &mut Workbench| wb.show(ui),
+            Workbench::new(path.to_path_buf(), ScreenName::Scoreboard),
+        )
+}
+
+fn step_until(
+    h: &mut Harness<'static, Workbench>,
+    what: &str,
+    done: impl Fn(&Harness<'static, Workbench>) -> bool,
+) {
+    let start = Instant::now();
+    while !done(h) {
+        assert!(
+            start.elapsed() < Duration::from_secs(120),
+            "timed out waiting for {what}"
+        );
+        h.step();
+        std::thread::sleep(Duration::from_millis(5));
+    }
+    h.step();
+}
+
+/// Waits until the screen shows a model computed for its current settings.
+fn settle(h: &mut Harness<'static, Workbench>) {
+    step_until(h, "the scoreboard", |h| h.state().scoreboard.is_current());
+}
+
+fn score_json(path: &Path, ks: &str, baseline: &str) -> serde_json::Value {
+    let out = Command::new(env!("CARGO_BIN_EXE_plumbline"))
+        .args(["score", path.to_str().unwrap(), "--format", "json"])
+        .args(["--k", ks, "--baseline", baseline])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).unwrap()
+}
+
+fn all_texts(h: &Harness<'static, Workbench>) -> Vec<String> {
+    let mut out = Vec::new();
+    for node in h.root().children_recursive() {
+        let n = node.accesskit_node();
+        out.extend(n.label());
+        out.extend(n.value());
+    }
+    out
+}
+
+fn interval(m: &serde_json::Value) -> String {
+    format!(
+        "{:.3} [{:.3}, {:.3}]",
+        m["mean"].as_f64().unwrap(),
+        m["ci_low"].as_f64().unwrap(),
+        m["ci_high"].as_f64().unwrap()
+    )
+}
+
+fn p(v: &serde_json::Value) -> String {
+    let p = v.as_f64().unwrap();
+    if p < 0.001 {
+        "< 0.001".into()
+    } else {
+        format!("{p:.3}")
+    }
+}
+
+/// Every ranker cell and comparison row of the CLI's JSON appears on screen.
+fn assert_screen_matches(h: &Harness<'static, Workbench>, json: &serde_json::Value, ks: &[usize]) {
+    let texts = all_texts(h);
+    let has = |t: &str| texts.iter().any(|s| s == t);
+    let focus = if ks.contains(&10) {
+        10
+    } else {
+        *ks.iter().max().unwrap()
+    };
+    for r in json["rankers"].as_array().unwrap() {
+        let metrics = &r["metrics"];
+        let mut keys: Vec<String> = ks.iter().map(|k| format!("ndcg@{k}")).collect();
+        keys.extend([
+            format!("precision@{focus}"),
+            format!("err@{focus}"),
+            "rr".into(),
+        ]);
+        for key in keys {
+            let shown = interval(&metrics[&key]);
+            assert!(has(&shown), "{} {key}: {shown} not on screen", r["ranker"]);
+        }
+        for k in ks {
+            let judged = format!(
+                "{:.0} %",
+                metrics[format!("judged@{k}")]["mean"].as_f64().unwrap() * 100.0
+            );
+            assert!(has(&judged), "judged@{k} {judged} not on screen");
+        }
+    }
+    let comparisons = json["comparisons"].as_array().unwrap();
+    assert_eq!(
+        comparisons.len(),
+        2 * ks.len(),
+        "two candidates × NDCG at each k"
+    );
+    for c in comparisons {
+        let row = format!(
+            "{} vs {}",
+            c["ranker"].as_str().unwrap(),
+            c["baseline"].as_str().unwrap()
+        );
+        assert!(has(&row), "{row} not on screen");
+        let diff = format!(
+            "{:+.3} [{:+.3}, {:+.3}]",
+            c["diff"].as_f64().unwrap(),
+            c["ci_low"].as_f64().unwrap(),
+            c["ci_high"].as_f64().unwrap()
+        );
+        assert!(has(&diff), "{row} {}: {diff} not on screen", c["metric"]);
+        for key in ["p_randomization", "p_t", "p_holm"] {
+            assert!(has(&p(&c[key])), "{row} {key} not on screen");
+        }
+        let wtl = format!("{} / {} / {}", c["wins"], c["ties"], c["losses"]);
+        assert!(has(&wtl), "{row} {wtl} not on screen");
+    }
+}
+
+/// Lets a scroll animation finish so the pointer lands on the widget.
+fn settle_scroll(h: &mut Harness<'static, Workbench>) {
+    for _ in 0..8 {
+        h.step();
+    }
+}
+
+fn choose(h: &mut Harness<'static, Workbench>, combo: &str, option: &str) {
+    h.get_by_role_and_label(Role::ComboBox, combo)
+        .scroll_to_me();
+    settle_scroll(h);
+    h.get_by_role_and_label(Role::ComboBox, combo).click();
+    h.step();
+    h.step();
+    h.get_by_label(&format!("{combo}: {option}")).click();
+    h.step();
+}
+
+#[test]
+fn screen_numbers_equal_the_score_command_when_k_and_baseline_change() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path);
+    settle(&mut h);
+    let baseline = h.state().scoreboard.wanted.baseline.clone().unwrap();
+    let json = score_json(&path, "5,10,20", &baseline);
+    assert_screen_matches(&h, &json, &[5, 10, 20]);
+    // The cautions stand beside the comparisons; low coverage at k = 20 is flagged.
+    let texts = all_texts(&h);
+    assert!(texts.iter().any(|t| t.contains("they do not replace it")));
+    assert!(
+        texts
+            .iter()
+            .any(|t| t.contains("small samples give wide intervals"))
+    );
+    let low_coverage = json["rankers"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|r| r["metrics"]["judged@20"]["mean"].as_f64().unwrap() < 0.9);
+    assert_eq!(
+        texts.iter().any(|t| t.starts_with("Coverage warning")),
+        low_coverage
+    );
+
+    // Add k = 3: a new column and new comparison rows, equal to the CLI with --k 3,5,10,20.
+    h.get_by_label("k=3").click();
+    h.step();
+    settle(&mut h);
+    assert_eq!(h.state().scoreboard.wanted.ks, vec![3, 5, 10, 20]);
+    assert!(h.query_all_by_label("NDCG@3").next().is_some());
+    let json = score_json(&path, "3,5,10,20", &baseline);
+    assert_screen_matches(&h, &json, &[3, 5, 10, 20]);
+
+    // Pick another baseline from the combo box.
+    let other = json["rankers"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["ranker"].as_str().unwrap().to_string())
+        .find(|r| *r != baseline)
+        .unwrap();
+    choose(&mut h, "Baseline", &other);
+    settle(&mut h);
+    assert_eq!(
+        h.state().scoreboard.wanted.baseline.as_deref(),
+        Some(other.as_str())
+    );
+    let json = score_json(&path, "3,5,10,20", &other);
+    assert_screen_matches(&h, &json, &[3, 5, 10, 20]);
+    assert!(
+        all_texts(&h)
+            .iter()
+            .any(|t| t.ends_with(&format!("vs {other}"))),
+        "comparisons are against {other} now"
+    );
+}
+
+#[test]
+fn reviewer_sensitivity_uses_each_reviewers_own_grades() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path);
+    settle(&mut h);
+    let baseline = h.state().scoreboard.wanted.baseline.clone().unwrap();
+    let model = h.state().scoreboard.model.clone().unwrap();
+    assert!(model.sensitivity.len() >= 2);
+    for row in &model.sensitivity {
+        let out = Command::new(env!("CARGO_BIN_EXE_plumbline"))
+            .args(["score", path.to_str().unwrap(), "--format", "json"])
+            .args(["--grades", &row.reviewer, "--baseline", &baseline])
+            .output()
+            .unwrap();
+        let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        let (means, _, _) = &row.by_key["ndcg@10"];
+        let texts = all_texts(&h);
+        for (r, mean) in json["rankers"].as_array().unwrap().iter().zip(means) {
+            let cli = r["metrics"]["ndcg@10"]["mean"].as_f64().unwrap();
+            assert!(
+                (cli - mean).abs() < 1e-12,
+                "{}: {cli} vs {mean}",
+                row.reviewer
+            );
+            assert!(texts.iter().any(|t| *t == format!("{cli:.3}")));
+        }
+    }
+}
+
+#[test]
+fn judging_the_gaps_opens_the_desk_on_the_most_decisive_pair() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path);
+    settle(&mut h);
+    let first_gap = {
+        let model = h.state().scoreboard.model.as_ref().unwrap();
+        assert!(
+            !model.gaps.is_empty(),
+            "the demo leaves ranks 11–20 partly unjudged"
+        );
+        let g = &model.gaps[0];
+        assert!(model.gaps.windows(2).all(|w| w[0].spread >= w[1].spread));
+        (g.context_id.clone(), g.item_id.clone())
+    };
+    choose(&mut h, "Reviewer for the gaps", "rev-birch");
+    h.get_by_label_contains("gaps and open the desk")
+        .scroll_to_me();
+    settle_scroll(&mut h);
+    h.get_by_label_contains("gaps and open the desk").click();
+    h.step();
+    step_until(&mut h, "the desk with the first gap", |h| {
+        let wb = h.state();
+        wb.screen == ScreenName::Desk && wb.desk.data.is_some() && wb.desk.current.is_some()
+    });
+    let wb = h.state();
+    assert_eq!(wb.reviewer.as_deref(), Some("rev-birch"));
+    let data = wb.desk.data.as_ref().unwrap();
+    let (c, i) = data.queue[wb.desk.current.unwrap()];
+    assert_eq!(
+        (
+            data.contexts[c as usize].id.clone(),
+            data.items[i as usize].id.clone()
+        ),
+        first_gap
+    );
+}
+
+#[test]
+fn every_control_on_the_scoreboard_has_an_accessible_label() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path);
+    settle(&mut h);
+    let mut controls = 0;
+    for node in h.root().children_recursive() {
+        let n = node.accesskit_node();
+        if matches!(n.role(), Role::Button | Role::ComboBox | Role::CheckBox) {
+            controls += 1;
+            let label = n.label().unwrap_or_default();
+            assert!(!label.trim().is_empty(), "unlabelled {:?}: {n:?}", n.role());
+        }
+    }
+    assert!(controls >= 14, "only {controls} controls found");
+}

@@ -7,6 +7,7 @@ pub mod grades;
 pub mod import;
 pub mod merge;
 pub mod queues;
+pub mod scales;
 pub mod schema;
 pub mod snapshot;
 pub mod time;

@@ -7,9 +7,12 @@ pub mod desk;
 pub mod home;
 pub mod image_cache;
 pub mod jobs;
+pub mod scale_editor;
+pub mod scales;
 pub mod shell;
 pub mod sign_in;
 pub mod study_picker;
+pub mod trial;
 
 use std::path::PathBuf;
 

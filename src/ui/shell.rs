@@ -7,15 +7,19 @@ use super::catalog::Catalog;
 use super::desk::Desk;
 use super::home::{self, HomeModel};
 use super::jobs::Pending;
+use super::scales::ScalesScreen;
 use super::sign_in::SignIn;
 use super::study_picker::{PickerOutcome, Prefs, StudyPicker};
+use super::trial::TrialScreen;
 use crate::cli::ScreenName;
 
 /// The screens that exist, in rail order, with their shortcut digit.
-const SCREENS: [(ScreenName, &str, egui::Key, &str); 3] = [
+const SCREENS: [(ScreenName, &str, egui::Key, &str); 5] = [
     (ScreenName::Home, "Home", egui::Key::Num1, "Ctrl+1"),
     (ScreenName::Catalog, "Catalog", egui::Key::Num2, "Ctrl+2"),
-    (ScreenName::Desk, "Grading desk", egui::Key::Num3, "Ctrl+3"),
+    (ScreenName::Scales, "Scales", egui::Key::Num3, "Ctrl+3"),
+    (ScreenName::Desk, "Grading desk", egui::Key::Num4, "Ctrl+4"),
+    (ScreenName::Trial, "Scale trial", egui::Key::Num7, "Ctrl+7"),
 ];
 
 /// The workbench application state.
@@ -28,6 +32,8 @@ pub struct Workbench {
     home_loading: Option<Pending<Result<HomeModel, String>>>,
     pub catalog: Catalog,
     pub desk: Desk,
+    pub scales: ScalesScreen,
+    pub trial: TrialScreen,
     sign_in: SignIn,
     picker: StudyPicker,
     title: Option<String>,
@@ -43,7 +49,9 @@ impl Workbench {
     /// A workbench that keeps recent studies and the last reviewer in `prefs`.
     pub fn with_prefs(path: PathBuf, screen: ScreenName, mut prefs: Prefs) -> Workbench {
         let screen = match screen {
-            ScreenName::Catalog | ScreenName::Desk => screen,
+            ScreenName::Catalog | ScreenName::Desk | ScreenName::Scales | ScreenName::Trial => {
+                screen
+            }
             _ => ScreenName::Home,
         };
         prefs.remember_study(&path);
@@ -57,6 +65,8 @@ impl Workbench {
             home_loading: None,
             catalog: Catalog::default(),
             desk: Desk::default(),
+            scales: ScalesScreen::default(),
+            trial: TrialScreen::default(),
             sign_in: SignIn::default(),
             picker: StudyPicker::default(),
             title: None,
@@ -121,6 +131,12 @@ impl Workbench {
             if self.screen == ScreenName::Home && self.shown_screen.is_some() {
                 self.reload_home(ctx);
             }
+            if self.screen == ScreenName::Scales && !self.scales.is_busy() {
+                self.scales.reload(ctx, &self.path);
+            }
+            if self.screen == ScreenName::Trial && !self.trial.is_loading() {
+                self.trial.reload(ctx, &self.path);
+            }
             if self.screen == ScreenName::Desk
                 && let Some(r) = self.reviewer.clone()
                 && !self.desk.is_loading()
@@ -170,6 +186,8 @@ impl Workbench {
         egui::CentralPanel::default_margins().show(ui, |ui| match self.screen {
             ScreenName::Catalog => self.catalog.ui(ui, &self.path),
             ScreenName::Desk => self.desk_screen(ui),
+            ScreenName::Scales => self.scales.ui(ui, &self.path),
+            ScreenName::Trial => self.trial.ui(ui, &self.path),
             _ => match &self.home {
                 None => {
                     ui.horizontal(|ui| {

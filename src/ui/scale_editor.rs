@@ -213,7 +213,7 @@ impl Editor {
                         }
                         text_cell(ui, &mut row.colour, &format!("Level {v} colour"), 64.0);
                     });
-                    text_cell(ui, &mut row.rubric, &format!("Level {v} rubric"), 300.0);
+                    text_cell(ui, &mut row.rubric, &format!("Level {v} rubric"), 320.0);
                     if ui
                         .add_enabled(v > 0, egui::Button::new("Up"))
                         .on_hover_text("Move up")
@@ -244,7 +244,8 @@ impl Editor {
 
 /// A one-line text field whose accessible name is `name` (the grid heading says the same).
 fn text_cell(ui: &mut egui::Ui, text: &mut String, name: &str, width: f32) {
-    ui.add(egui::TextEdit::singleline(text).desired_width(width))
+    // add_sized: a grid cell would otherwise shrink the field to its narrowest.
+    ui.add_sized([width, 20.0], egui::TextEdit::singleline(text))
         .accessible_name(name);
 }
 
@@ -314,9 +315,7 @@ impl MapEditor {
             ui.add(egui::TextEdit::singleline(&mut self.name).desired_width(140.0))
                 .labelled_by(label.id);
         });
-        let Some(entry) = model.entry(&self.scale) else {
-            return None;
-        };
+        let entry = model.entry(&self.scale)?;
         for (v, level) in entry.scale.levels.iter().enumerate() {
             ui.horizontal(|ui| {
                 let label = ui.label(format!("{v} {} becomes", level.label));

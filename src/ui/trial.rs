@@ -100,7 +100,9 @@ fn show(ui: &mut egui::Ui, t: &Trial) {
         ui.label(&t.recommendation);
     });
     ui.add_space(6.0);
-    table(ui, &t.scales);
+    egui::ScrollArea::horizontal()
+        .id_salt("trial_table_scroll")
+        .show(ui, |ui| table(ui, &t.scales));
     ui.add_space(8.0);
     ui.strong("Agreement against time per grade");
     plot(ui, &t.scales);
@@ -108,6 +110,18 @@ fn show(ui: &mut egui::Ui, t: &Trial) {
     ui.strong("Read with care");
     let warn = ui.visuals().warn_fg_color;
     let mut cautions = t.cautions.clone();
+    if !t.scales.is_empty() && !cautions.iter().any(|c| c.contains("intervals are wide")) {
+        let half = t
+            .scales
+            .iter()
+            .map(|r| (r.alpha_ci_high - r.alpha_ci_low) / 2.0)
+            .sum::<f64>()
+            / t.scales.len() as f64;
+        cautions.push(format!(
+            "A pilot of {} pairs gives alpha intervals about ±{half:.2} wide; quadrupling the pairs roughly halves them.",
+            t.common_pairs
+        ));
+    }
     if intervals_overlap(&t.scales) {
         cautions.push(
             "Some alpha intervals overlap: those scales are not shown to differ by this pilot."
@@ -126,24 +140,48 @@ fn show(ui: &mut egui::Ui, t: &Trial) {
 fn table(ui: &mut egui::Ui, rows: &[TrialRow]) {
     egui::Grid::new("trial_table")
         .striped(true)
-        .spacing([14.0, 4.0])
+        .spacing([10.0, 4.0])
         .show(ui, |ui| {
-            for head in [
-                "Scale",
-                "Levels",
-                "Pairs",
-                "Reviewers",
-                "Alpha ordinal [95% CI]",
-                "Mean kappa (quadratic)",
-                "Mean AC1",
-                "Median s (IQR)",
-                "Can't judge",
-                "Ranker order by NDCG@10",
-                "Tau-b vs finest",
-                "Discriminative power",
-                "Alpha per reviewer-minute",
+            for (head, meaning) in [
+                (
+                    "Scale",
+                    "The scale, with the collapse map applied in brackets",
+                ),
+                ("Levels", "Number of levels"),
+                ("Pairs", "Common pairs this row is computed on"),
+                ("Reviewers", "Reviewers with grades on these pairs"),
+                (
+                    "Alpha ordinal [95% CI]",
+                    "Krippendorff's alpha (ordinal) with a bootstrap interval",
+                ),
+                (
+                    "Kappa quad.",
+                    "Mean quadratic weighted Cohen's kappa over reviewer pairs",
+                ),
+                ("AC1", "Mean Gwet's AC1 over reviewer pairs"),
+                (
+                    "Median s (IQR)",
+                    "Median and interquartile range of seconds per grade",
+                ),
+                ("Can't judge", "Share of grades marked can't judge"),
+                (
+                    "Rankers by NDCG@10",
+                    "Ranker order by mean NDCG@10 on these pairs",
+                ),
+                (
+                    "Tau-b",
+                    "Kendall's tau-b of this order against the finest scale's",
+                ),
+                (
+                    "Disc. power",
+                    "Share of ranker pairs separated at Holm-adjusted p < 0.05 (Sakai 2006)",
+                ),
+                (
+                    "Alpha/rev-min",
+                    "Alpha per reviewer-minute spent on one pair",
+                ),
             ] {
-                ui.strong(head);
+                ui.strong(head).on_hover_text(meaning);
             }
             ui.end_row();
             for r in rows {
@@ -176,8 +214,14 @@ fn plot(ui: &mut egui::Ui, rows: &[TrialRow]) {
         egui::Color32::from_rgb(0x9a, 0x4c, 0xb0),
         egui::Color32::from_rgb(0xb0, 0x3c, 0x4c),
     ];
+    // Room on the right of the slowest point for its label.
+    let right = rows.iter().map(|r| r.median_seconds).fold(1.0, f64::max) * 1.3;
     Plot::new("trial_plot")
         .height(260.0)
+        .width(ui.available_width().min(900.0))
+        .include_x(right)
+        .show_x(false)
+        .show_y(false)
         .x_axis_label("median seconds per grade")
         .y_axis_label("Krippendorff's alpha (ordinal)")
         .include_x(0.0)

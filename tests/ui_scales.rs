@@ -7,7 +7,7 @@ use std::time::{Duration, Instant};
 
 use egui::{Key, Modifiers};
 use egui_kittest::Harness;
-use egui_kittest::kittest::Queryable;
+use egui_kittest::kittest::{NodeT, Queryable};
 use plumbline::analysis::trial;
 use plumbline::cli::ScreenName;
 use plumbline::core::agreement::{self, AlphaLevel, CollapseMap};
@@ -299,4 +299,55 @@ fn the_trial_screen_shows_the_engine_and_cli_numbers() {
         assert_eq!(a.alpha_ordinal.to_bits(), b.alpha_ordinal.to_bits());
         assert_eq!(a.ranker_order, b.ranker_order);
     }
+}
+
+#[test]
+fn a_pilot_started_on_the_scales_screen_sets_the_desk_on_the_reviewers_block() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path, ScreenName::Scales);
+    step_until(&mut h, "the scales", 30, scales_loaded);
+    assert!(
+        h.get_by_label("Start pilot").accesskit_node().is_disabled(),
+        "a pilot needs two scales first"
+    );
+    h.get_by_label("Pilot with fit4").click();
+    h.step();
+    h.get_by_label("Pilot with useful2").click();
+    h.step();
+    h.get_by_label("Start pilot").click();
+    let message = saved(&mut h);
+    assert!(message.starts_with("Pilot started"), "{message}");
+    assert_eq!(
+        Study::open(&path).unwrap().pilot_scales().unwrap(),
+        vec!["fit4".to_string(), "useful2".to_string()]
+    );
+
+    h.key_press_modifiers(Modifiers::COMMAND, Key::Num4);
+    h.step();
+    step_until(&mut h, "the sign-in list", 30, |h| {
+        h.query_by_label("Sign in as rev-birch").is_some()
+    });
+    h.get_by_label("Sign in as rev-birch").click();
+    step_until(&mut h, "the first card", 60, |h| {
+        h.state().desk.data.is_some() && h.state().desk.current.is_some()
+    });
+    // The store, asked independently, names the same block and the same pairs.
+    let mut study = Study::open(&path).unwrap();
+    let block = study
+        .pilot_block("rev-birch")
+        .unwrap()
+        .expect("a block is open");
+    let data = h.state().desk.data.as_ref().unwrap();
+    assert_eq!(data.scale.name, block);
+    let shown: Vec<(String, String)> = data
+        .queue
+        .iter()
+        .map(|&(c, i)| {
+            (
+                data.contexts[c as usize].id.clone(),
+                data.items[i as usize].id.clone(),
+            )
+        })
+        .collect();
+    assert_eq!(shown, study.queue("rev-birch", &block).unwrap());
 }

@@ -8,6 +8,7 @@ pub mod grades;
 pub mod import;
 pub mod merge;
 pub mod queues;
+pub mod scales;
 pub mod schema;
 pub mod settle;
 pub mod snapshot;

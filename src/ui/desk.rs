@@ -87,7 +87,13 @@ pub fn load(
             }
             i
         }
-        None => active_scale(&study, &snapshot),
+        // During a pilot the reviewer works through one scale's block after another.
+        None => match study.pilot_block(reviewer).ok().flatten() {
+            Some(name) => snapshot
+                .scale_index(&name)
+                .unwrap_or_else(|| active_scale(&study, &snapshot)),
+            None => active_scale(&study, &snapshot),
+        },
     };
     let scale = snapshot.scales[scale_index].clone();
     let pairs = study.ensure_queue(reviewer, &scale.name).map_err(err)?;

@@ -9,6 +9,8 @@ pub mod home;
 pub mod image_cache;
 pub mod jobs;
 pub mod merge_panel;
+pub mod scale_editor;
+pub mod scales;
 pub mod scoreboard;
 pub mod scoreboard_model;
 pub mod scoreboard_plots;
@@ -17,6 +19,7 @@ pub mod settling;
 pub mod shell;
 pub mod sign_in;
 pub mod study_picker;
+pub mod trial;
 
 use std::path::PathBuf;
 

@@ -8,16 +8,19 @@ use super::catalog::Catalog;
 use super::desk::Desk;
 use super::home::{self, HomeModel};
 use super::jobs::Pending;
+use super::scales::ScalesScreen;
 use super::scoreboard::{ScoreboardAction, ScoreboardScreen};
 use super::sign_in::SignIn;
 use super::study_picker::{PickerOutcome, Prefs, StudyPicker};
+use super::trial::TrialScreen;
 use crate::cli::ScreenName;
 
 /// The screens that exist, in rail order, with their shortcut digit.
-const SCREENS: [(ScreenName, &str, egui::Key, &str); 5] = [
+const SCREENS: [(ScreenName, &str, egui::Key, &str); 7] = [
     (ScreenName::Home, "Home", egui::Key::Num1, "Ctrl+1"),
     (ScreenName::Catalog, "Catalog", egui::Key::Num2, "Ctrl+2"),
-    (ScreenName::Desk, "Grading desk", egui::Key::Num3, "Ctrl+3"),
+    (ScreenName::Scales, "Scales", egui::Key::Num3, "Ctrl+3"),
+    (ScreenName::Desk, "Grading desk", egui::Key::Num4, "Ctrl+4"),
     (
         ScreenName::Agreement,
         "Agreement",
@@ -30,6 +33,7 @@ const SCREENS: [(ScreenName, &str, egui::Key, &str); 5] = [
         egui::Key::Num6,
         "Ctrl+6",
     ),
+    (ScreenName::Trial, "Scale trial", egui::Key::Num7, "Ctrl+7"),
 ];
 
 /// The workbench application state.
@@ -44,6 +48,8 @@ pub struct Workbench {
     pub desk: Desk,
     pub agreement: AgreementScreen,
     pub scoreboard: ScoreboardScreen,
+    pub scales: ScalesScreen,
+    pub trial: TrialScreen,
     sign_in: SignIn,
     picker: StudyPicker,
     title: Option<String>,
@@ -62,7 +68,9 @@ impl Workbench {
             ScreenName::Catalog
             | ScreenName::Desk
             | ScreenName::Agreement
-            | ScreenName::Scoreboard => screen,
+            | ScreenName::Scoreboard
+            | ScreenName::Scales
+            | ScreenName::Trial => screen,
             _ => ScreenName::Home,
         };
         prefs.remember_study(&path);
@@ -78,6 +86,8 @@ impl Workbench {
             desk: Desk::default(),
             agreement: AgreementScreen::default(),
             scoreboard: ScoreboardScreen::default(),
+            scales: ScalesScreen::default(),
+            trial: TrialScreen::default(),
             sign_in: SignIn::default(),
             picker: StudyPicker::default(),
             title: None,
@@ -142,6 +152,12 @@ impl Workbench {
             if self.screen == ScreenName::Home && self.shown_screen.is_some() {
                 self.reload_home(ctx);
             }
+            if self.screen == ScreenName::Scales && !self.scales.is_busy() {
+                self.scales.reload(ctx, &self.path);
+            }
+            if self.screen == ScreenName::Trial && !self.trial.is_loading() {
+                self.trial.reload(ctx, &self.path);
+            }
             if self.screen == ScreenName::Desk
                 && let Some(r) = self.reviewer.clone()
                 && !self.desk.is_loading()
@@ -202,6 +218,8 @@ impl Workbench {
                     self.screen = ScreenName::Desk;
                 }
             }
+            ScreenName::Scales => self.scales.ui(ui, &self.path),
+            ScreenName::Trial => self.trial.ui(ui, &self.path),
             _ => match &self.home {
                 None => {
                     ui.horizontal(|ui| {

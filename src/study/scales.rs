@@ -1,0 +1,351 @@
+//! Designing scales in a study: create, edit wording, version, choose the active one,
+//! and the pilot that grades the same pairs under several scales.
+//!
+//! Nothing already graded is ever rewritten. Once a scale has grades, a change of
+//! meaning (adding, removing or renumbering levels) is saved as a new scale version
+//! ("fit4" → "fit4 v2"); wording (labels, rubric), keys, colours and gains may still be
+//! edited in place because no stored grade refers to them.
+
+use std::collections::HashSet;
+
+use rusqlite::{OptionalExtension, params};
+
+use super::queues::PairId;
+use super::{Result, Study, StudyError};
+use crate::core::pooling::shuffle;
+use crate::core::scale::Scale;
+use crate::core::stats::Rng;
+
+/// Setting naming the scale the grading desk grades on.
+pub const ACTIVE_SCALE: &str = "active_scale";
+/// Setting holding the pilot's scales as a JSON list, in block order.
+pub const PILOT_SCALES: &str = "pilot_scales";
+
+/// What saving an edited scale did.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Saved {
+    /// A scale that did not exist before.
+    Created(String),
+    /// The scale was changed in place (no grades, or wording only).
+    Updated(String),
+    /// The scale has grades and its meaning changed: saved under this new name.
+    NewVersion(String),
+}
+
+impl Saved {
+    pub fn name(&self) -> &str {
+        match self {
+            Saved::Created(n) | Saved::Updated(n) | Saved::NewVersion(n) => n,
+        }
+    }
+}
+
+/// True when `edited` means something different from `stored`: levels were added or
+/// removed, or a level moved to another value. `origins[i]` is the stored value the
+/// edited level `i` started from (None = a new level).
+pub fn meaning_changed(stored: &Scale, edited: &Scale, origins: &[Option<u8>]) -> bool {
+    stored.levels.len() != edited.levels.len()
+        || origins.len() != edited.levels.len()
+        || origins.iter().enumerate().any(|(i, o)| *o != Some(i as u8))
+}
+
+/// "fit4" → "fit4 v2", "fit4 v2" → "fit4 v3"; skips names in `taken`.
+pub fn next_version_name(name: &str, taken: &[String]) -> String {
+    let (base, mut n) = match name.rsplit_once(" v") {
+        Some((base, v)) if v.parse::<u32>().is_ok_and(|v| v >= 2) => {
+            (base, v.parse::<u32>().unwrap_or(1))
+        }
+        _ => (name, 1),
+    };
+    loop {
+        n += 1;
+        let candidate = format!("{base} v{n}");
+        if !taken.contains(&candidate) {
+            return candidate;
+        }
+    }
+}
+
+fn refuse_problems(scale: &Scale) -> Result<()> {
+    let problems = scale.problems();
+    if problems.is_empty() {
+        Ok(())
+    } else {
+        Err(StudyError::Input(format!(
+            "scale \"{}\": {}",
+            scale.name,
+            problems.join("; ")
+        )))
+    }
+}
+
+impl Study {
+    /// Names of every scale, sorted.
+    pub fn scale_names(&self) -> Result<Vec<String>> {
+        let mut stmt = self
+            .conn()
+            .prepare("SELECT scale FROM scales ORDER BY scale")?;
+        let names = stmt
+            .query_map([], |r| r.get(0))?
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(names)
+    }
+
+    /// How many grade events (grades, can't-judge, undo) refer to `scale`.
+    pub fn grade_count(&self, scale: &str) -> Result<u64> {
+        let n: i64 = self.conn().query_row(
+            "SELECT COUNT(*) FROM grade_events WHERE scale = ?1",
+            [scale],
+            |r| r.get(0),
+        )?;
+        Ok(n as u64)
+    }
+
+    /// Adds a new scale; refuses an invalid one or a name already in use.
+    pub fn create_scale(&mut self, scale: &Scale) -> Result<()> {
+        refuse_problems(scale)?;
+        if self.scale_names()?.contains(&scale.name) {
+            return Err(StudyError::Input(format!(
+                "a scale named \"{}\" already exists; choose another name",
+                scale.name
+            )));
+        }
+        let tx = self.conn_mut().transaction()?;
+        tx.execute("INSERT INTO scales(scale) VALUES (?1)", [&scale.name])?;
+        insert_levels(&tx, scale)?;
+        tx.commit()?;
+        Ok(())
+    }
+
+    /// Saves an edited scale (see the module doc for when it becomes a new version).
+    /// `origins` as in [`meaning_changed`].
+    pub fn save_scale(&mut self, edited: &Scale, origins: &[Option<u8>]) -> Result<Saved> {
+        refuse_problems(edited)?;
+        let Some(stored) = self.stored_scale(&edited.name)? else {
+            self.create_scale(edited)?;
+            return Ok(Saved::Created(edited.name.clone()));
+        };
+        let changed = meaning_changed(&stored, edited, origins);
+        if changed && self.grade_count(&edited.name)? > 0 {
+            let name = next_version_name(&edited.name, &self.scale_names()?);
+            let version = Scale {
+                name: name.clone(),
+                levels: edited.levels.clone(),
+            };
+            self.create_scale(&version)?;
+            return Ok(Saved::NewVersion(name));
+        }
+        let tx = self.conn_mut().transaction()?;
+        if changed {
+            // No grades yet, so levels may be replaced; collapse maps no longer fit.
+            tx.execute("DELETE FROM levels WHERE scale = ?1", [&edited.name])?;
+            tx.execute("DELETE FROM collapse_maps WHERE scale = ?1", [&edited.name])?;
+            insert_levels(&tx, edited)?;
+        } else {
+            let mut update = tx.prepare(
+                "UPDATE levels SET label = ?3, gain = ?4, key = ?5, rubric = ?6, colour = ?7
+                 WHERE scale = ?1 AND value = ?2",
+            )?;
+            for l in &edited.levels {
+                update.execute(params![
+                    edited.name,
+                    l.value,
+                    l.label,
+                    l.gain,
+                    l.key,
+                    l.rubric,
+                    l.colour
+                ])?;
+            }
+        }
+        tx.commit()?;
+        Ok(Saved::Updated(edited.name.clone()))
+    }
+
+    /// One scale as stored, or None.
+    pub fn stored_scale(&self, name: &str) -> Result<Option<Scale>> {
+        let exists = self
+            .conn()
+            .query_row("SELECT 1 FROM scales WHERE scale = ?1", [name], |_| Ok(()))
+            .optional()?
+            .is_some();
+        if !exists {
+            return Ok(None);
+        }
+        let mut stmt = self.conn().prepare(
+            "SELECT value, label, gain, key, rubric, colour FROM levels
+             WHERE scale = ?1 ORDER BY value",
+        )?;
+        let levels = stmt
+            .query_map([name], |r| {
+                Ok(crate::core::scale::Level {
+                    value: r.get(0)?,
+                    label: r.get(1)?,
+                    gain: r.get(2)?,
+                    key: r.get(3)?,
+                    rubric: r.get(4)?,
+                    colour: r.get(5)?,
+                })
+            })?
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(Some(Scale {
+            name: name.to_string(),
+            levels,
+        }))
+    }
+
+    /// Makes `scale` the one the grading desk grades on.
+    pub fn set_active_scale(&self, scale: &str) -> Result<()> {
+        if !self.scale_names()?.iter().any(|s| s == scale) {
+            return Err(StudyError::Input(format!("unknown scale \"{scale}\"")));
+        }
+        self.set_setting(ACTIVE_SCALE, scale)
+    }
+
+    /// The pilot's scales in block order (empty when no pilot runs).
+    pub fn pilot_scales(&self) -> Result<Vec<String>> {
+        Ok(self
+            .setting(PILOT_SCALES)?
+            .and_then(|s| serde_json::from_str(&s).ok())
+            .unwrap_or_default())
+    }
+
+    /// Starts a pilot over two or more scales: from now on every reviewer grades the
+    /// same pairs under each scale, one scale at a time (see [`Study::pilot_block`]).
+    pub fn start_pilot(&self, scales: &[String]) -> Result<()> {
+        let known = self.scale_names()?;
+        let distinct: HashSet<&String> = scales.iter().collect();
+        if distinct.len() < 2 || distinct.len() != scales.len() {
+            return Err(StudyError::Input(
+                "a pilot needs two or more different scales".into(),
+            ));
+        }
+        if let Some(s) = scales.iter().find(|s| !known.contains(s)) {
+            return Err(StudyError::Input(format!("unknown scale \"{s}\"")));
+        }
+        let json = serde_json::to_string(scales).unwrap_or_default();
+        self.set_setting(PILOT_SCALES, &json)
+    }
+
+    /// Ends the pilot; queues and grades stay as they are.
+    pub fn end_pilot(&self) -> Result<()> {
+        self.conn()
+            .execute("DELETE FROM settings WHERE key = ?1", [PILOT_SCALES])?;
+        Ok(())
+    }
+
+    /// The pilot scale `reviewer` should grade on now: the first, in this reviewer's
+    /// block order, whose queue still has open pairs. Block order rotates with the
+    /// reviewer's place on the panel so carry-over does not always run the same way.
+    /// Also makes sure the reviewer's pilot queues hold the same pairs on every scale.
+    /// None when no pilot runs or every block is done.
+    pub fn pilot_block(&mut self, reviewer: &str) -> Result<Option<String>> {
+        let scales = self.pilot_scales()?;
+        if scales.is_empty() {
+            return Ok(None);
+        }
+        self.ensure_pilot_queues(reviewer, &scales)?;
+        let panel = self.panel()?;
+        let place = panel.iter().position(|r| r == reviewer).unwrap_or(0);
+        let mut order = scales;
+        let shift = place % order.len();
+        order.rotate_left(shift);
+        for scale in order {
+            let queue = self.queue(reviewer, &scale)?;
+            let marks = self.reviewer_marks(reviewer, &scale)?;
+            if queue.iter().any(|p| !marks.contains_key(p)) {
+                return Ok(Some(scale));
+            }
+        }
+        Ok(None)
+    }
+
+    /// The pilot's pair set is each reviewer's queue on the pilot's first scale (made
+    /// for the whole panel at once, as `ensure_queue` does). Every other pilot scale gets
+    /// the same pairs for every reviewer, each once, in its own shuffled order, so the
+    /// pool stays covered and `ensure_queue` adds nothing there later. Pairs already
+    /// queued on a scale before the pilot stay where they are.
+    fn ensure_pilot_queues(&mut self, reviewer: &str, scales: &[String]) -> Result<()> {
+        self.ensure_queue(reviewer, &scales[0])?;
+        if self.is_read_only() {
+            return Ok(());
+        }
+        let seed = self.queue_seed()?;
+        let panel = self.panel()?;
+        let tx = self.conn_mut().transaction()?;
+        for member in &panel {
+            let pairs = queue_in(&tx, member, &scales[0])?;
+            for (n, scale) in scales.iter().enumerate().skip(1) {
+                let stored = queue_in(&tx, member, scale)?;
+                let have: HashSet<&PairId> = stored.iter().collect();
+                let mut seen = HashSet::new();
+                let mut missing: Vec<PairId> = pairs
+                    .iter()
+                    .filter(|p| !have.contains(p) && seen.insert(*p))
+                    .cloned()
+                    .collect();
+                if missing.is_empty() {
+                    continue;
+                }
+                shuffle(&mut missing, &mut Rng::new(seed ^ (n as u64 + 1)));
+                let mut insert = tx.prepare(
+                    "INSERT INTO queue_entries(reviewer, scale, position, context_id, item_id)
+                     VALUES (?1, ?2, ?3, ?4, ?5)",
+                )?;
+                for (k, (c, i)) in missing.iter().enumerate() {
+                    let pos = (stored.len() + k) as i64;
+                    insert.execute(params![member, scale, pos, c, i])?;
+                }
+            }
+        }
+        tx.commit()?;
+        Ok(())
+    }
+
+    fn panel(&self) -> Result<Vec<String>> {
+        let mut stmt = self
+            .conn()
+            .prepare("SELECT reviewer FROM reviewers ORDER BY reviewer")?;
+        let panel = stmt
+            .query_map([], |r| r.get(0))?
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(panel)
+    }
+}
+
+fn queue_in(tx: &rusqlite::Transaction, reviewer: &str, scale: &str) -> Result<Vec<PairId>> {
+    let mut stmt = tx.prepare(
+        "SELECT context_id, item_id FROM queue_entries
+         WHERE reviewer = ?1 AND scale = ?2 ORDER BY position",
+    )?;
+    let rows = stmt
+        .query_map([reviewer, scale], |r| Ok((r.get(0)?, r.get(1)?)))?
+        .collect::<std::result::Result<_, _>>()?;
+    Ok(rows)
+}
+
+fn insert_levels(tx: &rusqlite::Transaction, scale: &Scale) -> Result<()> {
+    let mut insert = tx.prepare(
+        "INSERT INTO levels(scale, value, label, gain, key, rubric, colour)
+         VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7)",
+    )?;
+    for l in &scale.levels {
+        insert.execute(params![
+            scale.name, l.value, l.label, l.gain, l.key, l.rubric, l.colour
+        ])?;
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn version_names_count_up_and_skip_taken_names() {
+        assert_eq!(next_version_name("fit4", &[]), "fit4 v2");
+        assert_eq!(next_version_name("fit4 v2", &[]), "fit4 v3");
+        assert_eq!(next_version_name("fit4", &["fit4 v2".into()]), "fit4 v3");
+        assert_eq!(next_version_name("kit v1", &[]), "kit v1 v2");
+    }
+}

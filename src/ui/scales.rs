@@ -1,0 +1,344 @@
+//! Scales: the study's scales, an editor for their levels, collapse maps, the active
+//! scale and the pilot. Reading and every write run on job threads; `ui` only draws the
+//! cached model and the editor's own text.
+
+use std::path::Path;
+
+use super::jobs::Pending;
+use super::scale_editor::{Editor, MapEditor};
+use crate::core::agreement::CollapseMap;
+use crate::core::scale::{self, Scale};
+use crate::study::Study;
+use crate::study::scales::Saved;
+
+/// One scale and how many grade events refer to it.
+#[derive(Debug, Clone)]
+pub struct ScaleEntry {
+    pub scale: Scale,
+    pub grades: u64,
+}
+
+/// Everything the Scales screen shows, read on a job thread.
+#[derive(Debug, Clone, Default)]
+pub struct ScalesModel {
+    pub scales: Vec<ScaleEntry>,
+    /// The scale the desk grades on (setting, else the busiest scale).
+    pub active: Option<String>,
+    pub pilot: Vec<String>,
+    pub maps: Vec<(String, CollapseMap)>,
+    pub read_only: bool,
+}
+
+impl ScalesModel {
+    pub fn entry(&self, name: &str) -> Option<&ScaleEntry> {
+        self.scales.iter().find(|e| e.scale.name == name)
+    }
+}
+
+pub fn load(path: &Path) -> Result<ScalesModel, String> {
+    let err = |e: crate::study::StudyError| e.to_string();
+    let study = Study::open(path).map_err(err)?;
+    let snapshot = study.snapshot().map_err(err)?;
+    let mut scales = Vec::new();
+    for s in &snapshot.scales {
+        scales.push(ScaleEntry {
+            scale: s.clone(),
+            grades: study.grade_count(&s.name).map_err(err)?,
+        });
+    }
+    let active = (!snapshot.scales.is_empty()).then(|| {
+        snapshot.scales[super::desk::active_scale(&study, &snapshot)]
+            .name
+            .clone()
+    });
+    Ok(ScalesModel {
+        scales,
+        active,
+        pilot: study.pilot_scales().map_err(err)?,
+        maps: study.collapse_maps().map_err(err)?,
+        read_only: study.is_read_only(),
+    })
+}
+
+/// A write the screen asks for; applied on a job thread.
+#[derive(Debug, Clone)]
+pub enum Change {
+    SaveScale {
+        scale: Scale,
+        origins: Vec<Option<u8>>,
+    },
+    Activate(String),
+    SaveMap {
+        scale: String,
+        map: CollapseMap,
+    },
+    StartPilot(Vec<String>),
+    EndPilot,
+}
+
+/// Applies `change` and reloads the model; returns a sentence saying what happened.
+pub fn apply(path: &Path, change: Change) -> Result<(String, ScalesModel), String> {
+    let err = |e: crate::study::StudyError| e.to_string();
+    let mut study = Study::open(path).map_err(err)?;
+    let message = match change {
+        Change::SaveScale { scale, origins } => match study.save_scale(&scale, &origins) {
+            Ok(Saved::Created(n)) => format!("Scale \"{n}\" created."),
+            Ok(Saved::Updated(n)) => format!("Scale \"{n}\" saved."),
+            Ok(Saved::NewVersion(n)) => format!(
+                "\"{}\" already has grades, so the changed levels were saved as a new scale \"{n}\"; the old grades are untouched.",
+                scale.name
+            ),
+            Err(e) => return Err(e.to_string()),
+        },
+        Change::Activate(name) => {
+            study.set_active_scale(&name).map_err(err)?;
+            format!("The grading desk now grades on \"{name}\".")
+        }
+        Change::SaveMap { scale, map } => {
+            study.save_collapse_map(&scale, &map).map_err(err)?;
+            format!("Collapse map \"{}\" saved for \"{scale}\".", map.name)
+        }
+        Change::StartPilot(scales) => {
+            study.start_pilot(&scales).map_err(err)?;
+            format!(
+                "Pilot started: each reviewer grades the same pairs on {}, one scale at a time.",
+                scales.join(", ")
+            )
+        }
+        Change::EndPilot => {
+            study.end_pilot().map_err(err)?;
+            "Pilot ended; the desk grades on the active scale again.".to_string()
+        }
+    };
+    drop(study);
+    Ok((message, load(path)?))
+}
+
+/// The Scales screen's state between frames.
+#[derive(Default)]
+pub struct ScalesScreen {
+    pub model: Option<Result<ScalesModel, String>>,
+    loading: Option<Pending<Result<ScalesModel, String>>>,
+    writing: Option<Pending<Result<(String, ScalesModel), String>>>,
+    /// The last write's outcome: Ok(what happened) or Err(why not).
+    pub message: Option<Result<String, String>>,
+    pub editor: Option<Editor>,
+    pub map_editor: MapEditor,
+    pilot_choice: Vec<String>,
+}
+
+impl ScalesScreen {
+    pub fn reload(&mut self, ctx: &egui::Context, path: &Path) {
+        let p = path.to_path_buf();
+        self.loading = Some(Pending::spawn(ctx, move || load(&p)));
+    }
+
+    pub fn is_busy(&self) -> bool {
+        self.loading.is_some() || self.writing.is_some()
+    }
+
+    fn request(&mut self, ctx: &egui::Context, path: &Path, change: Change) {
+        let p = path.to_path_buf();
+        self.writing = Some(Pending::spawn(ctx, move || apply(&p, change)));
+    }
+
+    fn collect(&mut self) {
+        if let Some(result) = self.loading.as_ref().and_then(Pending::poll) {
+            self.loading = None;
+            self.model = Some(result);
+        }
+        if let Some(result) = self.writing.as_ref().and_then(Pending::poll) {
+            self.writing = None;
+            match result {
+                Ok((message, model)) => {
+                    self.message = Some(Ok(message));
+                    self.model = Some(Ok(model));
+                    self.editor = None;
+                }
+                Err(e) => self.message = Some(Err(e)),
+            }
+        }
+    }
+
+    pub fn ui(&mut self, ui: &mut egui::Ui, path: &Path) {
+        let ctx = ui.ctx().clone();
+        if self.model.is_none() && self.loading.is_none() {
+            self.reload(&ctx, path);
+        }
+        self.collect();
+        ui.heading("Scales");
+        let model = match &self.model {
+            None => {
+                ui.horizontal(|ui| {
+                    ui.spinner();
+                    ui.label("Reading the scales…");
+                });
+                return;
+            }
+            Some(Err(e)) => {
+                ui.colored_label(ui.visuals().error_fg_color, e);
+                return;
+            }
+            Some(Ok(m)) => m.clone(),
+        };
+        ui.label(
+            "Grades are never rewritten: once a scale has grades, adding, removing or \
+             reordering its levels saves a new version; wording, keys, colours and gains \
+             can still change in place.",
+        );
+        match &self.message {
+            Some(Ok(m)) => {
+                ui.colored_label(egui::Color32::from_rgb(0x3c, 0x9a, 0x5f), m);
+            }
+            Some(Err(e)) => {
+                ui.colored_label(ui.visuals().error_fg_color, format!("Not saved: {e}"));
+            }
+            None => {}
+        }
+        if model.read_only {
+            ui.colored_label(
+                ui.visuals().warn_fg_color,
+                "This study is open read-only; nothing here can be saved.",
+            );
+        }
+        ui.separator();
+        let mut change: Option<Change> = None;
+        egui::ScrollArea::vertical().show(ui, |ui| {
+            ui.horizontal_top(|ui| {
+                ui.vertical(|ui| {
+                    ui.set_width(330.0);
+                    self.list(ui, &model, &mut change);
+                    ui.add_space(12.0);
+                    self.pilot(ui, &model, &mut change);
+                });
+                ui.separator();
+                ui.vertical(|ui| {
+                    if let Some(editor) = &mut self.editor {
+                        let entry = editor.stored_name().and_then(|n| model.entry(n));
+                        match editor.ui(ui, entry, self.writing.is_some()) {
+                            Some(super::scale_editor::EditorAction::Save(scale, origins)) => {
+                                change = Some(Change::SaveScale { scale, origins });
+                            }
+                            Some(super::scale_editor::EditorAction::Close) => {}
+                            None => {}
+                        }
+                        if editor.closed {
+                            self.editor = None;
+                        }
+                        ui.add_space(12.0);
+                        ui.separator();
+                    }
+                    if let Some((scale, map)) = self.map_editor.ui(ui, &model) {
+                        change = Some(Change::SaveMap { scale, map });
+                    }
+                });
+            });
+        });
+        if let Some(c) = change
+            && !model.read_only
+        {
+            self.request(&ctx, path, c);
+        }
+    }
+
+    fn list(&mut self, ui: &mut egui::Ui, model: &ScalesModel, change: &mut Option<Change>) {
+        ui.strong("Scales in this study");
+        if model.scales.is_empty() {
+            ui.label("No scale yet. Start one from a preset below.");
+        }
+        for entry in &model.scales {
+            let name = &entry.scale.name;
+            let active = model.active.as_deref() == Some(name.as_str());
+            // A stable id per scale, so a status line above does not shift the buttons'.
+            ui.push_id(name, |ui| {
+                ui.group(|ui| {
+                    ui.set_width(310.0);
+                    ui.horizontal(|ui| {
+                        ui.strong(name);
+                        if active {
+                            ui.label(egui::RichText::new("active on the desk").italics());
+                        }
+                    });
+                    ui.label(format!(
+                        "{} levels · {} grades · {}",
+                        entry.scale.levels.len(),
+                        entry.grades,
+                        entry
+                            .scale
+                            .levels
+                            .iter()
+                            .map(|l| l.label.as_str())
+                            .collect::<Vec<_>>()
+                            .join(" / ")
+                    ));
+                    ui.horizontal(|ui| {
+                        if ui.button(format!("Edit {name}")).clicked() {
+                            self.editor = Some(Editor::for_scale(&entry.scale, entry.grades));
+                        }
+                        if !active
+                            && ui
+                                .add_enabled(
+                                    !model.read_only,
+                                    egui::Button::new(format!("Grade on {name}")),
+                                )
+                                .clicked()
+                        {
+                            *change = Some(Change::Activate(name.clone()));
+                        }
+                    });
+                })
+            });
+        }
+        ui.add_space(8.0);
+        ui.strong("New scale from a preset");
+        ui.horizontal_wrapped(|ui| {
+            for n in 2..=5 {
+                let Some(preset) = scale::preset(n) else {
+                    continue;
+                };
+                if ui.button(format!("{n} levels ({})", preset.name)).clicked() {
+                    let taken: Vec<String> =
+                        model.scales.iter().map(|e| e.scale.name.clone()).collect();
+                    self.editor = Some(Editor::new_from(preset, &taken));
+                }
+            }
+        });
+    }
+
+    fn pilot(&mut self, ui: &mut egui::Ui, model: &ScalesModel, change: &mut Option<Change>) {
+        ui.strong("Pilot");
+        ui.label(
+            "Reviewers grade the same pairs under each chosen scale, one scale's block \
+             after another (the block order rotates between reviewers), each pair once \
+             per scale. Compare the results on the Scale trial screen.",
+        );
+        if !model.pilot.is_empty() {
+            ui.label(format!("Running: {}", model.pilot.join(", then ")));
+            if ui
+                .add_enabled(!model.read_only, egui::Button::new("End pilot"))
+                .clicked()
+            {
+                *change = Some(Change::EndPilot);
+            }
+            return;
+        }
+        for entry in &model.scales {
+            let name = entry.scale.name.clone();
+            let mut on = self.pilot_choice.contains(&name);
+            if ui.checkbox(&mut on, format!("Pilot with {name}")).changed() {
+                if on {
+                    self.pilot_choice.push(name);
+                } else {
+                    self.pilot_choice.retain(|n| *n != name);
+                }
+            }
+        }
+        let enough = self.pilot_choice.len() >= 2;
+        let start = ui
+            .add_enabled(enough && !model.read_only, egui::Button::new("Start pilot"))
+            .on_disabled_hover_text("Choose two or more scales");
+        if start.clicked() {
+            *change = Some(Change::StartPilot(self.pilot_choice.clone()));
+        }
+    }
+}

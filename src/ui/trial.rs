@@ -1,0 +1,261 @@
+//! Scale trial: one row per piloted scale and per saved collapse map, a plot of agreement
+//! against time per grade, the recommendation and its cautions. The numbers come from
+//! `analysis::trial::build` with the same settings as `plumbline trial`, computed on a
+//! job thread.
+
+use std::path::Path;
+
+use egui_plot::{Line, Plot, PlotPoint, Points, Text};
+
+use super::jobs::Pending;
+use crate::analysis::trial::{self, Trial, TrialRow};
+use crate::study::Study;
+
+/// Bootstrap and randomization resamples, and the seed: the same as `plumbline trial`,
+/// so the screen and the terminal print the same numbers.
+pub const RESAMPLES: usize = 2000;
+pub const SEED: u64 = 20_261_201;
+
+pub fn load(path: &Path) -> Result<Trial, String> {
+    let err = |e: crate::study::StudyError| e.to_string();
+    let study = Study::open(path).map_err(err)?;
+    let snapshot = study.snapshot().map_err(err)?;
+    let maps = study.collapse_maps().map_err(err)?;
+    Ok(trial::build(&snapshot, &maps, RESAMPLES, SEED))
+}
+
+/// The row's name: the scale, and the collapse map when there is one.
+pub fn row_name(row: &TrialRow) -> String {
+    match &row.collapse {
+        Some(map) => format!("{} ({map})", row.scale),
+        None => row.scale.clone(),
+    }
+}
+
+/// True when some two uncollapsed rows have overlapping alpha intervals.
+fn intervals_overlap(rows: &[TrialRow]) -> bool {
+    let plain: Vec<&TrialRow> = rows.iter().filter(|r| r.collapse.is_none()).collect();
+    plain.iter().enumerate().any(|(i, a)| {
+        plain[i + 1..]
+            .iter()
+            .any(|b| a.alpha_ci_low <= b.alpha_ci_high && b.alpha_ci_low <= a.alpha_ci_high)
+    })
+}
+
+/// The screen's state: the last trial and the job computing the next.
+#[derive(Default)]
+pub struct TrialScreen {
+    pub model: Option<Result<Trial, String>>,
+    loading: Option<Pending<Result<Trial, String>>>,
+}
+
+impl TrialScreen {
+    /// Recomputes in the background; the old table stays until the new one arrives.
+    pub fn reload(&mut self, ctx: &egui::Context, path: &Path) {
+        let p = path.to_path_buf();
+        self.loading = Some(Pending::spawn(ctx, move || load(&p)));
+    }
+
+    pub fn is_loading(&self) -> bool {
+        self.loading.is_some()
+    }
+
+    pub fn ui(&mut self, ui: &mut egui::Ui, path: &Path) {
+        if self.model.is_none() && self.loading.is_none() {
+            self.reload(ui.ctx(), path);
+        }
+        if let Some(result) = self.loading.as_ref().and_then(Pending::poll) {
+            self.loading = None;
+            self.model = Some(result);
+        }
+        ui.horizontal(|ui| {
+            ui.heading("Scale trial");
+            if self.loading.is_some() {
+                ui.spinner();
+                ui.label("Computing (bootstrap and randomization tests)…");
+            } else if ui.button("Recompute").clicked() {
+                self.reload(ui.ctx(), path);
+            }
+        });
+        match &self.model {
+            None => {}
+            Some(Err(e)) => {
+                ui.colored_label(ui.visuals().error_fg_color, e);
+            }
+            Some(Ok(t)) => {
+                egui::ScrollArea::vertical().show(ui, |ui| show(ui, t));
+            }
+        }
+    }
+}
+
+fn show(ui: &mut egui::Ui, t: &Trial) {
+    ui.label(format!(
+        "Every row is computed on the {} pairs graded on every piloted scale.",
+        t.common_pairs
+    ));
+    ui.add_space(6.0);
+    ui.group(|ui| {
+        ui.strong("Recommendation");
+        ui.label(&t.recommendation);
+    });
+    ui.add_space(6.0);
+    egui::ScrollArea::horizontal()
+        .id_salt("trial_table_scroll")
+        .show(ui, |ui| table(ui, &t.scales));
+    ui.add_space(8.0);
+    ui.strong("Agreement against time per grade");
+    plot(ui, &t.scales);
+    ui.add_space(6.0);
+    ui.strong("Read with care");
+    let warn = ui.visuals().warn_fg_color;
+    let mut cautions = t.cautions.clone();
+    if !t.scales.is_empty() && !cautions.iter().any(|c| c.contains("intervals are wide")) {
+        let half = t
+            .scales
+            .iter()
+            .map(|r| (r.alpha_ci_high - r.alpha_ci_low) / 2.0)
+            .sum::<f64>()
+            / t.scales.len() as f64;
+        cautions.push(format!(
+            "A pilot of {} pairs gives alpha intervals about ±{half:.2} wide; quadrupling the pairs roughly halves them.",
+            t.common_pairs
+        ));
+    }
+    if intervals_overlap(&t.scales) {
+        cautions.push(
+            "Some alpha intervals overlap: those scales are not shown to differ by this pilot."
+                .into(),
+        );
+    }
+    cautions.push(
+        "Separating rankers offline picks candidates for an online experiment; it does not replace one."
+            .into(),
+    );
+    for c in cautions {
+        ui.colored_label(warn, format!("- {c}"));
+    }
+}
+
+fn table(ui: &mut egui::Ui, rows: &[TrialRow]) {
+    egui::Grid::new("trial_table")
+        .striped(true)
+        .spacing([10.0, 4.0])
+        .show(ui, |ui| {
+            for (head, meaning) in [
+                (
+                    "Scale",
+                    "The scale, with the collapse map applied in brackets",
+                ),
+                ("Levels", "Number of levels"),
+                ("Pairs", "Common pairs this row is computed on"),
+                ("Reviewers", "Reviewers with grades on these pairs"),
+                (
+                    "Alpha ordinal [95% CI]",
+                    "Krippendorff's alpha (ordinal) with a bootstrap interval",
+                ),
+                (
+                    "Kappa quad.",
+                    "Mean quadratic weighted Cohen's kappa over reviewer pairs",
+                ),
+                ("AC1", "Mean Gwet's AC1 over reviewer pairs"),
+                (
+                    "Median s (IQR)",
+                    "Median and interquartile range of seconds per grade",
+                ),
+                ("Can't judge", "Share of grades marked can't judge"),
+                (
+                    "Rankers by NDCG@10",
+                    "Ranker order by mean NDCG@10 on these pairs",
+                ),
+                (
+                    "Tau-b",
+                    "Kendall's tau-b of this order against the finest scale's",
+                ),
+                (
+                    "Disc. power",
+                    "Share of ranker pairs separated at Holm-adjusted p < 0.05 (Sakai 2006)",
+                ),
+                (
+                    "Alpha/rev-min",
+                    "Alpha per reviewer-minute spent on one pair",
+                ),
+            ] {
+                ui.strong(head).on_hover_text(meaning);
+            }
+            ui.end_row();
+            for r in rows {
+                ui.label(row_name(r));
+                ui.label(r.levels.to_string());
+                ui.label(r.pairs.to_string());
+                ui.label(r.reviewers.to_string());
+                ui.label(format!(
+                    "{:.3} [{:.3}, {:.3}]",
+                    r.alpha_ordinal, r.alpha_ci_low, r.alpha_ci_high
+                ));
+                ui.label(format!("{:.3}", r.kappa_quadratic_mean));
+                ui.label(format!("{:.3}", r.ac1_mean));
+                ui.label(format!("{:.1} ({:.1})", r.median_seconds, r.iqr_seconds));
+                ui.label(format!("{:.1} %", r.cant_judge_rate * 100.0));
+                ui.label(r.ranker_order.join(" > "));
+                ui.label(format!("{:.3}", r.kendall_tau));
+                ui.label(format!("{:.0} %", r.discriminative_power * 100.0));
+                ui.label(format!("{:.3}", r.alpha_per_reviewer_minute));
+                ui.end_row();
+            }
+        });
+}
+
+fn plot(ui: &mut egui::Ui, rows: &[TrialRow]) {
+    let palette = [
+        egui::Color32::from_rgb(0x3c, 0x7d, 0xc4),
+        egui::Color32::from_rgb(0xd0, 0x7a, 0x2c),
+        egui::Color32::from_rgb(0x3c, 0x9a, 0x5f),
+        egui::Color32::from_rgb(0x9a, 0x4c, 0xb0),
+        egui::Color32::from_rgb(0xb0, 0x3c, 0x4c),
+    ];
+    // Room on the right of the slowest point for its label.
+    let right = rows.iter().map(|r| r.median_seconds).fold(1.0, f64::max) * 1.3;
+    Plot::new("trial_plot")
+        .height(260.0)
+        .width(ui.available_width().min(900.0))
+        .include_x(right)
+        .show_x(false)
+        .show_y(false)
+        .x_axis_label("median seconds per grade")
+        .y_axis_label("Krippendorff's alpha (ordinal)")
+        .include_x(0.0)
+        .include_y(0.0)
+        .include_y(1.0)
+        .allow_zoom(false)
+        .allow_drag(false)
+        .show(ui, |p| {
+            for (n, r) in rows.iter().enumerate() {
+                let colour = palette[n % palette.len()];
+                let name = row_name(r);
+                let x = r.median_seconds;
+                p.line(
+                    Line::new(
+                        format!("{name} interval"),
+                        vec![[x, r.alpha_ci_low], [x, r.alpha_ci_high]],
+                    )
+                    .color(colour)
+                    .width(1.5),
+                );
+                p.points(
+                    Points::new(name.clone(), vec![[x, r.alpha_ordinal]])
+                        .radius(5.0)
+                        .color(colour),
+                );
+                p.text(
+                    Text::new(
+                        format!("{name} label"),
+                        PlotPoint::new(x, r.alpha_ordinal),
+                        format!("  {name}"),
+                    )
+                    .anchor(egui::Align2::LEFT_CENTER)
+                    .color(colour),
+                );
+            }
+        });
+}

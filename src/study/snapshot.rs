@@ -116,7 +116,9 @@ fn index_of(ids: &[String]) -> IdMap<'_> {
 impl Study {
     /// Loads the snapshot. Cost is a few sequential scans; no per-context queries.
     pub fn snapshot(&self) -> Result<Snapshot> {
-        let conn = self.conn();
+        // One read transaction: every query below sees the same state of the file, even
+        // while another process adds reviewers or grades (WAL readers see a fixed point).
+        let conn = &self.conn().unchecked_transaction()?;
         let items: Vec<ItemInfo> = conn
             .prepare("SELECT item_id, title, category, is_new FROM items ORDER BY item_id")?
             .query_map([], |r| {

@@ -6,7 +6,8 @@ use super::agreement::AgreementReport;
 use super::scoreboard::Scoreboard;
 use super::trial::Trial;
 
-fn num(x: f64) -> String {
+/// Three decimals, or a dash for a value that is not defined.
+pub(super) fn num(x: f64) -> String {
     if x.is_finite() {
         format!("{x:.3}")
     } else {
@@ -14,11 +15,12 @@ fn num(x: f64) -> String {
     }
 }
 
-fn p_value(p: f64) -> String {
+/// A p-value as people read it: three decimals, or "< 0.001".
+pub(super) fn p_value(p: f64) -> String {
     if !p.is_finite() {
         "–".into()
     } else if p < 0.001 {
-        "<0.001".into()
+        "< 0.001".into()
     } else {
         format!("{p:.3}")
     }

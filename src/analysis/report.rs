@@ -1,30 +1,13 @@
 //! The Markdown report: settings, rankers with intervals, comparisons against the
-//! baseline, an agreement summary and the cautions. Plain GitHub-flavoured Markdown
-//! (pipe tables, no HTML) so it reads the same on code-hosting sites and in a terminal.
+//! baseline, an agreement summary and the cautions. Plain Markdown with pipe
+//! tables and no HTML, so it reads the same on code-hosting sites and in a terminal.
 
 use std::fmt::Write;
 
 use super::agreement::AgreementReport;
+use super::render::{num, p_value};
 use super::scoreboard::{OFFLINE_CAUTION, Scoreboard};
 use crate::core::metrics::{GainKind, Unjudged};
-
-fn num(x: f64) -> String {
-    if x.is_finite() {
-        format!("{x:.3}")
-    } else {
-        "–".into()
-    }
-}
-
-fn p_value(p: f64) -> String {
-    if !p.is_finite() {
-        "–".into()
-    } else if p < 0.001 {
-        "< 0.001".into()
-    } else {
-        format!("{p:.3}")
-    }
-}
 
 /// A table cell: pipes and line breaks would break the table.
 fn cell(text: &str) -> String {

@@ -3,8 +3,9 @@
 //! what the engines (`analysis::agreement`, `analysis::scoreboard`) compute from the
 //! study file on their own.
 
-use std::path::{Path, PathBuf};
-use std::time::{Duration, Instant};
+mod ui_support;
+
+use std::path::Path;
 
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
@@ -15,34 +16,12 @@ use plumbline::cli::ScreenName;
 use plumbline::study::Study;
 use plumbline::ui::Workbench;
 use plumbline::ui::agreement::{AgreementModel, RESAMPLES, SEED, heatmap_cell_label};
-
-fn demo_copy() -> (tempfile::TempDir, PathBuf) {
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("demo.plumb");
-    plumbline::demo::build_demo_study(&path).unwrap();
-    (dir, path)
-}
+use ui_support::{demo_copy, step_until};
 
 fn harness(wb: Workbench) -> Harness<'static, Workbench> {
     Harness::builder()
         .with_size([1360.0, 2400.0])
         .build_ui_state(|ui, wb: &mut Workbench| wb.show(ui), wb)
-}
-
-fn step_until(
-    h: &mut Harness<'static, Workbench>,
-    what: &str,
-    done: impl Fn(&Harness<'static, Workbench>) -> bool,
-) {
-    let start = Instant::now();
-    while !done(h) {
-        assert!(
-            start.elapsed() < Duration::from_secs(60),
-            "timed out waiting for {what}"
-        );
-        h.step();
-        std::thread::sleep(Duration::from_millis(5));
-    }
 }
 
 fn model<'h>(h: &'h Harness<'static, Workbench>) -> &'h AgreementModel {

@@ -1,8 +1,10 @@
 //! The Scales and Scale trial screens driven through the real workbench
 //! (`Workbench::show`) with egui_kittest, on a fresh copy of the demo study.
 
+mod ui_support;
+
 use std::collections::BTreeMap;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::time::{Duration, Instant};
 
 use egui::{Key, Modifiers};
@@ -13,13 +15,7 @@ use plumbline::cli::ScreenName;
 use plumbline::core::agreement::{self, AlphaLevel, CollapseMap};
 use plumbline::study::Study;
 use plumbline::ui::Workbench;
-
-fn demo_copy() -> (tempfile::TempDir, PathBuf) {
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("demo.plumb");
-    plumbline::demo::build_demo_study(&path).unwrap();
-    (dir, path)
-}
+use ui_support::{demo_copy, step_until_within};
 
 fn harness(path: &Path, screen: ScreenName) -> Harness<'static, Workbench> {
     Harness::builder()
@@ -28,25 +24,6 @@ fn harness(path: &Path, screen: ScreenName) -> Harness<'static, Workbench> {
             |ui, wb: &mut Workbench| wb.show(ui),
             Workbench::new(path.to_path_buf(), screen),
         )
-}
-
-/// Steps frames until `done` holds (background jobs run on threads meanwhile).
-fn step_until(
-    h: &mut Harness<'static, Workbench>,
-    what: &str,
-    seconds: u64,
-    done: impl Fn(&Harness<'static, Workbench>) -> bool,
-) {
-    let start = Instant::now();
-    while !done(h) {
-        assert!(
-            start.elapsed() < Duration::from_secs(seconds),
-            "timed out waiting for {what}"
-        );
-        h.step();
-        std::thread::sleep(Duration::from_millis(5));
-    }
-    h.step();
 }
 
 /// Replaces the text of the field named `label` with `text`, as a user would.
@@ -96,7 +73,7 @@ fn saved(h: &mut Harness<'static, Workbench>) -> String {
 fn a_preset_scale_with_an_edited_label_is_graded_on_the_desk() {
     let (_dir, path) = demo_copy();
     let mut h = harness(&path, ScreenName::Scales);
-    step_until(&mut h, "the scales", 30, scales_loaded);
+    step_until_within(&mut h, "the scales", 30, scales_loaded);
     h.get_by_label("3 levels (three-step)").click();
     h.step();
     h.step();
@@ -141,11 +118,11 @@ fn a_preset_scale_with_an_edited_label_is_graded_on_the_desk() {
     h.key_press_modifiers(Modifiers::COMMAND, Key::Num4); // the rail's shortcut
     h.step();
     assert_eq!(h.state().screen, ScreenName::Desk);
-    step_until(&mut h, "the sign-in list", 30, |h| {
+    step_until_within(&mut h, "the sign-in list", 30, |h| {
         h.query_by_label("Sign in as rev-amber").is_some()
     });
     h.get_by_label("Sign in as rev-amber").click();
-    step_until(&mut h, "the first card", 60, |h| {
+    step_until_within(&mut h, "the first card", 60, |h| {
         h.state().desk.data.is_some() && h.state().desk.current.is_some()
     });
     assert_eq!(
@@ -163,7 +140,7 @@ fn adding_a_level_to_a_graded_scale_saves_a_new_version() {
     let (_dir, path) = demo_copy();
     let grades_before = Study::open(&path).unwrap().grade_count("fit4").unwrap();
     let mut h = harness(&path, ScreenName::Scales);
-    step_until(&mut h, "the scales", 30, scales_loaded);
+    step_until_within(&mut h, "the scales", 30, scales_loaded);
     h.get_by_label("Edit fit4").click();
     h.step();
     h.get_by_label("Add level").click();
@@ -209,7 +186,7 @@ fn the_trial_screen_shows_the_engine_and_cli_numbers() {
         .unwrap();
     }
     let mut h = harness(&path, ScreenName::Trial);
-    step_until(&mut h, "the trial", 300, |h| {
+    step_until_within(&mut h, "the trial", 300, |h| {
         h.state().trial.model.is_some() && !h.state().trial.is_loading()
     });
 
@@ -305,7 +282,7 @@ fn the_trial_screen_shows_the_engine_and_cli_numbers() {
 fn a_pilot_started_on_the_scales_screen_sets_the_desk_on_the_reviewers_block() {
     let (_dir, path) = demo_copy();
     let mut h = harness(&path, ScreenName::Scales);
-    step_until(&mut h, "the scales", 30, scales_loaded);
+    step_until_within(&mut h, "the scales", 30, scales_loaded);
     assert!(
         h.get_by_label("Start pilot").accesskit_node().is_disabled(),
         "a pilot needs two scales first"
@@ -324,11 +301,11 @@ fn a_pilot_started_on_the_scales_screen_sets_the_desk_on_the_reviewers_block() {
 
     h.key_press_modifiers(Modifiers::COMMAND, Key::Num4);
     h.step();
-    step_until(&mut h, "the sign-in list", 30, |h| {
+    step_until_within(&mut h, "the sign-in list", 30, |h| {
         h.query_by_label("Sign in as rev-birch").is_some()
     });
     h.get_by_label("Sign in as rev-birch").click();
-    step_until(&mut h, "the first card", 60, |h| {
+    step_until_within(&mut h, "the first card", 60, |h| {
         h.state().desk.data.is_some() && h.state().desk.current.is_some()
     });
     // The store, asked independently, names the same block and the same pairs.

@@ -3,22 +3,17 @@
 //! same settings, before and after changing k and the baseline; the cautions are shown;
 //! "judge the gaps" hands the desk its most decisive unjudged pair first.
 
-use std::path::{Path, PathBuf};
+mod ui_support;
+
+use std::path::Path;
 use std::process::Command;
-use std::time::{Duration, Instant};
 
 use egui::Role;
 use egui_kittest::Harness;
 use egui_kittest::kittest::{NodeT, Queryable};
 use plumbline::cli::ScreenName;
 use plumbline::ui::Workbench;
-
-fn demo_copy() -> (tempfile::TempDir, PathBuf) {
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("demo.plumb");
-    plumbline::demo::build_demo_study(&path).unwrap();
-    (dir, path)
-}
+use ui_support::{demo_copy, step_until};
 
 fn harness(path: &Path) -> Harness<'static, Workbench> {
     Harness::builder()
@@ -27,23 +22,6 @@ fn harness(path: &Path) -> Harness<'static, Workbench> {
             |ui, wb: &mut Workbench| wb.show(ui),
             Workbench::new(path.to_path_buf(), ScreenName::Scoreboard),
         )
-}
-
-fn step_until(
-    h: &mut Harness<'static, Workbench>,
-    what: &str,
-    done: impl Fn(&Harness<'static, Workbench>) -> bool,
-) {
-    let start = Instant::now();
-    while !done(h) {
-        assert!(
-            start.elapsed() < Duration::from_secs(120),
-            "timed out waiting for {what}"
-        );
-        h.step();
-        std::thread::sleep(Duration::from_millis(5));
-    }
-    h.step();
 }
 
 /// Waits until the screen shows a model computed for its current settings.

@@ -30,11 +30,16 @@ pub fn harness(path: &Path, screen: ScreenName) -> Bench {
 
 /// Steps frames until `done` holds (background jobs run on threads meanwhile).
 pub fn step_until(h: &mut Bench, what: &str, done: impl Fn(&Bench) -> bool) {
+    step_until_within(h, what, 20, done);
+}
+
+/// `step_until` with its own limit, for jobs that take long on a busy machine.
+pub fn step_until_within(h: &mut Bench, what: &str, seconds: u64, done: impl Fn(&Bench) -> bool) {
     let start = Instant::now();
     while !done(h) {
         assert!(
-            start.elapsed() < Duration::from_secs(20),
-            "timed out waiting for {what}"
+            start.elapsed() < Duration::from_secs(seconds),
+            "timed out after {seconds} s waiting for {what}"
         );
         h.step();
         std::thread::sleep(Duration::from_millis(2));

@@ -226,6 +226,6 @@ fn next_step(model: &HomeModel) -> String {
             model.pool_size
         )
     } else {
-        "The pool is graded: check agreement (plumbline agree) and score the rankers (plumbline score).".into()
+        "The pool is graded: check agreement and settle disagreements on the Agreement screen, then compare the rankers on the Scoreboard.".into()
     }
 }

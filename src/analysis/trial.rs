@@ -8,7 +8,7 @@ use serde::Serialize;
 
 use super::agreement;
 use super::judgments::{self, GradeSource};
-use crate::core::agreement::{AlphaLevel, CollapseMap, krippendorff_alpha, krippendorff_alpha_ci};
+use crate::core::agreement::CollapseMap;
 use crate::core::metrics::{self, JudgedList, ListSettings, Unjudged};
 use crate::core::scale::{Level, Scale};
 use crate::core::stats;
@@ -202,15 +202,13 @@ pub fn build(
         let view = restricted(snapshot, s, &common, map);
         let table = agreement::unit_table(&view, s);
         let levels = view.scales[s].levels.len();
+        // The agreement view model already holds alpha (ordinal) and its interval.
         let report = agreement::build(&view, s, None, resamples.min(1000), seed);
-        let (ci_low, ci_high) = krippendorff_alpha_ci(
-            levels,
-            &table.units,
-            AlphaLevel::Ordinal,
-            resamples.min(1000),
-            seed,
+        let (alpha, ci_low, ci_high) = (
+            report.alpha_ordinal,
+            report.alpha_ordinal_ci_low,
+            report.alpha_ordinal_ci_high,
         );
-        let alpha = krippendorff_alpha(levels, &table.units, AlphaLevel::Ordinal);
         let mut seconds = table.seconds.clone();
         seconds.sort_by(f64::total_cmp);
         let median = stats::quantile_sorted(&seconds, 0.5);

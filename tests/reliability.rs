@@ -138,6 +138,7 @@ fn a_grade() -> NewGrade {
 fn a_study_held_by_another_program_gives_a_clear_message() {
     let fixture = Fixture::new();
     let (path, mut study) = fixture.study();
+    study.set_write_wait(Duration::from_millis(300)).unwrap();
     let holder = rusqlite::Connection::open(&path).unwrap();
     holder
         .execute_batch("BEGIN IMMEDIATE; INSERT INTO reviewers VALUES ('holder');")
@@ -264,4 +265,258 @@ fn an_import_killed_part_way_leaves_no_half() {
         saw_partial_kill || std::env::var("CI").is_ok(),
         "no kill landed mid-import"
     );
+}
+
+// ---- Issue "never lose a grade": writers that wait, studies refused cleanly ----
+
+/// A grades file for `reviewer` over the fixture's pairs.
+fn grades_for(reviewer: &str) -> String {
+    let mut text = String::from("reviewer,context_id,item_id,scale,value,graded_at\n");
+    for (n, (c, i)) in [
+        ("q1", "i1"),
+        ("q1", "i2"),
+        ("q1", "i3"),
+        ("q2", "i3"),
+        ("q2", "i1"),
+    ]
+    .iter()
+    .enumerate()
+    {
+        text.push_str(&format!(
+            "{reviewer},{c},{i},fit,{},2026-11-2{n}T10:00:00Z\n",
+            n % 3
+        ));
+    }
+    text
+}
+
+/// Promise: a second writer waits for the first instead of failing. Eight imports start
+/// at once while a grading process writes; every one of them succeeds and every grade
+/// is there afterwards.
+#[test]
+fn eight_concurrent_imports_and_a_grader_all_succeed() {
+    let fixture = Fixture::new();
+    let (path, study) = fixture.study();
+    drop(study);
+    let grader = bin()
+        .args([
+            "grade-loop",
+            path.to_str().unwrap(),
+            "--reviewer",
+            "desk",
+            "--count",
+            "300",
+        ])
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let imports: Vec<_> = (0..8)
+        .map(|n| {
+            let file = fixture.write(&format!("g{n}.csv"), &grades_for(&format!("imp{n}")));
+            bin()
+                .args([
+                    "import",
+                    path.to_str().unwrap(),
+                    "--grades",
+                    file.to_str().unwrap(),
+                ])
+                .stdout(Stdio::null())
+                .stderr(Stdio::piped())
+                .spawn()
+                .unwrap()
+        })
+        .collect();
+    for child in imports.into_iter().chain([grader]) {
+        let out = child.wait_with_output().unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+    }
+    let conn = rusqlite::Connection::open(&path).unwrap();
+    let imported: i64 = conn
+        .query_row(
+            "SELECT COUNT(*) FROM grade_events WHERE reviewer LIKE 'imp%'",
+            [],
+            |r| r.get(0),
+        )
+        .unwrap();
+    assert_eq!(imported, 40);
+    let desk: i64 = conn
+        .query_row(
+            "SELECT COUNT(*) FROM grade_events WHERE reviewer = 'desk'",
+            [],
+            |r| r.get(0),
+        )
+        .unwrap();
+    assert_eq!(desk, 300);
+}
+
+/// Promise: a command-line writer that has to wait says so after a second and carries
+/// on when the other program lets go; with `--wait 1` against a longer hold it gives
+/// up with a message that names the limit, and nothing is changed.
+#[test]
+fn a_waiting_writer_says_so_and_gives_up_only_at_its_limit() {
+    let fixture = Fixture::new();
+    let (path, study) = fixture.study();
+    drop(study);
+    let file = fixture.write("g.csv", &grades_for("late"));
+    let hold = |seconds: u64| {
+        let path = path.clone();
+        std::thread::spawn(move || {
+            let holder = rusqlite::Connection::open(&path).unwrap();
+            holder
+                .execute_batch("BEGIN IMMEDIATE; INSERT INTO reviewers VALUES ('holder');")
+                .unwrap();
+            std::thread::sleep(Duration::from_secs(seconds));
+            holder.execute_batch("ROLLBACK").unwrap();
+        })
+    };
+    let holder = hold(3);
+    std::thread::sleep(Duration::from_millis(200));
+    let out = bin()
+        .args([
+            "import",
+            path.to_str().unwrap(),
+            "--grades",
+            file.to_str().unwrap(),
+        ])
+        .output()
+        .unwrap();
+    holder.join().unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(out.status.success(), "{stderr}");
+    assert!(
+        stderr.contains("waiting for another program writing to"),
+        "{stderr}"
+    );
+
+    let other = fixture.write("g2.csv", &grades_for("later"));
+    let before = study_dump(&path);
+    let holder = hold(4);
+    std::thread::sleep(Duration::from_millis(200));
+    let out = bin()
+        .args([
+            "--wait",
+            "1",
+            "import",
+            path.to_str().unwrap(),
+            "--grades",
+            other.to_str().unwrap(),
+        ])
+        .output()
+        .unwrap();
+    holder.join().unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(1), "{stderr}");
+    assert!(
+        stderr.contains("busy") && stderr.contains("--wait"),
+        "{stderr}"
+    );
+    assert_eq!(study_dump(&path), before);
+}
+
+/// Promise: refusing a study from a newer build changes nothing, not even by leaving
+/// empty `-wal` and `-shm` files beside it.
+#[test]
+fn refusing_a_newer_study_leaves_no_files_behind() {
+    let fixture = Fixture::new();
+    let (path, study) = fixture.study();
+    drop(study);
+    {
+        let conn = rusqlite::Connection::open(&path).unwrap();
+        conn.pragma_update(None, "journal_mode", "DELETE").unwrap();
+        conn.pragma_update(None, "user_version", 99).unwrap();
+    }
+    let before = std::fs::read(&path).unwrap();
+    let err = Study::open(&path).err().expect("refused");
+    assert!(err.to_string().contains("newer Plumbline"), "{err}");
+    for suffix in ["-wal", "-shm"] {
+        let mut p = path.clone().into_os_string();
+        p.push(suffix);
+        assert!(!std::path::Path::new(&p).exists(), "{suffix} left behind");
+    }
+    assert!(
+        std::fs::read(&path).unwrap() == before,
+        "the file was changed"
+    );
+}
+
+/// Promise: a file with Plumbline's mark, no schema version and tables of its own is
+/// refused in words, not with SQLite's text of the whole schema.
+#[test]
+fn a_schema_version_zero_file_with_tables_is_refused_in_words() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("odd.plumb");
+    {
+        let conn = rusqlite::Connection::open(&path).unwrap();
+        conn.pragma_update(
+            None,
+            "application_id",
+            plumbline::study::schema::APPLICATION_ID,
+        )
+        .unwrap();
+        conn.execute_batch("CREATE TABLE settings(y); CREATE TABLE items(x);")
+            .unwrap();
+    }
+    let before = std::fs::read(&path).unwrap();
+    let message = Study::open(&path).err().expect("refused").to_string();
+    assert!(
+        message.contains("no schema version") && message.contains("already exists"),
+        "{message}"
+    );
+    assert!(!message.contains("CREATE"), "{message}");
+    assert!(
+        std::fs::read(&path).unwrap() == before,
+        "the file was changed"
+    );
+}
+
+/// Promise: a study written at schema 1 opens, is upgraded once, and keeps every grade
+/// and current grade exactly.
+#[test]
+fn a_schema_one_study_is_upgraded_with_its_grades() {
+    let fixture = Fixture::new();
+    let path = fixture.path("old.plumb");
+    {
+        let conn = rusqlite::Connection::open(&path).unwrap();
+        conn.pragma_update(
+            None,
+            "application_id",
+            plumbline::study::schema::APPLICATION_ID,
+        )
+        .unwrap();
+        conn.execute_batch(plumbline::study::schema::MIGRATIONS[0])
+            .unwrap();
+        conn.pragma_update(None, "user_version", 1).unwrap();
+        conn.execute_batch(
+            "INSERT INTO items(item_id, title) VALUES ('i1', 'A');
+             INSERT INTO contexts(context_id, kind, text) VALUES ('q1', 'query', 'a');
+             INSERT INTO scales VALUES ('fit');
+             INSERT INTO levels(scale, value, label) VALUES ('fit', 0, 'No'), ('fit', 1, 'Yes');
+             INSERT INTO reviewers VALUES ('ann');
+             INSERT INTO grade_events(uid, reviewer, context_id, item_id, scale, action, value, graded_at)
+               VALUES ('u1', 'ann', 'q1', 'i1', 'fit', 'grade', 0, '2026-11-01T00:00:00.000Z'),
+                      ('u2', 'ann', 'q1', 'i1', 'fit', 'grade', 1, '2026-11-02T00:00:00.000Z');",
+        )
+        .unwrap();
+    }
+    let study = Study::open(&path).unwrap();
+    assert_eq!(
+        study.schema_version().unwrap(),
+        plumbline::study::schema::current_version()
+    );
+    assert_eq!(study.counts().unwrap().current_grades, 1);
+    drop(study);
+    let conn = rusqlite::Connection::open(&path).unwrap();
+    let current: String = conn
+        .query_row(
+            "SELECT e.uid FROM current_grades c JOIN grade_events e ON e.id = c.event_id",
+            [],
+            |r| r.get(0),
+        )
+        .unwrap();
+    assert_eq!(current, "u2");
 }

@@ -202,11 +202,29 @@ fn print(text: String) -> Result<(), Failure> {
     Ok(())
 }
 
+static WRITE_WAIT: std::sync::OnceLock<std::time::Duration> = std::sync::OnceLock::new();
+
+/// Sets `--wait` for every study this run opens (once, at start).
+pub fn set_write_wait(wait: std::time::Duration) {
+    let _ = WRITE_WAIT.set(wait);
+}
+
+/// The `--wait` of this run.
+pub fn write_wait() -> std::time::Duration {
+    WRITE_WAIT
+        .get()
+        .copied()
+        .unwrap_or(std::time::Duration::from_secs(super::DEFAULT_WAIT_SECONDS))
+}
+
 fn open(path: &Path) -> Result<Study, Failure> {
     if !path.exists() {
         return Err(Failure::input(format!("{}: no such study", path.display())));
     }
-    Ok(Study::open(path)?)
+    let mut study = Study::open(path)?;
+    study.set_write_wait(write_wait())?;
+    study.announce_waits_on_stderr();
+    Ok(study)
 }
 
 /// The study's chosen baseline, if it names one.
@@ -250,6 +268,9 @@ fn import_files(
             "{} ({}): {} added, {} updated, {} unchanged",
             r.file, r.kind, r.added, r.updated, r.unchanged
         );
+        for warning in &r.warnings {
+            eprintln!("plumbline: warning: {warning}");
+        }
     }
     Ok(())
 }

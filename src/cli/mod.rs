@@ -17,7 +17,14 @@ use clap::{Parser, Subcommand, ValueEnum};
 pub struct Cli {
     #[command(subcommand)]
     pub command: Option<Command>,
+    /// How long a command that writes waits for another program writing to the same
+    /// study before it gives up (it says so on stderr after a second).
+    #[arg(long, global = true, value_name = "SECONDS", default_value_t = DEFAULT_WAIT_SECONDS)]
+    pub wait: u64,
 }
+
+/// The command line's default for `--wait`: long, because giving up loses the work.
+pub const DEFAULT_WAIT_SECONDS: u64 = 600;
 
 #[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
 pub enum Format {
@@ -171,9 +178,16 @@ impl Failure {
 
 impl From<crate::study::StudyError> for Failure {
     fn from(e: crate::study::StudyError) -> Failure {
+        let mut message = e.to_string();
+        if matches!(e, crate::study::StudyError::Busy) {
+            message.push_str(&format!(
+                " (waited {} s; wait longer with --wait SECONDS)",
+                commands::write_wait().as_secs()
+            ));
+        }
         Failure {
             code: if e.is_bad_input() { 2 } else { 1 },
-            message: e.to_string(),
+            message,
         }
     }
 }
@@ -186,6 +200,7 @@ pub fn run() -> ExitCode {
             return ExitCode::from(if e.use_stderr() { 2 } else { 0 });
         }
     };
+    commands::set_write_wait(std::time::Duration::from_secs(cli.wait));
     match commands::dispatch(cli.command) {
         Ok(()) => ExitCode::SUCCESS,
         Err(f) => {

@@ -32,7 +32,7 @@ impl Study {
         let front_set: HashSet<&PairId> = front.iter().copied().collect();
         let had: HashSet<&PairId> = before.iter().collect();
         let added = front.iter().filter(|p| !had.contains(*p)).count();
-        let tx = self.conn_mut().transaction()?;
+        let tx = self.begin_write()?;
         tx.execute(
             "DELETE FROM queue_entries WHERE reviewer = ?1 AND scale = ?2",
             [reviewer, scale],

@@ -127,7 +127,7 @@ impl Study {
                 format!("nothing was merged: {}", problems.join("; ")),
             ));
         }
-        let tx = self.conn_mut().transaction()?;
+        let tx = self.begin_write()?;
         let reviewers_added = tx.execute(
             "INSERT OR IGNORE INTO main.reviewers(reviewer) SELECT reviewer FROM other.reviewers",
             [],
@@ -177,7 +177,7 @@ impl Study {
         self.conn()
             .execute("VACUUM INTO ?1", [out.to_string_lossy()])?;
         let mut copy = Study::open(out)?;
-        let tx = copy.conn_mut().transaction()?;
+        let tx = copy.begin_write()?;
         tx.execute(
             "DELETE FROM current_grades WHERE reviewer != ?1",
             params![reviewer],

@@ -7,6 +7,7 @@ pub mod gap_queue;
 pub mod grades;
 pub mod import;
 pub mod merge;
+mod open_files;
 pub mod queues;
 pub mod scales;
 pub mod schema;
@@ -17,10 +18,14 @@ pub mod time;
 use std::path::{Path, PathBuf};
 use std::time::Duration;
 
-use rusqlite::{Connection, OpenFlags, OptionalExtension};
+use rusqlite::{Connection, OpenFlags, OptionalExtension, Transaction, TransactionBehavior};
 
-/// How long a write waits for another program holding the study before giving up.
-pub const BUSY_TIMEOUT: Duration = Duration::from_secs(5);
+/// How long one write waits for another program holding the study's write lock before
+/// it gives up, unless the caller sets its own limit (`Study::set_write_wait`).
+pub const DEFAULT_WRITE_WAIT: Duration = Duration::from_secs(60);
+
+/// How long a write waits quietly before a command-line writer says it is waiting.
+pub const WAIT_NOTICE_AFTER: Duration = Duration::from_secs(1);
 
 /// Page cache per connection in KiB (SQLite's negative `cache_size`): 64 MiB.
 pub const DEFAULT_CACHE_KIB: i64 = -65_536;
@@ -34,9 +39,9 @@ pub enum StudyError {
     /// The file cannot be used as a study; nothing was changed.
     #[error("{path}: {reason}")]
     Refused { path: String, reason: String },
+    /// Another program kept the write lock for longer than this write was willing to wait.
     #[error(
-        "the study is busy: another program has held it for more than {} s; close it there and try again",
-        BUSY_TIMEOUT.as_secs()
+        "the study is busy: another program kept writing to it for longer than the wait allowed; let it finish (or close it there) and try again"
     )]
     Busy,
     #[error("the study is open read-only; changes cannot be saved")]
@@ -81,10 +86,16 @@ impl StudyError {
 pub type Result<T> = std::result::Result<T, StudyError>;
 
 /// An open study file.
+///
+/// Field order matters: the connection closes before the registration is released, so
+/// no other thread raw-reads the file while this connection still holds SQLite's locks.
 pub struct Study {
     conn: Connection,
     path: PathBuf,
     read_only: bool,
+    write_wait: Duration,
+    announce_waits: bool,
+    _registration: open_files::Registration,
 }
 
 const SQLITE_MAGIC: &[u8; 16] = b"SQLite format 3\0";
@@ -99,16 +110,14 @@ impl Study {
             ));
         }
         let conn = Connection::open(path)?;
-        let mut study = Study {
-            conn,
-            path: path.to_path_buf(),
-            read_only: false,
-        };
+        let registration = open_files::register(path)?;
+        let mut study = Study::wrap(conn, path, false, registration);
         study.configure()?;
         study
             .conn
             .pragma_update(None, "application_id", schema::APPLICATION_ID)?;
         study.migrate()?;
+        study.enable_wal()?;
         let name = path
             .file_stem()
             .map(|s| s.to_string_lossy().into_owned())
@@ -119,27 +128,89 @@ impl Study {
 
     /// Opens an existing study, migrating an older schema. A file that is not a study,
     /// or that a newer build wrote, is refused without a single byte changed.
+    ///
+    /// The file is never opened with plain file I/O while this process has a connection
+    /// to it: closing any descriptor of a file drops every POSIX lock the process holds
+    /// on it, and SQLite's locks are POSIX locks (SQLite's "How To Corrupt An SQLite
+    /// Database File", section 2.2). The raw header check runs only while no connection
+    /// of this process has the file open.
     pub fn open(path: &Path) -> Result<Study> {
-        check_is_study(path)?;
-        let read_only = std::fs::metadata(path)?.permissions().readonly();
+        let metadata = std::fs::metadata(path)
+            .map_err(|e| refused(path, &format!("cannot be opened: {e}")))?;
+        if !metadata.is_file() {
+            return Err(refused(
+                path,
+                "this is not a Plumbline study (not a regular file)",
+            ));
+        }
+        let read_only = metadata.permissions().readonly();
         let flags = if read_only {
             OpenFlags::SQLITE_OPEN_READ_ONLY | OpenFlags::SQLITE_OPEN_NO_MUTEX
         } else {
             OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_NO_MUTEX
         };
-        let conn = Connection::open_with_flags(path, flags)?;
-        let mut study = Study {
-            conn,
-            path: path.to_path_buf(),
-            read_only,
-        };
+        let (conn, registration) = open_files::open_checked(path, |first_in_process| {
+            if first_in_process {
+                check_header(path)?;
+            }
+            Connection::open_with_flags(path, flags)
+                .map_err(|e| refused(path, &format!("cannot be read as SQLite: {e}")))
+        })?;
+        let mut study = Study::wrap(conn, path, read_only, registration);
+        study.check_identity()?;
         study.configure()?;
         if !read_only {
             study.migrate()?;
+            study.enable_wal()?;
         }
         Ok(study)
     }
 
+    fn wrap(
+        conn: Connection,
+        path: &Path,
+        read_only: bool,
+        registration: open_files::Registration,
+    ) -> Study {
+        Study {
+            conn,
+            path: path.to_path_buf(),
+            read_only,
+            write_wait: DEFAULT_WRITE_WAIT,
+            announce_waits: false,
+            _registration: registration,
+        }
+    }
+
+    /// How long each write waits for another program's write to finish.
+    pub fn set_write_wait(&mut self, wait: Duration) -> Result<()> {
+        self.write_wait = wait;
+        self.conn.busy_timeout(wait)?;
+        Ok(())
+    }
+
+    /// The limit set by `set_write_wait` (or the default).
+    pub fn write_wait(&self) -> Duration {
+        self.write_wait
+    }
+
+    /// Makes writes that wait longer than `WAIT_NOTICE_AFTER` say so on stderr (for the
+    /// command line, where a silent wait looks like a hang).
+    pub fn announce_waits_on_stderr(&mut self) {
+        self.announce_waits = true;
+    }
+
+    /// Begins a write transaction that holds the write lock from its first statement
+    /// (`BEGIN IMMEDIATE`). A deferred transaction that reads and then writes is refused
+    /// by SQLite at once, without waiting, when another writer committed meanwhile.
+    pub(crate) fn begin_write(&mut self) -> Result<Transaction<'_>> {
+        let notice = self.announce_waits.then(|| WaitNotice::start(&self.path));
+        let tx = self
+            .conn
+            .transaction_with_behavior(TransactionBehavior::Immediate);
+        drop(notice);
+        Ok(tx?)
+    }
     pub fn path(&self) -> &Path {
         &self.path
     }
@@ -153,12 +224,8 @@ impl Study {
         &self.conn
     }
 
-    pub(crate) fn conn_mut(&mut self) -> &mut Connection {
-        &mut self.conn
-    }
-
     fn configure(&mut self) -> Result<()> {
-        self.conn.busy_timeout(BUSY_TIMEOUT)?;
+        self.conn.busy_timeout(self.write_wait)?;
         self.conn
             .pragma_update(None, "cache_size", DEFAULT_CACHE_KIB)?;
         // Statement journals (needed by the grade trigger) stay in memory instead of
@@ -166,10 +233,16 @@ impl Study {
         self.conn.pragma_update(None, "temp_store", "MEMORY")?;
         self.conn.pragma_update(None, "foreign_keys", true)?;
         if !self.read_only {
-            self.conn.pragma_update(None, "journal_mode", "WAL")?;
             // FULL makes each committed grade durable even if the machine loses power.
             self.conn.pragma_update(None, "synchronous", "FULL")?;
         }
+        Ok(())
+    }
+
+    /// Switches to WAL once the schema is known good, so that a refused file keeps its
+    /// journal mode (its header) unchanged.
+    fn enable_wal(&mut self) -> Result<()> {
+        self.conn.pragma_update(None, "journal_mode", "WAL")?;
         Ok(())
     }
 
@@ -177,12 +250,50 @@ impl Study {
         let version: i32 = self
             .conn
             .pragma_query_value(None, "user_version", |r| r.get(0))?;
+        let path = self.path.clone();
         for (i, sql) in schema::MIGRATIONS.iter().enumerate().skip(version as usize) {
-            let tx = self.conn.transaction()?;
-            tx.execute_batch(sql)?;
-            tx.pragma_update(None, "user_version", (i + 1) as i32)?;
+            let upgrade = |e: rusqlite::Error| match StudyError::from(e) {
+                StudyError::Sql(e) if i == 0 => refused(
+                    &path,
+                    &format!(
+                        "this SQLite file carries Plumbline's mark but no schema version, and its tables clash with a study's ({}); it was not written by Plumbline, or its creation was cut short, so it is left as it is",
+                        sql_message(&e)
+                    ),
+                ),
+                StudyError::Sql(e) => refused(
+                    &path,
+                    &format!(
+                        "cannot upgrade the study from schema {i} to {}: {}; nothing was changed",
+                        i + 1,
+                        sql_message(&e)
+                    ),
+                ),
+                other => other,
+            };
+            let tx = self.begin_write()?;
+            tx.execute_batch(sql).map_err(upgrade)?;
+            tx.pragma_update(None, "user_version", (i + 1) as i32)
+                .map_err(upgrade)?;
             tx.commit()?;
         }
+        Ok(())
+    }
+
+    /// Refuses a file this build must not use, read through the open connection (the
+    /// authoritative values: a WAL may hold a newer header than the file).
+    fn check_identity(&self) -> Result<()> {
+        let probe = |pragma: &str| -> Result<i32> {
+            self.conn
+                .pragma_query_value(None, pragma, |r| r.get(0))
+                .map_err(|e| {
+                    refused(
+                        &self.path,
+                        &format!("cannot be read as SQLite: {}", sql_message(&e)),
+                    )
+                })
+        };
+        let version = probe("user_version")?;
+        check_marks(&self.path, probe("application_id")?, version)?;
         Ok(())
     }
 
@@ -255,33 +366,47 @@ fn refused(path: &Path, reason: &str) -> StudyError {
     }
 }
 
-/// Looks at a file read-only and refuses it unless it is a study this build can open.
-fn check_is_study(path: &Path) -> Result<()> {
+/// SQLite's text of an error, without the statement it came from (SQLite quotes the
+/// statement after " in "; the first line is the message).
+fn sql_message(e: &rusqlite::Error) -> String {
+    let text = e.to_string();
+    let first = text.lines().next().unwrap_or_default().trim_end();
+    first.strip_suffix(" in").unwrap_or(first).to_string()
+}
+
+/// Reads the 100-byte database header with plain file I/O. Called only while no
+/// connection of this process has the file open (see `Study::open`).
+fn check_header(path: &Path) -> Result<()> {
     use std::io::Read;
-    let mut header = [0u8; 16];
-    let mut file =
+    let mut header = [0u8; 100];
+    let file =
         std::fs::File::open(path).map_err(|e| refused(path, &format!("cannot be opened: {e}")))?;
-    let read = file.read(&mut header)?;
-    if read < 16 || &header != SQLITE_MAGIC {
+    let mut read = 0;
+    let mut limited = file.take(100);
+    while read < header.len() {
+        match limited.read(&mut header[read..])? {
+            0 => break,
+            n => read += n,
+        }
+    }
+    if read < 100 || &header[..16] != SQLITE_MAGIC {
         return Err(refused(
             path,
             "this is not a Plumbline study (not an SQLite file)",
         ));
     }
-    let conn = Connection::open_with_flags(
-        path,
-        OpenFlags::SQLITE_OPEN_READ_ONLY | OpenFlags::SQLITE_OPEN_NO_MUTEX,
-    )
-    .map_err(|e| refused(path, &format!("cannot be read as SQLite: {e}")))?;
-    let probe = |pragma: &str| -> std::result::Result<i32, StudyError> {
-        conn.pragma_query_value(None, pragma, |r| r.get(0))
-            .map_err(|e| refused(path, &format!("cannot be read as SQLite: {e}")))
+    let be = |at: usize| {
+        i32::from_be_bytes([header[at], header[at + 1], header[at + 2], header[at + 3]])
     };
-    let application_id = probe("application_id")?;
+    // Offsets 60 and 68 of the header: user_version and application_id (SQLite's file
+    // format documentation, section 1.3).
+    check_marks(path, be(68), be(60))
+}
+
+fn check_marks(path: &Path, application_id: i32, version: i32) -> Result<()> {
     if application_id != schema::APPLICATION_ID {
         return Err(refused(path, "this SQLite file is not a Plumbline study"));
     }
-    let version = probe("user_version")?;
     if version > schema::current_version() {
         return Err(refused(
             path,
@@ -291,7 +416,33 @@ fn check_is_study(path: &Path) -> Result<()> {
             ),
         ));
     }
+    if version < 0 {
+        return Err(refused(path, "this study's schema version is not valid"));
+    }
     Ok(())
+}
+
+/// Says on stderr that a write is waiting for another program, once it has waited for
+/// `WAIT_NOTICE_AFTER`; dropping it before then says nothing.
+struct WaitNotice {
+    _stop: std::sync::mpsc::Sender<()>,
+}
+
+impl WaitNotice {
+    fn start(path: &Path) -> WaitNotice {
+        let (stop, stopped) = std::sync::mpsc::channel::<()>();
+        let name = path.display().to_string();
+        let _ = std::thread::Builder::new()
+            .name("write-wait-notice".into())
+            .spawn(move || {
+                if let Err(std::sync::mpsc::RecvTimeoutError::Timeout) =
+                    stopped.recv_timeout(WAIT_NOTICE_AFTER)
+                {
+                    eprintln!("waiting for another program writing to {name}…");
+                }
+            });
+        WaitNotice { _stop: stop }
+    }
 }
 
 impl Study {

@@ -217,7 +217,7 @@ impl Study {
             }
         }
 
-        let tx = self.conn_mut().transaction()?;
+        let tx = self.begin_write()?;
         {
             let mut insert = tx.prepare(
                 "INSERT OR REPLACE INTO queue_entries(reviewer, scale, position, context_id, item_id)

@@ -110,7 +110,7 @@ impl Study {
                 scale.name
             )));
         }
-        let tx = self.conn_mut().transaction()?;
+        let tx = self.begin_write()?;
         tx.execute("INSERT INTO scales(scale) VALUES (?1)", [&scale.name])?;
         insert_levels(&tx, scale)?;
         tx.commit()?;
@@ -135,7 +135,7 @@ impl Study {
             self.create_scale(&version)?;
             return Ok(Saved::NewVersion(name));
         }
-        let tx = self.conn_mut().transaction()?;
+        let tx = self.begin_write()?;
         if changed {
             // No grades yet, so levels may be replaced; collapse maps no longer fit.
             tx.execute("DELETE FROM levels WHERE scale = ?1", [&edited.name])?;
@@ -272,7 +272,7 @@ impl Study {
         }
         let seed = self.queue_seed()?;
         let panel = self.panel()?;
-        let tx = self.conn_mut().transaction()?;
+        let tx = self.begin_write()?;
         for member in &panel {
             let pairs = queue_in(&tx, member, &scales[0])?;
             for (n, scale) in scales.iter().enumerate().skip(1) {

@@ -124,7 +124,7 @@ impl Study {
             settled_at: time::now(),
             reason: reason.into(),
         };
-        let tx = self.conn_mut().transaction()?;
+        let tx = self.begin_write()?;
         insert_event(&tx, scale, &record)?;
         tx.commit()?;
         Ok(())
@@ -148,7 +148,7 @@ impl Study {
             settled_at: time::now(),
             reason: reason.into(),
         };
-        let tx = self.conn_mut().transaction()?;
+        let tx = self.begin_write()?;
         insert_event(&tx, scale, &record)?;
         tx.commit()?;
         Ok(())
@@ -182,7 +182,7 @@ impl Study {
         todo.sort();
         let at = time::now();
         let reason = format!("bulk rule: {}", rule.explain());
-        let tx = self.conn_mut().transaction()?;
+        let tx = self.begin_write()?;
         for (pair, value) in &todo {
             let record = SettleRecord {
                 context_id: pair.0.clone(),

@@ -65,11 +65,11 @@ fn csv_like(k: Kind) -> impl Strategy<Value = Vec<u8>> {
 fn check(kind: Kind, bytes: &[u8]) -> Result<(), TestCaseError> {
     let fixture = common::Fixture::new();
     let (_, mut study) = fixture.study();
-    let source = Some(Source {
-        name: "fuzz.csv".into(),
-        bytes: bytes.to_vec(),
-        folder: fixture.dir.path().to_path_buf(),
-    });
+    let source = Some(Source::from_bytes(
+        "fuzz.csv",
+        bytes.to_vec(),
+        fixture.dir.path().to_path_buf(),
+    ));
     let mut set = ImportSet::default();
     match kind {
         Kind::Items => set.items = source,

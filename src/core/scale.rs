@@ -2,6 +2,42 @@
 
 use serde::{Deserialize, Serialize};
 
+/// Most levels a scale may have. Graded relevance scales in use have two to six levels;
+/// the cap keeps every level value inside the `u8` the engines use, with room to spare.
+pub const MAX_LEVELS: usize = 32;
+
+/// Keys the grading desk keeps for itself (skip, can't judge, back, note, arrows,
+/// undo, cancel, help); a level cannot use them.
+pub const DESK_KEYS: &[&str] = &[
+    "S",
+    "C",
+    "B",
+    "N",
+    "Left",
+    "Right",
+    "ArrowLeft",
+    "ArrowRight",
+    "Backspace",
+    "Escape",
+    "Esc",
+    "Enter",
+    "Return",
+    "F1",
+    "?",
+];
+
+/// True when `key` (any case) is one of `DESK_KEYS`.
+pub fn is_desk_key(key: &str) -> bool {
+    let key = key.trim();
+    DESK_KEYS.iter().any(|k| k.eq_ignore_ascii_case(key))
+}
+
+/// True when gains given for consecutive levels fall somewhere as the level rises.
+pub fn gains_fall(gains: &[Option<f64>]) -> bool {
+    let given: Vec<f64> = gains.iter().flatten().copied().collect();
+    given.windows(2).any(|w| w[1] < w[0])
+}
+
 /// One level of a scale.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Level {
@@ -47,6 +83,9 @@ impl Scale {
         if self.levels.len() < 2 {
             problems.push("a scale needs at least two levels".to_string());
         }
+        if self.levels.len() > MAX_LEVELS {
+            problems.push(format!("a scale may have at most {MAX_LEVELS} levels"));
+        }
         for (i, level) in self.levels.iter().enumerate() {
             if level.value as usize != i {
                 problems.push(format!(
@@ -68,9 +107,16 @@ impl Scale {
             if self.levels[..i].iter().any(|b| b.key == a.key) {
                 problems.push(format!("key \"{}\" is used by more than one level", a.key));
             }
+            if is_desk_key(&a.key) {
+                problems.push(format!(
+                    "key \"{}\" is kept by the grading desk ({}); choose another",
+                    a.key,
+                    DESK_KEYS.join(" ")
+                ));
+            }
         }
         let gains: Vec<f64> = self.levels.iter().filter_map(|l| l.gain).collect();
-        if gains.windows(2).any(|w| w[1] < w[0]) {
+        if gains_fall(&self.gains()) {
             problems.push("gains must not decrease as the level rises".to_string());
         }
         if gains.iter().any(|g| !g.is_finite() || *g < 0.0) {

@@ -6,10 +6,12 @@ use std::path::Path;
 
 /// Longest field accepted, so a broken file cannot exhaust memory row by row.
 pub const MAX_FIELD_BYTES: usize = 1 << 20;
+/// Most columns a row may have (an item file's extra attributes included).
+pub const MAX_COLUMNS: usize = 1_000;
 /// How many problems one file reports before stopping.
 pub const MAX_PROBLEMS: usize = 20;
 
-/// One problem in an input file; line and column are 1-based.
+/// One problem in an input file; line and column are 1-based (0 = the whole file).
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Problem {
     pub file: String,
@@ -20,6 +22,10 @@ pub struct Problem {
 
 impl fmt::Display for Problem {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        if self.line == 0 {
+            // A problem with the whole file (unreadable, a folder, a pipe).
+            return write!(f, "{}: {}", self.file, self.message);
+        }
         write!(
             f,
             "{}:{}:{}: {}",
@@ -109,53 +115,117 @@ impl ProblemLog {
     }
 }
 
-/// Reads a CSV file from disk; `display_name` is what messages call it.
-pub fn read_file(path: &Path, shape: &Shape) -> Result<Table, Problems> {
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_else(|| path.display().to_string());
-    match std::fs::read(path) {
-        Ok(bytes) => parse(&name, &bytes, shape),
-        Err(e) => Err(Problems(vec![Problem {
-            file: name,
-            line: 0,
-            column: 0,
-            message: format!("cannot read the file: {e}"),
-        }])),
+/// Characters that make a spreadsheet read a cell as a formula when they come first:
+/// OWASP's list (`=`, `+`, `-`, `@`, tab, carriage return) plus line feed and the
+/// fullwidth forms of the four signs, which some spreadsheets fold to ASCII.
+const FORMULA_STARTS: &[char] = &[
+    '=', '+', '-', '@', '\t', '\r', '\n', '\u{FF1D}', '\u{FF0B}', '\u{FF0D}', '\u{FF20}',
+];
+
+/// True when an exported cell needs a leading apostrophe: it starts with a formula
+/// character, possibly after spaces (some spreadsheets skip leading spaces before they
+/// look), or it starts with an apostrophe itself (so that the guard can be told apart
+/// from a value's own apostrophe on the way back). `;`, `|` and `%` start no formula on
+/// their own (a DDE payload such as `=cmd|…` needs the `=`), so they are left alone.
+pub fn needs_guard(text: &str) -> bool {
+    text.starts_with('\'') || text.trim_start_matches(' ').starts_with(FORMULA_STARTS)
+}
+
+/// Removes the apostrophe `needs_guard` adds: only when what follows needs the guard.
+/// A value's own leading apostrophe (`'tis`) is kept.
+pub fn unguard(text: &str) -> &str {
+    match text.strip_prefix('\'') {
+        Some(rest) if needs_guard(rest) => rest,
+        _ => text,
     }
+}
+
+/// Reads a CSV file from disk, streaming; `display_name` is what messages call it.
+pub fn read_file(path: &Path, shape: &Shape) -> Result<Table, Problems> {
+    let name = display_name(path);
+    let file = open_regular(path).map_err(|message| Problems(vec![whole_file(&name, message)]))?;
+    parse_reader(
+        &name,
+        std::io::BufReader::with_capacity(1 << 16, file),
+        shape,
+    )
+}
+
+/// The name messages give a file: its last component.
+pub fn display_name(path: &Path) -> String {
+    path.file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| path.display().to_string())
+}
+
+/// A problem with the file as a whole (it has no line or column).
+pub fn whole_file(name: &str, message: String) -> Problem {
+    Problem {
+        file: name.to_string(),
+        line: 0,
+        column: 0,
+        message,
+    }
+}
+
+/// Opens an input file only if it is a regular file: a FIFO would block for good, a
+/// device such as `/dev/zero` never ends, and a directory has no lines. A study this
+/// process has open is refused too (reading it with plain file I/O would drop SQLite's
+/// locks on it; see `study::open_files`). The FIFO check happens before `open`, which
+/// would itself block on a FIFO, and again on the opened file.
+pub fn open_regular(path: &Path) -> Result<std::fs::File, String> {
+    let kind = |m: &std::fs::Metadata| -> Option<&'static str> {
+        let t = m.file_type();
+        if t.is_file() {
+            None
+        } else if t.is_dir() {
+            Some("it is a folder, not a file")
+        } else {
+            Some("it is not a regular file (a pipe, socket or device); give a saved file")
+        }
+    };
+    let metadata = std::fs::metadata(path).map_err(|e| format!("cannot read the file: {e}"))?;
+    if let Some(why) = kind(&metadata) {
+        return Err(format!("cannot read the file: {why}"));
+    }
+    if super::open_files::is_open_study(path) {
+        return Err("this is the study itself, not a CSV file".into());
+    }
+    let file = std::fs::File::open(path).map_err(|e| format!("cannot read the file: {e}"))?;
+    let metadata = file
+        .metadata()
+        .map_err(|e| format!("cannot read the file: {e}"))?;
+    if let Some(why) = kind(&metadata) {
+        return Err(format!("cannot read the file: {why}"));
+    }
+    Ok(file)
 }
 
 /// Parses CSV bytes: UTF-8 with an optional BOM, a header row, RFC 4180 quoting.
 pub fn parse(file: &str, bytes: &[u8], shape: &Shape) -> Result<Table, Problems> {
+    parse_reader(file, bytes, shape)
+}
+
+/// Parses CSV from a stream in bounded memory per row: UTF-8 with an optional BOM, a
+/// header row, RFC 4180 quoting, and LF, CRLF or CR line endings (also mixed). Line
+/// numbers are physical lines, counted by `Tracker` whatever the endings.
+pub fn parse_reader(
+    file: &str,
+    input: impl std::io::BufRead,
+    shape: &Shape,
+) -> Result<Table, Problems> {
     let problem = |line: u64, column: usize, message: String| Problem {
         file: file.to_string(),
         line,
         column,
         message,
     };
-    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
-    if bytes.iter().all(|b| b.is_ascii_whitespace()) {
-        return Err(Problems(vec![problem(
-            1,
-            1,
-            format!(
-                "the file is empty; expected a header row with {}",
-                shape.required.join(", ")
-            ),
-        )]));
-    }
-    if let Some((line, column)) = unclosed_quote(bytes) {
-        return Err(Problems(vec![problem(
-            line,
-            column,
-            "a quoted field is never closed (a \" is missing)".into(),
-        )]));
-    }
+    let tracker = Tracker::new(input);
+    let state = tracker.state.clone();
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(false)
         .flexible(true)
-        .from_reader(bytes);
+        .from_reader(tracker);
     let mut log = ProblemLog::default();
     let mut header: Option<Vec<String>> = None;
     let mut rows = Vec::new();
@@ -165,12 +235,22 @@ pub fn parse(file: &str, bytes: &[u8], shape: &Shape) -> Result<Table, Problems>
             Ok(false) => break,
             Ok(true) => {}
             Err(e) => {
-                let line = e.position().map_or(0, |p| p.line());
-                log.push(problem(line, 1, format!("unreadable CSV: {e}")));
+                let failure = state.borrow_mut().failure.take();
+                match failure {
+                    Some((line, column, message)) => log.push(problem(line, column, message)),
+                    None => {
+                        let line = e
+                            .position()
+                            .map_or(1, |p| state.borrow_mut().line_of(p.byte()));
+                        log.push(problem(line, 1, format!("unreadable CSV: {e}")));
+                    }
+                }
                 break;
             }
         }
-        let line = record.position().map_or(0, |p| p.line());
+        let line = record
+            .position()
+            .map_or(1, |p| state.borrow_mut().line_of(p.byte()));
         let mut fields = Vec::with_capacity(record.len());
         let mut row_ok = true;
         for (i, raw) in record.iter().enumerate() {
@@ -187,6 +267,9 @@ pub fn parse(file: &str, bytes: &[u8], shape: &Shape) -> Result<Table, Problems>
         }
         match &header {
             None => {
+                if fields.iter().all(|f| f.trim().is_empty()) {
+                    continue; // Blank lines before the header.
+                }
                 let names: Vec<String> = fields.iter().map(|f| f.trim().to_lowercase()).collect();
                 check_header(&names, shape, &mut |column, message| {
                     log.push(problem(line, column, message))
@@ -210,6 +293,19 @@ pub fn parse(file: &str, bytes: &[u8], shape: &Shape) -> Result<Table, Problems>
                     ));
                     continue;
                 }
+                if fields
+                    .iter()
+                    .zip(names)
+                    .all(|(f, n)| f.trim().to_lowercase() == *n)
+                {
+                    log.push(problem(
+                        line,
+                        1,
+                        "this line repeats the header row (files joined together?); remove it"
+                            .into(),
+                    ));
+                    continue;
+                }
                 rows.push(Row { line, fields });
             }
         }
@@ -217,12 +313,211 @@ pub fn parse(file: &str, bytes: &[u8], shape: &Shape) -> Result<Table, Problems>
             break;
         }
     }
+    if log.0.is_empty() {
+        let unclosed = state.borrow().unclosed_quote();
+        if let Some((line, column)) = unclosed {
+            log.push(problem(
+                line,
+                column,
+                "a quoted field is never closed (a \" is missing)".into(),
+            ));
+        }
+    }
+    if header.is_none() && log.0.is_empty() {
+        log.push(problem(
+            1,
+            1,
+            format!(
+                "the file is empty; expected a header row with {}",
+                shape.required.join(", ")
+            ),
+        ));
+    }
     log.into_result()?;
     Ok(Table {
         file: file.to_string(),
         header: header.unwrap_or_default(),
         rows,
     })
+}
+
+/// Where the quote grammar stands after the bytes seen so far.
+#[derive(Clone, Copy, PartialEq, Eq)]
+enum Quoting {
+    /// Outside quotes, at the start of a field.
+    FieldStart,
+    /// Outside quotes, inside a field.
+    Unquoted,
+    /// Inside a quoted field.
+    Quoted,
+    /// Inside a quoted field, just after a `"`: either `""` or the closing quote.
+    QuoteInQuoted,
+}
+
+/// What `Tracker` has learned about the stream so far.
+struct TrackState {
+    /// Bytes handed to the CSV reader so far.
+    offset: u64,
+    /// Offsets where a physical line starts that no record has passed yet.
+    line_starts: std::collections::VecDeque<u64>,
+    /// Line starts already passed (the line of the last record is this + 1).
+    lines_passed: u64,
+    /// Physical line and field number of the byte being read (for problems).
+    line: u64,
+    column: usize,
+    field_bytes: usize,
+    quoting: Quoting,
+    previous_cr: bool,
+    bom_checked: bool,
+    opened_quote: (u64, usize),
+    failure: Option<(u64, usize, String)>,
+}
+
+impl TrackState {
+    /// The physical line (1-based) of the byte at `offset`; offsets must not decrease.
+    fn line_of(&mut self, offset: u64) -> u64 {
+        while self.line_starts.front().is_some_and(|&s| s <= offset) {
+            self.line_starts.pop_front();
+            self.lines_passed += 1;
+        }
+        self.lines_passed + 1
+    }
+
+    fn unclosed_quote(&self) -> Option<(u64, usize)> {
+        matches!(self.quoting, Quoting::Quoted).then_some(self.opened_quote)
+    }
+
+    fn end_line(&mut self, next_offset: u64) {
+        self.line += 1;
+        self.line_starts.push_back(next_offset);
+    }
+
+    /// Looks at one byte; returns a problem when the stream must stop.
+    fn see(&mut self, b: u8, at: u64) -> Option<(u64, usize, String)> {
+        if b == 0 {
+            return Some((
+                self.line,
+                self.column,
+                format!("field contains a NUL byte at byte {}", self.field_bytes + 1),
+            ));
+        }
+        // Physical lines, whatever the quoting: LF, CRLF and a lone CR each end one.
+        let cr_then_lf = self.previous_cr && b == b'\n';
+        self.previous_cr = b == b'\r';
+        // After CRLF the next line is taken to start at the LF: the CSV reader reports a
+        // record that follows CRLF from that byte.
+        if b == b'\r' || (b == b'\n' && !cr_then_lf) {
+            self.end_line(at + 1);
+        }
+        if self.quoting == Quoting::QuoteInQuoted {
+            if b == b'"' {
+                self.quoting = Quoting::Quoted;
+                return self.grow();
+            }
+            self.quoting = Quoting::Unquoted;
+        }
+        match (self.quoting, b) {
+            (Quoting::Quoted, b'"') => self.quoting = Quoting::QuoteInQuoted,
+            (Quoting::Quoted, _) => return self.grow(),
+            (Quoting::FieldStart, b'"') => {
+                self.quoting = Quoting::Quoted;
+                self.opened_quote = (self.line, self.column);
+            }
+            (_, b',') => {
+                self.quoting = Quoting::FieldStart;
+                self.field_bytes = 0;
+                self.column += 1;
+                if self.column > MAX_COLUMNS {
+                    return Some((
+                        self.line,
+                        self.column,
+                        format!(
+                            "a row has more than {MAX_COLUMNS} columns; the limit is {MAX_COLUMNS}"
+                        ),
+                    ));
+                }
+            }
+            (_, b'\n' | b'\r') => {
+                self.quoting = Quoting::FieldStart;
+                self.field_bytes = 0;
+                self.column = 1;
+            }
+            _ => {
+                self.quoting = Quoting::Unquoted;
+                return self.grow();
+            }
+        }
+        None
+    }
+
+    fn grow(&mut self) -> Option<(u64, usize, String)> {
+        self.field_bytes += 1;
+        (self.field_bytes > MAX_FIELD_BYTES).then(|| {
+            (
+                self.line,
+                self.column,
+                format!("field is longer than the limit of {MAX_FIELD_BYTES} bytes"),
+            )
+        })
+    }
+}
+
+/// A reader between the file and the CSV parser that counts physical lines, follows the
+/// quotes, and stops the stream at a NUL byte, an over-long field or too many columns,
+/// so that a broken or hostile file costs neither unbounded memory nor time.
+struct Tracker<R> {
+    inner: R,
+    state: std::rc::Rc<std::cell::RefCell<TrackState>>,
+}
+
+impl<R: std::io::BufRead> Tracker<R> {
+    fn new(inner: R) -> Tracker<R> {
+        Tracker {
+            inner,
+            state: std::rc::Rc::new(std::cell::RefCell::new(TrackState {
+                offset: 0,
+                line_starts: std::collections::VecDeque::new(),
+                lines_passed: 0,
+                line: 1,
+                column: 1,
+                field_bytes: 0,
+                quoting: Quoting::FieldStart,
+                previous_cr: false,
+                bom_checked: false,
+                opened_quote: (1, 1),
+                failure: None,
+            })),
+        }
+    }
+}
+
+impl<R: std::io::BufRead> std::io::Read for Tracker<R> {
+    fn read(&mut self, out: &mut [u8]) -> std::io::Result<usize> {
+        let mut state = self.state.borrow_mut();
+        if state.failure.is_some() {
+            return Err(std::io::Error::other("stopped"));
+        }
+        if !state.bom_checked {
+            let start = self.inner.fill_buf()?;
+            if start.starts_with(b"\xEF\xBB\xBF") {
+                self.inner.consume(3);
+            }
+            state.bom_checked = true;
+        }
+        let available = self.inner.fill_buf()?;
+        let n = available.len().min(out.len());
+        for (k, &b) in available[..n].iter().enumerate() {
+            let at = state.offset + k as u64;
+            if let Some(failure) = state.see(b, at) {
+                state.failure = Some(failure);
+                return Err(std::io::Error::other("stopped"));
+            }
+        }
+        out[..n].copy_from_slice(&available[..n]);
+        self.inner.consume(n);
+        state.offset += n as u64;
+        Ok(n)
+    }
 }
 
 fn check_field(raw: &[u8]) -> Result<String, String> {
@@ -257,8 +552,9 @@ fn check_header(names: &[String], shape: &Shape, report: &mut dyn FnMut(usize, S
         );
         return;
     }
+    let mut seen = std::collections::HashSet::with_capacity(names.len());
     for (i, name) in names.iter().enumerate() {
-        if names[..i].contains(name) {
+        if !seen.insert(name.as_str()) {
             report(i + 1, format!("column \"{name}\" appears more than once"));
         } else if name.is_empty() {
             report(i + 1, "a column has no name".into());
@@ -286,54 +582,6 @@ fn check_header(names: &[String], shape: &Shape, report: &mut dyn FnMut(usize, S
             );
         }
     }
-}
-
-/// Finds a quote opened and never closed: returns its line and column (field number).
-fn unclosed_quote(bytes: &[u8]) -> Option<(u64, usize)> {
-    let mut line = 1u64;
-    let mut column = 1usize;
-    let mut in_quotes = false;
-    let mut at_field_start = true;
-    let mut opened = (0u64, 0usize);
-    let mut i = 0;
-    while i < bytes.len() {
-        let b = bytes[i];
-        if in_quotes {
-            if b == b'"' {
-                if bytes.get(i + 1) == Some(&b'"') {
-                    i += 1;
-                } else {
-                    in_quotes = false;
-                }
-            } else if b == b'\n' {
-                line += 1;
-            }
-        } else {
-            match b {
-                b'"' if at_field_start => {
-                    in_quotes = true;
-                    opened = (line, column);
-                }
-                b',' => {
-                    column += 1;
-                    at_field_start = true;
-                    i += 1;
-                    continue;
-                }
-                b'\n' => {
-                    line += 1;
-                    column = 1;
-                    at_field_start = true;
-                    i += 1;
-                    continue;
-                }
-                _ => {}
-            }
-            at_field_start = false;
-        }
-        i += 1;
-    }
-    in_quotes.then_some(opened)
 }
 
 #[cfg(test)]

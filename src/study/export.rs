@@ -6,9 +6,11 @@ use std::io::Write;
 use super::import::SETTLED_REVIEWER;
 use super::{Result, Study};
 
-/// Prefixes formula-like text with an apostrophe (OWASP "CSV injection" advice).
+/// Prefixes a cell a spreadsheet could run as a formula with an apostrophe (OWASP, "CSV
+/// Injection"): see `csv_input::needs_guard` for the exact rule. Import removes exactly
+/// that apostrophe again (`csv_input::unguard`), so export → import is lossless.
 pub fn neutralise(text: &str) -> std::borrow::Cow<'_, str> {
-    if text.starts_with(['=', '+', '-', '@', '\t', '\r']) {
+    if super::csv_input::needs_guard(text) {
         format!("'{text}").into()
     } else {
         text.into()

@@ -68,7 +68,7 @@ impl Study {
             &grade.note,
             action,
         ]);
-        let tx = self.conn_mut().transaction()?;
+        let tx = self.begin_write()?;
         tx.execute(
             "INSERT OR IGNORE INTO reviewers(reviewer) VALUES (?1)",
             [&grade.reviewer],

@@ -1,110 +1,128 @@
-//! RFC 3339 timestamps without a date library: parsed, normalised to UTC with
+//! RFC 3339 timestamps, parsed and checked by `jiff` and normalised to UTC with
 //! milliseconds (`2026-11-16T09:14:03.000Z`) so that text order is time order.
 
-use std::time::{SystemTime, UNIX_EPOCH};
+use std::sync::atomic::{AtomicI64, Ordering};
 
-/// Days since 1970-01-01 of a proleptic Gregorian date (Hinnant's `days_from_civil`).
-fn days_from_civil(y: i64, m: i64, d: i64) -> i64 {
-    let y = if m <= 2 { y - 1 } else { y };
-    let era = if y >= 0 { y } else { y - 399 } / 400;
-    let yoe = y - era * 400;
-    let mp = (m + 9) % 12;
-    let doy = (153 * mp + 2) / 5 + d - 1;
-    let doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
-    era * 146_097 + doe - 719_468
-}
-
-fn civil_from_days(z: i64) -> (i64, i64, i64) {
-    let z = z + 719_468;
-    let era = if z >= 0 { z } else { z - 146_096 } / 146_097;
-    let doe = z - era * 146_097;
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let d = doy - (153 * mp + 2) / 5 + 1;
-    let m = if mp < 10 { mp + 3 } else { mp - 9 };
-    (yoe + era * 400 + i64::from(m <= 2), m, d)
-}
+/// The normalised form: four-digit UTC year, milliseconds, `Z`.
+const FORMAT: &str = "%Y-%m-%dT%H:%M:%S%.3fZ";
 
 /// Formats milliseconds since the epoch as `YYYY-MM-DDTHH:MM:SS.mmmZ`.
 pub fn format_millis(ms: i64) -> String {
-    let secs = ms.div_euclid(1000);
-    let millis = ms.rem_euclid(1000);
-    let (y, m, d) = civil_from_days(secs.div_euclid(86_400));
-    let s = secs.rem_euclid(86_400);
-    format!(
-        "{y:04}-{m:02}-{d:02}T{:02}:{:02}:{:02}.{millis:03}Z",
-        s / 3600,
-        s / 60 % 60,
-        s % 60
-    )
+    match jiff::Timestamp::from_millisecond(ms) {
+        Ok(t) => t.strftime(FORMAT).to_string(),
+        // Out of jiff's range: only reachable through a corrupt clock; keep sorting sane.
+        Err(_) => if ms < 0 {
+            "0000-01-01T00:00:00.000Z"
+        } else {
+            "9999-12-31T23:59:59.999Z"
+        }
+        .into(),
+    }
 }
 
-/// The current time in the study's normalised form.
+/// The last time `now` handed out, so that one process never gives two events the same
+/// time (a grade, its undo and a new grade within one millisecond stay in order).
+static LAST_NOW: AtomicI64 = AtomicI64::new(i64::MIN);
+
+/// The current time in the study's normalised form, strictly later than the previous
+/// call's in this process.
 pub fn now() -> String {
-    let ms = SystemTime::now()
-        .duration_since(UNIX_EPOCH)
-        .map_or(0, |d| d.as_millis() as i64);
-    format_millis(ms)
+    let clock = jiff::Timestamp::now().as_millisecond();
+    let mut last = LAST_NOW.load(Ordering::Relaxed);
+    loop {
+        let next = clock.max(last.saturating_add(1));
+        match LAST_NOW.compare_exchange_weak(last, next, Ordering::Relaxed, Ordering::Relaxed) {
+            Ok(_) => return format_millis(next),
+            Err(seen) => last = seen,
+        }
+    }
 }
 
-/// Parses an RFC 3339 timestamp (`T` or space separator, `Z` or ±hh:mm offset,
-/// optional fraction) into milliseconds since the epoch.
-pub fn parse_rfc3339(text: &str) -> Option<i64> {
+/// Parses an RFC 3339 timestamp (`T` or space separator, `Z` or ±hh:mm offset, optional
+/// fraction) into milliseconds since the epoch; the error says what is wrong.
+///
+/// Refused: impossible dates (`2026-02-30`), offsets outside ±23:59 (RFC 3339's
+/// `time-numoffset`), and times that fall outside the years 0001–9999 once converted to
+/// UTC (they could not be written in the four-digit normalised form, and would sort
+/// wrongly).
+pub fn parse_checked(text: &str) -> Result<i64, String> {
     let b = text.as_bytes();
-    if b.len() < 20 {
-        return None;
+    let shape_ok = b.len() >= 20
+        && b[..4].iter().all(u8::is_ascii_digit)
+        && b[4] == b'-'
+        && b[7] == b'-'
+        && matches!(b[10], b'T' | b't' | b' ')
+        && b[13] == b':'
+        && b[16] == b':';
+    if !shape_ok {
+        return Err("it is not in the form YYYY-MM-DDTHH:MM:SS with an offset".into());
     }
-    let num = |range: std::ops::Range<usize>| -> Option<i64> {
-        let s = text.get(range)?;
-        if !s.bytes().all(|c| c.is_ascii_digit()) {
-            return None;
+    let offset = offset_part(text).ok_or("it has no offset (end it with Z or ±hh:mm)")?;
+    if offset != "Z" && offset != "z" {
+        let ob = offset.as_bytes();
+        let well_formed = ob.len() == 6
+            && matches!(ob[0], b'+' | b'-')
+            && ob[1..3].iter().all(u8::is_ascii_digit)
+            && ob[3] == b':'
+            && ob[4..6].iter().all(u8::is_ascii_digit);
+        if !well_formed {
+            return Err(format!("the offset \"{offset}\" must be Z or ±hh:mm"));
         }
-        s.parse().ok()
+        let hours: u32 = offset[1..3].parse().unwrap_or(99);
+        let minutes: u32 = offset[4..6].parse().unwrap_or(99);
+        if hours > 23 || minutes > 59 {
+            return Err(format!(
+                "the offset \"{offset}\" is outside -23:59 to +23:59"
+            ));
+        }
+    }
+    let local = &text[..text.len() - offset.len()];
+    let civil: jiff::civil::DateTime = local
+        .replacen([' ', 't'], "T", 1)
+        .parse()
+        .map_err(|e: jiff::Error| format!("it is not a valid date and time ({e})"))?;
+    let offset_minutes: i64 = if offset.len() == 6 {
+        let sign = if offset.starts_with('-') { -1 } else { 1 };
+        sign * (offset[1..3].parse::<i64>().unwrap_or(0) * 60
+            + offset[4..6].parse::<i64>().unwrap_or(0))
+    } else {
+        0
     };
-    let (y, mo, d) = (num(0..4)?, num(5..7)?, num(8..10)?);
-    let (h, mi, s) = (num(11..13)?, num(14..16)?, num(17..19)?);
-    if b[4] != b'-'
-        || b[7] != b'-'
-        || !matches!(b[10], b'T' | b't' | b' ')
-        || b[13] != b':'
-        || b[16] != b':'
-    {
-        return None;
+    let out_of_range = || "in UTC it falls outside the years 0001 to 9999".to_string();
+    let as_if_utc = civil
+        .to_zoned(jiff::tz::TimeZone::UTC)
+        .map_err(|_| out_of_range())?
+        .timestamp()
+        .as_millisecond();
+    let ms = as_if_utc - offset_minutes * 60_000;
+    let utc = jiff::Timestamp::from_millisecond(ms).map_err(|_| out_of_range())?;
+    if utc.to_zoned(jiff::tz::TimeZone::UTC).year() < 1 {
+        return Err(out_of_range());
     }
-    if !(1..=12).contains(&mo) || !(1..=31).contains(&d) || h > 23 || mi > 59 || s > 60 {
-        return None;
+    Ok(ms)
+}
+
+/// The offset at the end of an RFC 3339 time: `Z`, or the sign and what follows it.
+fn offset_part(text: &str) -> Option<&str> {
+    let tail = text.get(19..)?;
+    if let Some(z) = tail.strip_suffix(['Z', 'z']) {
+        return z
+            .bytes()
+            .all(|c| c == b'.' || c.is_ascii_digit())
+            .then(|| &tail[tail.len() - 1..]);
     }
-    let mut pos = 19;
-    let mut millis = 0i64;
-    if b.get(pos) == Some(&b'.') {
-        pos += 1;
-        let start = pos;
-        while pos < b.len() && b[pos].is_ascii_digit() {
-            pos += 1;
-        }
-        if pos == start {
-            return None;
-        }
-        let digits = &text[start..pos.min(start + 3)];
-        millis = digits.parse::<i64>().ok()? * 10i64.pow(3 - digits.len() as u32);
-    }
-    let offset_minutes = match &text[pos..] {
-        "Z" | "z" => 0,
-        rest if rest.len() == 6 && (rest.starts_with('+') || rest.starts_with('-')) => {
-            let sign = if rest.starts_with('-') { -1 } else { 1 };
-            let oh = num(pos + 1..pos + 3)?;
-            let om = num(pos + 4..pos + 6)?;
-            if &rest[3..4] != ":" {
-                return None;
-            }
-            sign * (oh * 60 + om)
-        }
-        _ => return None,
-    };
-    let days = days_from_civil(y, mo, d);
-    let secs = days * 86_400 + h * 3600 + mi * 60 + s - offset_minutes * 60;
-    Some(secs * 1000 + millis)
+    let sign = tail.find(['+', '-'])?;
+    Some(&tail[sign..])
+}
+
+/// Parses an RFC 3339 timestamp into milliseconds since the epoch.
+pub fn parse_rfc3339(text: &str) -> Option<i64> {
+    parse_checked(text).ok()
+}
+
+/// Parses and normalises, saying why a text is refused.
+pub fn normalise_checked(text: &str) -> Result<String, String> {
+    parse_checked(text).map(format_millis)
 }
 
 /// Parses and normalises; None when the text is not RFC 3339.
@@ -127,10 +145,33 @@ mod tests {
             "2026-11-16T09:14:03.500Z"
         );
         assert_eq!(
+            normalise("2026-11-16 10:14:03-00:30").unwrap(),
+            "2026-11-16T10:44:03.000Z"
+        );
+        assert_eq!(
             normalise("1970-01-01T00:00:00Z").unwrap(),
             "1970-01-01T00:00:00.000Z"
         );
         assert!(normalise("2026-13-01T00:00:00Z").is_none());
         assert!(normalise("yesterday").is_none());
+    }
+
+    /// RFC 3339 section 5.6: full-date, partial-time and time-numoffset bounds.
+    #[test]
+    fn impossible_times_are_refused() {
+        assert!(normalise("2026-02-30T00:00:00Z").is_none());
+        assert!(normalise("2026-02-28T00:00:00+99:99").is_none());
+        assert!(normalise("2026-02-28T00:00:00+24:00").is_none());
+        assert!(normalise("2026-02-28T00:00:00").is_none());
+        let late = normalise_checked("9999-12-31T23:59:59-23:59").unwrap_err();
+        assert!(late.contains("0001 to 9999"), "{late}");
+        assert!(normalise("2028-02-29T12:00:00Z").is_some(), "a leap day");
+    }
+
+    #[test]
+    fn now_never_repeats() {
+        let a = now();
+        let b = now();
+        assert!(b > a, "{a} then {b}");
     }
 }

@@ -77,9 +77,9 @@ pub(super) fn import_items(tx: &Transaction, src: &Source) -> Result<FileReport>
         parsed.push((
             id.to_string(),
             ItemRow {
-                title: unneutralise(title).to_string(),
-                category: unneutralise(f.text("category").trim()).to_string(),
-                description: unneutralise(f.text("description")).to_string(),
+                title: title.to_string(),
+                category: f.text("category").trim().to_string(),
+                description: f.text("description").to_string(),
                 price,
                 image: image.to_string(),
                 is_new,
@@ -143,12 +143,62 @@ pub(super) fn import_items(tx: &Transaction, src: &Source) -> Result<FileReport>
             item.attributes
         ])?;
     }
-    tx.execute(
-        "INSERT INTO settings(key, value) VALUES ('catalog_dir', ?1)
-         ON CONFLICT(key) DO UPDATE SET value = excluded.value",
-        [src.folder.to_string_lossy()],
-    )?;
+    repoint_images(tx, src, &parsed, &mut report)?;
     Ok(report)
+}
+
+/// Image paths are relative to one study-wide catalog folder. It follows this file only
+/// when the file names the picture of every item in the study that has one; a partial
+/// file (or one with no pictures) from another folder leaves it, with a warning, so that
+/// the other items' pictures keep resolving.
+fn repoint_images(
+    tx: &Transaction,
+    src: &Source,
+    parsed: &[(String, ItemRow)],
+    report: &mut FileReport,
+) -> Result<()> {
+    let folder = src.folder.to_string_lossy().into_owned();
+    let current: Option<String> = tx
+        .query_row(
+            "SELECT value FROM settings WHERE key = 'catalog_dir'",
+            [],
+            |r| r.get(0),
+        )
+        .ok();
+    if current.as_deref() == Some(folder.as_str()) {
+        return Ok(());
+    }
+    let with_image: std::collections::HashSet<&str> = parsed
+        .iter()
+        .filter(|(_, item)| !item.image.is_empty())
+        .map(|(id, _)| id.as_str())
+        .collect();
+    let others_with_images: i64 = {
+        let mut stmt = tx.prepare("SELECT item_id FROM items WHERE image != ''")?;
+        let ids = stmt.query_map([], |r| r.get::<_, String>(0))?;
+        let mut n = 0;
+        for id in ids {
+            if !with_image.contains(id?.as_str()) {
+                n += 1;
+            }
+        }
+        n
+    };
+    let covers_all = !with_image.is_empty() && others_with_images == 0;
+    if current.is_none() || covers_all {
+        tx.execute(
+            "INSERT INTO settings(key, value) VALUES ('catalog_dir', ?1)
+             ON CONFLICT(key) DO UPDATE SET value = excluded.value",
+            [&folder],
+        )?;
+    } else if !with_image.is_empty() {
+        report.warnings.push(format!(
+            "{}: pictures are still looked up in {} (the study's catalog folder), because {others_with_images} items with pictures are not in this file; keep this file's pictures there, or import the whole catalog from one folder",
+            src.name,
+            current.unwrap_or_default()
+        ));
+    }
+    Ok(())
 }
 
 pub(super) fn import_contexts(tx: &Transaction, src: &Source) -> Result<FileReport> {
@@ -197,7 +247,7 @@ pub(super) fn import_contexts(tx: &Transaction, src: &Source) -> Result<FileRepo
         parsed.push((
             id.to_string(),
             kind,
-            unneutralise(f.text("text")).to_string(),
+            f.text("text").to_string(),
             anchor,
             f.text("segment").trim().to_string(),
         ));

@@ -4,10 +4,7 @@ use std::collections::{HashMap, HashSet};
 
 use rusqlite::{Transaction, params};
 
-use super::{
-    Fields, FileReport, GRADES, SETTLED_REVIEWER, Source, content_uid, id_set, input_error, parse,
-    report, unneutralise,
-};
+use super::{Fields, FileReport, GRADES, Source, content_uid, id_set, input_error, parse, report};
 use crate::study::csv_input::ProblemLog;
 use crate::study::{Result, time};
 
@@ -15,10 +12,10 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
     let table = parse(src, &GRADES)?;
     let contexts = id_set(tx, "SELECT context_id FROM contexts")?;
     let items = id_set(tx, "SELECT item_id FROM items")?;
-    let mut scale_sizes: HashMap<String, u8> = HashMap::new();
+    let mut scale_sizes: HashMap<String, i64> = HashMap::new();
     {
         let mut stmt = tx.prepare("SELECT scale, COUNT(*) FROM levels GROUP BY scale")?;
-        for row in stmt.query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, u8>(1)?)))? {
+        for row in stmt.query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, i64>(1)?)))? {
             let (s, n) = row?;
             scale_sizes.insert(s, n);
         }
@@ -27,8 +24,9 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
     let mut grades = Vec::new();
     for row in &table.rows {
         let f = Fields { table: &table, row };
+        // Names are kept exactly as written (not trimmed), so export → import is exact.
         let (Some(reviewer), Some(context), Some(item), Some(scale)) = (
-            f.required("reviewer", &mut log),
+            f.required_exact("reviewer", &mut log),
             f.required("context_id", &mut log),
             f.required("item_id", &mut log),
             f.required("scale", &mut log),
@@ -55,7 +53,7 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
             None
         } else {
             match value_text.parse::<u8>() {
-                Ok(v) if v < levels => Some(v),
+                Ok(v) if i64::from(v) < levels => Some(v),
                 _ => {
                     log.push(f.problem(
                         "value",
@@ -75,11 +73,17 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
         let at_text = f.text("graded_at").trim();
         let graded_at = if at_text.is_empty() {
             time::format_millis(0)
-        } else if let Some(t) = time::normalise(at_text) {
-            t
         } else {
-            log.push(f.problem("graded_at", format!("graded_at must be an RFC 3339 time such as 2026-11-16T09:14:03Z, got \"{at_text}\"")));
-            continue;
+            match time::normalise_checked(at_text) {
+                Ok(t) => t,
+                Err(why) => {
+                    log.push(f.problem(
+                        "graded_at",
+                        format!("graded_at must be an RFC 3339 time such as 2026-11-16T09:14:03Z, got \"{at_text}\": {why}"),
+                    ));
+                    continue;
+                }
+            }
         };
         grades.push(ImportedGrade {
             reviewer: reviewer.to_string(),
@@ -87,10 +91,10 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
             item: item.to_string(),
             scale: scale.to_string(),
             value,
-            reason: unneutralise(f.text("reason")).to_string(),
+            reason: f.text("reason").to_string(),
             seconds,
             graded_at,
-            note: unneutralise(f.text("note")).to_string(),
+            note: f.text("note").to_string(),
             settled_by: f.text("settled_by").trim().to_string(),
         });
         if log.is_full() {
@@ -108,12 +112,18 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
         "INSERT OR IGNORE INTO settle_events(uid, context_id, item_id, scale, value, method, settled_by, settled_at, reason)
          VALUES (?1, ?2, ?3, ?4, ?5, 'imported', ?6, ?7, ?8)",
     )?;
+    let mut known_uid = tx.prepare("SELECT EXISTS (SELECT 1 FROM grade_events WHERE uid = ?1)")?;
+    let mut known_settlement = tx.prepare(
+        "SELECT EXISTS (SELECT 1 FROM settle_events
+         WHERE scale = ?1 AND context_id = ?2 AND item_id = ?3 AND settled_at = ?4
+           AND value IS ?5 AND settled_by = ?6 AND reason = ?7)",
+    )?;
     let mut known_reviewers: HashSet<String> = HashSet::new();
     for g in &grades {
         let value_text = g.value.map(|v| v.to_string()).unwrap_or_default();
         let seconds_text = g.seconds.map(|s| s.to_string()).unwrap_or_default();
-        let uid = content_uid(&[
-            &g.reviewer,
+        let parts = [
+            g.reviewer.as_str(),
             &g.context,
             &g.item,
             &g.scale,
@@ -122,8 +132,40 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
             &seconds_text,
             &g.graded_at,
             &g.note,
-        ]);
-        let changed = if g.reviewer == SETTLED_REVIEWER {
+        ];
+        let uid = content_uid(&parts);
+        let action = if g.value.is_some() {
+            "grade"
+        } else {
+            "cant_judge"
+        };
+        // A settlement is a row with `settled_by` (whatever its reviewer column says);
+        // the same settlement already in the study, however it got there, is unchanged.
+        let is_settlement = !g.settled_by.is_empty();
+        let already = if is_settlement {
+            known_settlement.query_row(
+                params![
+                    g.scale,
+                    g.context,
+                    g.item,
+                    g.graded_at,
+                    g.value,
+                    g.settled_by,
+                    g.reason
+                ],
+                |r| r.get::<_, bool>(0),
+            )?
+        } else {
+            // Grades given at the desk before this build carry the action in their uid.
+            let mut with_action = parts.to_vec();
+            with_action.push(action);
+            known_uid.query_row([content_uid(&with_action)], |r| r.get::<_, bool>(0))?
+        };
+        if already {
+            report.unchanged += 1;
+            continue;
+        }
+        let changed = if is_settlement {
             settle.execute(params![
                 uid,
                 g.context,
@@ -138,11 +180,6 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
             if known_reviewers.insert(g.reviewer.clone()) {
                 add_reviewer.execute([&g.reviewer])?;
             }
-            let action = if g.value.is_some() {
-                "grade"
-            } else {
-                "cant_judge"
-            };
             insert.execute(params![
                 uid,
                 g.reviewer,

@@ -52,38 +52,48 @@ pub const GRADES: Shape = Shape {
     extra_allowed: false,
 };
 
-/// The reviewer name under which exports write settled grades.
+/// What exports write in the reviewer column of a settled grade. Import never goes by
+/// this name: a row is a settlement when its `settled_by` is filled in.
 pub const SETTLED_REVIEWER: &str = "settled";
 
-/// One input: a name for messages, its bytes, and the folder image paths are relative to.
+/// One input: a name for messages, where its bytes come from, and the folder image
+/// paths are relative to.
 #[derive(Debug, Clone)]
 pub struct Source {
     pub name: String,
-    pub bytes: Vec<u8>,
+    pub input: Input,
     pub folder: PathBuf,
 }
 
+/// Where a source's bytes are: in memory, or a file read as a stream when imported.
+#[derive(Debug, Clone)]
+pub enum Input {
+    Bytes(Vec<u8>),
+    File(PathBuf),
+}
+
 impl Source {
+    /// A source held in memory (tests, generated files).
+    pub fn from_bytes(name: &str, bytes: Vec<u8>, folder: PathBuf) -> Source {
+        Source {
+            name: name.to_string(),
+            input: Input::Bytes(bytes),
+            folder,
+        }
+    }
+
+    /// A file on disk; refused at once unless it is a regular file.
     pub fn from_path(path: &Path) -> std::result::Result<Source, Problems> {
-        let name = path
-            .file_name()
-            .map(|n| n.to_string_lossy().into_owned())
-            .unwrap_or_else(|| path.display().to_string());
-        let bytes = std::fs::read(path).map_err(|e| {
-            Problems(vec![Problem {
-                file: name.clone(),
-                line: 0,
-                column: 0,
-                message: format!("cannot read the file: {e}"),
-            }])
-        })?;
+        let name = csv_input::display_name(path);
+        csv_input::open_regular(path)
+            .map_err(|message| Problems(vec![csv_input::whole_file(&name, message)]))?;
         let folder = path
             .parent()
             .map(|p| std::path::absolute(p).unwrap_or_else(|_| p.to_path_buf()))
             .unwrap_or_default();
         Ok(Source {
             name,
-            bytes,
+            input: Input::File(path.to_path_buf()),
             folder,
         })
     }
@@ -107,6 +117,9 @@ pub struct FileReport {
     pub added: u64,
     pub updated: u64,
     pub unchanged: u64,
+    /// Things imported as asked that look like a mistake (e.g. gains that fall).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub warnings: Vec<String>,
 }
 
 /// Imports every file given, in dependency order, in one transaction.
@@ -134,7 +147,7 @@ pub fn import(study: &mut Study, set: &ImportSet) -> Result<Vec<FileReport>> {
 const IMPORT_CACHE_KIB: i64 = -262_144;
 
 fn import_in_transaction(study: &mut Study, set: &ImportSet) -> Result<Vec<FileReport>> {
-    let tx = study.conn_mut().transaction()?;
+    let tx = study.begin_write()?;
     let mut reports = Vec::new();
     if let Some(src) = &set.scales {
         reports.push(scales::import_scales(&tx, src)?);
@@ -160,7 +173,20 @@ fn input_error(problems: Problems) -> StudyError {
 }
 
 fn parse(src: &Source, shape: &Shape) -> Result<Table> {
-    csv_input::parse(&src.name, &src.bytes, shape).map_err(input_error)
+    match &src.input {
+        Input::Bytes(bytes) => csv_input::parse(&src.name, bytes, shape),
+        Input::File(path) => {
+            let file = csv_input::open_regular(path)
+                .map_err(|m| Problems(vec![csv_input::whole_file(&src.name, m)]))
+                .map_err(input_error)?;
+            csv_input::parse_reader(
+                &src.name,
+                std::io::BufReader::with_capacity(1 << 16, file),
+                shape,
+            )
+        }
+    }
+    .map_err(input_error)
 }
 
 /// Typed access to a row's named fields, recording problems with their column.
@@ -195,6 +221,17 @@ impl<'a> Fields<'a> {
         }
     }
 
+    /// Like `required`, but the value is kept exactly as written (names round-trip).
+    fn required_exact(&self, name: &str, log: &mut ProblemLog) -> Option<&'a str> {
+        let value = self.text(name);
+        if value.trim().is_empty() {
+            log.push(self.problem(name, format!("{name} must not be empty")));
+            None
+        } else {
+            Some(value)
+        }
+    }
+
     fn optional_f64(&self, name: &str, log: &mut ProblemLog) -> Option<Option<f64>> {
         let value = self.text(name).trim();
         if value.is_empty() {
@@ -212,10 +249,7 @@ impl<'a> Fields<'a> {
 
 /// Removes the apostrophe that exports put before formula-like cells.
 pub fn unneutralise(text: &str) -> &str {
-    match text.strip_prefix('\'') {
-        Some(rest) if rest.starts_with(['=', '+', '-', '@', '\t', '\r']) => rest,
-        _ => text,
-    }
+    csv_input::unguard(text)
 }
 
 fn parse_bool(text: &str) -> Option<bool> {
@@ -241,6 +275,7 @@ fn report(src: &Source, kind: &'static str) -> FileReport {
         added: 0,
         updated: 0,
         unchanged: 0,
+        warnings: Vec::new(),
     }
 }
 

@@ -4,7 +4,8 @@ use std::collections::BTreeMap;
 
 use rusqlite::{OptionalExtension, Transaction, params};
 
-use super::{Fields, FileReport, SCALES, Source, input_error, parse, report, unneutralise};
+use super::{Fields, FileReport, SCALES, Source, input_error, parse, report};
+use crate::core::scale::{DESK_KEYS, MAX_LEVELS, gains_fall, is_desk_key};
 use crate::study::Result;
 use crate::study::csv_input::{ProblemLog, Problems};
 
@@ -22,13 +23,30 @@ pub(super) fn import_scales(tx: &Transaction, src: &Source) -> Result<FileReport
         ) else {
             continue;
         };
-        let Ok(value) = value_text.parse::<u8>() else {
+        let value = match value_text.parse::<u8>() {
+            Ok(v) if (v as usize) < MAX_LEVELS => v,
+            _ => {
+                log.push(f.problem(
+                    "value",
+                    format!(
+                        "value must be a whole number from 0 to {} (a scale has at most {MAX_LEVELS} levels), got \"{value_text}\"",
+                        MAX_LEVELS - 1
+                    ),
+                ));
+                continue;
+            }
+        };
+        let key = f.text("key").trim();
+        if is_desk_key(key) {
             log.push(f.problem(
-                "value",
-                format!("value must be a whole number from 0 to 255, got \"{value_text}\""),
+                "key",
+                format!(
+                    "key \"{key}\" is kept by the grading desk ({}); choose another key, or leave it empty for the level's digit",
+                    DESK_KEYS.join(" ")
+                ),
             ));
             continue;
-        };
+        }
         let Some(gain) = f.optional_f64("gain", &mut log) else {
             continue;
         };
@@ -39,10 +57,10 @@ pub(super) fn import_scales(tx: &Transaction, src: &Source) -> Result<FileReport
         scales.entry(scale.to_string()).or_default().push((
             row.line,
             value,
-            unneutralise(label).to_string(),
+            label.to_string(),
             gain,
-            f.text("key").trim().to_string(),
-            unneutralise(f.text("rubric")).to_string(),
+            key.to_string(),
+            f.text("rubric").to_string(),
             f.text("colour").trim().to_string(),
         ));
     }
@@ -87,6 +105,20 @@ pub(super) fn import_scales(tx: &Transaction, src: &Source) -> Result<FileReport
     }
     log.into_result().map_err(input_error)?;
     let mut report = report(src, "scales");
+    for (name, levels) in &scales {
+        let gains: Vec<Option<f64>> = levels.iter().map(|l| l.3).collect();
+        if gains_fall(&gains) {
+            report.warnings.push(format!(
+                "{}: scale \"{name}\" has gains that fall as the level rises ({}); a higher level then counts less in DCG — check the gain column",
+                src.name,
+                gains
+                    .iter()
+                    .map(|g| g.map_or("–".to_string(), |g| g.to_string()))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ));
+        }
+    }
     for (name, levels) in scales {
         let old: Vec<(u8, String, Option<f64>, String, String, String)> = {
             let mut stmt = tx.prepare(

@@ -220,3 +220,40 @@ fn malformed_files_exit_2_with_a_position() {
         assert_eq!(study_dump(&path), before, "{flag}");
     }
 }
+
+/// Promise: the settings line says which gains scored the lists; a scale's own gains
+/// win over `--gain linear`, and the output says so instead of printing "linear".
+/// Also a warning on stderr when an imported scale's gains fall.
+#[test]
+fn the_settings_line_names_the_gains_used() {
+    let fixture = Fixture::new();
+    let (path, study) = fixture.study();
+    drop(study);
+    let s = path.to_str().unwrap();
+    let own = fixture.write(
+        "own.csv",
+        "scale,value,label,gain\nfit,0,Off target,0\nfit,1,Loosely related,1\nfit,2,Spot on,5\n",
+    );
+    let out = plumbline(args!["import", s, "--scales", own.to_str().unwrap()]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let out = plumbline(args!["score", s, "--gain", "linear"]);
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        text.contains("gains the scale's own gains (0, 1, 5); the linear (v) rule does not apply"),
+        "{text}"
+    );
+    let json = plumbline(args!["score", s, "--gain", "linear", "--format", "json"]);
+    let value: serde_json::Value = serde_json::from_slice(&json.stdout).unwrap();
+    assert!(value["gains_used"].as_str().unwrap().contains("own gains"));
+    let falling = fixture.write(
+        "fall.csv",
+        "scale,value,label,gain\nodd,0,No,0\nodd,1,Some,3\nodd,2,Yes,1\n",
+    );
+    let out = plumbline(args!["import", s, "--scales", falling.to_str().unwrap()]);
+    assert!(out.status.success());
+    assert!(String::from_utf8_lossy(&out.stderr).contains("warning"));
+}

@@ -56,11 +56,11 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
     let mut out = String::new();
     let _ = writeln!(
         out,
-        "Study {} · scale {} · grades {} · gain {:?} · unjudged {:?} · segment {}",
+        "Study {} · scale {} · grades {} · gains {} · unjudged {:?} · segment {}",
         board.study,
         board.scale,
         s.grades.label(),
-        s.gain,
+        board.gains_used,
         s.unjudged,
         s.segment.label()
     );

@@ -128,6 +128,8 @@ pub struct Scoreboard {
     pub study: String,
     pub scale: String,
     pub settings: ScoreSettings,
+    /// The gains actually used, in words: a scale's own gains win over `--gain`.
+    pub gains_used: String,
     /// Contexts scored (with at least one relevant item in the segment).
     pub contexts_scored: usize,
     /// Contexts left out because no item in them is above level 0.
@@ -135,6 +137,27 @@ pub struct Scoreboard {
     pub rankers: Vec<RankerScores>,
     pub comparisons: Vec<Comparison>,
     pub cautions: Vec<String>,
+}
+
+/// Says which gains scored the lists: the scale's own gains win over the gain rule.
+fn describe_gains(own: &[Option<f64>], used: &[f64], kind: GainKind) -> String {
+    let rule = match kind {
+        GainKind::Exponential => "exponential (2^v − 1)",
+        GainKind::Linear => "linear (v)",
+    };
+    let list = used
+        .iter()
+        .map(|g| g.to_string())
+        .collect::<Vec<_>>()
+        .join(", ");
+    let set = own.iter().filter(|g| g.is_some()).count();
+    if set == 0 {
+        format!("{rule}: {list}")
+    } else if set == own.len() {
+        format!("the scale's own gains ({list}); the {rule} rule does not apply")
+    } else {
+        format!("the scale's own gains where set, else {rule}: {list}")
+    }
 }
 
 /// The metric keys of one k, in display order.
@@ -411,7 +434,9 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
             }
         }
     }
+    let gains_used = describe_gains(&scale.gains(), &list_settings.gains, settings.gain);
     Ok(Scoreboard {
+        gains_used,
         study: snapshot.name.clone(),
         scale: scale.name.clone(),
         settings: settings.clone(),

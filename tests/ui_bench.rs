@@ -132,7 +132,7 @@ fn desk_frames_on_a_study_with_200k_grades() {
     );
     h.get_by_label("Sign in as rev-amber").click();
     let t = Instant::now();
-    while h.state().desk.data.is_none() {
+    while h.state().desk.data().is_none() {
         assert!(start.elapsed() < Duration::from_secs(120));
         h.step();
         std::thread::sleep(Duration::from_millis(5));
@@ -140,14 +140,14 @@ fn desk_frames_on_a_study_with_200k_grades() {
     println!(
         "desk loaded in {:.2} s; queue of {} pairs",
         t.elapsed().as_secs_f64(),
-        h.state().desk.data.as_ref().unwrap().queue.len()
+        h.state().desk.data().unwrap().queue.len()
     );
     for _ in 0..20 {
         h.step();
     }
     // The frames measured below draw a real card: the scale's levels are on screen.
     assert!(h.query_by_label_contains("Spot on").is_some());
-    assert!(h.state().desk.current.is_some());
+    assert!(h.state().desk.current().is_some());
     let mut idle = Vec::new();
     for _ in 0..300 {
         let t = Instant::now();

@@ -123,12 +123,9 @@ fn a_preset_scale_with_an_edited_label_is_graded_on_the_desk() {
     });
     h.get_by_label("Sign in as rev-amber").click();
     step_until_within(&mut h, "the first card", 60, |h| {
-        h.state().desk.data.is_some() && h.state().desk.current.is_some()
+        h.state().desk.data().is_some() && h.state().desk.current().is_some()
     });
-    assert_eq!(
-        h.state().desk.data.as_ref().unwrap().scale.name,
-        "three-step"
-    );
+    assert_eq!(h.state().desk.data().unwrap().scale.name, "three-step");
     assert!(
         h.query_by_label_contains("Half a match").is_some(),
         "the edited label is on the desk"
@@ -306,7 +303,7 @@ fn a_pilot_started_on_the_scales_screen_sets_the_desk_on_the_reviewers_block() {
     });
     h.get_by_label("Sign in as rev-birch").click();
     step_until_within(&mut h, "the first card", 60, |h| {
-        h.state().desk.data.is_some() && h.state().desk.current.is_some()
+        h.state().desk.data().is_some() && h.state().desk.current().is_some()
     });
     // The store, asked independently, names the same block and the same pairs.
     let mut study = Study::open(&path).unwrap();
@@ -314,7 +311,7 @@ fn a_pilot_started_on_the_scales_screen_sets_the_desk_on_the_reviewers_block() {
         .pilot_block("rev-birch")
         .unwrap()
         .expect("a block is open");
-    let data = h.state().desk.data.as_ref().unwrap();
+    let data = h.state().desk.data().unwrap();
     assert_eq!(data.scale.name, block);
     let shown: Vec<(String, String)> = data
         .queue

@@ -257,12 +257,12 @@ fn judging_the_gaps_opens_the_desk_on_the_most_decisive_pair() {
     h.step();
     step_until(&mut h, "the desk with the first gap", |h| {
         let wb = h.state();
-        wb.screen == ScreenName::Desk && wb.desk.data.is_some() && wb.desk.current.is_some()
+        wb.screen == ScreenName::Desk && wb.desk.data().is_some() && wb.desk.current().is_some()
     });
     let wb = h.state();
     assert_eq!(wb.reviewer.as_deref(), Some("rev-birch"));
-    let data = wb.desk.data.as_ref().unwrap();
-    let (c, i) = data.queue[wb.desk.current.unwrap()];
+    let data = wb.desk.data().unwrap();
+    let (c, i) = data.queue[wb.desk.current().unwrap()];
     assert_eq!(
         (
             data.contexts[c as usize].id.clone(),

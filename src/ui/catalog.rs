@@ -134,6 +134,17 @@ type Progress = Arc<Mutex<(f32, String)>>;
 /// The import running on its thread: per-file reports, or every problem found.
 type ImportJob = Pending<Result<Vec<FileReport>, Vec<ImportProblem>>>;
 
+impl<M> super::jobs::JobOutput for Result<M, Vec<ImportProblem>> {
+    fn from_failure(message: String) -> Self {
+        Err(vec![ImportProblem {
+            file: String::new(),
+            line: String::new(),
+            column: String::new(),
+            message,
+        }])
+    }
+}
+
 fn run_import(
     path: &Path,
     files: [Option<PathBuf>; 5],

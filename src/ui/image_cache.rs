@@ -1,17 +1,30 @@
-//! Item images: resolved inside the catalog folder, decoded and scaled on a worker
-//! thread under size limits, uploaded as textures and kept in a bounded cache.
+//! Item images: resolved inside the catalog folder, decoded and scaled on a small pool
+//! of worker threads under size and time limits, uploaded as textures and kept in a
+//! bounded cache. Only regular files are read (a FIFO named `x.png` would block a
+//! decoder for good); a decode that takes longer than `DECODE_TIME_LIMIT` is given up
+//! and a fresh worker takes the stuck one's place.
 //!
 //! `ui()` code only calls [`ImageCache::request`] and [`ImageCache::get`]; both are
 //! hash-map look-ups. Decoding never happens on the UI thread.
 
 use std::collections::{HashMap, VecDeque};
+use std::io::Read;
 use std::path::{Component, Path, PathBuf};
 use std::sync::mpsc::{Receiver, Sender, channel};
+use std::sync::{Arc, Mutex, PoisonError};
+use std::time::{Duration, Instant};
 
 /// Largest width or height accepted from an image file.
 pub const MAX_SIDE: u32 = 8192;
 /// Largest allocation the decoder may make for one image.
 pub const MAX_ALLOC: u64 = 256 * 1024 * 1024;
+/// Largest image file read.
+pub const MAX_FILE_BYTES: u64 = 64 * 1024 * 1024;
+/// How long one image may take to decode before its card says so and moves on.
+pub const DECODE_TIME_LIMIT: Duration = Duration::from_secs(10);
+/// Decoder threads started at first; more join when one is stuck, up to the maximum.
+pub const DECODERS: usize = 2;
+pub const MAX_DECODERS: usize = 6;
 
 /// What the cache holds for one (image, display size).
 #[derive(Clone)]
@@ -36,8 +49,63 @@ pub struct ImageCache {
     entries: HashMap<Key, Picture>,
     /// Least recently used first.
     order: VecDeque<Key>,
-    requests: Option<Sender<(Key, PathBuf)>>,
-    results: Option<Receiver<Decoded>>,
+    pool: Option<Pool>,
+    /// When each image still loading was asked for (for the time limit).
+    asked: HashMap<Key, Instant>,
+}
+
+type Job = (Key, PathBuf);
+
+/// The decoder threads: they share one queue of requests and one channel of results.
+struct Pool {
+    requests: Sender<Job>,
+    queue: Arc<Mutex<Receiver<Job>>>,
+    results: Receiver<Decoded>,
+    sender: Sender<Decoded>,
+    workers: usize,
+}
+
+impl Pool {
+    fn start(ctx: &egui::Context) -> Pool {
+        let (requests, queue) = channel::<Job>();
+        let (sender, results) = channel();
+        let mut pool = Pool {
+            requests,
+            queue: Arc::new(Mutex::new(queue)),
+            results,
+            sender,
+            workers: 0,
+        };
+        for _ in 0..DECODERS {
+            pool.add_worker(ctx);
+        }
+        pool
+    }
+
+    fn add_worker(&mut self, ctx: &egui::Context) {
+        if self.workers >= MAX_DECODERS {
+            return;
+        }
+        let queue = Arc::clone(&self.queue);
+        let sender = self.sender.clone();
+        let ctx = ctx.clone();
+        let started = std::thread::Builder::new()
+            .name(format!("image-decoder-{}", self.workers + 1))
+            .spawn(move || {
+                loop {
+                    let job = queue.lock().unwrap_or_else(PoisonError::into_inner).recv();
+                    let Ok((key, path)) = job else { break };
+                    let result = decode_scaled(&path, key.1);
+                    if sender.send(Decoded { key, result }).is_err() {
+                        break;
+                    }
+                    ctx.request_repaint();
+                }
+            });
+        if started.is_ok() {
+            self.workers += 1;
+        }
+    }
 }
 
 impl ImageCache {
@@ -48,8 +116,8 @@ impl ImageCache {
             capacity: capacity.max(8),
             entries: HashMap::new(),
             order: VecDeque::new(),
-            requests: None,
-            results: None,
+            pool: None,
+            asked: HashMap::new(),
         }
     }
 
@@ -61,34 +129,13 @@ impl ImageCache {
         self.entries.is_empty()
     }
 
-    fn worker(&mut self, ctx: &egui::Context) -> &Sender<(Key, PathBuf)> {
-        if self.requests.is_none() {
-            let (req_tx, req_rx) = channel::<(Key, PathBuf)>();
-            let (res_tx, res_rx) = channel();
-            let ctx = ctx.clone();
-            std::thread::Builder::new()
-                .name("image-decoder".into())
-                .spawn(move || {
-                    while let Ok((key, path)) = req_rx.recv() {
-                        let result = decode_scaled(&path, key.1);
-                        if res_tx.send(Decoded { key, result }).is_err() {
-                            break;
-                        }
-                        ctx.request_repaint();
-                    }
-                })
-                .expect("the image decoder thread starts");
-            self.requests = Some(req_tx);
-            self.results = Some(res_rx);
-        }
-        self.requests.as_ref().expect("set above")
-    }
-
-    /// Takes decoded images from the worker and turns them into textures. Cheap.
+    /// Takes decoded images from the workers and turns them into textures; gives up on
+    /// images past the time limit. Cheap.
     pub fn collect(&mut self, ctx: &egui::Context) {
-        let Some(results) = &self.results else { return };
-        let arrived: Vec<Decoded> = results.try_iter().collect();
+        let Some(pool) = &mut self.pool else { return };
+        let arrived: Vec<Decoded> = pool.results.try_iter().collect();
         for d in arrived {
+            self.asked.remove(&d.key);
             if !self.entries.contains_key(&d.key) {
                 continue; // evicted while decoding
             }
@@ -101,6 +148,30 @@ impl ImageCache {
                 Err(why) => Picture::Missing(why),
             };
             self.entries.insert(d.key, picture);
+        }
+        let now = Instant::now();
+        let late: Vec<Key> = self
+            .asked
+            .iter()
+            .filter(|(_, at)| now.duration_since(**at) >= DECODE_TIME_LIMIT)
+            .map(|(k, _)| k.clone())
+            .collect();
+        for key in late {
+            self.asked.remove(&key);
+            if self.entries.contains_key(&key) {
+                self.entries.insert(
+                    key,
+                    Picture::Missing(format!(
+                        "the image took longer than {} s to read; skipped",
+                        DECODE_TIME_LIMIT.as_secs()
+                    )),
+                );
+            }
+            // Its worker may be stuck for good: let a fresh one take its place.
+            pool.add_worker(ctx);
+        }
+        if let Some(first) = self.asked.values().min() {
+            ctx.request_repaint_after((*first + DECODE_TIME_LIMIT).saturating_duration_since(now));
         }
     }
 
@@ -117,7 +188,9 @@ impl ImageCache {
             Some(root) => match resolve(root, relative) {
                 Err(why) => Picture::Missing(why),
                 Ok(path) => {
-                    let _ = self.worker(ctx).send((key.clone(), path));
+                    let pool = self.pool.get_or_insert_with(|| Pool::start(ctx));
+                    let _ = pool.requests.send((key.clone(), path));
+                    self.asked.insert(key.clone(), Instant::now());
                     Picture::Loading
                 }
             },
@@ -175,13 +248,33 @@ pub fn resolve(root: &Path, relative: &str) -> Result<PathBuf, String> {
             "image path {relative} leaves the catalog folder; refused"
         ));
     }
+    if !std::fs::metadata(&real).is_ok_and(|m| m.is_file()) {
+        return Err(format!("image {relative} is not a regular file; refused"));
+    }
     Ok(real)
 }
 
 /// Decodes under the limits and scales down to fit `size` × `size` pixels.
 pub fn decode_scaled(path: &Path, size: u32) -> Result<egui::ColorImage, String> {
-    let mut reader = image::ImageReader::open(path)
-        .map_err(|e| format!("image cannot be opened: {e}"))?
+    // Checked again right before opening: `open` itself blocks on a FIFO.
+    if !std::fs::metadata(path).is_ok_and(|m| m.is_file()) {
+        return Err("image is not a regular file; refused".into());
+    }
+    let file = std::fs::File::open(path).map_err(|e| format!("image cannot be opened: {e}"))?;
+    if !file.metadata().is_ok_and(|m| m.is_file()) {
+        return Err("image is not a regular file; refused".into());
+    }
+    let mut bytes = Vec::new();
+    file.take(MAX_FILE_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .map_err(|e| format!("image cannot be read: {e}"))?;
+    if bytes.len() as u64 > MAX_FILE_BYTES {
+        return Err(format!(
+            "image file too large (over {} MiB)",
+            MAX_FILE_BYTES >> 20
+        ));
+    }
+    let mut reader = image::ImageReader::new(std::io::Cursor::new(bytes))
         .with_guessed_format()
         .map_err(|e| format!("image cannot be read: {e}"))?;
     let mut limits = image::Limits::default();
@@ -284,6 +377,30 @@ mod tests {
                 .contains("missing")
         );
         assert!(resolve(&root, "").unwrap_err().contains("no image"));
+    }
+
+    /// Promise: a FIFO named like a picture never blocks a decoder (it would wait for a
+    /// writer for good); it is refused before anything opens it.
+    #[test]
+    fn a_fifo_named_png_is_refused_without_blocking() {
+        let dir = tempfile::tempdir().unwrap();
+        let fifo = dir.path().join("x.png");
+        let made = std::process::Command::new("mkfifo")
+            .arg(&fifo)
+            .status()
+            .unwrap();
+        assert!(made.success());
+        let err = resolve(dir.path(), "x.png").unwrap_err();
+        assert!(err.contains("not a regular file"), "{err}");
+        let (done, finished) = channel();
+        let path = fifo.clone();
+        std::thread::spawn(move || {
+            let _ = done.send(decode_scaled(&path, 64));
+        });
+        let result = finished
+            .recv_timeout(Duration::from_secs(10))
+            .expect("decode_scaled returned instead of blocking on the FIFO");
+        assert!(result.unwrap_err().contains("not a regular file"));
     }
 
     /// A PNG signature and an IHDR chunk declaring the given size (8-bit RGB), with its CRC.

@@ -12,6 +12,12 @@ use crate::study::merge::MergeReport;
 /// One file's outcome: what came (or would come) in, or why it was refused.
 pub type MergeOutcome = (PathBuf, Result<MergeReport, String>);
 
+impl super::jobs::JobOutput for Vec<MergeOutcome> {
+    fn from_failure(message: String) -> Self {
+        vec![(PathBuf::new(), Err(message))]
+    }
+}
+
 #[derive(Default)]
 pub struct MergePanel {
     /// Paths, one per line (typed, or filled in by the dialog).

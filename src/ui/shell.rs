@@ -5,7 +5,7 @@ use std::path::{Path, PathBuf};
 
 use super::agreement::AgreementScreen;
 use super::catalog::Catalog;
-use super::desk::Desk;
+use super::desk::{Desk, SaveState};
 use super::home::{self, HomeModel};
 use super::jobs::Pending;
 use super::scales::ScalesScreen;
@@ -104,7 +104,7 @@ impl Workbench {
     }
 
     fn switch_study(&mut self, path: PathBuf) {
-        if self.desk.save_status().is_err() {
+        if self.desk.has_unsaved() {
             return; // a grade is waiting to be saved; keep this study until it is
         }
         let screen = self.screen;
@@ -161,7 +161,7 @@ impl Workbench {
             if self.screen == ScreenName::Desk
                 && let Some(r) = self.reviewer.clone()
                 && !self.desk.is_loading()
-                && self.desk.save_status().is_ok()
+                && !self.desk.has_unsaved()
             {
                 self.desk.start_loading(ctx, &self.path, &r, None);
             }
@@ -212,7 +212,7 @@ impl Workbench {
                 let signed_in = self.reviewer.clone();
                 let action = self.scoreboard.ui(ui, &self.path, signed_in.as_deref());
                 if let Some(ScoreboardAction::OpenDesk(r)) = action
-                    && self.desk.save_status().is_ok()
+                    && !self.desk.has_unsaved()
                 {
                     self.sign_in(&ui.ctx().clone(), &r);
                     self.screen = ScreenName::Desk;
@@ -273,7 +273,7 @@ impl Workbench {
             match self.reviewer.clone() {
                 Some(r) => {
                     ui.label(format!("Signed in: {r}"));
-                    if ui.button("Switch reviewer").clicked() && self.desk.save_status().is_ok() {
+                    if ui.button("Switch reviewer").clicked() && !self.desk.has_unsaved() {
                         self.reviewer = None;
                         self.desk = Desk::default();
                         self.sign_in.reset();
@@ -288,15 +288,21 @@ impl Workbench {
             }
             ui.with_layout(
                 egui::Layout::right_to_left(egui::Align::Center),
-                |ui| match self.desk.save_status() {
-                    Ok(()) => {
+                |ui| match self.desk.save_state() {
+                    SaveState::AllSaved => {
                         ui.label(
                             egui::RichText::new("All grades saved")
                                 .color(egui::Color32::from_rgb(0x3c, 0x9a, 0x5f)),
                         );
                     }
-                    Err(e) => {
-                        ui.colored_label(ui.visuals().error_fg_color, format!("Not saved: {e}"));
+                    SaveState::Saving => {
+                        ui.label("Saving…");
+                    }
+                    SaveState::Waiting(e) => {
+                        ui.colored_label(
+                            ui.visuals().error_fg_color,
+                            format!("Not saved yet: {e}"),
+                        );
                     }
                 },
             );

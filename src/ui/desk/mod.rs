@@ -1,65 +1,32 @@
 //! Grading desk: one pair at a time, blind, one key per grade.
 //!
 //! The desk's data (queue, marks, cards) is loaded on a thread together with a write
-//! handle on the study. Committing a grade is the one piece of SQL on the UI thread by
-//! design: a single small transaction that must finish before the next card shows. A
-//! failed write keeps the card on screen, is shown on the save indicator and retried.
+//! handle on the study, which then moves to the desk's writer thread (`writer`). The
+//! window never writes: it hands each grade to the writer and shows the next card when
+//! the grade is acknowledged, drawing "waiting to save…" meanwhile. Key presses are
+//! taken one by one, in order (`state`), so no press is merged with another.
 //!
 //! Blindness: nothing here knows rankers, ranks or scores, and other reviewers' grades
 //! are never loaded; the queue order is a seeded shuffle (see `study::queues`).
+
+pub mod state;
+pub mod writer;
 
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
 use super::image_cache::{self, ImageCache};
 use super::jobs::Pending;
-use crate::core::scale::Scale;
 use crate::study::Study;
-use crate::study::grades::{GradeAction, NewGrade};
-use crate::study::queues::{ContextCard, ItemCard, Mark};
+use crate::study::queues::ItemCard;
+pub use state::{DeskData, DeskState, KeyRole, Press, REASON_IMAGE, REASON_QUERY};
+use writer::{GradeWriter, WriterEvent};
 
-/// Seconds between retries of a failed write.
-const RETRY_SECONDS: f64 = 2.0;
 /// How many upcoming cards have their images decoded ahead.
 const PREFETCH: usize = 3;
 /// Pixel sizes the desk asks for.
 const ITEM_SIDE: u32 = 360;
 const ANCHOR_SIDE: u32 = 240;
-
-pub const REASON_IMAGE: &str = "image missing";
-pub const REASON_QUERY: &str = "unclear query";
-
-/// The desk's view of one reviewer's queue on one scale.
-pub struct DeskData {
-    pub reviewer: String,
-    pub scale: Scale,
-    pub scale_names: Vec<String>,
-    /// (context index, item index) per queue position.
-    pub queue: Vec<(u32, u32)>,
-    /// None = not graded yet; Some(mark) = the reviewer's current mark.
-    pub marks: Vec<Option<Mark>>,
-    pub items: Vec<ItemCard>,
-    pub contexts: Vec<ContextCard>,
-    pub item_index: HashMap<String, u32>,
-    pub catalog_dir: Option<PathBuf>,
-    /// Grades and seconds before this session, for the pace.
-    pub past_grades: u64,
-    pub past_seconds: f64,
-}
-
-impl DeskData {
-    pub fn done(&self) -> usize {
-        self.marks.iter().filter(|m| m.is_some()).count()
-    }
-
-    /// The first ungraded position at or after `from`, wrapping around.
-    pub fn next_open(&self, from: usize) -> Option<usize> {
-        let n = self.queue.len();
-        (0..n)
-            .map(|k| (from + k) % n)
-            .find(|&p| self.marks[p].is_none())
-    }
-}
 
 /// Loads the desk for `reviewer`; `scale` (when given) becomes the active scale.
 /// Runs on a job thread; returns the write handle with the data.
@@ -157,41 +124,24 @@ pub fn active_scale(study: &Study, snapshot: &crate::study::snapshot::Snapshot) 
         .unwrap_or(0)
 }
 
-/// A write that has not been committed yet.
-struct Unsaved {
-    position: usize,
-    grade: NewGrade,
-    error: String,
-    next_try: f64,
+/// Whether every grade given is in the study.
+#[derive(Debug, Clone, PartialEq)]
+pub enum SaveState {
+    AllSaved,
+    /// A grade is with the writer (normally for a few milliseconds).
+    Saving,
+    /// The writer could not save yet and keeps trying; the reason.
+    Waiting(String),
 }
 
-#[derive(Default)]
-struct CantJudgeForm {
-    other: String,
-    focus_other: bool,
-}
-
-/// The desk's state between frames.
+/// The desk between frames.
 pub struct Desk {
-    pub data: Option<DeskData>,
-    study: Option<Study>,
+    state: Option<DeskState>,
+    writer: Option<GradeWriter>,
     loading: Option<Pending<Result<(DeskData, Study), String>>>,
     pub load_error: Option<String>,
-    /// Queue position of the card on screen.
-    pub current: Option<usize>,
-    shown_for: f64,
     last_time: Option<f64>,
     was_focused: bool,
-    /// Positions graded this session, newest last (for undo).
-    undo_stack: Vec<usize>,
-    /// Positions left by skip or grade, newest last (for back).
-    trail: Vec<usize>,
-    note: String,
-    focus_note: bool,
-    cant_judge: Option<CantJudgeForm>,
-    unsaved: Option<Unsaved>,
-    session_grades: u64,
-    session_seconds: f64,
     images: ImageCache,
     /// A scale the reviewer picked; the workbench reloads the desk with it.
     pub pending_scale: Option<String>,
@@ -200,22 +150,12 @@ pub struct Desk {
 impl Default for Desk {
     fn default() -> Self {
         Desk {
-            data: None,
-            study: None,
+            state: None,
+            writer: None,
             loading: None,
             load_error: None,
-            current: None,
-            shown_for: 0.0,
             last_time: None,
             was_focused: true,
-            undo_stack: Vec::new(),
-            trail: Vec::new(),
-            note: String::new(),
-            focus_note: false,
-            cant_judge: None,
-            unsaved: None,
-            session_grades: 0,
-            session_seconds: 0.0,
             images: ImageCache::new(None, 64),
             pending_scale: None,
         }
@@ -224,7 +164,7 @@ impl Default for Desk {
 
 impl Desk {
     /// Starts loading for a reviewer (and optionally another scale); the old card stays
-    /// drawn until the new data arrives. A pending unsaved grade blocks reloading.
+    /// drawn until the new data arrives. A grade not yet saved blocks reloading.
     pub fn start_loading(
         &mut self,
         ctx: &egui::Context,
@@ -232,32 +172,59 @@ impl Desk {
         reviewer: &str,
         scale: Option<String>,
     ) {
-        if self.unsaved.is_some() {
+        if self.has_unsaved() {
             return;
         }
         let path = path.to_path_buf();
         let reviewer = reviewer.to_string();
-        self.loading = Some(Pending::spawn(ctx, move || load(&path, &reviewer, scale)));
+        self.loading = Some(Pending::spawn_named("desk-load", ctx, move || {
+            load(&path, &reviewer, scale)
+        }));
     }
 
     pub fn is_loading(&self) -> bool {
         self.loading.is_some()
     }
 
-    /// "all grades saved", or the error of the write waiting to be retried.
+    /// The loaded queue and marks, once loaded.
+    pub fn data(&self) -> Option<&DeskData> {
+        self.state.as_ref().map(|s| &s.data)
+    }
+
+    /// Queue position of the card on screen.
+    pub fn current(&self) -> Option<usize> {
+        self.state.as_ref().and_then(|s| s.current)
+    }
+
+    /// True while a grade (or a press waiting behind it) is not yet in the study.
+    pub fn has_unsaved(&self) -> bool {
+        self.state
+            .as_ref()
+            .is_some_and(|s| s.in_flight.is_some() || !s.presses.is_empty())
+    }
+
+    pub fn save_state(&self) -> SaveState {
+        match self.state.as_ref().and_then(|s| s.in_flight.as_ref()) {
+            None => SaveState::AllSaved,
+            Some(f) => match &f.error {
+                None => SaveState::Saving,
+                Some(e) => SaveState::Waiting(e.clone()),
+            },
+        }
+    }
+
+    /// "all grades saved" (Ok), or the error of the grade the writer keeps retrying.
     pub fn save_status(&self) -> Result<(), String> {
-        match &self.unsaved {
-            None => Ok(()),
-            Some(u) => Err(u.error.clone()),
+        match self.save_state() {
+            SaveState::Waiting(e) => Err(e),
+            _ if self.has_unsaved() => Err("saving…".into()),
+            _ => Ok(()),
         }
     }
 
     /// Grades per hour over this reviewer's recorded time on the scale.
     pub fn pace_per_hour(&self) -> Option<f64> {
-        let data = self.data.as_ref()?;
-        let grades = data.past_grades + self.session_grades;
-        let seconds = data.past_seconds + self.session_seconds;
-        (grades > 0 && seconds > 0.0).then(|| grades as f64 * 3600.0 / seconds)
+        self.state.as_ref().and_then(DeskState::pace_per_hour)
     }
 
     fn collect(&mut self, ctx: &egui::Context) {
@@ -265,29 +232,36 @@ impl Desk {
             self.loading = None;
             match result {
                 Ok((data, study)) => {
-                    if self.data.as_ref().map(|d| &d.catalog_dir) != Some(&data.catalog_dir) {
+                    if self.data().map(|d| &d.catalog_dir) != Some(&data.catalog_dir) {
                         self.images = ImageCache::new(data.catalog_dir.clone(), 64);
                     }
-                    self.current = data.next_open(0);
-                    self.data = Some(data);
-                    self.study = Some(study);
+                    let wake = ctx.clone();
+                    self.writer = Some(GradeWriter::start(study, move || wake.request_repaint()));
+                    self.state = Some(DeskState::new(data));
                     self.load_error = None;
-                    self.undo_stack.clear();
-                    self.trail.clear();
-                    self.session_grades = 0;
-                    self.session_seconds = 0.0;
-                    self.reset_card();
                 }
                 Err(e) => self.load_error = Some(e),
+            }
+        }
+        if let (Some(writer), Some(state)) = (&self.writer, &mut self.state) {
+            for event in writer.events() {
+                match event {
+                    WriterEvent::Saved { ticket } => state.saved(ticket),
+                    WriterEvent::Failed { ticket, error } => state.failed(ticket, error),
+                }
             }
         }
         self.images.collect(ctx);
     }
 
-    fn reset_card(&mut self) {
-        self.shown_for = 0.0;
-        self.note.clear();
-        self.cant_judge = None;
+    /// Applies waiting presses until one needs the writer, and hands that one over.
+    fn run_presses(&mut self) {
+        let (Some(state), Some(writer)) = (&mut self.state, &self.writer) else {
+            return;
+        };
+        if let Some((ticket, grade)) = state.run() {
+            writer.send(ticket, grade);
+        }
     }
 
     /// Adds the time since the last frame when the window had focus during it.
@@ -295,154 +269,30 @@ impl Desk {
         let (now, focused) = ctx.input(|i| (i.time, i.focused));
         if let Some(last) = self.last_time
             && self.was_focused
+            && let Some(state) = &mut self.state
         {
-            self.shown_for += (now - last).clamp(0.0, 600.0);
+            state.tick(now - last);
         }
         self.last_time = Some(now);
         self.was_focused = focused;
     }
 
-    /// Commits `action` on the pair at `position`; on success moves on, on failure keeps
-    /// the grade to retry.
-    fn commit(&mut self, position: usize, action: GradeAction) {
-        let Some(data) = &self.data else { return };
-        let (c, i) = data.queue[position];
-        let undo = matches!(action, GradeAction::Undo);
-        let seconds = if undo {
-            0.0
-        } else {
-            (self.shown_for * 10.0).round() / 10.0
-        };
-        let grade = NewGrade {
-            reviewer: data.reviewer.clone(),
-            context_id: data.contexts[c as usize].id.clone(),
-            item_id: data.items[i as usize].id.clone(),
-            scale: data.scale.name.clone(),
-            action,
-            seconds,
-            note: if undo {
-                String::new()
-            } else {
-                self.note.trim().to_string()
-            },
-        };
-        self.write(position, grade, 0.0);
-    }
-
-    fn write(&mut self, position: usize, grade: NewGrade, now: f64) {
-        let Some(study) = self.study.as_mut() else {
-            self.unsaved = Some(Unsaved {
-                position,
-                grade,
-                error: "the study is not open for writing".into(),
-                next_try: now + RETRY_SECONDS,
-            });
-            return;
-        };
-        match study.record_grade(&grade) {
-            Ok(_) => {
-                self.unsaved = None;
-                self.applied(position, &grade);
-            }
-            Err(e) => {
-                self.unsaved = Some(Unsaved {
-                    position,
-                    grade,
-                    error: format!("grade not saved yet, retrying: {e}"),
-                    next_try: now + RETRY_SECONDS,
-                });
-            }
+    fn push(&mut self, press: Press) {
+        if let Some(state) = &mut self.state {
+            state.push(press);
         }
     }
 
-    /// Brings the screen in step with a committed write.
-    fn applied(&mut self, position: usize, grade: &NewGrade) {
-        let Some(data) = self.data.as_mut() else {
-            return;
-        };
-        match &grade.action {
-            GradeAction::Undo => {
-                data.marks[position] = None;
-                self.current = Some(position);
-            }
-            action => {
-                data.marks[position] = Some(match action {
-                    GradeAction::Grade(v) => Some(*v),
-                    _ => None,
-                });
-                self.session_grades += 1;
-                self.session_seconds += grade.seconds;
-                self.undo_stack.push(position);
-                self.trail.push(position);
-                self.current = data.next_open(position + 1);
-            }
-        }
-        self.reset_card();
-    }
-
-    fn retry(&mut self, now: f64) {
-        if let Some(u) = self.unsaved.take() {
-            if now >= u.next_try {
-                self.write(u.position, u.grade, now);
-            } else {
-                self.unsaved = Some(u);
-            }
-        }
-    }
-
-    fn grade(&mut self, value: u8) {
-        if let Some(p) = self.current {
-            self.commit(p, GradeAction::Grade(value));
-        }
-    }
-
-    fn cant_judge_with(&mut self, reason: String) {
-        if let Some(p) = self.current {
-            self.commit(p, GradeAction::CantJudge { reason });
-        }
-    }
-
-    fn skip(&mut self) {
-        let (Some(p), Some(data)) = (self.current, &self.data) else {
-            return;
-        };
-        let next = data.next_open(p + 1).filter(|&n| n != p);
-        if let Some(n) = next {
-            self.trail.push(p);
-            self.current = Some(n);
-            self.reset_card();
-        }
-    }
-
-    fn back(&mut self) {
-        if let Some(p) = self.trail.pop() {
-            self.current = Some(p);
-            self.reset_card();
-        }
-    }
-
-    fn undo(&mut self) {
-        if let Some(p) = self.undo_stack.pop() {
-            self.trail.retain(|&t| t != p);
-            self.commit(p, GradeAction::Undo);
-        }
-    }
-
-    /// Draws the desk. `ui()` reads only the loaded data; the one write is the grade.
+    /// Draws the desk. `ui()` reads only the loaded data and never writes.
     pub fn ui(&mut self, ui: &mut egui::Ui) {
         let ctx = ui.ctx().clone();
         self.collect(&ctx);
         self.tick(&ctx);
-        let now = ctx.input(|i| i.time);
-        self.retry(now);
-        if let Some(u) = &self.unsaved {
-            ctx.request_repaint_after_secs((u.next_try - now).max(0.05) as f32);
-        }
         if let Some(e) = &self.load_error {
             ui.colored_label(ui.visuals().error_fg_color, e);
             return;
         }
-        if self.data.is_none() {
+        if self.state.is_none() {
             ui.horizontal(|ui| {
                 ui.spinner();
                 ui.label("Preparing the queue…");
@@ -450,9 +300,10 @@ impl Desk {
             return;
         }
         self.keys(&ctx);
+        self.run_presses();
         self.header(ui);
         ui.separator();
-        if self.data.as_ref().is_some_and(|d| d.queue.is_empty()) {
+        if self.data().is_some_and(|d| d.queue.is_empty()) {
             ui.add_space(24.0);
             ui.heading("Nothing to grade yet");
             ui.label(
@@ -460,20 +311,26 @@ impl Desk {
             );
             return;
         }
-        let Some(position) = self.current else {
+        let Some(position) = self.current() else {
             ui.add_space(24.0);
             ui.heading("Queue complete");
             ui.label("Every pair in your queue on this scale has a grade. Thank you!");
             ui.label("Undo (Ctrl+Z) brings back the last pair you graded in this session.");
             let undo = egui::Button::new("Undo last grade").shortcut_text("Ctrl+Z");
-            if ui.add_enabled(!self.undo_stack.is_empty(), undo).clicked() {
-                self.undo();
+            let can_undo = self
+                .state
+                .as_ref()
+                .is_some_and(|s| !s.undo_stack.is_empty() && s.in_flight.is_none());
+            if ui.add_enabled(can_undo, undo).clicked() {
+                self.push(Press::Undo);
+                self.run_presses();
             }
             return;
         };
         egui::Panel::bottom("desk_controls")
             .resizable(false)
             .show(ui, |ui| self.controls(ui, position));
+        self.run_presses();
         egui::CentralPanel::default_margins().show(ui, |ui| {
             egui::ScrollArea::vertical()
                 .auto_shrink([false, false])
@@ -484,67 +341,57 @@ impl Desk {
         ctx.request_repaint_after_secs(1.0);
     }
 
+    /// Takes the desk's key presses out of this frame's events, one by one, in order.
     fn keys(&mut self, ctx: &egui::Context) {
-        use egui::{Key, Modifiers};
-        if self.unsaved.is_some() {
-            return; // nothing moves until the waiting grade is saved
-        }
-        if ctx.input_mut(|i| i.consume_key(Modifiers::COMMAND, Key::Z)) {
-            self.undo();
-            return;
-        }
-        if ctx.egui_wants_keyboard_input() {
-            return;
-        }
-        let pressed = |key: Key| ctx.input_mut(|i| i.consume_key(Modifiers::NONE, key));
-        if self.cant_judge.is_some() {
-            if pressed(Key::I) {
-                self.cant_judge_with(REASON_IMAGE.into());
-            } else if pressed(Key::Q) {
-                self.cant_judge_with(REASON_QUERY.into());
-            } else if pressed(Key::O) {
-                if let Some(f) = &mut self.cant_judge {
-                    f.focus_other = true;
-                }
-            } else if pressed(Key::Escape) {
-                self.cant_judge = None;
-            }
-            return;
-        }
-        let levels: Vec<(u8, Option<Key>)> = self
+        use egui::{Event, Key};
+        let Some(state) = &self.state else { return };
+        let levels: HashMap<Key, u8> = state
             .data
-            .as_ref()
-            .map(|d| {
-                d.scale
-                    .levels
-                    .iter()
-                    .map(|l| (l.value, level_key(&l.key, l.value)))
-                    .collect()
-            })
-            .unwrap_or_default();
-        for (value, key) in levels {
-            if let Some(key) = key
-                && pressed(key)
-            {
-                self.grade(value);
-                return;
-            }
-        }
-        if pressed(Key::C) {
-            self.cant_judge = Some(CantJudgeForm::default());
-        } else if pressed(Key::S) || pressed(Key::ArrowRight) {
-            self.skip();
-        } else if pressed(Key::B) || pressed(Key::ArrowLeft) {
-            self.back();
-        } else if pressed(Key::Backspace) {
-            self.undo();
-        } else if pressed(Key::N) {
-            self.focus_note = true;
+            .scale
+            .levels
+            .iter()
+            .filter_map(|l| level_key(&l.key, l.value).map(|k| (k, l.value)))
+            .collect();
+        let typing = ctx.egui_wants_keyboard_input();
+        let mut presses = Vec::new();
+        ctx.input_mut(|i| {
+            i.events.retain(|event| {
+                let Event::Key {
+                    key,
+                    pressed: true,
+                    repeat,
+                    modifiers,
+                    ..
+                } = event
+                else {
+                    return true;
+                };
+                if modifiers.command && !modifiers.alt && *key == Key::Z {
+                    presses.push(Press::UndoChord);
+                    return false;
+                }
+                if typing || modifiers.command || modifiers.ctrl || modifiers.alt {
+                    return true;
+                }
+                if *repeat {
+                    // A held key must not grade card after card.
+                    return !(levels.contains_key(key) || key_role(*key) != KeyRole::None);
+                }
+                let level = levels.get(key).copied();
+                let role = key_role(*key);
+                if level.is_none() && role == KeyRole::None {
+                    return true;
+                }
+                presses.push(Press::Key { level, role });
+                false
+            });
+        });
+        for press in presses {
+            self.push(press);
         }
     }
-
     fn header(&mut self, ui: &mut egui::Ui) {
-        let Some(data) = &self.data else { return };
+        let Some(data) = self.data() else { return };
         let done = data.done();
         let total = data.queue.len();
         let pace = self.pace_per_hour();
@@ -590,7 +437,9 @@ impl Desk {
 impl Desk {
     /// The context on the left, the candidate item on the right.
     fn card(&mut self, ui: &mut egui::Ui, ctx: &egui::Context, position: usize) {
-        let Some(data) = &self.data else { return };
+        let Some(data) = self.state.as_ref().map(|s| &s.data) else {
+            return;
+        };
         let (c, i) = data.queue[position];
         let context = &data.contexts[c as usize];
         let item = &data.items[i as usize];
@@ -647,12 +496,27 @@ impl Desk {
     }
 
     fn controls(&mut self, ui: &mut egui::Ui, position: usize) {
-        let Some(data) = &self.data else { return };
+        let Some(state) = &mut self.state else { return };
+        let data = &state.data;
         let mark = data.marks[position];
         let levels = data.scale.levels.clone();
-        let saving_blocked = self.unsaved.is_some();
+        let waiting = state.in_flight.is_some();
         ui.add_space(6.0);
-        if let Some(m) = mark {
+        if let Some(flight) = &state.in_flight {
+            let queued = state.presses.len();
+            let more = if queued > 0 {
+                format!(" ({queued} more key presses wait their turn)")
+            } else {
+                String::new()
+            };
+            match &flight.error {
+                None => ui.label(format!("Saving…{more}")),
+                Some(e) => ui.colored_label(
+                    ui.visuals().warn_fg_color,
+                    format!("Waiting to save: {e}{more}"),
+                ),
+            };
+        } else if let Some(m) = mark {
             let text = match m {
                 Some(v) => format!(
                     "Your grade now: {}. Press a level to change it.",
@@ -662,7 +526,7 @@ impl Desk {
             };
             ui.label(text);
         }
-        let mut chosen = None;
+        let mut chosen: Option<Press> = None;
         ui.horizontal_wrapped(|ui| {
             let width = ((ui.available_width() - 8.0 * levels.len() as f32)
                 / levels.len().max(1) as f32)
@@ -682,131 +546,113 @@ impl Desk {
                     if let Some(colour) = parse_colour(&level.colour) {
                         button = button.stroke(egui::Stroke::new(2.0, colour));
                     }
-                    if ui.add_enabled(!saving_blocked, button).clicked() {
-                        chosen = Some(level.value);
+                    if ui.add_enabled(!waiting, button).clicked() {
+                        chosen = Some(Press::Grade(level.value));
                     }
                     ui.add(egui::Label::new(egui::RichText::new(&level.rubric).size(12.5)).wrap());
                 });
             }
         });
-        if let Some(v) = chosen {
-            self.grade(v);
-            return;
-        }
         ui.add_space(4.0);
-        let mut action: Option<fn(&mut Desk)> = None;
+        let (can_back, can_undo) = (!state.trail.is_empty(), !state.undo_stack.is_empty());
         ui.horizontal_wrapped(|ui| {
-            if ui
-                .add_enabled(
-                    !saving_blocked,
-                    egui::Button::new("Can't judge…").shortcut_text("C"),
-                )
-                .clicked()
-            {
-                self.cant_judge = Some(CantJudgeForm::default());
-            }
-            if ui
-                .add_enabled(
-                    !saving_blocked,
-                    egui::Button::new("Skip").shortcut_text("S / Right"),
-                )
-                .clicked()
-            {
-                action = Some(Desk::skip);
-            }
-            if ui
-                .add_enabled(
-                    !saving_blocked && !self.trail.is_empty(),
-                    egui::Button::new("Back").shortcut_text("B / Left"),
-                )
-                .clicked()
-            {
-                action = Some(Desk::back);
-            }
-            if ui
-                .add_enabled(
-                    !saving_blocked && !self.undo_stack.is_empty(),
-                    egui::Button::new("Undo").shortcut_text("Ctrl+Z / Backspace"),
-                )
-                .clicked()
-            {
-                action = Some(Desk::undo);
-            }
+            let mut button =
+                |ui: &mut egui::Ui, enabled: bool, text: &str, keys: &str, press: Press| {
+                    if ui
+                        .add_enabled(
+                            enabled && !waiting,
+                            egui::Button::new(text).shortcut_text(keys),
+                        )
+                        .clicked()
+                    {
+                        chosen = Some(press);
+                    }
+                };
+            button(ui, true, "Can't judge…", "C", Press::OpenCantJudge);
+            button(ui, true, "Skip", "S / Right", Press::Skip);
+            button(ui, can_back, "Back", "B / Left", Press::Back);
+            button(ui, can_undo, "Undo", "Ctrl+Z / Backspace", Press::Undo);
             ui.separator();
             let label = ui.label("Note (N)");
             let note = ui
                 .add(
-                    egui::TextEdit::singleline(&mut self.note)
+                    egui::TextEdit::singleline(&mut state.note)
                         .hint_text("optional, saved with the grade")
                         .desired_width(280.0),
                 )
                 .labelled_by(label.id);
-            if std::mem::take(&mut self.focus_note) {
+            if std::mem::take(&mut state.focus_note) {
                 note.request_focus();
             }
         });
-        if let Some(f) = action {
-            f(self);
-            return;
-        }
-        let mut reason = None;
-        if let Some(form) = &mut self.cant_judge {
+        if state.cant_judge_open {
             egui::Frame::group(ui.style()).show(ui, |ui| {
                 ui.horizontal_wrapped(|ui| {
                     ui.label("Can't judge because:");
                     if ui
-                        .add(egui::Button::new("Image missing").shortcut_text("I"))
+                        .add_enabled(
+                            !waiting,
+                            egui::Button::new("Image missing").shortcut_text("I"),
+                        )
                         .clicked()
                     {
-                        reason = Some(REASON_IMAGE.to_string());
+                        chosen = Some(Press::CantJudge(REASON_IMAGE.to_string()));
                     }
                     if ui
-                        .add(egui::Button::new("Unclear query").shortcut_text("Q"))
+                        .add_enabled(
+                            !waiting,
+                            egui::Button::new("Unclear query").shortcut_text("Q"),
+                        )
                         .clicked()
                     {
-                        reason = Some(REASON_QUERY.to_string());
+                        chosen = Some(Press::CantJudge(REASON_QUERY.to_string()));
                     }
                     let label = ui.label("Other reason (O)");
                     let other = ui
                         .add(
-                            egui::TextEdit::singleline(&mut form.other)
+                            egui::TextEdit::singleline(&mut state.other_reason)
                                 .hint_text("say why, then Enter")
                                 .desired_width(220.0),
                         )
                         .labelled_by(label.id);
-                    if std::mem::take(&mut form.focus_other) {
+                    if std::mem::take(&mut state.focus_other) {
                         other.request_focus();
                     }
                     let enter = other.lost_focus() && ui.input(|i| i.key_pressed(egui::Key::Enter));
-                    let ok = !form.other.trim().is_empty();
+                    let ok = !state.other_reason.trim().is_empty();
                     if (ui
-                        .add_enabled(ok, egui::Button::new("Save reason").shortcut_text("Enter"))
+                        .add_enabled(
+                            ok && !waiting,
+                            egui::Button::new("Save reason").shortcut_text("Enter"),
+                        )
                         .clicked()
                         || enter)
                         && ok
                     {
-                        reason = Some(format!("other: {}", form.other.trim()));
+                        chosen = Some(Press::CantJudge(format!(
+                            "other: {}",
+                            state.other_reason.trim()
+                        )));
                     }
                     if ui
                         .add(egui::Button::new("Cancel").shortcut_text("Esc"))
                         .clicked()
                     {
-                        form.focus_other = false;
-                        reason = Some(String::new());
+                        chosen = Some(Press::CloseCantJudge);
                     }
                 });
             });
         }
-        match reason {
-            Some(r) if r.is_empty() => self.cant_judge = None,
-            Some(r) => self.cant_judge_with(r),
-            None => {}
+        if let Some(press) = chosen {
+            state.push(press);
         }
     }
 
     /// Asks for the images of the next few open cards so they are ready in time.
     fn prefetch(&mut self, ctx: &egui::Context, position: usize) {
-        let Some(data) = &self.data else { return };
+        let Some(data) = self.state.as_ref().map(|s| &s.data) else {
+            return;
+        };
         let n = data.queue.len();
         let mut wanted: Vec<(String, u32)> = Vec::new();
         let mut p = position;
@@ -871,6 +717,23 @@ pub fn new_badge(ui: &mut egui::Ui) -> egui::Response {
         .color(egui::Color32::WHITE)
         .background_color(egui::Color32::from_rgb(0x2f, 0x7d, 0x5b));
     ui.label(text).on_hover_text("No interaction history yet")
+}
+
+/// What a key does on the desk apart from giving a level.
+fn key_role(key: egui::Key) -> KeyRole {
+    use egui::Key;
+    match key {
+        Key::C => KeyRole::CantJudge,
+        Key::S | Key::ArrowRight => KeyRole::Skip,
+        Key::B | Key::ArrowLeft => KeyRole::Back,
+        Key::Backspace => KeyRole::Undo,
+        Key::N => KeyRole::Note,
+        Key::I => KeyRole::ReasonImage,
+        Key::Q => KeyRole::ReasonQuery,
+        Key::O => KeyRole::ReasonOther,
+        Key::Escape => KeyRole::Cancel,
+        _ => KeyRole::None,
+    }
 }
 
 /// The key that gives a level: the scale's key, else the level's digit.

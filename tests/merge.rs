@@ -6,6 +6,7 @@ use common::{Fixture, study_dump};
 use plumbline::analysis::{agreement, scoreboard};
 use plumbline::study::Study;
 use plumbline::study::import::{self, ImportSet, Source};
+use plumbline::study::merge::MergeOptions;
 
 /// A study with the fixture's catalog and only the grade rows that pass `keep`.
 fn study_with(fixture: &Fixture, name: &str, keep: impl Fn(&str) -> bool) -> std::path::PathBuf {
@@ -62,7 +63,11 @@ fn two_halves_merged_equal_the_whole() {
     let half_a = study_with(&fixture, "half_a", |l| l.starts_with("ann,"));
     let half_b = study_with(&fixture, "half_b", |l| !l.starts_with("ann,"));
     let mut merged = Study::open(&half_a).unwrap();
-    let report = merged.merge_from(&half_b).unwrap();
+    // Not a copy this study handed out: the lead names whom to bring in.
+    let bo = MergeOptions {
+        accept: vec!["bo".into()],
+    };
+    let report = merged.merge_with(&half_b, &bo).unwrap();
     assert_eq!(report.grades_added, 3);
     assert_eq!(report.reviewers_added, 1);
     drop(merged);
@@ -74,7 +79,10 @@ fn two_halves_merged_equal_the_whole() {
 
     // Merging the same file again adds nothing.
     let before = study_dump(&half_a);
-    let again = Study::open(&half_a).unwrap().merge_from(&half_b).unwrap();
+    let again = Study::open(&half_a)
+        .unwrap()
+        .merge_with(&half_b, &bo)
+        .unwrap();
     assert_eq!((again.grades_added, again.reviewers_added), (0, 0));
     assert_eq!(study_dump(&half_a), before);
 }
@@ -161,4 +169,325 @@ fn a_reviewer_copy_holds_only_that_reviewers_grades_and_merges_back() {
     drop(offline);
     let report = Study::open(&path).unwrap().merge_from(&copy).unwrap();
     assert_eq!(report.grades_added, 1);
+}
+
+// ---- Reviewer copies are untrusted input ----
+
+/// A lead study and a real hand-out copy for "bo"; returns (fixture, study, copy).
+fn lead_and_copy() -> (Fixture, std::path::PathBuf, std::path::PathBuf) {
+    let fixture = Fixture::new();
+    let (path, study) = fixture.study();
+    let copy = fixture.path("bo-copy.plumb");
+    study.hand_out("bo", &copy).unwrap();
+    drop(study);
+    (fixture, path, copy)
+}
+
+fn tamper(copy: &std::path::Path, sql: &str) {
+    let conn = rusqlite::Connection::open(copy).unwrap();
+    conn.execute_batch(sql).unwrap();
+    conn.pragma_update(None, "journal_mode", "DELETE").unwrap();
+}
+
+fn merge_cli(
+    study: &std::path::Path,
+    copy: &std::path::Path,
+    extra: &[&str],
+) -> std::process::Output {
+    std::process::Command::new(env!("CARGO_BIN_EXE_plumbline"))
+        .arg("merge")
+        .arg(study)
+        .arg(copy)
+        .args(extra)
+        .output()
+        .unwrap()
+}
+
+/// Runs a merge of a tampered copy through the binary and checks the promise: exit 2,
+/// a message containing `why`, the study and the copy byte-identical, within 10 s.
+fn refused_untouched(study: &std::path::Path, copy: &std::path::Path, why: &str) {
+    let study_before = study_dump(study);
+    let copy_before = std::fs::read(copy).unwrap();
+    let started = std::time::Instant::now();
+    let out = merge_cli(study, copy, &[]);
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{stderr}");
+    assert!(stderr.contains(why), "expected {why:?} in: {stderr}");
+    assert!(
+        started.elapsed().as_secs() < 10,
+        "took {:?}",
+        started.elapsed()
+    );
+    assert_eq!(study_dump(study), study_before, "the study changed");
+    assert!(
+        std::fs::read(copy).unwrap() == copy_before,
+        "the copy changed"
+    );
+}
+
+const GRADE: &str = "INSERT INTO grade_events(uid, reviewer, context_id, item_id, scale, action, value, reason, seconds, graded_at, note)";
+
+#[test]
+fn grades_by_a_reviewer_the_copy_was_not_handed_to_are_refused_by_name() {
+    let (_f, study, copy) = lead_and_copy();
+    tamper(
+        &copy,
+        &format!(
+            "INSERT OR IGNORE INTO reviewers VALUES ('ann');
+             {GRADE} VALUES ('x1', 'ann', 'q1', 'i1', 'fit', 'grade', 0, '', 1, '2026-11-30T10:00:00.000Z', ''),
+                    ('x2', 'ann', 'q1', 'i2', 'fit', 'grade', 0, '', 1, '2026-11-30T10:00:01.000Z', '');"
+        ),
+    );
+    refused_untouched(&study, &copy, "ann (2 grade events)");
+    // The lead can still say yes, by name.
+    let out = merge_cli(&study, &copy, &["--accept-reviewer", "ann"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+}
+
+#[test]
+fn a_new_reviewer_in_a_copy_is_refused_by_name() {
+    let (_f, study, copy) = lead_and_copy();
+    tamper(
+        &copy,
+        &format!(
+            "INSERT INTO reviewers VALUES ('mallory');
+             {GRADE} VALUES ('m1', 'mallory', 'q1', 'i1', 'fit', 'grade', 2, '', 1, '2026-11-30T10:00:00.000Z', '');"
+        ),
+    );
+    refused_untouched(&study, &copy, "mallory (1 grade events)");
+}
+
+#[test]
+fn undo_rows_against_another_reviewer_are_refused() {
+    let (_f, study, copy) = lead_and_copy();
+    tamper(
+        &copy,
+        &format!(
+            "INSERT OR IGNORE INTO reviewers VALUES ('ann');
+             {GRADE} VALUES ('u1', 'ann', 'q1', 'i1', 'fit', 'undo', NULL, '', 0, '2026-11-30T10:00:00.000Z', '');"
+        ),
+    );
+    refused_untouched(&study, &copy, "ann (1 grade events)");
+}
+
+#[test]
+fn settled_grades_inside_a_copy_are_refused() {
+    let (_f, study, copy) = lead_and_copy();
+    tamper(
+        &copy,
+        "INSERT INTO settle_events(uid, context_id, item_id, scale, value, method, settled_by, settled_at, reason)
+         VALUES ('s1', 'q1', 'i1', 'fit', 0, 'by hand', 'bo', '2026-11-30T10:00:00.000Z', '');",
+    );
+    refused_untouched(&study, &copy, "bo (1 settled grades)");
+}
+
+#[test]
+fn a_view_in_place_of_the_grade_table_is_refused_by_name() {
+    let (_f, study, copy) = lead_and_copy();
+    tamper(
+        &copy,
+        "DROP TRIGGER grade_events_keep_current; DROP TABLE current_grades; DROP TABLE grade_events;
+         CREATE VIEW grade_events AS WITH RECURSIVE n(x) AS (SELECT 1 UNION ALL SELECT x + 1 FROM n LIMIT 12000)
+           SELECT 'f' || x AS uid, 'bo' AS reviewer, 'q1' AS context_id, 'i1' AS item_id, 'fit' AS scale,
+                  'grade' AS action, 2 AS value, '' AS reason, 1.0 AS seconds,
+                  '2026-11-30T10:00:00.000Z' AS graded_at, '' AS note, x AS id FROM n;",
+    );
+    refused_untouched(
+        &study,
+        &copy,
+        "\"grade_events\" is a view where a study has a table",
+    );
+}
+
+#[test]
+fn views_that_would_exhaust_memory_or_time_are_refused_unread() {
+    for (name, view) in [
+        (
+            "huge",
+            "CREATE VIEW huge AS SELECT randomblob(300000000) AS b;",
+        ),
+        (
+            "endless",
+            "CREATE VIEW endless AS WITH RECURSIVE c(x) AS (SELECT 1 UNION ALL SELECT x + 1 FROM c) SELECT x FROM c;",
+        ),
+    ] {
+        let (_f, study, copy) = lead_and_copy();
+        tamper(&copy, view);
+        refused_untouched(
+            &study,
+            &copy,
+            &format!("view \"{name}\" is not part of a study"),
+        );
+    }
+}
+
+#[test]
+fn values_off_the_scale_or_of_the_wrong_type_are_refused() {
+    for (set, why) in [
+        ("9", "value 9 is not a level of scale \"fit\""),
+        ("-1", "value -1 is not a level"),
+        ("'high'", "value is text"),
+    ] {
+        let (_f, study, copy) = lead_and_copy();
+        tamper(
+            &copy,
+            &format!(
+                "UPDATE grade_events SET value = {set} WHERE id = (SELECT MIN(id) FROM grade_events WHERE action = 'grade');"
+            ),
+        );
+        refused_untouched(&study, &copy, why);
+    }
+}
+
+#[test]
+fn a_damaged_copy_is_refused() {
+    let (_f, study, copy) = lead_and_copy();
+    let (root, page_size): (i64, i64) = {
+        let conn = rusqlite::Connection::open(&copy).unwrap();
+        conn.pragma_update(None, "journal_mode", "DELETE").unwrap();
+        (
+            conn.query_row(
+                "SELECT rootpage FROM sqlite_schema WHERE name = 'grade_events'",
+                [],
+                |r| r.get(0),
+            )
+            .unwrap(),
+            conn.query_row("PRAGMA page_size", [], |r| r.get(0))
+                .unwrap(),
+        )
+    };
+    let mut bytes = std::fs::read(&copy).unwrap();
+    let start = ((root - 1) * page_size) as usize;
+    for b in &mut bytes[start..start + 64] {
+        *b = !*b;
+    }
+    std::fs::write(&copy, &bytes).unwrap();
+    refused_untouched(&study, &copy, "the file is damaged");
+}
+
+#[test]
+fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
+    let (_f, study, copy) = lead_and_copy();
+    {
+        // Put the copy back at schema 1 (the first trigger), as an older build wrote it.
+        let v1 = plumbline::study::schema::MIGRATIONS[0];
+        let start = v1.find("CREATE TRIGGER grade_events_keep_current").unwrap();
+        let end = v1[start..].find("END;").unwrap() + start + 4;
+        tamper(
+            &copy,
+            &format!(
+                "DROP TRIGGER grade_events_keep_current; {}
+                 PRAGMA user_version = 1;
+                 {GRADE} VALUES ('b9', 'bo', 'q2', 'i1', 'fit', 'grade', 1, '', 2, '2026-11-30T10:00:00.000Z', '');",
+                &v1[start..end]
+            ),
+        );
+    }
+    let before = std::fs::read(&copy).unwrap();
+    let out = merge_cli(&study, &copy, &[]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(
+        std::fs::read(&copy).unwrap() == before,
+        "the copy was migrated in place"
+    );
+    let conn = rusqlite::Connection::open(&study).unwrap();
+    let n: i64 = conn
+        .query_row(
+            "SELECT COUNT(*) FROM grade_events WHERE uid = 'b9'",
+            [],
+            |r| r.get(0),
+        )
+        .unwrap();
+    assert_eq!(n, 1);
+}
+
+#[test]
+fn a_copy_in_rollback_journal_mode_keeps_its_bytes() {
+    let (_f, study, copy) = lead_and_copy();
+    tamper(
+        &copy,
+        &format!(
+            "{GRADE} VALUES ('b8', 'bo', 'q2', 'i1', 'fit', 'grade', 1, '', 2, '2026-11-30T10:00:00.000Z', '');"
+        ),
+    );
+    let before = std::fs::read(&copy).unwrap();
+    let out = merge_cli(&study, &copy, &[]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(
+        std::fs::read(&copy).unwrap() == before,
+        "merging wrote to its input"
+    );
+}
+
+/// Promise: a hand-out copy carries the pictures its reviewer needs and finds them
+/// wherever it is moved with them.
+#[test]
+fn a_moved_hand_out_copy_finds_its_pictures() {
+    let fixture = Fixture::new();
+    std::fs::create_dir_all(fixture.path("images")).unwrap();
+    std::fs::write(fixture.path("images/i1.png"), b"picture bytes").unwrap();
+    let (_path, study) = fixture.study();
+    let copy = fixture.path("bo-copy.plumb");
+    study.hand_out("bo", &copy).unwrap();
+    drop(study);
+    let elsewhere = tempfile::tempdir().unwrap();
+    let moved = elsewhere.path().join("bo-copy.plumb");
+    std::fs::rename(&copy, &moved).unwrap();
+    std::fs::rename(
+        fixture.path("bo-copy-pictures"),
+        elsewhere.path().join("bo-copy-pictures"),
+    )
+    .unwrap();
+    let opened = Study::open(&moved).unwrap();
+    let folder = opened.catalog_dir().unwrap().unwrap();
+    assert!(folder.starts_with(elsewhere.path()), "{}", folder.display());
+    assert_eq!(
+        std::fs::read(folder.join("images/i1.png")).unwrap(),
+        b"picture bytes"
+    );
+}
+
+mod fuzzing {
+    use proptest::prelude::*;
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 24, ..ProptestConfig::default() })]
+        /// Promise: flipping bytes of a copy never panics the merge, never changes the
+        /// copy, and changes the study only when the merge succeeds.
+        #[test]
+        fn flipped_bytes_never_panic_or_half_merge(flips in proptest::collection::vec((0.0f64..1.0, any::<u8>()), 1..8)) {
+            let (_f, study, copy) = super::lead_and_copy();
+            {
+                let conn = rusqlite::Connection::open(&copy).unwrap();
+                conn.pragma_update(None, "journal_mode", "DELETE").unwrap();
+            }
+            let mut bytes = std::fs::read(&copy).unwrap();
+            let len = bytes.len();
+            for (at, mask) in &flips {
+                let i = ((*at * len as f64) as usize).min(len - 1);
+                bytes[i] ^= mask | 1;
+            }
+            std::fs::write(&copy, &bytes).unwrap();
+            let before = super::study_dump(&study);
+            let mut lead = plumbline::study::Study::open(&study).unwrap();
+            let result = lead.merge_from(&copy);
+            drop(lead);
+            prop_assert!(std::fs::read(&copy).unwrap() == bytes, "the copy changed");
+            if result.is_err() {
+                prop_assert_eq!(super::study_dump(&study), before);
+            }
+        }
+    }
 }

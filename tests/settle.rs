@@ -227,7 +227,19 @@ fn settlements_travel_with_a_merge() {
     plumbline::study::import::import(&mut other, &fixture.full_set()).unwrap();
     drop(study);
     let mut other_view = other;
-    other_view.merge_from(&fixture.path("s.plumb")).unwrap();
+    // A whole study, not a reviewer copy: the lead accepts every name it brings.
+    let preview = other_view.merge_preview(&fixture.path("s.plumb")).unwrap();
+    let accept = preview
+        .needs_acceptance
+        .iter()
+        .map(|n| n.name.clone())
+        .collect();
+    other_view
+        .merge_with(
+            &fixture.path("s.plumb"),
+            &plumbline::study::merge::MergeOptions { accept },
+        )
+        .unwrap();
     let in_force = other_view.settled_in_force("fit").unwrap();
     assert_eq!(in_force.len(), 1);
     assert_eq!(in_force[0].settled_by, "lead-juniper");

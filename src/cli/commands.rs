@@ -149,11 +149,18 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             }
             Ok(())
         }
-        Some(Command::Merge { study, others }) => {
+        Some(Command::Merge {
+            study,
+            others,
+            accept_reviewer,
+        }) => {
             let mut target = open(&study)?;
             let mut refused = Vec::new();
+            let options = crate::study::merge::MergeOptions {
+                accept: accept_reviewer,
+            };
             for other in &others {
-                match target.merge_from(other) {
+                match target.merge_with(other, &options) {
                     Ok(r) => println!(
                         "{}: {} grades, {} settled grades and {} reviewers came in",
                         r.file, r.grades_added, r.settled_added, r.reviewers_added

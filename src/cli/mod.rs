@@ -130,6 +130,10 @@ pub enum Command {
         study: PathBuf,
         #[arg(required = true)]
         others: Vec<PathBuf>,
+        /// Also bring in events by this reviewer (or settled grades by this settler),
+        /// although the copy was not handed out to them. Repeat for several names.
+        #[arg(long = "accept-reviewer", value_name = "NAME")]
+        accept_reviewer: Vec<String>,
     },
     /// Write a reviewer copy of a study for grading on another machine (merge it back later).
     HandOut {

@@ -14,6 +14,7 @@ pub mod schema;
 pub mod settle;
 pub mod snapshot;
 pub mod time;
+pub mod untrusted;
 
 use std::path::{Path, PathBuf};
 use std::time::Duration;
@@ -319,6 +320,24 @@ impl Study {
             [key, value],
         )?;
         Ok(())
+    }
+
+    /// The folder image paths are relative to. A relative setting (a reviewer copy's
+    /// own pictures folder) is taken relative to the study file, so a copy finds its
+    /// pictures wherever it is moved with them.
+    pub fn catalog_dir(&self) -> Result<Option<PathBuf>> {
+        let Some(dir) = self.setting("catalog_dir")?.filter(|s| !s.is_empty()) else {
+            return Ok(None);
+        };
+        let dir = PathBuf::from(dir);
+        if dir.is_absolute() {
+            return Ok(Some(dir));
+        }
+        let base = std::path::absolute(&self.path)
+            .ok()
+            .and_then(|p| p.parent().map(Path::to_path_buf))
+            .unwrap_or_default();
+        Ok(Some(base.join(dir)))
     }
 
     /// The study's display name (file stem unless renamed).

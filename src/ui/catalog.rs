@@ -70,11 +70,7 @@ pub fn load(path: &Path) -> Result<CatalogModel, String> {
         items,
         contexts,
         rankers,
-        catalog_dir: study
-            .setting("catalog_dir")
-            .map_err(err)?
-            .filter(|s| !s.is_empty())
-            .map(PathBuf::from),
+        catalog_dir: study.catalog_dir().map_err(err)?,
         item_text,
         context_text,
     })

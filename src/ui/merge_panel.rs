@@ -7,7 +7,7 @@ use std::path::{Path, PathBuf};
 use super::jobs::Pending;
 use super::study_picker::block_on;
 use crate::study::Study;
-use crate::study::merge::MergeReport;
+use crate::study::merge::{MergeOptions, MergeReport};
 
 /// One file's outcome: what came (or would come) in, or why it was refused.
 pub type MergeOutcome = (PathBuf, Result<MergeReport, String>);
@@ -30,9 +30,13 @@ pub struct MergePanel {
     pub merged: Vec<MergeOutcome>,
     /// Set when a merge changed the study, so the workbench reloads its screens.
     pub study_changed: bool,
+    /// Names the lead ticked in the preview: their events come in although the copy
+    /// was not handed out to them.
+    pub accepted: std::collections::BTreeSet<String>,
 }
 
-fn run(study: &Path, files: Vec<PathBuf>, commit: bool) -> Vec<MergeOutcome> {
+fn run(study: &Path, files: Vec<PathBuf>, commit: bool, accept: Vec<String>) -> Vec<MergeOutcome> {
+    let options = MergeOptions { accept };
     let mut target = match Study::open(study) {
         Ok(s) => s,
         Err(e) => return files.into_iter().map(|f| (f, Err(e.to_string()))).collect(),
@@ -41,9 +45,9 @@ fn run(study: &Path, files: Vec<PathBuf>, commit: bool) -> Vec<MergeOutcome> {
         .into_iter()
         .map(|f| {
             let r = if commit {
-                target.merge_from(&f)
+                target.merge_with(&f, &options)
             } else {
-                target.merge_preview(&f)
+                target.merge_preview_with(&f, &MergeOptions::default())
             };
             (f, r.map_err(|e| e.to_string()))
         })
@@ -117,7 +121,8 @@ impl MergePanel {
                     {
                         let s = study.to_path_buf();
                         self.merged.clear();
-                        self.job = Some((false, Pending::spawn(&ctx, move || run(&s, files, false))));
+                        self.accepted.clear();
+                        self.job = Some((false, Pending::spawn(&ctx, move || run(&s, files, false, Vec::new()))));
                     }
                     let ready = !self.preview.is_empty() && self.preview.iter().any(|(_, r)| r.is_ok());
                     if ui
@@ -131,7 +136,8 @@ impl MergePanel {
                             .filter(|(_, r)| r.is_ok())
                             .map(|(f, _)| f.clone())
                             .collect();
-                        self.job = Some((true, Pending::spawn(&ctx, move || run(&s, files, true))));
+                        let accept: Vec<String> = self.accepted.iter().cloned().collect();
+                        self.job = Some((true, Pending::spawn(&ctx, move || run(&s, files, true, accept))));
                     }
                     if busy {
                         ui.add(egui::ProgressBar::new(0.0).animate(true).text("merging…").desired_width(200.0));
@@ -139,8 +145,48 @@ impl MergePanel {
                     }
                 });
                 outcome_list(ui, "Would come in", &self.preview);
+                acceptance(ui, &self.preview, &mut self.accepted);
                 outcome_list(ui, "Merged", &self.merged);
             });
+    }
+}
+
+/// The names a previewed file holds events from beyond its own reviewer, each with a
+/// box to tick: unticked, the file is refused when merged.
+fn acceptance(
+    ui: &mut egui::Ui,
+    outcomes: &[MergeOutcome],
+    accepted: &mut std::collections::BTreeSet<String>,
+) {
+    for (file, result) in outcomes {
+        let Ok(report) = result else { continue };
+        if report.needs_acceptance.is_empty() {
+            continue;
+        }
+        let name = file.file_name().map_or_else(
+            || file.display().to_string(),
+            |n| n.to_string_lossy().into_owned(),
+        );
+        let whose = match &report.handed_out_to {
+            Some(r) => format!("{name} was handed out to {r}; it also holds events by:"),
+            None => format!("{name} is not a copy this study handed out; it holds events by:"),
+        };
+        ui.colored_label(ui.visuals().warn_fg_color, whose);
+        for n in &report.needs_acceptance {
+            let mut on = accepted.contains(&n.name);
+            let text = format!(
+                "bring in {} ({} grade events, {} settled grades)",
+                n.name, n.grades, n.settled
+            );
+            if ui.checkbox(&mut on, text).changed() {
+                if on {
+                    accepted.insert(n.name.clone());
+                } else {
+                    accepted.remove(&n.name);
+                }
+            }
+        }
+        ui.weak("Unticked names keep the whole file out. Tick only reviewers you trust.");
     }
 }
 

@@ -13,7 +13,7 @@ pub mod state;
 pub mod writer;
 
 use std::collections::HashMap;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use super::image_cache::{self, ImageCache};
 use super::jobs::Pending;
@@ -90,11 +90,7 @@ pub fn load(
         marks.push(marks_by_pair.get(pair).copied());
     }
     let (past_grades, past_seconds) = study.reviewer_effort(reviewer, &scale.name).map_err(err)?;
-    let catalog_dir = study
-        .setting("catalog_dir")
-        .map_err(err)?
-        .filter(|s| !s.is_empty())
-        .map(PathBuf::from);
+    let catalog_dir = study.catalog_dir().map_err(err)?;
     Ok((
         DeskData {
             reviewer: reviewer.to_string(),

@@ -1,0 +1,347 @@
+//! Reading a study file of uncertain origin (a reviewer copy back from another machine)
+//! the way SQLite's "Defense Against The Dark Arts" advises: read-only and immutable
+//! (its bytes never change), defensive mode, `trusted_schema` off, `cell_size_check`
+//! on, low limits, a time limit, `quick_check` first, and its schema compared object
+//! by object with the one this build expects before a single row is read. Rows are
+//! then read from the tables only (never through a view) and checked one by one in
+//! `merge`.
+
+use std::path::{Path, PathBuf};
+use std::time::{Duration, Instant};
+
+use rusqlite::config::DbConfig;
+use rusqlite::limits::Limit;
+use rusqlite::types::Value;
+use rusqlite::{Connection, OpenFlags};
+
+use super::{Result, StudyError, open_files, schema};
+
+/// The longest a copy may take to check and read.
+pub const READ_TIME_LIMIT: Duration = Duration::from_secs(20);
+/// Longest text or blob a copy may hold in one value.
+pub const MAX_VALUE_BYTES: i32 = 2 << 20;
+
+fn refused(path: &Path, reason: impl Into<String>) -> StudyError {
+    StudyError::Refused {
+        path: path.display().to_string(),
+        reason: reason.into(),
+    }
+}
+
+/// An open, checked, read-only copy. A copy at an older schema is read through a
+/// migrated temporary file (`_scratch`), never migrated in place.
+pub struct CheckedCopy {
+    pub conn: Connection,
+    pub path: PathBuf,
+    _scratch: Option<Scratch>,
+}
+
+/// A temporary file removed when dropped.
+struct Scratch(PathBuf);
+
+impl Drop for Scratch {
+    fn drop(&mut self) {
+        for suffix in ["", "-wal", "-shm", "-journal"] {
+            let mut p = self.0.clone().into_os_string();
+            p.push(suffix);
+            let _ = std::fs::remove_file(PathBuf::from(p));
+        }
+    }
+}
+
+/// `file:` URI for a path, with the characters URIs reserve escaped.
+fn uri(path: &Path) -> String {
+    let text = std::path::absolute(path)
+        .unwrap_or_else(|_| path.to_path_buf())
+        .display()
+        .to_string();
+    let mut out = String::from("file:");
+    for c in text.chars() {
+        match c {
+            '%' => out.push_str("%25"),
+            '?' => out.push_str("%3f"),
+            '#' => out.push_str("%23"),
+            c => out.push(c),
+        }
+    }
+    out.push_str("?immutable=1");
+    out
+}
+
+/// Opens `path` read-only and immutable with every hardening in place.
+fn open_hardened(path: &Path) -> Result<Connection> {
+    let conn = Connection::open_with_flags(
+        uri(path),
+        OpenFlags::SQLITE_OPEN_READ_ONLY
+            | OpenFlags::SQLITE_OPEN_URI
+            | OpenFlags::SQLITE_OPEN_NO_MUTEX,
+    )
+    .map_err(|e| refused(path, format!("cannot be read as SQLite: {e}")))?;
+    let harden = || -> rusqlite::Result<()> {
+        conn.set_db_config(DbConfig::SQLITE_DBCONFIG_DEFENSIVE, true)?;
+        conn.set_db_config(DbConfig::SQLITE_DBCONFIG_TRUSTED_SCHEMA, false)?;
+        conn.pragma_update(None, "trusted_schema", false)?;
+        conn.pragma_update(None, "cell_size_check", true)?;
+        conn.set_limit(Limit::SQLITE_LIMIT_LENGTH, MAX_VALUE_BYTES)?;
+        conn.set_limit(Limit::SQLITE_LIMIT_SQL_LENGTH, 100_000)?;
+        conn.set_limit(Limit::SQLITE_LIMIT_COLUMN, 100)?;
+        conn.set_limit(Limit::SQLITE_LIMIT_EXPR_DEPTH, 50)?;
+        conn.set_limit(Limit::SQLITE_LIMIT_COMPOUND_SELECT, 3)?;
+        conn.set_limit(Limit::SQLITE_LIMIT_VDBE_OP, 25_000)?;
+        conn.set_limit(Limit::SQLITE_LIMIT_FUNCTION_ARG, 8)?;
+        conn.set_limit(Limit::SQLITE_LIMIT_ATTACHED, 0)?;
+        conn.set_limit(Limit::SQLITE_LIMIT_LIKE_PATTERN_LENGTH, 50)?;
+        conn.set_limit(Limit::SQLITE_LIMIT_TRIGGER_DEPTH, 1)?;
+        Ok(())
+    };
+    harden().map_err(|e| refused(path, format!("cannot be read safely: {e}")))?;
+    let deadline = Instant::now() + READ_TIME_LIMIT;
+    conn.progress_handler(10_000, Some(move || Instant::now() > deadline))
+        .map_err(|e| refused(path, format!("cannot be read safely: {e}")))?;
+    Ok(conn)
+}
+
+/// Words for a failure while reading a copy (a time-out reads as one).
+fn reading(path: &Path, e: rusqlite::Error) -> StudyError {
+    let text = e.to_string();
+    if text.contains("interrupted") {
+        refused(
+            path,
+            format!(
+                "reading it took longer than {} s; it is refused",
+                READ_TIME_LIMIT.as_secs()
+            ),
+        )
+    } else {
+        refused(
+            path,
+            format!(
+                "cannot be read: {}",
+                text.lines().next().unwrap_or_default()
+            ),
+        )
+    }
+}
+
+/// One object of a schema: (type, name, table, SQL).
+type SchemaObject = (String, String, String, Option<String>);
+
+fn schema_of(conn: &Connection) -> rusqlite::Result<Vec<SchemaObject>> {
+    let mut stmt =
+        conn.prepare("SELECT type, name, tbl_name, sql FROM sqlite_schema ORDER BY type, name")?;
+    let rows = stmt.query_map([], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?)))?;
+    rows.collect()
+}
+
+/// The schema this build writes at `version`, built in memory from the migrations.
+fn expected_schema(version: i32) -> rusqlite::Result<Vec<SchemaObject>> {
+    let conn = Connection::open_in_memory()?;
+    for sql in schema::MIGRATIONS.iter().take(version as usize) {
+        conn.execute_batch(sql)?;
+    }
+    schema_of(&conn)
+}
+
+/// Names every object of the copy's schema that this build does not write, or writes
+/// differently, and every object it lacks.
+fn schema_differences(found: &[SchemaObject], expected: &[SchemaObject]) -> Vec<String> {
+    let mut out = Vec::new();
+    for object in found {
+        match expected.iter().find(|e| e.0 == object.0 && e.1 == object.1) {
+            None => out.push(format!(
+                "{} \"{}\" is not part of a study",
+                object.0, object.1
+            )),
+            Some(e) if e != object => out.push(format!(
+                "{} \"{}\" is defined differently",
+                object.0, object.1
+            )),
+            Some(_) => {}
+        }
+    }
+    for e in expected {
+        if !found.iter().any(|o| o.0 == e.0 && o.1 == e.1) {
+            let kind_clash = found.iter().find(|o| o.1 == e.1);
+            match kind_clash {
+                Some(o) => out.push(format!(
+                    "\"{}\" is a {} where a study has a {}",
+                    e.1, o.0, e.0
+                )),
+                None => out.push(format!("{} \"{}\" is missing", e.0, e.1)),
+            }
+        }
+    }
+    out.sort();
+    out.dedup();
+    out
+}
+
+/// Opens and checks a copy: a regular file, not open in this process, SQLite that
+/// passes `quick_check`, a Plumbline study of this build's schema or an older one.
+pub fn open_copy(path: &Path) -> Result<CheckedCopy> {
+    let metadata =
+        std::fs::metadata(path).map_err(|e| refused(path, format!("cannot be opened: {e}")))?;
+    if !metadata.is_file() {
+        return Err(refused(path, "it is not a regular file"));
+    }
+    if open_files::is_open_study(path) {
+        return Err(refused(
+            path,
+            "this study is open in this window; only a file from elsewhere can be merged",
+        ));
+    }
+    let wal = {
+        let mut p = path.as_os_str().to_owned();
+        p.push("-wal");
+        PathBuf::from(p)
+    };
+    if std::fs::metadata(&wal).is_ok_and(|m| m.is_file() && m.len() > 0) {
+        return open_with_wal(path, &wal);
+    }
+    let conn = open_hardened(path)?;
+    let pragma = |name: &str| -> Result<i64> {
+        conn.pragma_query_value(None, name, |r| r.get::<_, i64>(0))
+            .map_err(|e| reading(path, e))
+    };
+    let application_id = pragma("application_id")
+        .map_err(|_| refused(path, "this is not a Plumbline study (not an SQLite file)"))?;
+    if application_id != i64::from(schema::APPLICATION_ID) {
+        return Err(refused(path, "this SQLite file is not a Plumbline study"));
+    }
+    let check: String = conn
+        .query_row("PRAGMA quick_check", [], |r| r.get(0))
+        .map_err(|e| reading(path, e))?;
+    if check != "ok" {
+        return Err(refused(
+            path,
+            format!("the file is damaged (SQLite's quick_check: {check}); ask for a fresh copy"),
+        ));
+    }
+    let version = pragma("user_version")?;
+    if version < 1 || version > i64::from(schema::current_version()) {
+        return Err(refused(
+            path,
+            format!(
+                "its schema version {version} is not one this build knows (1 to {})",
+                schema::current_version()
+            ),
+        ));
+    }
+    let found = schema_of(&conn).map_err(|e| reading(path, e))?;
+    let expected = expected_schema(version as i32).map_err(StudyError::Sql)?;
+    let differences = schema_differences(&found, &expected);
+    if !differences.is_empty() {
+        return Err(refused(
+            path,
+            format!(
+                "its schema is not a study's: {}; nothing was merged",
+                differences.join("; ")
+            ),
+        ));
+    }
+    if version == i64::from(schema::current_version()) {
+        return Ok(CheckedCopy {
+            conn,
+            path: path.to_path_buf(),
+            _scratch: None,
+        });
+    }
+    // Older: migrate a temporary copy (the copy itself is never written).
+    drop(conn);
+    let scratch = scratch_for(path);
+    std::fs::copy(path, &scratch.0)
+        .map_err(|e| refused(path, format!("cannot be copied for reading: {e}")))?;
+    {
+        let conn = Connection::open(&scratch.0)?;
+        conn.pragma_update(None, "journal_mode", "DELETE")?;
+        for (i, sql) in schema::MIGRATIONS.iter().enumerate().skip(version as usize) {
+            conn.execute_batch(sql)
+                .map_err(|e| refused(path, format!("cannot be upgraded from schema {i}: {e}")))?;
+            conn.pragma_update(None, "user_version", (i + 1) as i32)?;
+        }
+    }
+    let conn = open_hardened(&scratch.0)?;
+    Ok(CheckedCopy {
+        conn,
+        path: path.to_path_buf(),
+        _scratch: Some(scratch),
+    })
+}
+
+/// A copy whose last grades are still in its `-wal` file: the two are copied to a
+/// scratch file, the WAL is folded in there, and the scratch file is checked as a copy.
+fn open_with_wal(path: &Path, wal: &Path) -> Result<CheckedCopy> {
+    let scratch = scratch_for(path);
+    let mut scratch_wal = scratch.0.clone().into_os_string();
+    scratch_wal.push("-wal");
+    std::fs::copy(path, &scratch.0)
+        .and_then(|_| std::fs::copy(wal, PathBuf::from(&scratch_wal)))
+        .map_err(|e| refused(path, format!("cannot be copied for reading: {e}")))?;
+    {
+        let conn = Connection::open_with_flags(
+            &scratch.0,
+            OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_NO_MUTEX,
+        )?;
+        conn.set_db_config(DbConfig::SQLITE_DBCONFIG_DEFENSIVE, true)?;
+        conn.pragma_update(None, "trusted_schema", false)?;
+        conn.pragma_update(None, "journal_mode", "DELETE")
+            .map_err(|e| refused(path, format!("its -wal file cannot be read: {e}")))?;
+    }
+    let mut checked = open_copy(&scratch.0)?;
+    checked.path = path.to_path_buf();
+    if checked._scratch.is_none() {
+        checked._scratch = Some(scratch);
+    } else {
+        // An older copy was migrated into a second scratch file; drop the first now.
+        drop(scratch);
+    }
+    Ok(checked)
+}
+
+fn scratch_for(path: &Path) -> Scratch {
+    Scratch(std::env::temp_dir().join(format!(
+        "plumbline-copy-{}-{}.plumb",
+        std::process::id(),
+        super::import::content_uid(&[&path.display().to_string(), &super::time::now()])
+    )))
+}
+
+/// A value's text, or why it is not text.
+pub fn text(value: &Value) -> Option<&str> {
+    match value {
+        Value::Text(t) => Some(t),
+        _ => None,
+    }
+}
+
+/// A value's whole number, if it is one.
+pub fn integer(value: &Value) -> Option<i64> {
+    match value {
+        Value::Integer(i) => Some(*i),
+        _ => None,
+    }
+}
+
+/// A value's number (whole or real), if it is one.
+pub fn number(value: &Value) -> Option<f64> {
+    match value {
+        Value::Integer(i) => Some(*i as f64),
+        Value::Real(r) => Some(*r),
+        _ => None,
+    }
+}
+
+/// Reads every row of `sql` as raw values (types are checked by the caller).
+pub fn rows(copy: &CheckedCopy, sql: &str, width: usize) -> Result<Vec<Vec<Value>>> {
+    let mut stmt = copy.conn.prepare(sql).map_err(|e| reading(&copy.path, e))?;
+    let mut out = Vec::new();
+    let mut result = stmt.query([]).map_err(|e| reading(&copy.path, e))?;
+    while let Some(row) = result.next().map_err(|e| reading(&copy.path, e))? {
+        let mut values = Vec::with_capacity(width);
+        for i in 0..width {
+            values.push(row.get::<_, Value>(i).map_err(|e| reading(&copy.path, e))?);
+        }
+        out.push(values);
+    }
+    Ok(out)
+}

@@ -80,6 +80,7 @@ fn synthetic() -> (Snapshot, Vec<u8>) {
     }
     let snapshot = Snapshot {
         name: "bench".into(),
+        stored_baseline: None,
         items,
         contexts,
         rankers: (0..RANKERS).map(|r| format!("ranker-{r}")).collect(),

@@ -66,8 +66,12 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
     );
     let _ = writeln!(
         out,
-        "{} contexts scored; {} left out with no relevant item. 95 % percentile bootstrap intervals (B = {}).\n",
-        board.contexts_scored, board.contexts_without_relevant, s.bootstrap_resamples
+        "{} contexts scored; left out: {} graded with no relevant item, {} never graded on this scale. Panel grade: {}. 95 % percentile bootstrap intervals (B = {}).\n",
+        board.contexts_scored,
+        board.contexts_without_relevant,
+        board.contexts_without_grades,
+        s.panel_grade.label(),
+        s.bootstrap_resamples
     );
     let mut keys: Vec<String> = Vec::new();
     for k in &s.ks {

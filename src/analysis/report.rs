@@ -32,6 +32,19 @@ fn table(out: &mut String, header: &[String], rows: &[Vec<String>]) {
     out.push('\n');
 }
 
+/// The counting rules a reader needs to reproduce the numbers; the README's Conventions
+/// say the same in the same words.
+pub const CONVENTION_RULES: &[&str] = &[
+    "judged@k divides the judged items among the top k by min(k, list length).",
+    "A reviewer's grade of a pair is their latest by graded_at, read with its offset (UTC), not by file order; on equal times the later row wins.",
+    "A settled grade is a grades.csv row with settled_by filled in; an empty value undoes the settlement; the latest settlement wins.",
+    "The segments new and established restrict gains in DCG, the ideal, precision, RR and ERR alike.",
+    "A scale's own gains win over --gain.",
+    "Comparisons exist for NDCG cut-offs only; Holm's correction runs over the randomization p-values, per metric and cut-off, across candidates.",
+    "The baseline is the one asked for, else the study's stored baseline while it names a ranker, else the first ranker alphabetically.",
+    "Agreement units are pairs with at least one grade, can't-judge-only pairs included.",
+];
+
 /// Names the settings in words a reader outside the team understands.
 fn settings_lines(board: &Scoreboard) -> Vec<(String, String)> {
     let s = &board.settings;
@@ -42,7 +55,7 @@ fn settings_lines(board: &Scoreboard) -> Vec<(String, String)> {
         (
             "Grades".into(),
             match s.grades.label().as_str() {
-                "panel" => "panel (settled grade, else lower median of the reviewers)".into(),
+                "panel" => format!("panel (settled grade, else the {})", s.panel_grade.words()),
                 r => format!("reviewer {r} only"),
             },
         ),
@@ -74,10 +87,14 @@ fn settings_lines(board: &Scoreboard) -> Vec<(String, String)> {
         (
             "Contexts".into(),
             format!(
-                "{} scored; {} left out with no relevant item",
-                board.contexts_scored, board.contexts_without_relevant
+                "{} scored; left out: {} graded with no relevant item, {} never graded on this scale",
+                board.contexts_scored,
+                board.contexts_without_relevant,
+                board.contexts_without_grades
             ),
         ),
+        ("Gains used".into(), board.gains_used.clone()),
+        ("Rules".into(), CONVENTION_RULES.join(" ")),
         (
             "Intervals".into(),
             format!(

@@ -31,9 +31,15 @@ impl Segment {
             "new" => Segment::New,
             "established" => Segment::Established,
             "query" | "anchor" => Segment::Kind(text.to_string()),
-            other => {
-                Segment::ContextSegment(other.strip_prefix("segment:").unwrap_or(other).to_string())
-            }
+            // `label:NAME` always means a context segment label, even one literally
+            // called "new", "query" or "all"; `segment:NAME` is the older spelling.
+            other => Segment::ContextSegment(
+                other
+                    .strip_prefix("label:")
+                    .or_else(|| other.strip_prefix("segment:"))
+                    .unwrap_or(other)
+                    .to_string(),
+            ),
         }
     }
 
@@ -58,6 +64,8 @@ pub struct ScoreSettings {
     pub unjudged: Unjudged,
     pub baseline: Option<String>,
     pub segment: Segment,
+    /// How an unsettled pair's panel levels become one level.
+    pub panel_grade: judgments::PanelRule,
     /// Level from which an item is relevant for precision and RR.
     pub relevant_from: u8,
     pub bootstrap_resamples: usize,
@@ -75,6 +83,7 @@ impl Default for ScoreSettings {
             unjudged: Unjudged::Zero,
             baseline: None,
             segment: Segment::All,
+            panel_grade: judgments::PanelRule::LowerMedian,
             relevant_from: 1,
             bootstrap_resamples: 2000,
             randomization_resamples: 10_000,
@@ -132,8 +141,10 @@ pub struct Scoreboard {
     pub gains_used: String,
     /// Contexts scored (with at least one relevant item in the segment).
     pub contexts_scored: usize,
-    /// Contexts left out because no item in them is above level 0.
+    /// Contexts left out because graded, but no item in them is above level 0.
     pub contexts_without_relevant: usize,
+    /// Contexts left out because no pair of them has a grade on this scale yet.
+    pub contexts_without_grades: usize,
     pub rankers: Vec<RankerScores>,
     pub comparisons: Vec<Comparison>,
     pub cautions: Vec<String>,
@@ -212,14 +223,7 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
     {
         return Err(ScoreError::UnknownReviewer(r.clone()));
     }
-    let baseline = match &settings.baseline {
-        Some(name) => Some(
-            snapshot
-                .ranker_index(name)
-                .ok_or_else(|| ScoreError::UnknownRanker(name.clone()))?,
-        ),
-        None => (!snapshot.rankers.is_empty()).then_some(0),
-    };
+    let (baseline, baseline_note) = resolve_baseline(snapshot, settings.baseline.as_deref())?;
     let scale = &snapshot.scales[scale_index];
     let list_settings = ListSettings {
         gains: metrics::gain_table(scale.levels.len(), &scale.gains(), settings.gain),
@@ -227,7 +231,12 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         relevant_from: settings.relevant_from,
         unjudged: settings.unjudged,
     };
-    let mut judged = judgments::resolve(snapshot, scale_index, &settings.grades);
+    let mut judged = judgments::resolve_with(
+        snapshot,
+        scale_index,
+        &settings.grades,
+        settings.panel_grade,
+    );
     // Segments by item: items outside the segment stay judged but carry no gain.
     let carries_gain = |item: u32| -> bool {
         let is_new = snapshot.items[item as usize].is_new;
@@ -254,6 +263,7 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
     };
     let mut scored_contexts: Vec<usize> = Vec::new();
     let mut without_relevant = 0usize;
+    let mut without_grades = 0usize;
     let mut ideal: Vec<Vec<f64>> = vec![Vec::new(); snapshot.contexts.len()];
     for c in 0..snapshot.contexts.len() {
         if !context_included(c) {
@@ -261,6 +271,10 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         }
         let has_any_list = snapshot.lists.iter().any(|l| !l[c].is_empty());
         if judged[c].is_empty() && !has_any_list {
+            continue;
+        }
+        if judged[c].is_empty() {
+            without_grades += 1;
             continue;
         }
         if !judged[c].iter().any(|(_, level)| *level > 0) {
@@ -411,19 +425,35 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         .collect();
     apply_holm(&mut comparisons);
     let mut cautions = vec![OFFLINE_CAUTION.to_string()];
+    cautions.extend(baseline_note);
     if scored_contexts.len() < 30 {
         cautions.push(format!(
             "Only {} contexts have a relevant item; intervals are wide and tests weak.",
             scored_contexts.len()
         ));
     }
-    for r in &rankers {
+    for (ri, r) in rankers.iter().enumerate() {
         for k in &settings.ks {
             if let Some(j) = r.metrics.get(&format!("judged@{k}"))
                 && j.mean < 0.9
             {
+                // judged@k divides by min(k, list length): say so when lists are short.
+                let returned: Vec<usize> = scored_contexts
+                    .iter()
+                    .map(|&c| snapshot.lists[ri][c].len().min(*k))
+                    .collect();
+                let of = match (returned.first(), returned.iter().all(|&n| n == *k)) {
+                    (_, true) | (None, _) => format!("its top {k}"),
+                    (Some(&n), false) if returned.iter().all(|&m| m == n) => {
+                        format!("its {n} returned items (fewer than {k})")
+                    }
+                    _ => format!(
+                        "the items it returned in its top {k} ({:.1} on average)",
+                        returned.iter().sum::<usize>() as f64 / returned.len() as f64
+                    ),
+                };
                 cautions.push(format!(
-                    "{} has only {:.0} % of its top {k} judged; unjudged items count as {}.",
+                    "{} has only {:.0} % of {of} judged; unjudged items count as {}.",
                     r.ranker,
                     j.mean * 100.0,
                     match settings.unjudged {
@@ -435,17 +465,53 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         }
     }
     let gains_used = describe_gains(&scale.gains(), &list_settings.gains, settings.gain);
+    let mut settings = settings.clone();
+    settings.baseline = baseline_name.map(str::to_string);
     Ok(Scoreboard {
         gains_used,
         study: snapshot.name.clone(),
         scale: scale.name.clone(),
-        settings: settings.clone(),
+        settings,
         contexts_scored: scored_contexts.len(),
         contexts_without_relevant: without_relevant,
+        contexts_without_grades: without_grades,
         rankers,
         comparisons,
         cautions,
     })
+}
+
+/// The baseline, by one rule everywhere (command line, Scoreboard, report): the ranker
+/// asked for (an unknown name is an error); else the study's stored baseline when it
+/// still names a ranker; else the first ranker in alphabetical order. A stored
+/// baseline that no longer exists comes back with a caution saying what was used.
+pub fn resolve_baseline(
+    snapshot: &Snapshot,
+    asked: Option<&str>,
+) -> Result<(Option<usize>, Option<String>), ScoreError> {
+    if let Some(name) = asked {
+        return snapshot
+            .ranker_index(name)
+            .map(|i| (Some(i), None))
+            .ok_or_else(|| ScoreError::UnknownRanker(name.to_string()));
+    }
+    // Rankers are sorted by name in the snapshot, so index 0 is the first alphabetically.
+    let first = (!snapshot.rankers.is_empty()).then_some(0);
+    match snapshot.stored_baseline.as_deref() {
+        Some(stored) => match snapshot.ranker_index(stored) {
+            Some(i) => Ok((Some(i), None)),
+            None => Ok((
+                first,
+                first.map(|f| {
+                    format!(
+                        "The study's baseline \"{stored}\" is not among the rankers any more; comparing against {} (the first ranker alphabetically).",
+                        snapshot.rankers[f]
+                    )
+                }),
+            )),
+        },
+        None => Ok((first, None)),
+    }
 }
 
 /// Holm's correction across the candidates compared on one metric.

@@ -44,6 +44,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             unjudged,
             baseline,
             segment,
+            panel_grade,
             bootstrap,
             randomization,
             format,
@@ -55,8 +56,12 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                 gain: GainKind::parse(&gain).unwrap_or(GainKind::Exponential),
                 grades: GradeSource::parse(&grades),
                 unjudged: Unjudged::parse(&unjudged).unwrap_or(Unjudged::Zero),
-                baseline: baseline.or_else(|| default_baseline(&study)),
+                // None: the study's stored baseline, else the first ranker (one rule,
+                // `scoreboard::resolve_baseline`).
+                baseline,
                 segment: scoreboard::Segment::parse(&segment),
+                panel_grade: crate::analysis::judgments::PanelRule::parse(&panel_grade)
+                    .unwrap_or_default(),
                 bootstrap_resamples: bootstrap,
                 randomization_resamples: randomization,
                 ..Default::default()
@@ -121,10 +126,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             }
             if scores.is_some() || report.is_some() {
                 let snapshot = study_file.snapshot()?;
-                let settings = scoreboard::ScoreSettings {
-                    baseline: default_baseline(&study),
-                    ..Default::default()
-                };
+                let settings = scoreboard::ScoreSettings::default();
                 let board = scoreboard::build(&snapshot, &settings)
                     .map_err(|e| Failure::input(e.to_string()))?;
                 let write = |path: &Path, text: String, what: &str| {
@@ -232,11 +234,6 @@ fn open(path: &Path) -> Result<Study, Failure> {
     study.set_write_wait(write_wait())?;
     study.announce_waits_on_stderr();
     Ok(study)
-}
-
-/// The study's chosen baseline, if it names one.
-fn default_baseline(path: &Path) -> Option<String> {
-    Study::open(path).ok()?.setting("baseline").ok().flatten()
 }
 
 fn import_files(

@@ -90,9 +90,13 @@ pub enum Command {
         unjudged: String,
         #[arg(long)]
         baseline: Option<String>,
-        /// all, new, established, query, anchor, or a context segment label.
+        /// all, new, established, query, anchor, or a context segment label
+        /// (`label:NAME` always means a label, even one called "new").
         #[arg(long, default_value = "all")]
         segment: String,
+        /// How an unsettled pair's panel levels become one level.
+        #[arg(long = "panel-grade", default_value = "lower-median", value_parser = ["lower-median", "upper-median", "mean-rounded"])]
+        panel_grade: String,
         #[arg(long, default_value_t = 2000)]
         bootstrap: usize,
         #[arg(long, default_value_t = 10_000)]

@@ -47,6 +47,9 @@ pub struct SettledRow {
 #[derive(Debug, Clone, Default)]
 pub struct Snapshot {
     pub name: String,
+    /// The baseline the study stores (`settings.baseline`), which may name a ranker
+    /// that no longer exists; `analysis::scoreboard::resolve_baseline` decides.
+    pub stored_baseline: Option<String>,
     pub items: Vec<ItemInfo>,
     pub contexts: Vec<ContextInfo>,
     pub rankers: Vec<String>,
@@ -247,6 +250,7 @@ impl Study {
         }
         Ok(Snapshot {
             name: self.name(),
+            stored_baseline: self.setting("baseline")?.filter(|b| !b.is_empty()),
             items,
             contexts,
             rankers,

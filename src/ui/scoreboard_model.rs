@@ -88,14 +88,9 @@ pub fn load(path: &Path, requested: ScoreSettings) -> Result<ScoreboardModel, St
     let study = Study::open(path).map_err(err)?;
     let snapshot = study.snapshot().map_err(err)?;
     let mut settings = requested;
-    if settings.baseline.is_none() {
-        settings.baseline = study
-            .setting("baseline")
-            .map_err(err)?
-            .filter(|b| snapshot.ranker_index(b).is_some())
-            .or_else(|| snapshot.rankers.first().cloned());
-    }
     let board = scoreboard::build(&snapshot, &settings).map_err(|e| e.to_string())?;
+    // The baseline as resolved by the one rule (`scoreboard::resolve_baseline`).
+    settings.baseline = board.settings.baseline.clone();
     let scale = snapshot
         .scale_index(&board.scale)
         .ok_or("the scale vanished")?;

@@ -16,6 +16,24 @@ fn events(path: &std::path::Path) -> i64 {
         .unwrap()
 }
 
+/// The Catalog screen with the merge panel open, `copy` typed in and its preview asked for.
+fn open_preview(path: &std::path::Path, copy: &std::path::Path) -> ui_support::Bench {
+    let mut h = harness(path, ScreenName::Catalog);
+    step_until(&mut h, "the catalog", |h| {
+        h.query_by_label_contains("Items (240)").is_some()
+    });
+    h.get_by_label("Bring in grades from other studies").click();
+    h.step();
+    let field = || egui::Role::MultilineTextInput;
+    h.get_by_role_and_label(field(), "Studies to merge").focus();
+    h.step();
+    h.get_by_role_and_label(field(), "Studies to merge")
+        .type_text(&copy.display().to_string());
+    h.step();
+    h.get_by_label("Show what would come in").click();
+    h
+}
+
 #[test]
 fn a_reviewer_copy_is_previewed_then_merged() {
     let (dir, path) = ui_support::demo_copy();
@@ -38,19 +56,7 @@ fn a_reviewer_copy_is_previewed_then_merged() {
         .unwrap();
     let before = events(&path);
 
-    let mut h = harness(&path, ScreenName::Catalog);
-    step_until(&mut h, "the catalog", |h| {
-        h.query_by_label_contains("Items (240)").is_some()
-    });
-    h.get_by_label("Bring in grades from other studies").click();
-    h.step();
-    let field = || egui::Role::MultilineTextInput;
-    h.get_by_role_and_label(field(), "Studies to merge").focus();
-    h.step();
-    h.get_by_role_and_label(field(), "Studies to merge")
-        .type_text(&copy.display().to_string());
-    h.step();
-    h.get_by_label("Show what would come in").click();
+    let mut h = open_preview(&path, &copy);
     step_until(&mut h, "the preview", |h| {
         h.query_by_label_contains("Would come in").is_some()
     });
@@ -88,19 +94,7 @@ fn the_preview_lists_names_to_accept_and_merges_only_when_ticked() {
         .unwrap();
     }
     let before = events(&path);
-    let mut h = harness(&path, ScreenName::Catalog);
-    step_until(&mut h, "the catalog", |h| {
-        h.query_by_label_contains("Items (240)").is_some()
-    });
-    h.get_by_label("Bring in grades from other studies").click();
-    h.step();
-    let field = || egui::Role::MultilineTextInput;
-    h.get_by_role_and_label(field(), "Studies to merge").focus();
-    h.step();
-    h.get_by_role_and_label(field(), "Studies to merge")
-        .type_text(&copy.display().to_string());
-    h.step();
-    h.get_by_label("Show what would come in").click();
+    let mut h = open_preview(&path, &copy);
     let tick = "bring in mallory (1 grade events, 0 settled grades)";
     step_until(&mut h, "the names to accept", |h| {
         h.query_by_label_contains(tick).is_some()

@@ -369,6 +369,18 @@ fn a_damaged_copy_is_refused() {
     refused_untouched(&study, &copy, "the file is damaged");
 }
 
+/// Merges a valid copy through the binary: it succeeds and the copy keeps its bytes.
+fn merged_untouched(study: &std::path::Path, copy: &std::path::Path, what: &str) {
+    let before = std::fs::read(copy).unwrap();
+    let out = merge_cli(study, copy, &[]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(std::fs::read(copy).unwrap() == before, "{what}");
+}
+
 #[test]
 fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
     let (_f, study, copy) = lead_and_copy();
@@ -387,17 +399,7 @@ fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
             ),
         );
     }
-    let before = std::fs::read(&copy).unwrap();
-    let out = merge_cli(&study, &copy, &[]);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    assert!(
-        std::fs::read(&copy).unwrap() == before,
-        "the copy was migrated in place"
-    );
+    merged_untouched(&study, &copy, "the copy was migrated in place");
     let conn = rusqlite::Connection::open(&study).unwrap();
     let n: i64 = conn
         .query_row(
@@ -418,17 +420,7 @@ fn a_copy_in_rollback_journal_mode_keeps_its_bytes() {
             "{GRADE} VALUES ('b8', 'bo', 'q2', 'i1', 'fit', 'grade', 1, '', 2, '2026-11-30T10:00:00.000Z', '');"
         ),
     );
-    let before = std::fs::read(&copy).unwrap();
-    let out = merge_cli(&study, &copy, &[]);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    assert!(
-        std::fs::read(&copy).unwrap() == before,
-        "merging wrote to its input"
-    );
+    merged_untouched(&study, &copy, "merging wrote to its input");
 }
 
 /// Promise: a hand-out copy carries the pictures its reviewer needs and finds them

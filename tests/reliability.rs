@@ -374,18 +374,20 @@ fn a_waiting_writer_says_so_and_gives_up_only_at_its_limit() {
             holder.execute_batch("ROLLBACK").unwrap();
         })
     };
-    let holder = hold(3);
-    std::thread::sleep(Duration::from_millis(200));
-    let out = bin()
-        .args([
-            "import",
-            path.to_str().unwrap(),
-            "--grades",
-            file.to_str().unwrap(),
-        ])
-        .output()
-        .unwrap();
-    holder.join().unwrap();
+    // Imports `grades` while another connection holds the write lock for `seconds`.
+    let import_while_held = |seconds: u64, wait: &[&str], grades: &std::path::Path| {
+        let holder = hold(seconds);
+        std::thread::sleep(Duration::from_millis(200));
+        let out = bin()
+            .args(wait)
+            .args(["import", path.to_str().unwrap(), "--grades"])
+            .arg(grades)
+            .output()
+            .unwrap();
+        holder.join().unwrap();
+        out
+    };
+    let out = import_while_held(3, &[], &file);
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(out.status.success(), "{stderr}");
     assert!(
@@ -395,20 +397,7 @@ fn a_waiting_writer_says_so_and_gives_up_only_at_its_limit() {
 
     let other = fixture.write("g2.csv", &grades_for("later"));
     let before = study_dump(&path);
-    let holder = hold(4);
-    std::thread::sleep(Duration::from_millis(200));
-    let out = bin()
-        .args([
-            "--wait",
-            "1",
-            "import",
-            path.to_str().unwrap(),
-            "--grades",
-            other.to_str().unwrap(),
-        ])
-        .output()
-        .unwrap();
-    holder.join().unwrap();
+    let out = import_while_held(4, &["--wait", "1"], &other);
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert_eq!(out.status.code(), Some(1), "{stderr}");
     assert!(

@@ -139,6 +139,8 @@ pub struct Desk {
     last_time: Option<f64>,
     was_focused: bool,
     images: ImageCache,
+    /// The key that gives each level of the loaded scale (built once per load).
+    level_keys: HashMap<egui::Key, u8>,
     /// A scale the reviewer picked; the workbench reloads the desk with it.
     pub pending_scale: Option<String>,
 }
@@ -153,6 +155,7 @@ impl Default for Desk {
             last_time: None,
             was_focused: true,
             images: ImageCache::new(None, 64),
+            level_keys: HashMap::new(),
             pending_scale: None,
         }
     }
@@ -233,6 +236,12 @@ impl Desk {
                     }
                     let wake = ctx.clone();
                     self.writer = Some(GradeWriter::start(study, move || wake.request_repaint()));
+                    self.level_keys = data
+                        .scale
+                        .levels
+                        .iter()
+                        .filter_map(|l| level_key(&l.key, l.value).map(|k| (k, l.value)))
+                        .collect();
                     self.state = Some(DeskState::new(data));
                     self.load_error = None;
                 }
@@ -340,14 +349,10 @@ impl Desk {
     /// Takes the desk's key presses out of this frame's events, one by one, in order.
     fn keys(&mut self, ctx: &egui::Context) {
         use egui::{Event, Key};
-        let Some(state) = &self.state else { return };
-        let levels: HashMap<Key, u8> = state
-            .data
-            .scale
-            .levels
-            .iter()
-            .filter_map(|l| level_key(&l.key, l.value).map(|k| (k, l.value)))
-            .collect();
+        if self.state.is_none() {
+            return;
+        }
+        let levels = &self.level_keys;
         let typing = ctx.egui_wants_keyboard_input();
         let mut presses = Vec::new();
         ctx.input_mut(|i| {

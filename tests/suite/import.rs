@@ -1,6 +1,6 @@
 //! CSV import: the happy path, idempotence, and malformed files reported exactly.
 
-mod common;
+use crate::common;
 
 use common::{Fixture, study_dump};
 use plumbline::study::Study;

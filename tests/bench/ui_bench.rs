@@ -2,7 +2,7 @@
 //! egui_kittest, on the demo study grown to 200 000 grade events. Prints median and
 //! p99 milliseconds per frame and the peak resident memory; asserts no timings.
 //!
-//! cargo test --test ui_bench -- --ignored --nocapture
+//! cargo test --test bench -- --ignored --nocapture ui_bench
 
 use std::time::{Duration, Instant};
 

@@ -1,5 +1,5 @@
 //! Scoring benchmark (ignored: figures, not assertions). Run with
-//! `cargo test --release --test bench_scoring -- --ignored --nocapture`; set
+//! `cargo test --release --test bench -- --ignored --nocapture bench_scoring`; set
 //! `PLUMBLINE_BENCH_DIR` to also write the arrays for `tests/bench/sklearn_ndcg.py`.
 
 use std::time::Instant;

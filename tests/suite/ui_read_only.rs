@@ -1,6 +1,6 @@
 //! A read-only study opens read-only, with a banner in the top bar.
 
-mod ui_support;
+use crate::ui_support;
 
 use std::os::unix::fs::PermissionsExt;
 

@@ -3,7 +3,7 @@
 
 use std::path::Path;
 
-mod ui_support;
+use crate::ui_support;
 
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;

@@ -1,6 +1,6 @@
 //! Merging studies graded on several machines, and reviewer copies.
 
-mod common;
+use crate::common;
 
 use common::{Fixture, study_dump};
 use plumbline::analysis::{agreement, scoreboard};

@@ -1,7 +1,7 @@
 //! The Agreement screen's review figures on the small fixture plus a third reviewer;
 //! expected values are worked out by hand from the grades listed below.
 
-mod common;
+use crate::common;
 
 use plumbline::analysis::panel_review;
 use plumbline::study::grades::{GradeAction, NewGrade};

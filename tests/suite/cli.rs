@@ -1,6 +1,6 @@
 //! The command line, run as a real process.
 
-mod common;
+use crate::common;
 
 use std::process::Command;
 
@@ -581,7 +581,7 @@ fn holm_runs_over_randomization_p_values_per_ndcg_cut_off() {
 /// Markdown report's settings.
 #[test]
 fn every_counting_rule_is_in_the_readme_and_the_report() {
-    let readme = include_str!("../README.md").replace("\n  ", " ");
+    let readme = include_str!("../../README.md").replace("\n  ", " ");
     let fixture = Fixture::new();
     let (path, study) = fixture.study();
     drop(study);

@@ -1,7 +1,7 @@
 //! Merging from the workbench: choose a reviewer copy, see what would come in, confirm,
 //! see the result — and the study holds exactly the new grade.
 
-mod ui_support;
+use crate::ui_support;
 
 use egui_kittest::kittest::Queryable;
 use plumbline::cli::ScreenName;

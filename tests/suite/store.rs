@@ -1,6 +1,6 @@
 //! The study file: create, open, migrate, refuse what it must refuse.
 
-mod common;
+use crate::common;
 
 use plumbline::study::schema;
 use plumbline::study::{Study, StudyError};

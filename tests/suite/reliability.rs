@@ -1,7 +1,7 @@
 //! Nothing lost, nothing half-done: crashes, concurrent writers, locks, read-only files
 //! and a full disk.
 
-mod common;
+use crate::common;
 
 use std::io::{BufRead, BufReader};
 use std::process::{Command, Stdio};

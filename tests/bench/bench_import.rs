@@ -1,6 +1,6 @@
 //! Import benchmark (ignored): one million ranking rows through Plumbline's importer
 //! against a bare rusqlite prepared-insert loop into the same table shape. Run with
-//! `cargo test --release --test bench_import -- --ignored --nocapture`.
+//! `cargo test --release --test bench -- --ignored --nocapture bench_import`.
 
 use std::time::Instant;
 

@@ -3,7 +3,7 @@
 //! what the engines (`analysis::agreement`, `analysis::scoreboard`) compute from the
 //! study file on their own.
 
-mod ui_support;
+use crate::ui_support;
 
 use std::path::Path;
 

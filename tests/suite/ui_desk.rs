@@ -1,7 +1,7 @@
 //! The grading desk driven through the real workbench (`Workbench::show`) with
 //! egui_kittest, on a fresh copy of the demo study in a temporary folder.
 
-mod ui_support;
+use crate::ui_support;
 
 use std::path::Path;
 use std::time::Duration;
@@ -650,7 +650,7 @@ fn grades_survive_an_outside_reader_and_sigkill() {
         .args([
             "--ignored",
             "--exact",
-            "workbench_child_process",
+            "ui_desk::workbench_child_process",
             "--nocapture",
         ])
         .env("PLUMBLINE_CHILD_STUDY", &path)

@@ -1,7 +1,7 @@
 //! The Scales and Scale trial screens driven through the real workbench
 //! (`Workbench::show`) with egui_kittest, on a fresh copy of the demo study.
 
-mod ui_support;
+use crate::ui_support;
 
 use std::collections::BTreeMap;
 use std::path::Path;

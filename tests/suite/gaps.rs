@@ -3,7 +3,7 @@
 //! one ranker places at rank 1 and another leaves out can change the comparison far more
 //! than a pair both rank low.
 
-mod common;
+use crate::common;
 
 use common::Fixture;
 use plumbline::analysis::gaps::gap_pairs;

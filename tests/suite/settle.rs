@@ -3,7 +3,7 @@
 //! the fixture's grades and the rules' definitions (lower median; most frequent level
 //! with ties to the lower; lowest level), worked out by hand beside each case.
 
-mod common;
+use crate::common;
 
 use plumbline::analysis::judgments::{GradeSource, level_of, resolve};
 use plumbline::analysis::scoreboard::{self, ScoreSettings};

@@ -1,6 +1,6 @@
 //! Exports: spreadsheet formulas are neutralised, and export → import is exact.
 
-mod common;
+use crate::common;
 
 use common::Fixture;
 use plumbline::study::Study;

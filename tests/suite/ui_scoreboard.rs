@@ -3,7 +3,7 @@
 //! same settings, before and after changing k and the baseline; the cautions are shown;
 //! "judge the gaps" hands the desk its most decisive unjudged pair first.
 
-mod ui_support;
+use crate::ui_support;
 
 use std::path::Path;
 use std::process::Command;

@@ -3,7 +3,7 @@
 //! default case count; `PROPTEST_CASES=20000 cargo test --release --test fuzz_import`
 //! runs a longer campaign.
 
-mod common;
+use crate::common;
 
 use plumbline::study::import::{self, ImportSet, Source};
 use proptest::prelude::*;

@@ -1,0 +1,7 @@
+//! Benchmarks: every test here is ignored, prints figures against a peer run in the same
+//! process and asserts no timings. Run one with
+//! `cargo test --release --test bench -- --ignored --nocapture MODULE`.
+
+mod bench_import;
+mod bench_scoring;
+mod ui_bench;

@@ -1,0 +1,31 @@
+//! The integration tests, in one binary so the GUI stack is linked once. Each module is
+//! one area; `common` and `ui_support` hold the shared fixtures and harness helpers.
+
+mod cli;
+mod common;
+mod demo;
+mod engines;
+mod export;
+mod fuzz_import;
+mod gaps;
+mod golden;
+mod import;
+mod merge;
+mod panel_review;
+mod properties;
+mod published_examples;
+mod reference_libraries;
+mod reliability;
+mod report;
+mod scales;
+mod settle;
+mod store;
+mod trial;
+mod ui_agreement;
+mod ui_catalog;
+mod ui_desk;
+mod ui_merge;
+mod ui_read_only;
+mod ui_scales;
+mod ui_scoreboard;
+mod ui_support;

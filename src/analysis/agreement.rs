@@ -102,6 +102,22 @@ pub fn unit_table(snapshot: &Snapshot, scale: usize) -> UnitTable {
 
 pub const LANDIS_KOCH: &str = "Landis & Koch (1977), Biometrics 33: 0–0.20 slight, 0.21–0.40 fair, 0.41–0.60 moderate, 0.61–0.80 substantial, 0.81–1 almost perfect. Bands are conventions, not tests.";
 
+/// Every coefficient with the resampling defaults of `analysis::defaults`, as the
+/// Agreement screen, `plumbline agree` and the report show them.
+pub fn with_defaults(
+    snapshot: &Snapshot,
+    scale: usize,
+    collapse: Option<&CollapseMap>,
+) -> AgreementReport {
+    build(
+        snapshot,
+        scale,
+        collapse,
+        super::defaults::AGREEMENT_BOOTSTRAP,
+        super::defaults::SEED,
+    )
+}
+
 /// Computes every coefficient for one scale (and optional collapse map).
 pub fn build(
     snapshot: &Snapshot,

@@ -1,11 +1,17 @@
 //! View models built from a study snapshot. Screens and the command line both use these,
 //! so they always show the same numbers.
 
+#![warn(missing_docs)]
+
 pub mod agreement;
+pub mod agreement_view;
+pub mod defaults;
 pub mod gaps;
+pub mod home;
 pub mod judgments;
 pub mod panel_review;
 pub mod render;
 pub mod report;
 pub mod scoreboard;
+pub mod scoreboard_view;
 pub mod trial;

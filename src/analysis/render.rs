@@ -80,7 +80,7 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
     for k in &s.ks {
         keys.push(format!("judged@{k}"));
     }
-    let k_main = s.ks.iter().copied().find(|k| *k == 10).unwrap_or(s.ks[0]);
+    let k_main = crate::analysis::defaults::focus_k(&s.ks);
     keys.push(format!("precision@{k_main}"));
     keys.push(format!("err@{k_main}"));
     keys.push("rr".into());

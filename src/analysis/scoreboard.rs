@@ -5,6 +5,7 @@ use std::collections::BTreeMap;
 
 use serde::Serialize;
 
+use super::defaults;
 use super::judgments::{self, GradeSource};
 use crate::core::metrics::{self, AtK, GainKind, JudgedList, ListSettings, Unjudged};
 use crate::core::stats;
@@ -55,7 +56,7 @@ impl Segment {
 }
 
 /// Everything that decides the numbers; printed beside them in every export.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ScoreSettings {
     pub scale: Option<String>,
     pub ks: Vec<usize>,
@@ -77,7 +78,7 @@ impl Default for ScoreSettings {
     fn default() -> Self {
         ScoreSettings {
             scale: None,
-            ks: vec![5, 10, 20],
+            ks: defaults::CUTOFFS.to_vec(),
             gain: GainKind::Exponential,
             grades: GradeSource::Panel,
             unjudged: Unjudged::Zero,
@@ -85,9 +86,9 @@ impl Default for ScoreSettings {
             segment: Segment::All,
             panel_grade: judgments::PanelRule::LowerMedian,
             relevant_from: 1,
-            bootstrap_resamples: 2000,
-            randomization_resamples: 10_000,
-            seed: 20_261_201,
+            bootstrap_resamples: defaults::SCORE_BOOTSTRAP,
+            randomization_resamples: defaults::SCORE_RANDOMIZATION,
+            seed: defaults::SEED,
         }
     }
 }
@@ -203,7 +204,7 @@ pub enum ScoreError {
 
 /// Derives a seed per purpose from names, so adding a ranker leaves others' intervals alone.
 fn seed_for(base: u64, parts: &[&str]) -> u64 {
-    let uid = crate::study::import::content_uid(parts);
+    let uid = crate::core::digest::content_uid(parts);
     base ^ u64::from_str_radix(&uid[..16], 16).unwrap_or(0)
 }
 
@@ -426,7 +427,7 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
     apply_holm(&mut comparisons);
     let mut cautions = vec![OFFLINE_CAUTION.to_string()];
     cautions.extend(baseline_note);
-    if scored_contexts.len() < 30 {
+    if scored_contexts.len() < defaults::FEW_CONTEXTS {
         cautions.push(format!(
             "Only {} contexts have a relevant item; intervals are wide and tests weak.",
             scored_contexts.len()
@@ -435,7 +436,7 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
     for (ri, r) in rankers.iter().enumerate() {
         for k in &settings.ks {
             if let Some(j) = r.metrics.get(&format!("judged@{k}"))
-                && j.mean < 0.9
+                && j.mean < defaults::COVERAGE_CAUTION
             {
                 // judged@k divides by min(k, list length): say so when lists are short.
                 let returned: Vec<usize> = scored_contexts

@@ -152,6 +152,19 @@ fn discriminative_power(per_ranker: &[Vec<f64>], resamples: usize, seed: u64) ->
     adjusted.iter().filter(|q| **q < 0.05).count() as f64 / adjusted.len() as f64
 }
 
+/// The trial as `plumbline trial` and the Scale trial screen show it: the study's saved
+/// collapse maps and the resampling defaults of `analysis::defaults`.
+pub fn of_study(study: &crate::study::Study) -> Result<Trial, crate::study::StudyError> {
+    let snapshot = study.snapshot()?;
+    let maps = study.collapse_maps()?;
+    Ok(build(
+        &snapshot,
+        &maps,
+        super::defaults::TRIAL_BOOTSTRAP,
+        super::defaults::SEED,
+    ))
+}
+
 /// Builds the trial over every scale with grades and every saved collapse map.
 pub fn build(
     snapshot: &Snapshot,

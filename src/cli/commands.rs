@@ -3,7 +3,7 @@
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
-use super::{Command, Failure, Format, ScreenName};
+use super::{Command, Failure, Format};
 use crate::analysis::{agreement, judgments::GradeSource, render, scoreboard, trial};
 use crate::core::metrics::{GainKind, Unjudged};
 use crate::study::Study;
@@ -11,8 +11,10 @@ use crate::study::import::{self, ImportSet, Source};
 
 pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
     match command {
-        None => crate::ui::run_workbench(None, ScreenName::Home),
-        Some(Command::Open { study, screen }) => crate::ui::run_workbench(Some(study), screen),
+        None => Ok(crate::ui::run_workbench(None, crate::ui::Screen::Home)?),
+        Some(Command::Open { study, screen }) => {
+            Ok(crate::ui::run_workbench(Some(study), screen.into())?)
+        }
         Some(Command::New { study }) => {
             Study::create(&study)?;
             println!("{}", study.display());
@@ -88,7 +90,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                     .busiest_scale()
                     .ok_or_else(|| Failure::input("the study has no scales"))?,
             };
-            let report = agreement::build(&snapshot, scale_index, None, 1000, 20_261_201);
+            let report = agreement::with_defaults(&snapshot, scale_index, None);
             print(match format {
                 Format::Text => render::agreement_text(&report),
                 Format::Csv => render::agreement_csv(&report),
@@ -96,10 +98,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             })
         }
         Some(Command::Trial { study, format }) => {
-            let study = open(&study)?;
-            let snapshot = study.snapshot()?;
-            let maps = study.collapse_maps()?;
-            let trial = trial::build(&snapshot, &maps, 2000, 20_261_201);
+            let trial = trial::of_study(&open(&study)?)?;
             print(match format {
                 Format::Text => render::trial_text(&trial),
                 Format::Csv => render::trial_csv(&trial),
@@ -141,7 +140,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                 if let Some(path) = report {
                     let agreement = snapshot
                         .scale_index(&board.scale)
-                        .map(|s| agreement::build(&snapshot, s, None, 1000, 20_261_201));
+                        .map(|s| agreement::with_defaults(&snapshot, s, None));
                     write(
                         &path,
                         crate::analysis::report::markdown(&board, agreement.as_ref()),

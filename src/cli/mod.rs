@@ -33,6 +33,7 @@ pub enum Format {
     Json,
 }
 
+/// `--screen` values; the workbench's own `ui::Screen` knows nothing of the command line.
 #[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
 pub enum ScreenName {
     Home,
@@ -42,6 +43,21 @@ pub enum ScreenName {
     Agreement,
     Scoreboard,
     Trial,
+}
+
+impl From<ScreenName> for crate::ui::Screen {
+    fn from(name: ScreenName) -> crate::ui::Screen {
+        use crate::ui::Screen;
+        match name {
+            ScreenName::Home => Screen::Home,
+            ScreenName::Catalog => Screen::Catalog,
+            ScreenName::Scales => Screen::Scales,
+            ScreenName::Desk => Screen::Desk,
+            ScreenName::Agreement => Screen::Agreement,
+            ScreenName::Scoreboard => Screen::Scoreboard,
+            ScreenName::Trial => Screen::Trial,
+        }
+    }
 }
 
 #[derive(Subcommand, Debug)]
@@ -79,7 +95,7 @@ pub enum Command {
         #[arg(long)]
         scale: Option<String>,
         /// Cut-offs, comma separated.
-        #[arg(long, value_delimiter = ',', default_value = "5,10,20")]
+        #[arg(long, value_delimiter = ',', default_values_t = crate::analysis::defaults::CUTOFFS)]
         k: Vec<usize>,
         #[arg(long, default_value = "exponential", value_parser = ["exponential", "linear"])]
         gain: String,
@@ -97,9 +113,9 @@ pub enum Command {
         /// How an unsettled pair's panel levels become one level.
         #[arg(long = "panel-grade", default_value = "lower-median", value_parser = ["lower-median", "upper-median", "mean-rounded"])]
         panel_grade: String,
-        #[arg(long, default_value_t = 2000)]
+        #[arg(long, default_value_t = crate::analysis::defaults::SCORE_BOOTSTRAP)]
         bootstrap: usize,
-        #[arg(long, default_value_t = 10_000)]
+        #[arg(long, default_value_t = crate::analysis::defaults::SCORE_RANDOMIZATION)]
         randomization: usize,
         #[arg(long, value_enum, default_value = "text")]
         format: Format,
@@ -180,6 +196,15 @@ impl Failure {
         Failure {
             code: 1,
             message: message.into(),
+        }
+    }
+}
+
+impl From<crate::ui::WorkbenchError> for Failure {
+    fn from(e: crate::ui::WorkbenchError) -> Failure {
+        Failure {
+            code: if e.is_bad_input() { 2 } else { 1 },
+            message: e.to_string(),
         }
     }
 }

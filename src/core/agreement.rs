@@ -6,6 +6,7 @@
 /// A q × q table of how often reviewer A gave level i while reviewer B gave level j.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Confusion {
+    /// Number of levels q; the table is q × q.
     pub levels: usize,
     /// Row-major counts, `counts[i * levels + j]`.
     pub counts: Vec<u64>,
@@ -23,10 +24,12 @@ impl Confusion {
         Confusion { levels, counts }
     }
 
+    /// Pairs where reviewer A gave level `row` and reviewer B gave level `col`.
     pub fn get(&self, row: usize, col: usize) -> u64 {
         self.counts[row * self.levels + col]
     }
 
+    /// Number of pairs graded by both reviewers.
     pub fn total(&self) -> u64 {
         self.counts.iter().sum()
     }
@@ -120,14 +123,19 @@ pub fn cohen_kappa_se(table: &Confusion) -> f64 {
 /// agreement (Feinstein & Cicchetti 1990).
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct PrevalenceBias {
+    /// The level both reviewers together used most; a tie goes to the lower level.
     pub dominant_level: u8,
     /// Share of all grades (both reviewers) at the dominant level.
     pub dominant_share: f64,
+    /// Share of pairs both at the dominant level minus share both elsewhere, in −1..1.
     pub prevalence_index: f64,
+    /// Reviewer A's share at the dominant level minus reviewer B's, in −1..1.
     pub bias_index: f64,
+    /// Prevalence- and bias-adjusted kappa (q·p_o − 1)/(q − 1), p_o from the unweighted table.
     pub pabak: f64,
 }
 
+/// Prevalence and bias indices and PABAK of `table` (see [`PrevalenceBias`]).
 pub fn prevalence_bias(table: &Confusion) -> PrevalenceBias {
     let q = table.levels;
     let (p, rows, cols) = table.proportions();
@@ -233,8 +241,11 @@ pub fn fleiss_kappa(levels: usize, units: &[Vec<Option<u8>>]) -> (f64, usize) {
 /// The level of measurement for Krippendorff's alpha.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum AlphaLevel {
+    /// Unordered categories: any two different levels disagree equally.
     Nominal,
+    /// Ranked levels: two levels are further apart the more grades fall between them.
     Ordinal,
+    /// Equally spaced numbers: the distance is the squared difference of the level values.
     Interval,
 }
 
@@ -355,20 +366,24 @@ pub fn landis_koch_band(value: f64) -> &'static str {
 /// Maps each level of a scale onto a coarser one (e.g. 0,1 → 0 and 2,3 → 1).
 #[derive(Debug, Clone, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub struct CollapseMap {
+    /// Name of the map, offered wherever a collapse can be chosen and written into reports.
     pub name: String,
     /// `targets[v]` is the coarse level of fine level v.
     pub targets: Vec<u8>,
 }
 
 impl CollapseMap {
+    /// Number of levels of the coarse scale: the largest target + 1 (0 for an empty map).
     pub fn coarse_levels(&self) -> usize {
         self.targets.iter().max().map_or(0, |m| *m as usize + 1)
     }
 
+    /// The coarse level of a fine grade (which must be below `targets.len()`); None stays None.
     pub fn apply(&self, level: Option<u8>) -> Option<u8> {
         level.map(|v| self.targets[v as usize])
     }
 
+    /// [`CollapseMap::apply`] to every grade of every unit.
     pub fn apply_units(&self, units: &[Vec<Option<u8>>]) -> Vec<Vec<Option<u8>>> {
         units
             .iter()

@@ -11,7 +11,9 @@ use super::metrics::discount;
 /// One unjudged pair with what decides its place in the queue.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Gap<C, I> {
+    /// The context in which the item has no grade yet.
     pub context: C,
+    /// The item that has no grade in this context.
     pub item: I,
     /// Largest minus smallest rank weight over the rankers (0 = placed alike everywhere).
     pub spread: f64,

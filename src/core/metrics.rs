@@ -15,6 +15,7 @@ pub enum GainKind {
 }
 
 impl GainKind {
+    /// Gain of `level` under this rule.
     pub fn gain(self, level: u8) -> f64 {
         match self {
             GainKind::Exponential => 2f64.powi(level as i32) - 1.0,
@@ -22,6 +23,7 @@ impl GainKind {
         }
     }
 
+    /// Reads the lowercase name ("exponential", "linear"); None for anything else.
     pub fn parse(text: &str) -> Option<GainKind> {
         match text {
             "exponential" => Some(GainKind::Exponential),
@@ -42,6 +44,7 @@ pub enum Unjudged {
 }
 
 impl Unjudged {
+    /// Reads the lowercase name ("zero", "condense"); None for anything else.
     pub fn parse(text: &str) -> Option<Unjudged> {
         match text {
             "zero" => Some(Unjudged::Zero),
@@ -109,12 +112,17 @@ pub fn err(levels: &[Option<u8>], max_level: u8, k: usize) -> f64 {
 /// The metric values of one ranked list at one cut-off.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct AtK {
+    /// Cumulative gain: the sum of the gains in the top k (unjudged positions add nothing).
     pub cg: f64,
+    /// Discounted cumulative gain at k: each gain times 1/log2(rank + 1).
     pub dcg: f64,
+    /// DCG@k of the ideal ordering of the context's judged items.
     pub idcg: f64,
     /// None when the context has no item above level 0.
     pub ndcg: Option<f64>,
+    /// Relevant items in the top k divided by k (a list shorter than k is not rescaled).
     pub precision: f64,
+    /// Expected reciprocal rank at k (Chapelle et al. 2009).
     pub err: f64,
     /// Share of the top k of the list as returned (before condensing) that is judged.
     pub judged: f64,
@@ -123,6 +131,7 @@ pub struct AtK {
 /// A ranked list resolved against the judgments: level per position, None = unjudged.
 #[derive(Debug, Clone)]
 pub struct JudgedList<'a> {
+    /// Level of each position in rank order; None = unjudged.
     pub levels: &'a [Option<u8>],
     /// Gains of every judged item of the context (for the ideal ordering), sorted descending.
     pub ideal_gains: &'a [f64],
@@ -133,10 +142,13 @@ pub struct JudgedList<'a> {
 /// Settings shared by every list in one scoring pass.
 #[derive(Debug, Clone)]
 pub struct ListSettings {
+    /// Gain of each level, indexed by level value (see [`gain_table`]).
     pub gains: Vec<f64>,
+    /// Highest level of the scale; ERR's stop probability is (2^level − 1) / 2^max_level.
     pub max_level: u8,
     /// Level from which an item counts as relevant for precision and RR (common practice: 1).
     pub relevant_from: u8,
+    /// Whether unjudged positions count as gain 0 or are dropped before cutting at k.
     pub unjudged: Unjudged,
 }
 

@@ -1,7 +1,10 @@
 //! Pure computation: metrics, agreement, statistics, pooling and scales.
 //! Nothing here touches the screen or the study file, so it is easy to test and reuse.
 
+#![warn(missing_docs)]
+
 pub mod agreement;
+pub mod digest;
 pub mod gaps;
 pub mod metrics;
 pub mod pooling;

@@ -41,12 +41,15 @@ pub fn gains_fall(gains: &[Option<f64>]) -> bool {
 /// One level of a scale.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Level {
+    /// The level's number, from 0; equal to its position in the scale.
     pub value: u8,
+    /// Short name of the level, shown wherever the level is named.
     pub label: String,
     /// The gain this level carries in DCG; None = the study's gain rule (2^v − 1 or v).
     pub gain: Option<f64>,
     /// Keyboard key that gives this level on the grading desk.
     pub key: String,
+    /// Guidance for reviewers on when to give this level, shown on the grading desk.
     pub rubric: String,
     /// `#rrggbb`, or empty for the default palette.
     pub colour: String,
@@ -55,19 +58,24 @@ pub struct Level {
 /// A graded relevance scale with levels 0..n−1.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Scale {
+    /// Name of the scale; unique within a study.
     pub name: String,
+    /// The levels in value order (level i has value i).
     pub levels: Vec<Level>,
 }
 
 impl Scale {
+    /// Highest level value: number of levels − 1 (0 for a scale without levels).
     pub fn max_level(&self) -> u8 {
         self.levels.len().saturating_sub(1) as u8
     }
 
+    /// Each level's own gain, None where the study's gain rule applies.
     pub fn gains(&self) -> Vec<Option<f64>> {
         self.levels.iter().map(|l| l.gain).collect()
     }
 
+    /// Label of level `value`, or "?" when the scale has no such level.
     pub fn label(&self, value: u8) -> &str {
         self.levels
             .get(value as usize)

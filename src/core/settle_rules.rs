@@ -16,6 +16,7 @@ pub enum SettleRule {
 }
 
 impl SettleRule {
+    /// Every rule, in the order their buttons are offered.
     pub const ALL: [SettleRule; 3] = [
         SettleRule::Median,
         SettleRule::Majority,

@@ -15,6 +15,7 @@ pub struct Rng {
 }
 
 impl Rng {
+    /// A generator whose state is expanded from `seed` by SplitMix64.
     pub fn new(seed: u64) -> Rng {
         // SplitMix64 expands the seed into a well-mixed state.
         let mut x = seed;
@@ -30,6 +31,7 @@ impl Rng {
         }
     }
 
+    /// Next 64 random bits (xoshiro256** step).
     pub fn next_u64(&mut self) -> u64 {
         let result = self.s[1].wrapping_mul(5).rotate_left(7).wrapping_mul(9);
         let t = self.s[1] << 17;
@@ -60,6 +62,7 @@ impl Rng {
     }
 }
 
+/// Arithmetic mean; NaN when `xs` is empty.
 pub fn mean(xs: &[f64]) -> f64 {
     if xs.is_empty() {
         return f64::NAN;
@@ -92,8 +95,11 @@ pub fn quantile_sorted(sorted: &[f64], q: f64) -> f64 {
 /// A mean with its two-sided percentile bootstrap interval.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct Interval {
+    /// Mean of the values themselves (not of the resamples).
     pub mean: f64,
+    /// The (1 − level)/2 quantile of the resampled means; NaN without values or resamples.
     pub low: f64,
+    /// The 1 − (1 − level)/2 quantile of the resampled means; NaN without values or resamples.
     pub high: f64,
 }
 
@@ -304,8 +310,11 @@ pub fn bootstrap_means(
 /// Result of a paired t-test.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct TTest {
+    /// t = mean / (sd / √n) of the differences; NaN with fewer than two or when all are zero.
     pub statistic: f64,
+    /// Degrees of freedom, n − 1.
     pub df: f64,
+    /// Two-sided p-value; NaN when the statistic is NaN.
     pub p: f64,
 }
 
@@ -461,6 +470,7 @@ pub fn kendall_tau_b(x: &[f64], y: &[f64]) -> f64 {
 
 /// z quantiles used by the sample-size estimate (two-sided α = 0.05, power 0.8).
 pub const Z_975: f64 = 1.959_963_984_540_054;
+/// Standard normal quantile at 0.8, for power 0.8.
 pub const Z_80: f64 = 0.841_621_233_572_914_3;
 
 /// How many contexts a paired comparison needs for 80 % power at two-sided α = 0.05,

@@ -53,7 +53,7 @@ pub fn build_demo_study(path: &Path) -> Result<(), StudyError> {
     let source = |name: &str| -> Result<Option<Source>, StudyError> {
         Source::from_path(&folder.join(name))
             .map(Some)
-            .map_err(|e| StudyError::Input(e.to_string()))
+            .map_err(|e| StudyError::input(e.to_string()))
     };
     let set = ImportSet {
         items: source("items.csv")?,

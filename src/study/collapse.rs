@@ -14,10 +14,10 @@ impl Study {
             |r| r.get(0),
         )?;
         if levels == 0 {
-            return Err(StudyError::Input(format!("unknown scale \"{scale}\"")));
+            return Err(StudyError::input(format!("unknown scale \"{scale}\"")));
         }
         if map.targets.len() as i64 != levels {
-            return Err(StudyError::Input(format!(
+            return Err(StudyError::input(format!(
                 "collapse map \"{}\" gives {} targets but scale \"{scale}\" has {levels} levels",
                 map.name,
                 map.targets.len()
@@ -25,7 +25,7 @@ impl Study {
         }
         let coarse = map.coarse_levels();
         if (0..coarse as u8).any(|v| !map.targets.contains(&v)) {
-            return Err(StudyError::Input(format!(
+            return Err(StudyError::input(format!(
                 "collapse map \"{}\" must use every coarse level from 0 to {}",
                 map.name,
                 coarse - 1

@@ -11,7 +11,8 @@ pub const MAX_COLUMNS: usize = 1_000;
 /// How many problems one file reports before stopping.
 pub const MAX_PROBLEMS: usize = 20;
 
-/// One problem in an input file; line and column are 1-based (0 = the whole file).
+/// One problem in an input file; line and column are 1-based (line 0 = the whole file;
+/// an empty file name = no file at all).
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Problem {
     pub file: String,
@@ -20,8 +21,23 @@ pub struct Problem {
     pub message: String,
 }
 
+impl Problem {
+    /// A problem with no file behind it (an unknown scale name, say).
+    pub fn general(message: impl Into<String>) -> Problem {
+        Problem {
+            file: String::new(),
+            line: 0,
+            column: 0,
+            message: message.into(),
+        }
+    }
+}
+
 impl fmt::Display for Problem {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        if self.file.is_empty() {
+            return f.write_str(&self.message);
+        }
         if self.line == 0 {
             // A problem with the whole file (unreadable, a folder, a pipe).
             return write!(f, "{}: {}", self.file, self.message);

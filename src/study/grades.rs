@@ -33,7 +33,7 @@ impl Study {
     /// Adds a reviewer (idempotent).
     pub fn add_reviewer(&self, reviewer: &str) -> Result<()> {
         if reviewer.trim().is_empty() {
-            return Err(StudyError::Input("a reviewer needs a name".into()));
+            return Err(StudyError::input("a reviewer needs a name"));
         }
         self.conn().execute(
             "INSERT OR IGNORE INTO reviewers(reviewer) VALUES (?1)",

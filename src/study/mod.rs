@@ -21,6 +21,8 @@ use std::time::Duration;
 
 use rusqlite::{Connection, OpenFlags, OptionalExtension, Transaction, TransactionBehavior};
 
+pub use csv_input::{Problem, Problems};
+
 /// How long one write waits for another program holding the study's write lock before
 /// it gives up, unless the caller sets its own limit (`Study::set_write_wait`).
 pub const DEFAULT_WRITE_WAIT: Duration = Duration::from_secs(60);
@@ -34,9 +36,10 @@ pub const DEFAULT_CACHE_KIB: i64 = -65_536;
 /// Why a study operation failed. `Input` and `Refused` are the user's to fix (exit 2).
 #[derive(Debug, thiserror::Error)]
 pub enum StudyError {
-    /// Bad input data; the message names file, line and column where there is one.
+    /// Bad input data: each problem names file, line and column where there is one
+    /// (kept apart, so a screen can list them without parsing text back).
     #[error("{0}")]
-    Input(String),
+    Input(Problems),
     /// The file cannot be used as a study; nothing was changed.
     #[error("{path}: {reason}")]
     Refused { path: String, reason: String },
@@ -53,6 +56,13 @@ pub enum StudyError {
     Sql(rusqlite::Error),
     #[error("{0}")]
     Io(#[from] std::io::Error),
+}
+
+impl StudyError {
+    /// Bad input that is not tied to a place in a file (an unknown scale, a missing name).
+    pub fn input(message: impl Into<String>) -> StudyError {
+        StudyError::Input(Problems(vec![Problem::general(message)]))
+    }
 }
 
 impl From<rusqlite::Error> for StudyError {
@@ -218,6 +228,19 @@ impl Study {
 
     pub fn is_read_only(&self) -> bool {
         self.read_only
+    }
+
+    /// Runs `read` inside one read transaction, so every query it makes (a snapshot and the
+    /// reads a view model adds to it) sees the same state of the file, even while another
+    /// program writes. Nothing may be written inside.
+    pub fn read_together<T>(&self, read: impl FnOnce(&Study) -> Result<T>) -> Result<T> {
+        if !self.conn.is_autocommit() {
+            return read(self);
+        }
+        let together = self.conn.unchecked_transaction()?;
+        let out = read(self);
+        drop(together); // a rollback: nothing was written
+        out
     }
 
     /// The raw connection, for the store's own modules.

@@ -144,7 +144,7 @@ impl Study {
                 .collect::<std::result::Result<_, _>>()?
         };
         if !panel.iter().any(|r| r == reviewer) {
-            return Err(StudyError::Input(format!(
+            return Err(StudyError::input(format!(
                 "{reviewer} is not on the panel; add the reviewer first"
             )));
         }

@@ -71,7 +71,7 @@ fn refuse_problems(scale: &Scale) -> Result<()> {
     if problems.is_empty() {
         Ok(())
     } else {
-        Err(StudyError::Input(format!(
+        Err(StudyError::input(format!(
             "scale \"{}\": {}",
             scale.name,
             problems.join("; ")
@@ -105,7 +105,7 @@ impl Study {
     pub fn create_scale(&mut self, scale: &Scale) -> Result<()> {
         refuse_problems(scale)?;
         if self.scale_names()?.contains(&scale.name) {
-            return Err(StudyError::Input(format!(
+            return Err(StudyError::input(format!(
                 "a scale named \"{}\" already exists; choose another name",
                 scale.name
             )));
@@ -197,7 +197,7 @@ impl Study {
     /// Makes `scale` the one the grading desk grades on.
     pub fn set_active_scale(&self, scale: &str) -> Result<()> {
         if !self.scale_names()?.iter().any(|s| s == scale) {
-            return Err(StudyError::Input(format!("unknown scale \"{scale}\"")));
+            return Err(StudyError::input(format!("unknown scale \"{scale}\"")));
         }
         self.set_setting(ACTIVE_SCALE, scale)
     }
@@ -216,12 +216,12 @@ impl Study {
         let known = self.scale_names()?;
         let distinct: HashSet<&String> = scales.iter().collect();
         if distinct.len() < 2 || distinct.len() != scales.len() {
-            return Err(StudyError::Input(
-                "a pilot needs two or more different scales".into(),
+            return Err(StudyError::input(
+                "a pilot needs two or more different scales",
             ));
         }
         if let Some(s) = scales.iter().find(|s| !known.contains(s)) {
-            return Err(StudyError::Input(format!("unknown scale \"{s}\"")));
+            return Err(StudyError::input(format!("unknown scale \"{s}\"")));
         }
         let json = serde_json::to_string(scales).unwrap_or_default();
         self.set_setting(PILOT_SCALES, &json)

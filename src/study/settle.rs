@@ -88,8 +88,8 @@ impl Study {
             return Err(StudyError::ReadOnly);
         }
         if settled_by.trim().is_empty() {
-            return Err(StudyError::Input(
-                "a settlement needs the name of who settled it".into(),
+            return Err(StudyError::input(
+                "a settlement needs the name of who settled it",
             ));
         }
         Ok(())
@@ -111,7 +111,7 @@ impl Study {
             |r| r.get(0),
         )?;
         if levels == 0 {
-            return Err(StudyError::Input(format!(
+            return Err(StudyError::input(format!(
                 "scale \"{scale}\" has no level {value}"
             )));
         }

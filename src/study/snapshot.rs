@@ -50,6 +50,11 @@ pub struct Snapshot {
     /// The baseline the study stores (`settings.baseline`), which may name a ranker
     /// that no longer exists; `analysis::scoreboard::resolve_baseline` decides.
     pub stored_baseline: Option<String>,
+    /// The scale the study names as active (`settings.active_scale`), if it still exists
+    /// among `scales`; `active_scale_index` applies the fallback.
+    pub stored_active_scale: Option<String>,
+    /// The pooling depth k the study keeps (`settings.pool_depth`).
+    pub pool_depth: usize,
     pub items: Vec<ItemInfo>,
     pub contexts: Vec<ContextInfo>,
     pub rankers: Vec<String>,
@@ -62,6 +67,16 @@ pub struct Snapshot {
 }
 
 impl Snapshot {
+    /// The scale screens open on: the stored active scale, else the one with the most
+    /// grades, else the first (one rule for the desk, Home, Scales and Agreement).
+    pub fn active_scale_index(&self) -> usize {
+        self.stored_active_scale
+            .as_deref()
+            .and_then(|name| self.scale_index(name))
+            .or_else(|| self.busiest_scale())
+            .unwrap_or(0)
+    }
+
     pub fn scale_index(&self, name: &str) -> Option<usize> {
         self.scales.iter().position(|s| s.name == name)
     }
@@ -121,7 +136,12 @@ impl Study {
     pub fn snapshot(&self) -> Result<Snapshot> {
         // One read transaction: every query below sees the same state of the file, even
         // while another process adds reviewers or grades (WAL readers see a fixed point).
-        let conn = &self.conn().unchecked_transaction()?;
+        // Inside `read_together` the caller's transaction already holds that point.
+        let _own = match self.conn().is_autocommit() {
+            true => Some(self.conn().unchecked_transaction()?),
+            false => None,
+        };
+        let conn = self.conn();
         let items: Vec<ItemInfo> = conn
             .prepare("SELECT item_id, title, category, is_new FROM items ORDER BY item_id")?
             .query_map([], |r| {
@@ -251,6 +271,8 @@ impl Study {
         Ok(Snapshot {
             name: self.name(),
             stored_baseline: self.setting("baseline")?.filter(|b| !b.is_empty()),
+            stored_active_scale: self.setting(super::scales::ACTIVE_SCALE)?,
+            pool_depth: self.pool_depth()?,
             items,
             contexts,
             rankers,

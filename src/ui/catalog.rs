@@ -6,8 +6,9 @@ use std::sync::{Arc, Mutex};
 
 use super::desk::new_badge;
 use super::image_cache::{self, ImageCache};
-use super::jobs::Pending;
+use super::jobs::{JobResult, Task};
 use super::study_picker::block_on;
+use crate::study::Problem;
 use crate::study::Study;
 use crate::study::import::{FileReport, ImportSet, Source, import};
 use crate::study::queues::{ContextCard, ItemCard};
@@ -35,12 +36,12 @@ pub struct CatalogModel {
     context_text: Vec<String>,
 }
 
-pub fn load(path: &Path) -> Result<CatalogModel, String> {
-    let err = |e: crate::study::StudyError| e.to_string();
-    let study = Study::open(path).map_err(err)?;
-    let snapshot = study.snapshot().map_err(err)?;
-    let items = study.item_cards().map_err(err)?;
-    let contexts = study.context_cards().map_err(err)?;
+/// Reads the catalog; runs on a job thread.
+pub fn load(path: &Path) -> JobResult<CatalogModel> {
+    let study = Study::open(path)?;
+    let snapshot = study.snapshot()?;
+    let items = study.item_cards()?;
+    let contexts = study.context_cards()?;
     let rankers = snapshot
         .rankers
         .iter()
@@ -70,7 +71,7 @@ pub fn load(path: &Path) -> Result<CatalogModel, String> {
         items,
         contexts,
         rankers,
-        catalog_dir: study.catalog_dir().map_err(err)?,
+        catalog_dir: study.catalog_dir()?,
         item_text,
         context_text,
     })
@@ -84,68 +85,19 @@ enum Table {
     Rankers,
 }
 
-/// One problem from a failed import.
-#[derive(Debug, Clone, PartialEq)]
-pub struct ImportProblem {
-    pub file: String,
-    pub line: String,
-    pub column: String,
-    pub message: String,
-}
-
-/// Splits `FILE:LINE:COLUMN: message` lines; other lines keep only a message.
-pub fn parse_problems(text: &str) -> Vec<ImportProblem> {
-    text.lines()
-        .filter(|l| !l.trim().is_empty())
-        .map(|line| {
-            let mut parts = line.splitn(4, ':');
-            let (f, l, c, m) = (parts.next(), parts.next(), parts.next(), parts.next());
-            match (f, l, c, m) {
-                (Some(f), Some(l), Some(c), Some(m))
-                    if l.trim().parse::<u64>().is_ok() && c.trim().parse::<u64>().is_ok() =>
-                {
-                    ImportProblem {
-                        file: f.to_string(),
-                        line: l.trim().to_string(),
-                        column: c.trim().to_string(),
-                        message: m.trim().to_string(),
-                    }
-                }
-                _ => ImportProblem {
-                    file: String::new(),
-                    line: String::new(),
-                    column: String::new(),
-                    message: line.to_string(),
-                },
-            }
-        })
-        .collect()
-}
-
 const KINDS: [&str; 5] = ["items", "contexts", "rankings", "scales", "grades"];
 
 /// Shared between the import thread and the screen: (fraction, what is happening).
 type Progress = Arc<Mutex<(f32, String)>>;
 
 /// The import running on its thread: per-file reports, or every problem found.
-type ImportJob = Pending<Result<Vec<FileReport>, Vec<ImportProblem>>>;
-
-impl<M> super::jobs::JobOutput for Result<M, Vec<ImportProblem>> {
-    fn from_failure(message: String) -> Self {
-        Err(vec![ImportProblem {
-            file: String::new(),
-            line: String::new(),
-            column: String::new(),
-            message,
-        }])
-    }
-}
+type ImportJob = Task<JobResult<Vec<FileReport>>>;
 
 fn run_import(
     path: &Path,
     files: [Option<PathBuf>; 5],
     progress: &Progress,
-) -> Result<Vec<FileReport>, Vec<ImportProblem>> {
+) -> JobResult<Vec<FileReport>> {
     let set_progress = |f: f32, text: String| {
         if let Ok(mut p) = progress.lock() {
             *p = (f, text);
@@ -157,7 +109,7 @@ fn run_import(
     for (k, file) in files.iter().enumerate() {
         if let Some(file) = file {
             set_progress(0.5 * read / total, format!("reading {}", file.display()));
-            sources[k] = Some(Source::from_path(file).map_err(|e| parse_problems(&e.to_string()))?);
+            sources[k] = Some(Source::from_path(file)?);
             read += 1.0;
         }
     }
@@ -173,46 +125,69 @@ fn run_import(
         scales,
         grades,
     };
-    let mut study = Study::open(path).map_err(|e| parse_problems(&e.to_string()))?;
-    let reports = import(&mut study, &set).map_err(|e| parse_problems(&e.to_string()))?;
+    let mut study = Study::open(path)?;
+    let reports = import(&mut study, &set)?;
     set_progress(1.0, "done".into());
     Ok(reports)
 }
 
 /// The Catalog screen's state.
-#[derive(Default)]
 pub struct Catalog {
-    pub model: Option<Result<CatalogModel, String>>,
-    loading: Option<Pending<Result<CatalogModel, String>>>,
+    pub model: Option<JobResult<CatalogModel>>,
+    loading: Task<JobResult<CatalogModel>>,
     table: Table,
     search: String,
     filtered_for: Option<(String, Table)>,
     filtered: Vec<usize>,
     images: Option<ImageCache>,
     files: [String; 5],
-    dialogs: [Option<Pending<Option<PathBuf>>>; 5],
-    importing: Option<(ImportJob, Progress)>,
+    dialogs: [Task<Option<PathBuf>>; 5],
+    importing: ImportJob,
+    progress: Progress,
     pub reports: Vec<FileReport>,
-    pub problems: Vec<ImportProblem>,
+    /// Every problem of the last failed import, by file, line and column.
+    pub problems: Vec<Problem>,
     /// Set when an import changed the study; the workbench reloads the other screens.
     pub study_changed: bool,
     pub merge: super::merge_panel::MergePanel,
 }
 
+impl Default for Catalog {
+    fn default() -> Catalog {
+        Catalog {
+            model: None,
+            loading: Task::named("catalog-load"),
+            table: Table::default(),
+            search: String::new(),
+            filtered_for: None,
+            filtered: Vec::new(),
+            images: None,
+            files: Default::default(),
+            dialogs: std::array::from_fn(|_| Task::named("csv-dialog")),
+            importing: Task::named("catalog-import"),
+            progress: Progress::default(),
+            reports: Vec::new(),
+            problems: Vec::new(),
+            study_changed: false,
+            merge: Default::default(),
+        }
+    }
+}
+
 impl Catalog {
+    /// Reads the catalog again in the background; the old tables stay until it arrives.
     pub fn reload(&mut self, ctx: &egui::Context, path: &Path) {
         let p = path.to_path_buf();
-        self.loading = Some(Pending::spawn(ctx, move || load(&p)));
+        self.loading.start(ctx, move || load(&p));
         self.filtered_for = None;
     }
 
     pub fn ui(&mut self, ui: &mut egui::Ui, path: &Path) {
         let ctx = ui.ctx().clone();
-        if self.model.is_none() && self.loading.is_none() {
+        if self.model.is_none() && !self.loading.is_running() {
             self.reload(&ctx, path);
         }
-        if let Some(result) = self.loading.as_ref().and_then(Pending::poll) {
-            self.loading = None;
+        if let Some(result) = self.loading.poll() {
             if let Ok(m) = &result {
                 let dir = m.catalog_dir.clone();
                 self.images = Some(ImageCache::new(dir, 400));
@@ -236,7 +211,7 @@ impl Catalog {
                 return;
             }
             Some(Err(e)) => {
-                ui.colored_label(ui.visuals().error_fg_color, e);
+                ui.colored_label(ui.visuals().error_fg_color, e.to_string());
                 return;
             }
             Some(Ok(_)) => {}
@@ -304,17 +279,13 @@ impl Catalog {
     fn import_panel(&mut self, ui: &mut egui::Ui, path: &Path) {
         let ctx = ui.ctx().clone();
         for k in 0..5 {
-            if let Some(picked) = self.dialogs[k].as_ref().and_then(Pending::poll) {
-                self.dialogs[k] = None;
+            if let Some(picked) = self.dialogs[k].poll() {
                 if let Some(p) = picked {
                     self.files[k] = p.display().to_string();
                 }
             }
         }
-        if let Some((job, _)) = &self.importing
-            && let Some(result) = job.poll()
-        {
-            self.importing = None;
+        if let Some(result) = self.importing.poll() {
             match result {
                 Ok(reports) => {
                     self.reports = reports;
@@ -322,9 +293,9 @@ impl Catalog {
                     self.study_changed = true;
                     self.reload(&ctx, path);
                 }
-                Err(problems) => {
+                Err(error) => {
                     self.reports.clear();
-                    self.problems = problems;
+                    self.problems = error.problems();
                 }
             }
         }
@@ -344,17 +315,17 @@ impl Catalog {
                             .labelled_by(label.id);
                             if ui
                                 .add_enabled(
-                                    self.dialogs[k].is_none(),
+                                    !self.dialogs[k].is_running(),
                                     egui::Button::new(format!("Choose {kind}.csv…")),
                                 )
                                 .clicked()
                             {
-                                self.dialogs[k] = Some(Pending::spawn(&ctx, || {
+                                self.dialogs[k].start(&ctx, || {
                                     let dialog = rfd::AsyncFileDialog::new()
                                         .add_filter("CSV", &["csv"])
                                         .pick_file();
                                     block_on(dialog).map(|h| h.path().to_path_buf())
-                                }));
+                                });
                             }
                             ui.end_row();
                         }
@@ -366,19 +337,20 @@ impl Catalog {
                 let any = chosen.iter().any(Option::is_some);
                 ui.horizontal(|ui| {
                     if ui
-                        .add_enabled(any && self.importing.is_none(), egui::Button::new("Import"))
+                        .add_enabled(
+                            any && !self.importing.is_running(),
+                            egui::Button::new("Import"),
+                        )
                         .clicked()
                     {
-                        let progress: Progress = Arc::new(Mutex::new((0.0, "starting".into())));
+                        self.progress = Arc::new(Mutex::new((0.0, "starting".into())));
                         let p = path.to_path_buf();
-                        let shared = progress.clone();
-                        self.importing = Some((
-                            Pending::spawn(&ctx, move || run_import(&p, chosen, &shared)),
-                            progress,
-                        ));
+                        let shared = self.progress.clone();
+                        self.importing
+                            .start(&ctx, move || run_import(&p, chosen, &shared));
                     }
-                    if let Some((_, progress)) = &self.importing {
-                        let (f, text) = progress.lock().map(|p| p.clone()).unwrap_or_default();
+                    if self.importing.is_running() {
+                        let (f, text) = self.progress.lock().map(|p| p.clone()).unwrap_or_default();
                         ui.add(
                             egui::ProgressBar::new(f)
                                 .animate(true)
@@ -412,9 +384,13 @@ impl Catalog {
                                     ui.strong("Problem");
                                     ui.end_row();
                                     for p in &self.problems {
+                                        let (line, column) = match p.line {
+                                            0 => (String::new(), String::new()),
+                                            l => (l.to_string(), p.column.to_string()),
+                                        };
                                         ui.label(&p.file);
-                                        ui.label(&p.line);
-                                        ui.label(&p.column);
+                                        ui.label(line);
+                                        ui.label(column);
                                         ui.label(&p.message);
                                         ui.end_row();
                                     }
@@ -556,23 +532,5 @@ fn rankers_table(ui: &mut egui::Ui, model: &CatalogModel) {
         });
     if model.rankers.is_empty() {
         ui.weak("No rankers yet: import rankings.csv.");
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn problems_split_into_file_line_column() {
-        let p = parse_problems(
-            "rankings.csv:6:4: rank must be a positive integer, got \"x\"\nsomething else",
-        );
-        assert_eq!(p[0].file, "rankings.csv");
-        assert_eq!(p[0].line, "6");
-        assert_eq!(p[0].column, "4");
-        assert_eq!(p[0].message, "rank must be a positive integer, got \"x\"");
-        assert_eq!(p[1].file, "");
-        assert_eq!(p[1].message, "something else");
     }
 }

@@ -1,105 +1,27 @@
-//! Home: what the study holds, how far the pool is graded and what to do next.
+//! Home: draws `analysis::home::HomeModel` (what the study holds, how far the pool is
+//! graded and what to do next).
 
-use std::collections::HashSet;
 use std::path::Path;
 
-use crate::study::{Study, StudyCounts};
+use super::jobs::JobResult;
+pub use crate::analysis::home::HomeModel;
+use crate::analysis::home::{self, next_step};
+use crate::study::Study;
 
-/// How much of one ranker's top k has a grade on the active scale.
-#[derive(Debug, Clone, Default, PartialEq)]
-pub struct Coverage {
-    pub ranker: String,
-    pub graded: usize,
-    pub pairs: usize,
-}
-
-/// One reviewer's standing on the active scale.
-#[derive(Debug, Clone, Default, PartialEq)]
-pub struct ReviewerProgress {
-    pub reviewer: String,
-    /// Grades given on the active scale (queued or not).
-    pub grades: usize,
-    /// (done, total) of the reviewer's queue, once a queue exists.
-    pub queue: Option<(u64, u64)>,
-}
-
-/// Everything Home shows, computed off the UI thread.
-#[derive(Debug, Clone, Default)]
-pub struct HomeModel {
-    pub name: String,
-    pub counts: StudyCounts,
-    pub scale: Option<String>,
-    pub depth: usize,
-    pub pool_size: usize,
-    pub pool_graded: usize,
-    pub coverage: Vec<Coverage>,
-    pub reviewers: Vec<ReviewerProgress>,
-    pub read_only: bool,
-}
-
-pub fn load(path: &Path) -> Result<HomeModel, String> {
-    let err = |e: crate::study::StudyError| e.to_string();
-    let study = Study::open(path).map_err(err)?;
-    let snapshot = study.snapshot().map_err(err)?;
-    let depth = study.pool_depth().map_err(err)?;
-    let scale = (!snapshot.scales.is_empty()).then(|| super::desk::active_scale(&study, &snapshot));
-    let graded: HashSet<(u32, u32)> = snapshot
-        .grades
-        .iter()
-        .filter(|g| Some(g.scale as usize) == scale && g.value.is_some())
-        .map(|g| (g.context, g.item))
-        .collect();
-    let mut pool: HashSet<(u32, u32)> = HashSet::new();
-    let mut coverage = Vec::new();
-    for (r, lists) in snapshot.lists.iter().enumerate() {
-        let mut cov = Coverage {
-            ranker: snapshot.rankers[r].clone(),
-            ..Coverage::default()
-        };
-        for (c, list) in lists.iter().enumerate() {
-            for &item in list.iter().take(depth) {
-                let pair = (c as u32, item);
-                pool.insert(pair);
-                cov.pairs += 1;
-                cov.graded += graded.contains(&pair) as usize;
-            }
-        }
-        coverage.push(cov);
-    }
-    let pool_graded = pool.iter().filter(|p| graded.contains(p)).count();
-    let scale_name = scale.map(|s| snapshot.scales[s].name.clone());
-    let queues = match &scale_name {
-        Some(s) => study.queue_progress(s).map_err(err)?,
+/// Reads the study and builds Home's model; runs on a job thread.
+pub fn load(path: &Path) -> JobResult<HomeModel> {
+    let study = Study::open(path)?;
+    let snapshot = study.snapshot()?;
+    let queues = match snapshot.scales.get(snapshot.active_scale_index()) {
+        Some(scale) => study.queue_progress(&scale.name)?,
         None => Vec::new(),
     };
-    let reviewers = snapshot
-        .reviewers
-        .iter()
-        .enumerate()
-        .map(|(r, name)| ReviewerProgress {
-            reviewer: name.clone(),
-            grades: snapshot
-                .grades
-                .iter()
-                .filter(|g| g.reviewer as usize == r && Some(g.scale as usize) == scale)
-                .count(),
-            queue: queues
-                .iter()
-                .find(|q| &q.reviewer == name)
-                .map(|q| (q.done, q.total)),
-        })
-        .collect();
-    Ok(HomeModel {
-        name: study.name(),
-        counts: study.counts().map_err(err)?,
-        scale: scale_name,
-        depth,
-        pool_size: pool.len(),
-        pool_graded,
-        coverage,
-        reviewers,
-        read_only: study.is_read_only(),
-    })
+    Ok(home::build(
+        &snapshot,
+        &queues,
+        study.counts()?,
+        study.is_read_only(),
+    ))
 }
 
 fn fraction_bar(ui: &mut egui::Ui, done: usize, total: usize, width: f32) {
@@ -197,35 +119,4 @@ fn body(ui: &mut egui::Ui, model: &HomeModel) {
             ui.weak("No reviewers yet: sign in on the Grading desk.");
         }
     });
-}
-
-fn next_step(model: &HomeModel) -> String {
-    let c = &model.counts;
-    if c.items == 0 || c.contexts == 0 {
-        "Import a catalog on the Catalog screen: items.csv and contexts.csv.".into()
-    } else if c.rankers == 0 {
-        "Import the rankers' lists on the Catalog screen: rankings.csv.".into()
-    } else if c.scales == 0 {
-        "Define a graded scale: import scales.csv on the Catalog screen.".into()
-    } else if let Some(r) = model
-        .reviewers
-        .iter()
-        .find(|r| r.queue.is_some_and(|(done, total)| done < total))
-        .filter(|_| model.pool_graded == model.pool_size)
-    {
-        let (done, total) = r.queue.unwrap_or_default();
-        format!(
-            "Every pool pair has a grade; queues are still open ({} has {} of {total} to go). Shared pairs graded by everyone make agreement measurable: keep grading on the Grading desk.",
-            r.reviewer,
-            total - done
-        )
-    } else if model.pool_graded < model.pool_size {
-        format!(
-            "Grade the pool on the Grading desk: {} of {} pairs still have no grade.",
-            model.pool_size - model.pool_graded,
-            model.pool_size
-        )
-    } else {
-        "The pool is graded: check agreement and settle disagreements on the Agreement screen, then compare the rankers on the Scoreboard.".into()
-    }
 }

@@ -32,14 +32,57 @@ pub enum Picture {
     Loading,
     Ready(egui::TextureHandle),
     /// Why there is no picture, in words for the placeholder.
-    Missing(String),
+    Missing(PictureProblem),
 }
 
 type Key = (String, u32);
 
+/// Why an item has no picture; the words go on the placeholder.
+#[derive(Debug, Clone, thiserror::Error)]
+pub enum PictureProblem {
+    /// items.csv names no image for the item.
+    #[error("no image given for this item")]
+    NotGiven,
+    /// An absolute path, `..` or a link pointing out of the catalog folder.
+    #[error("image path {0} leaves the catalog folder; refused")]
+    LeavesFolder(String),
+    /// The catalog folder itself cannot be read.
+    #[error("catalog folder {folder} unavailable: {why}")]
+    NoFolder {
+        /// The folder the study points at.
+        folder: String,
+        /// What the system said.
+        why: String,
+    },
+    /// The named file is not there.
+    #[error("image file missing: {0}")]
+    FileMissing(String),
+    /// A FIFO, a device, a folder: reading it could block or never end.
+    #[error("image {0} is not a regular file; refused")]
+    NotAFile(String),
+    /// The file could not be opened or read.
+    #[error("image cannot be read: {0}")]
+    Unreadable(String),
+    /// Over the size limits (bytes, pixels or decoded memory).
+    #[error("image too large ({0})")]
+    TooLarge(String),
+    /// Not PNG or JPEG.
+    #[error("image format not supported")]
+    Unsupported,
+    /// The decoder gave up on the contents.
+    #[error("image is broken: {0}")]
+    Broken(String),
+    /// Decoding took longer than the time limit.
+    #[error("the image took longer than {0} s to read; skipped")]
+    TooSlow(u64),
+    /// The study names no catalog folder.
+    #[error("the study has no catalog folder")]
+    NoCatalog,
+}
+
 struct Decoded {
     key: Key,
-    result: Result<egui::ColorImage, String>,
+    result: Result<egui::ColorImage, PictureProblem>,
 }
 
 /// A bounded cache of decoded item images for one catalog folder.
@@ -161,10 +204,7 @@ impl ImageCache {
             if self.entries.contains_key(&key) {
                 self.entries.insert(
                     key,
-                    Picture::Missing(format!(
-                        "the image took longer than {} s to read; skipped",
-                        DECODE_TIME_LIMIT.as_secs()
-                    )),
+                    Picture::Missing(PictureProblem::TooSlow(DECODE_TIME_LIMIT.as_secs())),
                 );
             }
             // Its worker may be stuck for good: let a fresh one take its place.
@@ -184,7 +224,7 @@ impl ImageCache {
             return p;
         }
         let picture = match self.root.as_deref() {
-            None => Picture::Missing("the study has no catalog folder".into()),
+            None => Picture::Missing(PictureProblem::NoCatalog),
             Some(root) => match resolve(root, relative) {
                 Err(why) => Picture::Missing(why),
                 Ok(path) => {
@@ -222,61 +262,58 @@ impl ImageCache {
 
 /// Resolves an image path from items.csv inside the catalog folder; anything that
 /// would leave the folder (absolute paths, `..`, links pointing out) is refused.
-pub fn resolve(root: &Path, relative: &str) -> Result<PathBuf, String> {
+pub fn resolve(root: &Path, relative: &str) -> Result<PathBuf, PictureProblem> {
     let relative = relative.trim();
     if relative.is_empty() {
-        return Err("no image given for this item".into());
+        return Err(PictureProblem::NotGiven);
     }
     let rel = Path::new(relative);
     if rel
         .components()
         .any(|c| !matches!(c, Component::Normal(_) | Component::CurDir))
     {
-        return Err(format!(
-            "image path {relative} leaves the catalog folder; refused"
-        ));
+        return Err(PictureProblem::LeavesFolder(relative.to_string()));
     }
-    let root = root
-        .canonicalize()
-        .map_err(|e| format!("catalog folder {} unavailable: {e}", root.display()))?;
+    let root = root.canonicalize().map_err(|e| PictureProblem::NoFolder {
+        folder: root.display().to_string(),
+        why: e.to_string(),
+    })?;
     let full = root.join(rel);
     let real = full
         .canonicalize()
-        .map_err(|_| format!("image file missing: {relative}"))?;
+        .map_err(|_| PictureProblem::FileMissing(relative.to_string()))?;
     if !real.starts_with(&root) {
-        return Err(format!(
-            "image path {relative} leaves the catalog folder; refused"
-        ));
+        return Err(PictureProblem::LeavesFolder(relative.to_string()));
     }
     if !std::fs::metadata(&real).is_ok_and(|m| m.is_file()) {
-        return Err(format!("image {relative} is not a regular file; refused"));
+        return Err(PictureProblem::NotAFile(relative.to_string()));
     }
     Ok(real)
 }
 
 /// Decodes under the limits and scales down to fit `size` × `size` pixels.
-pub fn decode_scaled(path: &Path, size: u32) -> Result<egui::ColorImage, String> {
+pub fn decode_scaled(path: &Path, size: u32) -> Result<egui::ColorImage, PictureProblem> {
     // Checked again right before opening: `open` itself blocks on a FIFO.
     if !std::fs::metadata(path).is_ok_and(|m| m.is_file()) {
-        return Err("image is not a regular file; refused".into());
+        return Err(PictureProblem::NotAFile(path.display().to_string()));
     }
-    let file = std::fs::File::open(path).map_err(|e| format!("image cannot be opened: {e}"))?;
+    let file = std::fs::File::open(path).map_err(|e| PictureProblem::Unreadable(e.to_string()))?;
     if !file.metadata().is_ok_and(|m| m.is_file()) {
-        return Err("image is not a regular file; refused".into());
+        return Err(PictureProblem::NotAFile(path.display().to_string()));
     }
     let mut bytes = Vec::new();
     file.take(MAX_FILE_BYTES + 1)
         .read_to_end(&mut bytes)
-        .map_err(|e| format!("image cannot be read: {e}"))?;
+        .map_err(|e| PictureProblem::Unreadable(e.to_string()))?;
     if bytes.len() as u64 > MAX_FILE_BYTES {
-        return Err(format!(
-            "image file too large (over {} MiB)",
+        return Err(PictureProblem::TooLarge(format!(
+            "over {} MiB",
             MAX_FILE_BYTES >> 20
-        ));
+        )));
     }
     let mut reader = image::ImageReader::new(std::io::Cursor::new(bytes))
         .with_guessed_format()
-        .map_err(|e| format!("image cannot be read: {e}"))?;
+        .map_err(|e| PictureProblem::Unreadable(e.to_string()))?;
     let mut limits = image::Limits::default();
     limits.max_image_width = Some(MAX_SIDE);
     limits.max_image_height = Some(MAX_SIDE);
@@ -284,10 +321,10 @@ pub fn decode_scaled(path: &Path, size: u32) -> Result<egui::ColorImage, String>
     reader.limits(limits);
     let image = reader.decode().map_err(|e| match e {
         image::ImageError::Limits(_) => {
-            format!("image too large (over {MAX_SIDE} × {MAX_SIDE} pixels or 256 MiB)")
+            PictureProblem::TooLarge(format!("over {MAX_SIDE} × {MAX_SIDE} pixels or 256 MiB"))
         }
-        image::ImageError::Unsupported(_) => "image format not supported".to_string(),
-        other => format!("image is broken: {other}"),
+        image::ImageError::Unsupported(_) => PictureProblem::Unsupported,
+        other => PictureProblem::Broken(other.to_string()),
     })?;
     let size = size.max(1);
     let image = if image.width() > size || image.height() > size {
@@ -362,21 +399,32 @@ mod tests {
         std::fs::write(root.join("images/a.png"), b"x").unwrap();
         assert!(resolve(&root, "images/a.png").is_ok());
         for bad in ["../secret.png", "images/../../secret.png", "/etc/passwd"] {
-            let err = resolve(&root, bad).unwrap_err();
+            let err = resolve(&root, bad).unwrap_err().to_string();
             assert!(err.contains("refused"), "{bad}: {err}");
         }
         #[cfg(unix)]
         {
             std::os::unix::fs::symlink(dir.path().join("secret.png"), root.join("link.png"))
                 .unwrap();
-            assert!(resolve(&root, "link.png").unwrap_err().contains("refused"));
+            assert!(
+                resolve(&root, "link.png")
+                    .unwrap_err()
+                    .to_string()
+                    .contains("refused")
+            );
         }
         assert!(
             resolve(&root, "images/none.png")
                 .unwrap_err()
+                .to_string()
                 .contains("missing")
         );
-        assert!(resolve(&root, "").unwrap_err().contains("no image"));
+        assert!(
+            resolve(&root, "")
+                .unwrap_err()
+                .to_string()
+                .contains("no image")
+        );
     }
 
     /// Promise: a FIFO named like a picture never blocks a decoder (it would wait for a
@@ -390,7 +438,7 @@ mod tests {
             .status()
             .unwrap();
         assert!(made.success());
-        let err = resolve(dir.path(), "x.png").unwrap_err();
+        let err = resolve(dir.path(), "x.png").unwrap_err().to_string();
         assert!(err.contains("not a regular file"), "{err}");
         let (done, finished) = channel();
         let path = fifo.clone();
@@ -400,7 +448,12 @@ mod tests {
         let result = finished
             .recv_timeout(Duration::from_secs(10))
             .expect("decode_scaled returned instead of blocking on the FIFO");
-        assert!(result.unwrap_err().contains("not a regular file"));
+        assert!(
+            result
+                .unwrap_err()
+                .to_string()
+                .contains("not a regular file")
+        );
     }
 
     /// A PNG signature and an IHDR chunk declaring the given size (8-bit RGB), with its CRC.
@@ -432,7 +485,7 @@ mod tests {
         let dir = tempfile::tempdir().unwrap();
         let broken = dir.path().join("broken.png");
         std::fs::write(&broken, b"\x89PNG\r\n\x1a\nnot really").unwrap();
-        let err = decode_scaled(&broken, 64).unwrap_err();
+        let err = decode_scaled(&broken, 64).unwrap_err().to_string();
         assert!(
             err.contains("broken") || err.contains("not supported"),
             "{err}"
@@ -440,13 +493,23 @@ mod tests {
 
         let big = dir.path().join("big.png");
         image::RgbImage::new(MAX_SIDE + 1, 1).save(&big).unwrap();
-        assert!(decode_scaled(&big, 64).unwrap_err().contains("too large"));
+        assert!(
+            decode_scaled(&big, 64)
+                .unwrap_err()
+                .to_string()
+                .contains("too large")
+        );
 
         // A decompression bomb: a tiny file whose header declares 100 000 × 100 000
         // pixels. The limits refuse it before any pixel buffer is allocated.
         let bomb = dir.path().join("bomb.png");
         std::fs::write(&bomb, png_declaring(100_000, 100_000)).unwrap();
-        assert!(decode_scaled(&bomb, 64).unwrap_err().contains("too large"));
+        assert!(
+            decode_scaled(&bomb, 64)
+                .unwrap_err()
+                .to_string()
+                .contains("too large")
+        );
 
         // A text file named .png, and a real PNG cut off half-way.
         let text = dir.path().join("notes.png");

@@ -1,19 +1,69 @@
-//! Background work for the screens: a job runs on its own thread and sends its result
-//! through a channel; the screen polls once per frame and asks for a repaint on arrival.
+//! Background work for the screens: a job runs on its own named thread and sends its
+//! result through a channel; the screen polls once per frame and asks for a repaint on
+//! arrival. `Task` is the one holder every screen uses: at most one run in flight.
 //!
 //! A job that panics still delivers: its thread catches the panic and sends
 //! `JobOutput::from_failure`, so a screen shows an error instead of a spinner forever.
 
 use std::sync::mpsc::{Receiver, TryRecvError, channel};
 
+use crate::analysis::scoreboard::ScoreError;
+use crate::study::{Problem, StudyError};
+
+/// Why a screen's background task has no result.
+#[derive(Debug, thiserror::Error)]
+pub enum JobError {
+    /// The study refused or failed (bad input keeps its file/line/column problems).
+    #[error(transparent)]
+    Study(#[from] StudyError),
+    /// The scoreboard could not be built with these settings.
+    #[error(transparent)]
+    Score(#[from] ScoreError),
+    /// What the screen asked for is not in the study (any more).
+    #[error("{0}")]
+    Missing(String),
+    /// A file the screen was asked to write could not be written.
+    #[error("{path}: {source}")]
+    Write {
+        /// The file, as the user chose it.
+        path: String,
+        /// What the system said.
+        source: std::io::Error,
+    },
+    /// The task panicked or its thread vanished; nothing it wrote is half done, because
+    /// every write is one transaction.
+    #[error("{0}")]
+    Stopped(String),
+}
+
+impl JobError {
+    /// The problems to list in a table: an import's own, else the error as one line.
+    pub fn problems(&self) -> Vec<Problem> {
+        match self {
+            JobError::Study(StudyError::Input(problems)) => problems.0.clone(),
+            other => vec![Problem::general(other.to_string())],
+        }
+    }
+}
+
+impl From<crate::study::Problems> for JobError {
+    fn from(problems: crate::study::Problems) -> JobError {
+        JobError::Study(StudyError::Input(problems))
+    }
+}
+
+/// What every screen job returns.
+pub type JobResult<T> = Result<T, JobError>;
+
 /// What a job's result becomes when the job dies before it can return one.
 pub trait JobOutput {
+    /// The result standing for a job that could not deliver its own.
     fn from_failure(message: String) -> Self;
 }
 
-impl<M> JobOutput for Result<M, String> {
+impl<M> JobOutput for JobResult<M> {
     fn from_failure(message: String) -> Self {
-        Err(message)
+        Err(JobError::Stopped(message))
     }
 }
 
@@ -101,6 +151,42 @@ impl<T: JobOutput + Send + 'static> Pending<T> {
     }
 }
 
+/// One kind of background work of a screen (loading its model, saving a change): at most
+/// one run in flight; starting again drops the old run's result when it arrives.
+pub struct Task<T> {
+    name: &'static str,
+    running: Option<Pending<T>>,
+}
+
+impl<T> Task<T> {
+    /// A task whose threads are called `name` (shown by debuggers and in panic messages).
+    pub const fn named(name: &'static str) -> Task<T> {
+        Task {
+            name,
+            running: None,
+        }
+    }
+
+    /// Whether a run is in flight.
+    pub fn is_running(&self) -> bool {
+        self.running.is_some()
+    }
+}
+
+impl<T: JobOutput + Send + 'static> Task<T> {
+    /// Starts `work` on a new thread; `ctx` is woken when it finishes.
+    pub fn start(&mut self, ctx: &egui::Context, work: impl FnOnce() -> T + Send + 'static) {
+        self.running = Some(Pending::spawn_named(self.name, ctx, work));
+    }
+
+    /// The result once it has arrived (then the task is idle again); never blocks.
+    pub fn poll(&mut self) -> Option<T> {
+        let result = self.running.as_ref().and_then(Pending::poll)?;
+        self.running = None;
+        Some(result)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -108,11 +194,14 @@ mod tests {
     #[test]
     fn a_panicking_job_reports_an_error() {
         let ctx = egui::Context::default();
-        let job: Pending<Result<u32, String>> = Pending::spawn(&ctx, || panic!("boom"));
+        let mut job: Task<JobResult<u32>> = Task::named("boom-test");
+        job.start(&ctx, || panic!("boom"));
         let start = std::time::Instant::now();
         loop {
             if let Some(result) = job.poll() {
-                let message = result.unwrap_err();
+                assert!(!job.is_running());
+                let message = result.unwrap_err().to_string();
+                assert!(message.contains("boom-test"), "{message}");
                 assert!(message.contains("boom"), "{message}");
                 break;
             }

@@ -4,26 +4,27 @@
 
 use std::path::{Path, PathBuf};
 
-use super::jobs::Pending;
+use super::jobs::{JobError, JobResult, Task};
 use super::study_picker::block_on;
 use crate::study::Study;
 use crate::study::merge::{MergeOptions, MergeReport};
 
 /// One file's outcome: what came (or would come) in, or why it was refused.
-pub type MergeOutcome = (PathBuf, Result<MergeReport, String>);
+pub type MergeOutcome = (PathBuf, JobResult<MergeReport>);
 
 impl super::jobs::JobOutput for Vec<MergeOutcome> {
     fn from_failure(message: String) -> Self {
-        vec![(PathBuf::new(), Err(message))]
+        vec![(PathBuf::new(), Err(JobError::Stopped(message)))]
     }
 }
 
-#[derive(Default)]
+/// The panel's state: typed paths, the dialog, the preview and merge runs.
 pub struct MergePanel {
     /// Paths, one per line (typed, or filled in by the dialog).
     pub paths: String,
-    dialog: Option<Pending<Vec<PathBuf>>>,
-    job: Option<(bool, Pending<Vec<MergeOutcome>>)>,
+    dialog: Task<Vec<PathBuf>>,
+    previewing: Task<Vec<MergeOutcome>>,
+    merging: Task<Vec<MergeOutcome>>,
     /// The last dry run (not yet confirmed).
     pub preview: Vec<MergeOutcome>,
     /// The last real merge.
@@ -35,11 +36,27 @@ pub struct MergePanel {
     pub accepted: std::collections::BTreeSet<String>,
 }
 
+impl Default for MergePanel {
+    fn default() -> MergePanel {
+        MergePanel {
+            paths: String::new(),
+            dialog: Task::named("merge-dialog"),
+            previewing: Task::named("merge-preview"),
+            merging: Task::named("merge"),
+            preview: Vec::new(),
+            merged: Vec::new(),
+            study_changed: false,
+            accepted: Default::default(),
+        }
+    }
+}
+
+/// Previews or merges each file; a study that cannot be opened is one outcome naming it.
 fn run(study: &Path, files: Vec<PathBuf>, commit: bool, accept: Vec<String>) -> Vec<MergeOutcome> {
     let options = MergeOptions { accept };
     let mut target = match Study::open(study) {
         Ok(s) => s,
-        Err(e) => return files.into_iter().map(|f| (f, Err(e.to_string()))).collect(),
+        Err(e) => return vec![(study.to_path_buf(), Err(e.into()))],
     };
     files
         .into_iter()
@@ -49,7 +66,7 @@ fn run(study: &Path, files: Vec<PathBuf>, commit: bool, accept: Vec<String>) -> 
             } else {
                 target.merge_preview_with(&f, &MergeOptions::default())
             };
-            (f, r.map_err(|e| e.to_string()))
+            (f, r.map_err(JobError::from))
         })
         .collect()
 }
@@ -66,8 +83,7 @@ impl MergePanel {
 
     pub fn ui(&mut self, ui: &mut egui::Ui, study: &Path) {
         let ctx = ui.ctx().clone();
-        if let Some(picked) = self.dialog.as_ref().and_then(Pending::poll) {
-            self.dialog = None;
+        if let Some(picked) = self.dialog.poll() {
             for p in picked {
                 if !self.paths.is_empty() && !self.paths.ends_with('\n') {
                     self.paths.push('\n');
@@ -75,17 +91,13 @@ impl MergePanel {
                 self.paths.push_str(&p.display().to_string());
             }
         }
-        if let Some((commit, job)) = &self.job
-            && let Some(outcomes) = job.poll()
-        {
-            if *commit {
-                self.study_changed |= outcomes.iter().any(|(_, r)| r.is_ok());
-                self.merged = outcomes;
-                self.preview.clear();
-            } else {
-                self.preview = outcomes;
-            }
-            self.job = None;
+        if let Some(outcomes) = self.merging.poll() {
+            self.study_changed |= outcomes.iter().any(|(_, r)| r.is_ok());
+            self.merged = outcomes;
+            self.preview.clear();
+        }
+        if let Some(outcomes) = self.previewing.poll() {
+            self.preview = outcomes;
         }
         egui::CollapsingHeader::new("Bring in grades from other studies")
             .default_open(false)
@@ -100,19 +112,19 @@ impl MergePanel {
                 )
                 .labelled_by(label.id);
                 ui.horizontal(|ui| {
-                    let busy = self.job.is_some();
+                    let busy = self.previewing.is_running() || self.merging.is_running();
                     if ui
-                        .add_enabled(self.dialog.is_none() && !busy, egui::Button::new("Choose studies…"))
+                        .add_enabled(!self.dialog.is_running() && !busy, egui::Button::new("Choose studies…"))
                         .clicked()
                     {
-                        self.dialog = Some(Pending::spawn(&ctx, || {
+                        self.dialog.start(&ctx, || {
                             let dialog = rfd::AsyncFileDialog::new()
                                 .add_filter("Plumbline study", &["plumb"])
                                 .pick_files();
                             block_on(dialog)
                                 .map(|hs| hs.iter().map(|h| h.path().to_path_buf()).collect())
                                 .unwrap_or_default()
-                        }));
+                        });
                     }
                     let files = self.files();
                     if ui
@@ -122,7 +134,7 @@ impl MergePanel {
                         let s = study.to_path_buf();
                         self.merged.clear();
                         self.accepted.clear();
-                        self.job = Some((false, Pending::spawn(&ctx, move || run(&s, files, false, Vec::new()))));
+                        self.previewing.start(&ctx, move || run(&s, files, false, Vec::new()));
                     }
                     let ready = !self.preview.is_empty() && self.preview.iter().any(|(_, r)| r.is_ok());
                     if ui
@@ -137,7 +149,7 @@ impl MergePanel {
                             .map(|(f, _)| f.clone())
                             .collect();
                         let accept: Vec<String> = self.accepted.iter().cloned().collect();
-                        self.job = Some((true, Pending::spawn(&ctx, move || run(&s, files, true, accept))));
+                        self.merging.start(&ctx, move || run(&s, files, true, accept));
                     }
                     if busy {
                         ui.add(egui::ProgressBar::new(0.0).animate(true).text("merging…").desired_width(200.0));

@@ -9,13 +9,8 @@ pub mod home;
 pub mod image_cache;
 pub mod jobs;
 pub mod merge_panel;
-pub mod scale_editor;
 pub mod scales;
 pub mod scoreboard;
-pub mod scoreboard_model;
-pub mod scoreboard_plots;
-pub mod scoreboard_tables;
-pub mod settling;
 pub mod shell;
 pub mod sign_in;
 pub mod study_picker;
@@ -23,29 +18,66 @@ pub mod trial;
 
 use std::path::PathBuf;
 
-use crate::cli::{Failure, ScreenName};
+use crate::study::StudyError;
 
 pub use shell::Workbench;
 pub use study_picker::Prefs;
 
+/// The workbench's screens, in the order of the rail.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum Screen {
+    #[default]
+    Home,
+    Catalog,
+    Scales,
+    Desk,
+    Agreement,
+    Scoreboard,
+    Trial,
+}
+
+/// Why the window did not open.
+#[derive(Debug, thiserror::Error)]
+pub enum WorkbenchError {
+    /// The study named (or remembered) cannot be used.
+    #[error(transparent)]
+    Study(#[from] StudyError),
+    /// The study file is not there.
+    #[error("{0}: no such study")]
+    Missing(String),
+    /// The demo study could not be made.
+    #[error("{0}")]
+    Demo(String),
+    /// eframe could not start a window (no display, no OpenGL).
+    #[error("the window could not start: {0}")]
+    Window(String),
+}
+
+impl WorkbenchError {
+    /// Whether the user named something wrong (as opposed to the machine failing).
+    pub fn is_bad_input(&self) -> bool {
+        match self {
+            WorkbenchError::Study(e) => e.is_bad_input(),
+            WorkbenchError::Missing(_) => true,
+            WorkbenchError::Demo(_) | WorkbenchError::Window(_) => false,
+        }
+    }
+}
+
 /// Opens the window on a study (else the last study, else the demo study) and runs
 /// until closed.
-pub fn run_workbench(study: Option<PathBuf>, screen: ScreenName) -> Result<(), Failure> {
+pub fn run_workbench(study: Option<PathBuf>, screen: Screen) -> Result<(), WorkbenchError> {
     let prefs = Prefs::load(Prefs::default_file());
     let path = match study.or_else(|| prefs.last_study()) {
         Some(p) => p,
-        None => crate::demo::ensure_demo_study().map_err(|e| Failure::other(e.to_string()))?,
+        None => {
+            crate::demo::ensure_demo_study().map_err(|e| WorkbenchError::Demo(e.to_string()))?
+        }
     };
     if !path.exists() {
-        return Err(Failure::input(format!("{}: no such study", path.display())));
+        return Err(WorkbenchError::Missing(path.display().to_string()));
     }
-    crate::study::Study::open(&path).map_err(|e| {
-        if e.is_bad_input() {
-            Failure::input(e.to_string())
-        } else {
-            Failure::other(e.to_string())
-        }
-    })?;
+    crate::study::Study::open(&path)?;
     let options = eframe::NativeOptions {
         viewport: egui::ViewportBuilder::default()
             .with_inner_size([1360.0, 860.0])
@@ -58,7 +90,7 @@ pub fn run_workbench(study: Option<PathBuf>, screen: ScreenName) -> Result<(), F
         options,
         Box::new(move |_cc| Ok(Box::new(Workbench::with_prefs(path, screen, prefs)))),
     )
-    .map_err(|e| Failure::other(format!("the window could not start: {e}")))
+    .map_err(|e| WorkbenchError::Window(e.to_string()))
 }
 
 pub fn window_title(path: &std::path::Path) -> String {

@@ -3,47 +3,37 @@
 
 use std::path::{Path, PathBuf};
 
+use super::Screen;
 use super::agreement::AgreementScreen;
 use super::catalog::Catalog;
 use super::desk::{Desk, SaveState};
 use super::home::{self, HomeModel};
-use super::jobs::Pending;
+use super::jobs::{JobResult, Task};
 use super::scales::ScalesScreen;
 use super::scoreboard::{ScoreboardAction, ScoreboardScreen};
 use super::sign_in::SignIn;
 use super::study_picker::{PickerOutcome, Prefs, StudyPicker};
 use super::trial::TrialScreen;
-use crate::cli::ScreenName;
 
 /// The screens that exist, in rail order, with their shortcut digit.
-const SCREENS: [(ScreenName, &str, egui::Key, &str); 7] = [
-    (ScreenName::Home, "Home", egui::Key::Num1, "Ctrl+1"),
-    (ScreenName::Catalog, "Catalog", egui::Key::Num2, "Ctrl+2"),
-    (ScreenName::Scales, "Scales", egui::Key::Num3, "Ctrl+3"),
-    (ScreenName::Desk, "Grading desk", egui::Key::Num4, "Ctrl+4"),
-    (
-        ScreenName::Agreement,
-        "Agreement",
-        egui::Key::Num5,
-        "Ctrl+5",
-    ),
-    (
-        ScreenName::Scoreboard,
-        "Scoreboard",
-        egui::Key::Num6,
-        "Ctrl+6",
-    ),
-    (ScreenName::Trial, "Scale trial", egui::Key::Num7, "Ctrl+7"),
+const SCREENS: [(Screen, &str, egui::Key, &str); 7] = [
+    (Screen::Home, "Home", egui::Key::Num1, "Ctrl+1"),
+    (Screen::Catalog, "Catalog", egui::Key::Num2, "Ctrl+2"),
+    (Screen::Scales, "Scales", egui::Key::Num3, "Ctrl+3"),
+    (Screen::Desk, "Grading desk", egui::Key::Num4, "Ctrl+4"),
+    (Screen::Agreement, "Agreement", egui::Key::Num5, "Ctrl+5"),
+    (Screen::Scoreboard, "Scoreboard", egui::Key::Num6, "Ctrl+6"),
+    (Screen::Trial, "Scale trial", egui::Key::Num7, "Ctrl+7"),
 ];
 
 /// The workbench application state.
 pub struct Workbench {
     pub path: PathBuf,
-    pub screen: ScreenName,
+    pub screen: Screen,
     pub reviewer: Option<String>,
     pub prefs: Prefs,
-    pub home: Option<Result<HomeModel, String>>,
-    home_loading: Option<Pending<Result<HomeModel, String>>>,
+    pub home: Option<JobResult<HomeModel>>,
+    home_loading: Task<JobResult<HomeModel>>,
     pub catalog: Catalog,
     pub desk: Desk,
     pub agreement: AgreementScreen,
@@ -53,25 +43,25 @@ pub struct Workbench {
     sign_in: SignIn,
     picker: StudyPicker,
     title: Option<String>,
-    shown_screen: Option<ScreenName>,
+    shown_screen: Option<Screen>,
 }
 
 impl Workbench {
     /// A workbench that remembers nothing between runs (tests, benchmarks).
-    pub fn new(path: PathBuf, screen: ScreenName) -> Workbench {
+    pub fn new(path: PathBuf, screen: Screen) -> Workbench {
         Workbench::with_prefs(path, screen, Prefs::default())
     }
 
     /// A workbench that keeps recent studies and the last reviewer in `prefs`.
-    pub fn with_prefs(path: PathBuf, screen: ScreenName, mut prefs: Prefs) -> Workbench {
+    pub fn with_prefs(path: PathBuf, screen: Screen, mut prefs: Prefs) -> Workbench {
         let screen = match screen {
-            ScreenName::Catalog
-            | ScreenName::Desk
-            | ScreenName::Agreement
-            | ScreenName::Scoreboard
-            | ScreenName::Scales
-            | ScreenName::Trial => screen,
-            _ => ScreenName::Home,
+            Screen::Catalog
+            | Screen::Desk
+            | Screen::Agreement
+            | Screen::Scoreboard
+            | Screen::Scales
+            | Screen::Trial => screen,
+            _ => Screen::Home,
         };
         prefs.remember_study(&path);
         let reviewer = prefs.reviewer_for(&path);
@@ -81,7 +71,7 @@ impl Workbench {
             reviewer,
             prefs,
             home: None,
-            home_loading: None,
+            home_loading: Task::named("home-load"),
             catalog: Catalog::default(),
             desk: Desk::default(),
             agreement: AgreementScreen::default(),
@@ -114,16 +104,15 @@ impl Workbench {
 
     fn reload_home(&mut self, ctx: &egui::Context) {
         let p = self.path.clone();
-        self.home_loading = Some(Pending::spawn(ctx, move || home::load(&p)));
+        self.home_loading.start(ctx, move || home::load(&p));
     }
 
     /// Takes finished background results; cheap, called every frame.
     fn collect_jobs(&mut self, ctx: &egui::Context) {
-        if self.home.is_none() && self.home_loading.is_none() {
+        if self.home.is_none() && !self.home_loading.is_running() {
             self.reload_home(ctx);
         }
-        if let Some(result) = self.home_loading.as_ref().and_then(Pending::poll) {
-            self.home_loading = None;
+        if let Some(result) = self.home_loading.poll() {
             if let Ok(m) = &result
                 && self.title.as_deref() != Some(m.name.as_str())
             {
@@ -149,16 +138,16 @@ impl Workbench {
         }
         if self.shown_screen != Some(self.screen) {
             // Entering a screen refreshes what it shows (grades may have changed).
-            if self.screen == ScreenName::Home && self.shown_screen.is_some() {
+            if self.screen == Screen::Home && self.shown_screen.is_some() {
                 self.reload_home(ctx);
             }
-            if self.screen == ScreenName::Scales && !self.scales.is_busy() {
+            if self.screen == Screen::Scales && !self.scales.is_busy() {
                 self.scales.reload(ctx, &self.path);
             }
-            if self.screen == ScreenName::Trial && !self.trial.is_loading() {
+            if self.screen == Screen::Trial && !self.trial.is_loading() {
                 self.trial.reload(ctx, &self.path);
             }
-            if self.screen == ScreenName::Desk
+            if self.screen == Screen::Desk
                 && let Some(r) = self.reviewer.clone()
                 && !self.desk.is_loading()
                 && !self.desk.has_unsaved()
@@ -205,21 +194,21 @@ impl Workbench {
                 }
             });
         egui::CentralPanel::default_margins().show(ui, |ui| match self.screen {
-            ScreenName::Catalog => self.catalog.ui(ui, &self.path),
-            ScreenName::Desk => self.desk_screen(ui),
-            ScreenName::Agreement => self.agreement.ui(ui, &self.path, self.reviewer.as_deref()),
-            ScreenName::Scoreboard => {
+            Screen::Catalog => self.catalog.ui(ui, &self.path),
+            Screen::Desk => self.desk_screen(ui),
+            Screen::Agreement => self.agreement.ui(ui, &self.path, self.reviewer.as_deref()),
+            Screen::Scoreboard => {
                 let signed_in = self.reviewer.clone();
                 let action = self.scoreboard.ui(ui, &self.path, signed_in.as_deref());
                 if let Some(ScoreboardAction::OpenDesk(r)) = action
                     && !self.desk.has_unsaved()
                 {
                     self.sign_in(&ui.ctx().clone(), &r);
-                    self.screen = ScreenName::Desk;
+                    self.screen = Screen::Desk;
                 }
             }
-            ScreenName::Scales => self.scales.ui(ui, &self.path),
-            ScreenName::Trial => self.trial.ui(ui, &self.path),
+            Screen::Scales => self.scales.ui(ui, &self.path),
+            Screen::Trial => self.trial.ui(ui, &self.path),
             _ => match &self.home {
                 None => {
                     ui.horizontal(|ui| {
@@ -227,8 +216,8 @@ impl Workbench {
                         ui.label("Opening the study…");
                     });
                 }
-                Some(Err(message)) => {
-                    ui.colored_label(ui.visuals().error_fg_color, message);
+                Some(Err(e)) => {
+                    ui.colored_label(ui.visuals().error_fg_color, e.to_string());
                 }
                 Some(Ok(model)) => home::ui(ui, model),
             },
@@ -277,12 +266,12 @@ impl Workbench {
                         self.reviewer = None;
                         self.desk = Desk::default();
                         self.sign_in.reset();
-                        self.screen = ScreenName::Desk;
+                        self.screen = Screen::Desk;
                     }
                 }
                 None => {
                     if ui.button("Sign in").clicked() {
-                        self.screen = ScreenName::Desk;
+                        self.screen = Screen::Desk;
                     }
                 }
             }

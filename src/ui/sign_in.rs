@@ -2,22 +2,32 @@
 
 use std::path::{Path, PathBuf};
 
-use super::jobs::Pending;
+use super::jobs::{JobResult, Task};
 use crate::study::Study;
 
 /// The panel as the sign-in list shows it, and a pending "add reviewer" job.
-#[derive(Default)]
 pub struct SignIn {
     panel: Option<Vec<String>>,
-    loading: Option<Pending<Result<Vec<String>, String>>>,
-    adding: Option<Pending<Result<String, String>>>,
+    loading: Task<JobResult<Vec<String>>>,
+    adding: Task<JobResult<String>>,
     new_name: String,
     message: Option<String>,
 }
 
-fn load_panel(path: &Path) -> Result<Vec<String>, String> {
-    let study = Study::open(path).map_err(|e| e.to_string())?;
-    Ok(study.snapshot().map_err(|e| e.to_string())?.reviewers)
+impl Default for SignIn {
+    fn default() -> SignIn {
+        SignIn {
+            panel: None,
+            loading: Task::named("panel-load"),
+            adding: Task::named("reviewer-add"),
+            new_name: String::new(),
+            message: None,
+        }
+    }
+}
+
+fn load_panel(path: &Path) -> JobResult<Vec<String>> {
+    Ok(Study::open(path)?.snapshot()?.reviewers)
 }
 
 impl SignIn {
@@ -29,26 +39,24 @@ impl SignIn {
     /// Draws the sign-in form; returns the reviewer once one is chosen.
     pub fn ui(&mut self, ui: &mut egui::Ui, path: &Path) -> Option<String> {
         let ctx = ui.ctx().clone();
-        if self.panel.is_none() && self.loading.is_none() {
+        if self.panel.is_none() && !self.loading.is_running() {
             let p: PathBuf = path.to_path_buf();
-            self.loading = Some(Pending::spawn(&ctx, move || load_panel(&p)));
+            self.loading.start(&ctx, move || load_panel(&p));
         }
-        if let Some(result) = self.loading.as_ref().and_then(Pending::poll) {
-            self.loading = None;
+        if let Some(result) = self.loading.poll() {
             match result {
                 Ok(panel) => self.panel = Some(panel),
                 Err(e) => {
                     self.panel = Some(Vec::new());
-                    self.message = Some(e);
+                    self.message = Some(e.to_string());
                 }
             }
         }
         let mut chosen = None;
-        if let Some(result) = self.adding.as_ref().and_then(Pending::poll) {
-            self.adding = None;
+        if let Some(result) = self.adding.poll() {
             match result {
                 Ok(name) => chosen = Some(name),
-                Err(e) => self.message = Some(e),
+                Err(e) => self.message = Some(e.to_string()),
             }
         }
         ui.heading("Who is grading?");
@@ -87,7 +95,7 @@ impl SignIn {
                 .labelled_by(label.id);
             let enter = field.lost_focus() && ui.input(|i| i.key_pressed(egui::Key::Enter));
             let name = self.new_name.trim().to_string();
-            let ok = !name.is_empty() && self.adding.is_none();
+            let ok = !name.is_empty() && !self.adding.is_running();
             if (ui
                 .add_enabled(
                     ok,
@@ -98,11 +106,10 @@ impl SignIn {
                 && ok
             {
                 let p = path.to_path_buf();
-                self.adding = Some(Pending::spawn(&ctx, move || {
-                    let study = Study::open(&p).map_err(|e| e.to_string())?;
-                    study.add_reviewer(&name).map_err(|e| e.to_string())?;
+                self.adding.start(&ctx, move || {
+                    Study::open(&p)?.add_reviewer(&name)?;
                     Ok(name)
-                }));
+                });
             }
         });
         if let Some(m) = &self.message {

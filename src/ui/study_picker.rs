@@ -3,7 +3,7 @@
 
 use std::path::{Path, PathBuf};
 
-use super::jobs::Pending;
+use super::jobs::{JobResult, Task};
 use crate::study::Study;
 
 const RECENT_LIMIT: usize = 10;
@@ -113,20 +113,30 @@ pub enum PickerOutcome {
 }
 
 /// The "Studies" window: recent list, typed path, open / create.
-#[derive(Default)]
 pub struct StudyPicker {
     pub open: bool,
     typed: String,
     message: Option<String>,
-    dialog: Option<Pending<Option<(PathBuf, bool)>>>,
-    checking: Option<Pending<Result<PathBuf, String>>>,
+    dialog: Task<Option<(PathBuf, bool)>>,
+    checking: Task<JobResult<PathBuf>>,
+}
+
+impl Default for StudyPicker {
+    fn default() -> StudyPicker {
+        StudyPicker {
+            open: false,
+            typed: String::new(),
+            message: None,
+            dialog: Task::named("study-dialog"),
+            checking: Task::named("study-check"),
+        }
+    }
 }
 
 impl StudyPicker {
     pub fn ui(&mut self, ctx: &egui::Context, prefs: &Prefs) -> Option<PickerOutcome> {
         let mut outcome = None;
-        if let Some(result) = self.dialog.as_ref().and_then(Pending::poll) {
-            self.dialog = None;
+        if let Some(result) = self.dialog.poll() {
             match result {
                 Some((path, create)) => self.check(ctx, path, create),
                 None => {
@@ -137,15 +147,14 @@ impl StudyPicker {
                 }
             }
         }
-        if let Some(result) = self.checking.as_ref().and_then(Pending::poll) {
-            self.checking = None;
+        if let Some(result) = self.checking.poll() {
             match result {
                 Ok(path) => {
                     outcome = Some(PickerOutcome::Open(path));
                     self.open = false;
                     self.message = None;
                 }
-                Err(e) => self.message = Some(e),
+                Err(e) => self.message = Some(e.to_string()),
             }
         }
         if !self.open {
@@ -173,23 +182,23 @@ impl StudyPicker {
                 ui.separator();
                 ui.horizontal(|ui| {
                     if ui.button("Browse to open…").clicked() {
-                        self.dialog = Some(Pending::spawn(ctx, || {
+                        self.dialog.start(ctx, || {
                             let dialog = rfd::AsyncFileDialog::new()
                                 .add_filter("Plumbline study", &["plumb"])
                                 .pick_file();
                             block_on(dialog).map(|h| (h.path().to_path_buf(), false))
-                        }));
+                        });
                     }
                     if ui.button("Browse to create…").clicked() {
-                        self.dialog = Some(Pending::spawn(ctx, || {
+                        self.dialog.start(ctx, || {
                             let dialog = rfd::AsyncFileDialog::new()
                                 .add_filter("Plumbline study", &["plumb"])
                                 .set_file_name("study.plumb")
                                 .save_file();
                             block_on(dialog).map(|h| (h.path().to_path_buf(), true))
-                        }));
+                        });
                     }
-                    if self.dialog.is_some() {
+                    if self.dialog.is_running() {
                         ui.spinner();
                     }
                 });
@@ -221,14 +230,14 @@ impl StudyPicker {
     /// Opens (or creates) on a thread; the study is used only once that succeeded.
     fn check(&mut self, ctx: &egui::Context, path: PathBuf, create: bool) {
         self.message = None;
-        self.checking = Some(Pending::spawn(ctx, move || {
-            let result = if create {
-                Study::create(&path).map(drop)
+        self.checking.start(ctx, move || {
+            if create {
+                Study::create(&path)?;
             } else {
-                Study::open(&path).map(drop)
-            };
-            result.map(|_| path).map_err(|e| e.to_string())
-        }));
+                Study::open(&path)?;
+            }
+            Ok(path)
+        });
     }
 }
 

@@ -7,21 +7,13 @@ use std::path::Path;
 
 use egui_plot::{Line, Plot, PlotPoint, Points, Text};
 
-use super::jobs::Pending;
+use super::jobs::{JobResult, Task};
 use crate::analysis::trial::{self, Trial, TrialRow};
 use crate::study::Study;
 
-/// Bootstrap and randomization resamples, and the seed: the same as `plumbline trial`,
-/// so the screen and the terminal print the same numbers.
-pub const RESAMPLES: usize = 2000;
-pub const SEED: u64 = 20_261_201;
-
-pub fn load(path: &Path) -> Result<Trial, String> {
-    let err = |e: crate::study::StudyError| e.to_string();
-    let study = Study::open(path).map_err(err)?;
-    let snapshot = study.snapshot().map_err(err)?;
-    let maps = study.collapse_maps().map_err(err)?;
-    Ok(trial::build(&snapshot, &maps, RESAMPLES, SEED))
+/// The same trial as `plumbline trial` (`trial::of_study`); runs on a job thread.
+pub fn load(path: &Path) -> JobResult<Trial> {
+    Ok(trial::of_study(&Study::open(path)?)?)
 }
 
 /// The row's name: the scale, and the collapse map when there is one.
@@ -43,34 +35,43 @@ fn intervals_overlap(rows: &[TrialRow]) -> bool {
 }
 
 /// The screen's state: the last trial and the job computing the next.
-#[derive(Default)]
 pub struct TrialScreen {
-    pub model: Option<Result<Trial, String>>,
-    loading: Option<Pending<Result<Trial, String>>>,
+    pub model: Option<JobResult<Trial>>,
+    loading: Task<JobResult<Trial>>,
+}
+
+impl Default for TrialScreen {
+    fn default() -> TrialScreen {
+        TrialScreen {
+            model: None,
+            loading: Task::named("trial-load"),
+        }
+    }
 }
 
 impl TrialScreen {
     /// Recomputes in the background; the old table stays until the new one arrives.
     pub fn reload(&mut self, ctx: &egui::Context, path: &Path) {
         let p = path.to_path_buf();
-        self.loading = Some(Pending::spawn(ctx, move || load(&p)));
+        self.loading.start(ctx, move || load(&p));
     }
 
+    /// Whether a recomputation is in flight.
     pub fn is_loading(&self) -> bool {
-        self.loading.is_some()
+        self.loading.is_running()
     }
 
+    /// Draws the screen from the last trial.
     pub fn ui(&mut self, ui: &mut egui::Ui, path: &Path) {
-        if self.model.is_none() && self.loading.is_none() {
+        if self.model.is_none() && !self.loading.is_running() {
             self.reload(ui.ctx(), path);
         }
-        if let Some(result) = self.loading.as_ref().and_then(Pending::poll) {
-            self.loading = None;
+        if let Some(result) = self.loading.poll() {
             self.model = Some(result);
         }
         ui.horizontal(|ui| {
             ui.heading("Scale trial");
-            if self.loading.is_some() {
+            if self.loading.is_running() {
                 ui.spinner();
                 ui.label("Computing (bootstrap and randomization tests)…");
             } else if ui.button("Recompute").clicked() {
@@ -80,7 +81,7 @@ impl TrialScreen {
         match &self.model {
             None => {}
             Some(Err(e)) => {
-                ui.colored_label(ui.visuals().error_fg_color, e);
+                ui.colored_label(ui.visuals().error_fg_color, e.to_string());
             }
             Some(Ok(t)) => {
                 egui::ScrollArea::vertical().show(ui, |ui| show(ui, t));

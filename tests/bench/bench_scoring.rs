@@ -81,6 +81,8 @@ fn synthetic() -> (Snapshot, Vec<u8>) {
     let snapshot = Snapshot {
         name: "bench".into(),
         stored_baseline: None,
+        stored_active_scale: None,
+        pool_depth: 10,
         items,
         contexts,
         rankers: (0..RANKERS).map(|r| format!("ranker-{r}")).collect(),

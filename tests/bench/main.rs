@@ -2,6 +2,8 @@
 //! process and asserts no timings. Run one with
 //! `cargo test --release --test bench -- --ignored --nocapture MODULE`.
 
+#![allow(clippy::unwrap_used)]
+
 mod bench_import;
 mod bench_scoring;
 mod ui_bench;

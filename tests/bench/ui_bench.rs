@@ -9,7 +9,7 @@ use std::time::{Duration, Instant};
 use egui::Key;
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
-use plumbline::cli::ScreenName;
+use plumbline::ui::Screen;
 use plumbline::ui::Workbench;
 
 const GRADES: usize = 200_000;
@@ -118,7 +118,7 @@ fn desk_frames_on_a_study_with_200k_grades() {
         .with_size([1360.0, 860.0])
         .build_ui_state(
             |ui, wb: &mut Workbench| wb.show(ui),
-            Workbench::new(path.clone(), ScreenName::Desk),
+            Workbench::new(path.clone(), Screen::Desk),
         );
     let start = Instant::now();
     while h.query_by_label("Sign in as rev-amber").is_none() {

@@ -1,6 +1,8 @@
 //! The integration tests, in one binary so the GUI stack is linked once. Each module is
 //! one area; `common` and `ui_support` hold the shared fixtures and harness helpers.
 
+#![allow(clippy::unwrap_used)]
+
 mod cli;
 mod common;
 mod demo;

@@ -43,7 +43,7 @@ fn events(path: &PathBuf, scale: &str) -> Vec<(i64, String, String, String, Opti
 
 fn input_error(result: Result<impl std::fmt::Debug, StudyError>) -> String {
     match result {
-        Err(StudyError::Input(m)) => m,
+        Err(StudyError::Input(m)) => m.to_string(),
         other => panic!("expected an input error, got {other:?}"),
     }
 }

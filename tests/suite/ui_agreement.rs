@@ -10,12 +10,13 @@ use std::path::Path;
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
 use plumbline::analysis::agreement;
+use plumbline::analysis::defaults::{AGREEMENT_BOOTSTRAP as RESAMPLES, SEED};
 use plumbline::analysis::judgments::{GradeSource, level_of, lower_median, resolve};
 use plumbline::analysis::scoreboard::{self, ScoreSettings, Scoreboard};
-use plumbline::cli::ScreenName;
 use plumbline::study::Study;
+use plumbline::ui::Screen;
 use plumbline::ui::Workbench;
-use plumbline::ui::agreement::{AgreementModel, RESAMPLES, SEED, heatmap_cell_label};
+use plumbline::ui::agreement::{AgreementModel, heatmap_cell_label};
 use ui_support::{demo_copy, step_until};
 
 fn harness(wb: Workbench) -> Harness<'static, Workbench> {
@@ -64,50 +65,68 @@ fn per_context(board: &Scoreboard, key: &str) -> Vec<u64> {
 #[test]
 fn picking_a_matrix_cell_shows_the_engines_confusion_counts() {
     let (_dir, path) = demo_copy();
-    let mut h = harness(Workbench::new(path.clone(), ScreenName::Agreement));
+    let mut h = harness(Workbench::new(path.clone(), Screen::Agreement));
     wait_for_model(&mut h);
 
-    let study = Study::open(&path).unwrap();
-    let snapshot = study.snapshot().unwrap();
-    let scale = snapshot.busiest_scale().unwrap();
-    let engine = agreement::build(&snapshot, scale, None, RESAMPLES, SEED);
-    assert_eq!(model(&h).report.scale, engine.scale);
+    // What `plumbline agree` prints for the same study is what the screen shows.
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_plumbline"))
+        .args(["agree", "--format", "json"])
+        .arg(&path)
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{out:?}");
+    let printed: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(printed["scale"], model(&h).report.scale.as_str());
 
-    // Panel numbers on screen are the engine's.
-    for value in [
-        engine.fleiss_kappa,
-        engine.alpha_nominal,
-        engine.alpha_ordinal,
-        engine.alpha_interval,
-        engine.ac1,
+    // Panel numbers on screen are the printed ones.
+    for key in [
+        "fleiss_kappa",
+        "alpha_nominal",
+        "alpha_ordinal",
+        "alpha_interval",
+        "ac1",
     ] {
-        let shown = format!("{value:.3}");
-        assert!(h.query_by_label(&shown).is_some(), "{shown} not on screen");
+        let shown = format!("{:.3}", printed[key].as_f64().unwrap());
+        assert!(
+            h.query_by_label(&shown).is_some(),
+            "{key} {shown} not on screen"
+        );
     }
 
-    assert!(engine.pairs.len() >= 3);
-    for pair in &engine.pairs {
-        let cell = format!("Reviewers {} and {}", pair.reviewer_a, pair.reviewer_b);
-        h.get_by_label(&cell).click();
+    let levels = printed["levels"].as_u64().unwrap() as usize;
+    let pairs = printed["pairs"].as_array().unwrap();
+    assert!(pairs.len() >= 3);
+    for pair in pairs {
+        let (a, b) = (
+            pair["reviewer_a"].as_str().unwrap(),
+            pair["reviewer_b"].as_str().unwrap(),
+        );
+        let confusion: Vec<Vec<u64>> = pair["confusion"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|row| {
+                row.as_array()
+                    .unwrap()
+                    .iter()
+                    .map(|c| c.as_u64().unwrap())
+                    .collect()
+            })
+            .collect();
+        h.get_by_label(&format!("Reviewers {a} and {b}")).click();
         h.step();
         h.step();
         let mut cells = 0;
-        for (i, row) in pair.confusion.iter().enumerate() {
+        for (i, row) in confusion.iter().enumerate() {
             for (j, count) in row.iter().enumerate() {
-                let label = heatmap_cell_label(&pair.reviewer_a, i, &pair.reviewer_b, j, *count);
+                let label = heatmap_cell_label(a, i, b, j, *count);
                 assert!(h.query_by_label(&label).is_some(), "missing: {label}");
                 cells += 1;
             }
         }
-        assert_eq!(cells, engine.levels * engine.levels);
+        assert_eq!(cells, levels * levels);
         // A wrong count is not on screen (guards against a label that ignores counts).
-        let wrong = heatmap_cell_label(
-            &pair.reviewer_a,
-            0,
-            &pair.reviewer_b,
-            0,
-            pair.confusion[0][0] + 1,
-        );
+        let wrong = heatmap_cell_label(a, 0, b, 0, confusion[0][0] + 1);
         assert!(h.query_by_label(&wrong).is_none());
     }
 }
@@ -115,7 +134,7 @@ fn picking_a_matrix_cell_shows_the_engines_confusion_counts() {
 #[test]
 fn settling_by_hand_then_by_the_median_rule_reaches_the_panel_scores() {
     let (_dir, path) = demo_copy();
-    let mut h = harness(Workbench::new(path.clone(), ScreenName::Agreement));
+    let mut h = harness(Workbench::new(path.clone(), Screen::Agreement));
     wait_for_model(&mut h);
     let before = scores(&path);
     let key = "ndcg@10";
@@ -248,7 +267,7 @@ fn the_blind_rule_hides_other_grades_from_a_reviewer_with_pending_pairs() {
     assert!(!pending.is_empty());
 
     // Seen by nobody in particular, some of those pairs are disagreements.
-    let mut open = harness(Workbench::new(path.clone(), ScreenName::Agreement));
+    let mut open = harness(Workbench::new(path.clone(), Screen::Agreement));
     wait_for_model(&mut open);
     let visible_to_all = model(&open).review.disagreements.clone();
     assert!(
@@ -258,7 +277,7 @@ fn the_blind_rule_hides_other_grades_from_a_reviewer_with_pending_pairs() {
         "the check needs a pending pair that is a disagreement"
     );
 
-    let mut wb = Workbench::new(path.clone(), ScreenName::Agreement);
+    let mut wb = Workbench::new(path.clone(), Screen::Agreement);
     wb.reviewer = Some("rev-dune".into());
     let mut h = harness(wb);
     wait_for_model(&mut h);

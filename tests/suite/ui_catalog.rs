@@ -7,7 +7,7 @@ use crate::ui_support;
 
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
-use plumbline::cli::ScreenName;
+use plumbline::ui::Screen;
 use plumbline::ui::Workbench;
 use ui_support::step_until;
 
@@ -52,7 +52,7 @@ fn import_problems_are_listed_and_a_good_import_shows_up_in_the_tables() {
         .with_size([1360.0, 860.0])
         .build_ui_state(
             |ui, wb: &mut Workbench| wb.show(ui),
-            Workbench::new(path.clone(), ScreenName::Catalog),
+            Workbench::new(path.clone(), Screen::Catalog),
         );
     step_until(&mut h, "the items table", |h| {
         h.query_by_label_contains("Items (240)").is_some()
@@ -73,10 +73,7 @@ fn import_problems_are_listed_and_a_good_import_shows_up_in_the_tables() {
     });
     h.step();
     let p = &h.state().catalog.problems[0];
-    assert_eq!(
-        (p.file.as_str(), p.line.as_str(), p.column.as_str()),
-        ("rankings.csv", "2", "4")
-    );
+    assert_eq!((p.file.as_str(), p.line, p.column), ("rankings.csv", 2, 4));
     assert!(
         h.query_by_label_contains("Nothing was imported: 1 problem(s).")
             .is_some()

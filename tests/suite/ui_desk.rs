@@ -9,12 +9,12 @@ use std::time::Duration;
 use egui::{Key, Modifiers};
 use egui_kittest::Harness;
 use egui_kittest::kittest::{NodeT, Queryable};
-use plumbline::cli::ScreenName;
+use plumbline::ui::Screen;
 use plumbline::ui::Workbench;
 use ui_support::{Bench, demo_copy, step_until, step_until_within};
 
 fn harness(path: &Path) -> Bench {
-    ui_support::harness(path, ScreenName::Desk)
+    ui_support::harness(path, Screen::Desk)
 }
 
 /// Signs in as `reviewer` by clicking the name, then waits for the first card.
@@ -287,9 +287,7 @@ fn a_failed_write_is_shown_kept_and_retried() {
     h.step();
     assert_eq!(current_pair(&h), pair);
     other.execute_batch("DROP TRIGGER refuse;").unwrap();
-    step_until_within(&mut h, "the retry", 30, |h| {
-        h.state().desk.save_status().is_ok()
-    });
+    step_until_within(&mut h, "the retry", 30, |h| !h.state().desk.has_unsaved());
     h.step();
     assert_ne!(current_pair(&h), pair);
     assert!(h.query_by_label_contains("All grades saved").is_some());
@@ -351,9 +349,9 @@ fn images_outside_the_catalog_folder_or_missing_show_why() {
     )
     .unwrap();
     // Leaving and re-entering the desk reloads its data; the same pair is still next.
-    h.state_mut().screen = ScreenName::Home;
+    h.state_mut().screen = Screen::Home;
     h.step();
-    h.state_mut().screen = ScreenName::Desk;
+    h.state_mut().screen = Screen::Desk;
     h.step();
     step_until(&mut h, "the reload", |h| !h.state().desk.is_loading());
     h.step();

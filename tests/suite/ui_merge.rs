@@ -4,9 +4,9 @@
 use crate::ui_support;
 
 use egui_kittest::kittest::Queryable;
-use plumbline::cli::ScreenName;
 use plumbline::study::Study;
 use plumbline::study::grades::{GradeAction, NewGrade};
+use plumbline::ui::Screen;
 use ui_support::{harness, step_until};
 
 fn events(path: &std::path::Path) -> i64 {
@@ -18,7 +18,7 @@ fn events(path: &std::path::Path) -> i64 {
 
 /// The Catalog screen with the merge panel open, `copy` typed in and its preview asked for.
 fn open_preview(path: &std::path::Path, copy: &std::path::Path) -> ui_support::Bench {
-    let mut h = harness(path, ScreenName::Catalog);
+    let mut h = harness(path, Screen::Catalog);
     step_until(&mut h, "the catalog", |h| {
         h.query_by_label_contains("Items (240)").is_some()
     });

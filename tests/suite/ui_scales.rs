@@ -10,14 +10,13 @@ use std::time::{Duration, Instant};
 use egui::{Key, Modifiers};
 use egui_kittest::Harness;
 use egui_kittest::kittest::{NodeT, Queryable};
-use plumbline::analysis::trial;
-use plumbline::cli::ScreenName;
 use plumbline::core::agreement::{self, AlphaLevel, CollapseMap};
 use plumbline::study::Study;
+use plumbline::ui::Screen;
 use plumbline::ui::Workbench;
 use ui_support::{demo_copy, step_until_within};
 
-fn harness(path: &Path, screen: ScreenName) -> Harness<'static, Workbench> {
+fn harness(path: &Path, screen: Screen) -> Harness<'static, Workbench> {
     Harness::builder()
         .with_size([1360.0, 860.0])
         .build_ui_state(
@@ -72,7 +71,7 @@ fn saved(h: &mut Harness<'static, Workbench>) -> String {
 #[test]
 fn a_preset_scale_with_an_edited_label_is_graded_on_the_desk() {
     let (_dir, path) = demo_copy();
-    let mut h = harness(&path, ScreenName::Scales);
+    let mut h = harness(&path, Screen::Scales);
     step_until_within(&mut h, "the scales", 30, scales_loaded);
     h.get_by_label("3 levels (three-step)").click();
     h.step();
@@ -117,7 +116,7 @@ fn a_preset_scale_with_an_edited_label_is_graded_on_the_desk() {
 
     h.key_press_modifiers(Modifiers::COMMAND, Key::Num4); // the rail's shortcut
     h.step();
-    assert_eq!(h.state().screen, ScreenName::Desk);
+    assert_eq!(h.state().screen, Screen::Desk);
     step_until_within(&mut h, "the sign-in list", 30, |h| {
         h.query_by_label("Sign in as rev-amber").is_some()
     });
@@ -136,7 +135,7 @@ fn a_preset_scale_with_an_edited_label_is_graded_on_the_desk() {
 fn adding_a_level_to_a_graded_scale_saves_a_new_version() {
     let (_dir, path) = demo_copy();
     let grades_before = Study::open(&path).unwrap().grade_count("fit4").unwrap();
-    let mut h = harness(&path, ScreenName::Scales);
+    let mut h = harness(&path, Screen::Scales);
     step_until_within(&mut h, "the scales", 30, scales_loaded);
     h.get_by_label("Edit fit4").click();
     h.step();
@@ -182,7 +181,7 @@ fn the_trial_screen_shows_the_engine_and_cli_numbers() {
         )
         .unwrap();
     }
-    let mut h = harness(&path, ScreenName::Trial);
+    let mut h = harness(&path, Screen::Trial);
     step_until_within(&mut h, "the trial", 300, |h| {
         h.state().trial.model.is_some() && !h.state().trial.is_loading()
     });
@@ -261,24 +260,37 @@ fn the_trial_screen_shows_the_engine_and_cli_numbers() {
         "{} vs {by_hand}",
         row.alpha_ordinal
     );
-    // And the screen's model is the engine's output for the same settings.
-    let engine = trial::build(
-        &snapshot,
-        &study.collapse_maps().unwrap(),
-        plumbline::ui::trial::RESAMPLES,
-        plumbline::ui::trial::SEED,
-    );
-    assert_eq!(engine.scales.len(), model.scales.len());
-    for (a, b) in engine.scales.iter().zip(&model.scales) {
-        assert_eq!(a.alpha_ordinal.to_bits(), b.alpha_ordinal.to_bits());
-        assert_eq!(a.ranker_order, b.ranker_order);
+    // And the screen shows what `plumbline trial` prints for the same study, to the bit
+    // (the JSON keeps every float digit).
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_plumbline"))
+        .args(["trial", "--format", "json"])
+        .arg(&path)
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{out:?}");
+    let printed: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let rows = printed["scales"].as_array().unwrap();
+    assert_eq!(rows.len(), model.scales.len());
+    for (printed, shown) in rows.iter().zip(&model.scales) {
+        assert_eq!(printed["scale"], shown.scale.as_str());
+        assert_eq!(
+            printed["alpha_ordinal"].as_f64().unwrap(),
+            shown.alpha_ordinal
+        );
+        let order: Vec<&str> = printed["ranker_order"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|r| r.as_str().unwrap())
+            .collect();
+        assert_eq!(order, shown.ranker_order);
     }
 }
 
 #[test]
 fn a_pilot_started_on_the_scales_screen_sets_the_desk_on_the_reviewers_block() {
     let (_dir, path) = demo_copy();
-    let mut h = harness(&path, ScreenName::Scales);
+    let mut h = harness(&path, Screen::Scales);
     step_until_within(&mut h, "the scales", 30, scales_loaded);
     assert!(
         h.get_by_label("Start pilot").accesskit_node().is_disabled(),

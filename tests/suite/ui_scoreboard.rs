@@ -11,7 +11,7 @@ use std::process::Command;
 use egui::Role;
 use egui_kittest::Harness;
 use egui_kittest::kittest::{NodeT, Queryable};
-use plumbline::cli::ScreenName;
+use plumbline::ui::Screen;
 use plumbline::ui::Workbench;
 use ui_support::{demo_copy, step_until};
 
@@ -20,7 +20,7 @@ fn harness(path: &Path) -> Harness<'static, Workbench> {
         .with_size([1400.0, 900.0])
         .build_ui_state(
             |ui, wb: &mut Workbench| wb.show(ui),
-            Workbench::new(path.to_path_buf(), ScreenName::Scoreboard),
+            Workbench::new(path.to_path_buf(), Screen::Scoreboard),
         )
 }
 
@@ -257,7 +257,7 @@ fn judging_the_gaps_opens_the_desk_on_the_most_decisive_pair() {
     h.step();
     step_until(&mut h, "the desk with the first gap", |h| {
         let wb = h.state();
-        wb.screen == ScreenName::Desk && wb.desk.data().is_some() && wb.desk.current().is_some()
+        wb.screen == Screen::Desk && wb.desk.data().is_some() && wb.desk.current().is_some()
     });
     let wb = h.state();
     assert_eq!(wb.reviewer.as_deref(), Some("rev-birch"));

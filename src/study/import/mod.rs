@@ -169,7 +169,7 @@ fn import_in_transaction(study: &mut Study, set: &ImportSet) -> Result<Vec<FileR
 }
 
 fn input_error(problems: Problems) -> StudyError {
-    StudyError::Input(problems.to_string())
+    StudyError::Input(problems)
 }
 
 fn parse(src: &Source, shape: &Shape) -> Result<Table> {
@@ -287,15 +287,4 @@ fn id_set(tx: &Transaction, sql: &str) -> Result<HashSet<String>> {
     Ok(ids)
 }
 
-/// A stable 128-bit FNV-1a digest; gives imported events an identity so that importing
-/// or merging the same grade twice adds it once.
-pub fn content_uid(parts: &[&str]) -> String {
-    let mut h: u128 = 0x6c62_272e_07bb_0142_62b8_2175_6295_c58d;
-    for part in parts {
-        for b in part.bytes().chain(std::iter::once(0x1f)) {
-            h ^= b as u128;
-            h = h.wrapping_mul(0x0000_0000_0100_0000_0000_0000_0000_013b);
-        }
-    }
-    format!("{h:032x}")
-}
+pub use crate::core::digest::content_uid;

@@ -9,6 +9,7 @@
 //! Blindness: nothing here knows rankers, ranks or scores, and other reviewers' grades
 //! are never loaded; the queue order is a seeded shuffle (see `study::queues`).
 
+mod load;
 pub mod state;
 pub mod writer;
 
@@ -16,9 +17,10 @@ use std::collections::HashMap;
 use std::path::Path;
 
 use super::image_cache::{self, ImageCache};
-use super::jobs::Pending;
+use super::jobs::{JobResult, Task};
 use crate::study::Study;
 use crate::study::queues::ItemCard;
+pub use load::load;
 pub use state::{DeskData, DeskState, KeyRole, Press, REASON_IMAGE, REASON_QUERY};
 use writer::{GradeWriter, WriterEvent};
 
@@ -27,98 +29,6 @@ const PREFETCH: usize = 3;
 /// Pixel sizes the desk asks for.
 const ITEM_SIDE: u32 = 360;
 const ANCHOR_SIDE: u32 = 240;
-
-/// Loads the desk for `reviewer`; `scale` (when given) becomes the active scale.
-/// Runs on a job thread; returns the write handle with the data.
-pub fn load(
-    path: &Path,
-    reviewer: &str,
-    scale: Option<String>,
-) -> Result<(DeskData, Study), String> {
-    let err = |e: crate::study::StudyError| e.to_string();
-    let mut study = Study::open(path).map_err(err)?;
-    if !study.is_read_only() {
-        study.add_reviewer(reviewer).map_err(err)?;
-    }
-    let snapshot = study.snapshot().map_err(err)?;
-    if snapshot.scales.is_empty() {
-        return Err("This study has no scale yet: import scales.csv on the Catalog screen.".into());
-    }
-    let scale_index = match &scale {
-        Some(name) => {
-            let i = snapshot
-                .scale_index(name)
-                .ok_or_else(|| format!("no scale named {name}"))?;
-            if !study.is_read_only() {
-                study.set_setting("active_scale", name).map_err(err)?;
-            }
-            i
-        }
-        // During a pilot the reviewer works through one scale's block after another.
-        None => match study.pilot_block(reviewer).ok().flatten() {
-            Some(name) => snapshot
-                .scale_index(&name)
-                .unwrap_or_else(|| active_scale(&study, &snapshot)),
-            None => active_scale(&study, &snapshot),
-        },
-    };
-    let scale = snapshot.scales[scale_index].clone();
-    let pairs = study.ensure_queue(reviewer, &scale.name).map_err(err)?;
-    let marks_by_pair = study.reviewer_marks(reviewer, &scale.name).map_err(err)?;
-    let items = study.item_cards().map_err(err)?;
-    let contexts = study.context_cards().map_err(err)?;
-    let item_index: HashMap<String, u32> = items
-        .iter()
-        .enumerate()
-        .map(|(i, it)| (it.id.clone(), i as u32))
-        .collect();
-    let context_index: HashMap<&str, u32> = contexts
-        .iter()
-        .enumerate()
-        .map(|(i, c)| (c.id.as_str(), i as u32))
-        .collect();
-    let mut queue = Vec::with_capacity(pairs.len());
-    let mut marks = Vec::with_capacity(pairs.len());
-    for pair in &pairs {
-        let (Some(&c), Some(&i)) = (
-            context_index.get(pair.0.as_str()),
-            item_index.get(pair.1.as_str()),
-        ) else {
-            continue;
-        };
-        queue.push((c, i));
-        marks.push(marks_by_pair.get(pair).copied());
-    }
-    let (past_grades, past_seconds) = study.reviewer_effort(reviewer, &scale.name).map_err(err)?;
-    let catalog_dir = study.catalog_dir().map_err(err)?;
-    Ok((
-        DeskData {
-            reviewer: reviewer.to_string(),
-            scale,
-            scale_names: snapshot.scales.iter().map(|s| s.name.clone()).collect(),
-            queue,
-            marks,
-            items,
-            contexts,
-            item_index,
-            catalog_dir,
-            past_grades,
-            past_seconds,
-        },
-        study,
-    ))
-}
-
-/// The setting `active_scale` when it names a scale, else the scale with the most grades.
-pub fn active_scale(study: &Study, snapshot: &crate::study::snapshot::Snapshot) -> usize {
-    study
-        .setting("active_scale")
-        .ok()
-        .flatten()
-        .and_then(|name| snapshot.scale_index(&name))
-        .or_else(|| snapshot.busiest_scale())
-        .unwrap_or(0)
-}
 
 /// Whether every grade given is in the study.
 #[derive(Debug, Clone, PartialEq)]
@@ -134,7 +44,8 @@ pub enum SaveState {
 pub struct Desk {
     state: Option<DeskState>,
     writer: Option<GradeWriter>,
-    loading: Option<Pending<Result<(DeskData, Study), String>>>,
+    loading: Task<JobResult<(DeskData, Study)>>,
+    /// Why the last load failed (shown instead of a card).
     pub load_error: Option<String>,
     last_time: Option<f64>,
     was_focused: bool,
@@ -150,7 +61,7 @@ impl Default for Desk {
         Desk {
             state: None,
             writer: None,
-            loading: None,
+            loading: Task::named("desk-load"),
             load_error: None,
             last_time: None,
             was_focused: true,
@@ -176,13 +87,13 @@ impl Desk {
         }
         let path = path.to_path_buf();
         let reviewer = reviewer.to_string();
-        self.loading = Some(Pending::spawn_named("desk-load", ctx, move || {
-            load(&path, &reviewer, scale)
-        }));
+        self.loading
+            .start(ctx, move || load(&path, &reviewer, scale));
     }
 
+    /// Whether the queue is being (re)loaded.
     pub fn is_loading(&self) -> bool {
-        self.loading.is_some()
+        self.loading.is_running()
     }
 
     /// The loaded queue and marks, once loaded.
@@ -212,23 +123,13 @@ impl Desk {
         }
     }
 
-    /// "all grades saved" (Ok), or the error of the grade the writer keeps retrying.
-    pub fn save_status(&self) -> Result<(), String> {
-        match self.save_state() {
-            SaveState::Waiting(e) => Err(e),
-            _ if self.has_unsaved() => Err("saving…".into()),
-            _ => Ok(()),
-        }
-    }
-
     /// Grades per hour over this reviewer's recorded time on the scale.
     pub fn pace_per_hour(&self) -> Option<f64> {
         self.state.as_ref().and_then(DeskState::pace_per_hour)
     }
 
     fn collect(&mut self, ctx: &egui::Context) {
-        if let Some(result) = self.loading.as_ref().and_then(Pending::poll) {
-            self.loading = None;
+        if let Some(result) = self.loading.poll() {
             match result {
                 Ok((data, study)) => {
                     if self.data().map(|d| &d.catalog_dir) != Some(&data.catalog_dir) {
@@ -245,7 +146,7 @@ impl Desk {
                     self.state = Some(DeskState::new(data));
                     self.load_error = None;
                 }
-                Err(e) => self.load_error = Some(e),
+                Err(e) => self.load_error = Some(e.to_string()),
             }
         }
         if let (Some(writer), Some(state)) = (&self.writer, &mut self.state) {

@@ -5,7 +5,7 @@ use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
 
 use egui_kittest::Harness;
-use plumbline::cli::ScreenName;
+use plumbline::ui::Screen;
 use plumbline::ui::Workbench;
 
 pub type Bench = Harness<'static, Workbench>;
@@ -19,7 +19,7 @@ pub fn demo_copy() -> (tempfile::TempDir, PathBuf) {
 }
 
 /// The workbench on `path`, opened at `screen`, in a window of the screenshots' size.
-pub fn harness(path: &Path, screen: ScreenName) -> Bench {
+pub fn harness(path: &Path, screen: Screen) -> Bench {
     Harness::builder()
         .with_size([1360.0, 860.0])
         .build_ui_state(

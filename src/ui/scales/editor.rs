@@ -2,7 +2,7 @@
 //! text being typed; problems are checked with `Scale::problems` as the user types and
 //! shown beside the form, and saving is handed back to the screen (a job thread).
 
-use super::scales::{ScaleEntry, ScalesModel};
+use super::{ScaleEntry, ScalesModel};
 use crate::core::agreement::CollapseMap;
 use crate::core::scale::{Level, Scale};
 use crate::study::scales::{meaning_changed, next_version_name};

@@ -2,133 +2,29 @@
 //! is built on a job thread (study snapshot → `analysis::agreement` and
 //! `analysis::panel_review`); `ui` only draws it. Settling lives in `settling.rs`.
 
-use std::collections::HashSet;
 use std::path::{Path, PathBuf};
 
-use super::jobs::Pending;
-use super::settling::SettleForm;
-use crate::analysis::agreement::{self, AgreementReport, ReviewerPair};
-use crate::analysis::panel_review::{self, PanelReview};
-use crate::core::scale::Scale;
+use super::jobs::{JobError, JobResult, Task};
+pub mod settling;
+
+use crate::analysis::agreement::{AgreementReport, ReviewerPair};
+pub use crate::analysis::agreement_view::{AgreementModel, AgreementRequest};
+use crate::analysis::defaults;
+use crate::analysis::panel_review::PanelReview;
 use crate::study::Study;
-
-/// Bootstrap resamples and seed for the alpha interval: the same as `plumbline agree`,
-/// so the screen and the command line print the same interval.
-pub const RESAMPLES: usize = 1000;
-pub const SEED: u64 = 20_261_201;
-
-/// What to compute: the scale and collapse map picked on screen, and who is looking.
-#[derive(Debug, Clone, Default, PartialEq)]
-pub struct AgreementRequest {
-    pub scale: Option<String>,
-    pub collapse: Option<String>,
-    /// The signed-in reviewer; the blind rule hides pairs they still have to grade.
-    pub viewer: Option<String>,
-}
-
-/// Everything the screen shows, computed off the UI thread.
-#[derive(Debug, Clone)]
-pub struct AgreementModel {
-    pub request: AgreementRequest,
-    pub scale: Scale,
-    pub scale_names: Vec<String>,
-    /// Collapse maps saved for this scale.
-    pub collapse_names: Vec<String>,
-    pub report: AgreementReport,
-    pub review: PanelReview,
-    /// Pairs left out because the viewer has not graded them yet (blind rule).
-    pub hidden_pairs: usize,
-    pub read_only: bool,
-}
-
-impl AgreementModel {
-    /// True while the viewer still has ungraded pairs: settling waits until after grading.
-    pub fn viewer_is_grading(&self) -> bool {
-        self.hidden_pairs > 0
-    }
-
-    pub fn pair(&self, a: &str, b: &str) -> Option<&ReviewerPair> {
-        self.report.pairs.iter().find(|p| {
-            (p.reviewer_a == a && p.reviewer_b == b) || (p.reviewer_a == b && p.reviewer_b == a)
-        })
-    }
-}
+use settling::SettleForm;
 
 /// Loads and computes the model (runs on a job thread).
-pub fn load(path: &Path, request: AgreementRequest) -> Result<AgreementModel, String> {
-    let err = |e: crate::study::StudyError| e.to_string();
-    let study = Study::open(path).map_err(err)?;
-    let mut snapshot = study.snapshot().map_err(err)?;
-    if snapshot.scales.is_empty() {
-        return Err("The study has no scales yet: import scales.csv first.".into());
-    }
-    let scale = request
-        .scale
-        .as_deref()
-        .and_then(|s| snapshot.scale_index(s))
-        .unwrap_or_else(|| super::desk::active_scale(&study, &snapshot));
-    let scale_name = snapshot.scales[scale].name.clone();
-    let maps: Vec<_> = study
-        .collapse_maps()
-        .map_err(err)?
-        .into_iter()
-        .filter(|(s, _)| *s == scale_name)
-        .map(|(_, m)| m)
-        .collect();
-    let collapse = request
-        .collapse
-        .as_deref()
-        .and_then(|name| maps.iter().find(|m| m.name == name));
-    let pending = match &request.viewer {
-        Some(viewer) => study.pending_pairs(viewer, &scale_name).map_err(err)?,
-        None => HashSet::new(),
-    };
-    let mut grades = study.grade_details(&scale_name).map_err(err)?;
-    if !pending.is_empty() {
-        // Blind rule: drop every grade of the viewer's ungraded pairs before computing
-        // anything, so no number, list or detail can reveal the others' levels.
-        grades.retain(|g| !pending.contains(&(g.context_id.clone(), g.item_id.clone())));
-        let hidden: HashSet<(u32, u32)> = pending
-            .iter()
-            .filter_map(|(c, i)| {
-                let c = snapshot.contexts.iter().position(|x| &x.id == c)?;
-                let i = snapshot
-                    .items
-                    .binary_search_by(|x| x.id.as_str().cmp(i))
-                    .ok()?;
-                Some((c as u32, i as u32))
-            })
-            .collect();
-        snapshot
-            .grades
-            .retain(|g| g.scale as usize != scale || !hidden.contains(&(g.context, g.item)));
-    }
-    let settled = study.settled_in_force(&scale_name).map_err(err)?;
-    let gold = study.gold_pairs(&scale_name).map_err(err)?;
-    let top_k = study.pool_depth().map_err(err)?;
-    let report = agreement::build(&snapshot, scale, collapse, RESAMPLES, SEED);
-    let review = panel_review::build(&snapshot, scale, &grades, &settled, &gold, collapse, top_k);
-    Ok(AgreementModel {
-        request: AgreementRequest {
-            scale: Some(scale_name),
-            collapse: collapse.map(|c| c.name.clone()),
-            viewer: request.viewer,
-        },
-        scale: snapshot.scales[scale].clone(),
-        scale_names: snapshot.scales.iter().map(|s| s.name.clone()).collect(),
-        collapse_names: maps.iter().map(|m| m.name.clone()).collect(),
-        report,
-        review,
-        hidden_pairs: pending.len(),
-        read_only: study.is_read_only(),
+pub fn load(path: &Path, request: AgreementRequest) -> JobResult<AgreementModel> {
+    crate::analysis::agreement_view::build(&Study::open(path)?, request)?.ok_or_else(|| {
+        JobError::Missing("The study has no scales yet: import scales.csv first.".into())
     })
 }
 
 /// The screen's state between frames.
-#[derive(Default)]
 pub struct AgreementScreen {
-    pub model: Option<Result<AgreementModel, String>>,
-    loading: Option<Pending<Result<AgreementModel, String>>>,
+    pub model: Option<JobResult<AgreementModel>>,
+    loading: Task<JobResult<AgreementModel>>,
     /// What the next load asks for (the selectors write here).
     pub wanted: AgreementRequest,
     loaded_path: Option<PathBuf>,
@@ -140,16 +36,33 @@ pub struct AgreementScreen {
     pub settle: SettleForm,
 }
 
+impl Default for AgreementScreen {
+    fn default() -> AgreementScreen {
+        AgreementScreen {
+            model: None,
+            loading: Task::named("agreement-load"),
+            wanted: AgreementRequest::default(),
+            loaded_path: None,
+            last_pass: 0,
+            selected_cell: None,
+            show_disagreements: false,
+            settle: SettleForm::default(),
+        }
+    }
+}
+
 impl AgreementScreen {
+    /// Whether the model is being computed.
     pub fn is_loading(&self) -> bool {
-        self.loading.is_some()
+        self.loading.is_running()
     }
 
+    /// Computes the model for `wanted` in the background.
     pub fn start_loading(&mut self, ctx: &egui::Context, path: &Path) {
         let path_buf = path.to_path_buf();
         let request = self.wanted.clone();
         self.loaded_path = Some(path_buf.clone());
-        self.loading = Some(Pending::spawn(ctx, move || load(&path_buf, request)));
+        self.loading.start(ctx, move || load(&path_buf, request));
     }
 
     /// Reloads when the screen is entered again, the study or viewer changed, a
@@ -159,8 +72,7 @@ impl AgreementScreen {
         let entered = pass > self.last_pass + 1;
         self.last_pass = pass;
         self.wanted.viewer = viewer.map(str::to_string);
-        if let Some(result) = self.loading.as_ref().and_then(Pending::poll) {
-            self.loading = None;
+        if let Some(result) = self.loading.poll() {
             self.model = Some(result);
         }
         if self.settle.poll_write() {
@@ -175,7 +87,7 @@ impl AgreementScreen {
             _ => false,
         };
         let other_study = self.loaded_path.as_deref() != Some(path);
-        if self.loading.is_none() && (entered || stale || other_study || self.model.is_none()) {
+        if !self.loading.is_running() && (entered || stale || other_study || self.model.is_none()) {
             if other_study {
                 *self = AgreementScreen::default();
                 self.last_pass = pass;
@@ -196,9 +108,9 @@ impl AgreementScreen {
                 });
                 return;
             }
-            Some(Err(message)) => {
-                ui.colored_label(ui.visuals().error_fg_color, &message);
-                self.model = Some(Err(message));
+            Some(Err(error)) => {
+                ui.colored_label(ui.visuals().error_fg_color, error.to_string());
+                self.model = Some(Err(error));
                 return;
             }
             Some(Ok(model)) => model,
@@ -289,7 +201,7 @@ impl AgreementScreen {
             if model.collapse_names.is_empty() {
                 ui.weak("(no collapse maps saved for this scale)");
             }
-            if self.loading.is_some() {
+            if self.loading.is_running() {
                 ui.spinner();
                 ui.weak("recomputing…");
             }
@@ -535,8 +447,10 @@ fn panel_summary(ui: &mut egui::Ui, r: &AgreementReport) {
                 "Krippendorff's alpha (ordinal)",
                 r.alpha_ordinal,
                 format!(
-                    "95 % CI {:.3} to {:.3} (bootstrap, {RESAMPLES} resamples)",
-                    r.alpha_ordinal_ci_low, r.alpha_ordinal_ci_high
+                    "95 % CI {:.3} to {:.3} (bootstrap, {} resamples)",
+                    r.alpha_ordinal_ci_low,
+                    r.alpha_ordinal_ci_high,
+                    defaults::AGREEMENT_BOOTSTRAP
                 ),
                 s,
             );

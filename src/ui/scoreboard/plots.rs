@@ -4,7 +4,7 @@
 
 use egui_plot::{Bar, BarChart, Corner, FilledArea, Legend, Line, Plot, PlotPoints};
 
-use super::scoreboard_model::ScoreboardModel;
+use crate::analysis::scoreboard_view::ScoreboardModel;
 
 /// Distinct colours per ranker, readable on light and dark backgrounds.
 const PALETTE: [egui::Color32; 6] = [

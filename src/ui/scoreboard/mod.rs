@@ -1,21 +1,23 @@
 //! Scoreboard: rank the rankers with intervals, compare candidates with the baseline,
 //! see how much the answer depends on who graded, and queue the unjudged pairs that
 //! could change it. Every number comes from `analysis::scoreboard::build` on a job
-//! thread (see `scoreboard_model`), the same function `plumbline score` prints, so
+//! thread (see `analysis::scoreboard_view`), the same function `plumbline score` prints, so
 //! screen and terminal agree.
+
+mod plots;
+mod tables;
 
 use std::path::{Path, PathBuf};
 
-use super::jobs::Pending;
-pub use super::scoreboard_model::*;
-use super::scoreboard_plots as plots;
-use super::scoreboard_tables::{comparisons, coverage_warning, ranker_table, sensitivity};
+use super::jobs::{JobError, JobResult, Task};
 use super::study_picker::block_on;
 use crate::analysis::judgments::GradeSource;
 use crate::analysis::scoreboard::{ScoreSettings, Segment};
+pub use crate::analysis::scoreboard_view::*;
 use crate::analysis::{render, report};
 use crate::core::metrics::{GainKind, Unjudged};
 use crate::study::Study;
+use tables::{comparisons, coverage_warning, ranker_table, sensitivity};
 
 /// What the screen asks the workbench to do.
 pub enum ScoreboardAction {
@@ -24,7 +26,13 @@ pub enum ScoreboardAction {
 }
 
 /// Queues the gaps for a reviewer: (reviewer, pairs queued, pairs new to their queue).
-type GapJob = Pending<Result<(String, usize, usize), String>>;
+type GapJob = Task<JobResult<(String, usize, usize)>>;
+
+/// Reads the study and builds the model for `settings`; runs on a job thread.
+pub fn load(path: &Path, settings: ScoreSettings) -> JobResult<ScoreboardModel> {
+    let snapshot = Study::open(path)?.snapshot()?;
+    Ok(build(&snapshot, settings)?)
+}
 
 /// The screen's state: the settings being edited, the last model and running jobs.
 pub struct ScoreboardScreen {
@@ -33,14 +41,16 @@ pub struct ScoreboardScreen {
     pub focus_k: usize,
     pub model: Option<ScoreboardModel>,
     pub error: Option<String>,
-    loading: Option<(String, Pending<Result<ScoreboardModel, String>>)>,
-    computed_for: Option<String>,
+    loading: Task<JobResult<ScoreboardModel>>,
+    /// The settings the running computation was asked for.
+    sent: Option<ScoreSettings>,
+    computed_for: Option<ScoreSettings>,
     last_frame: u64,
     pub candidate: Option<String>,
     pub gap_reviewer: Option<String>,
-    gap_job: Option<GapJob>,
+    gap_job: GapJob,
     pub message: Option<String>,
-    export_job: Option<Pending<Result<String, String>>>,
+    export_job: Task<JobResult<String>>,
 }
 
 impl Default for ScoreboardScreen {
@@ -50,32 +60,30 @@ impl Default for ScoreboardScreen {
             focus_k: 10,
             model: None,
             error: None,
-            loading: None,
+            loading: Task::named("scoreboard-load"),
+            sent: None,
             computed_for: None,
             last_frame: 0,
             candidate: None,
             gap_reviewer: None,
-            gap_job: None,
+            gap_job: Task::named("gap-queue"),
             message: None,
-            export_job: None,
+            export_job: Task::named("scoreboard-export"),
         }
     }
 }
 
-fn key_of(settings: &ScoreSettings) -> String {
-    format!("{settings:?}")
-}
-
 impl ScoreboardScreen {
+    /// Whether a computation is in flight.
     pub fn is_loading(&self) -> bool {
-        self.loading.is_some()
+        self.loading.is_running()
     }
 
     /// True when the model on screen was computed for the settings the controls show.
     pub fn is_current(&self) -> bool {
         self.model.is_some()
-            && self.loading.is_none()
-            && self.computed_for.as_deref() == Some(key_of(&self.wanted).as_str())
+            && !self.loading.is_running()
+            && self.computed_for.as_ref() == Some(&self.wanted)
     }
 
     /// Starts a computation when the settings changed (or on entering the screen, since
@@ -84,19 +92,16 @@ impl ScoreboardScreen {
         let frame = ctx.cumulative_frame_nr();
         let entered = frame > self.last_frame + 1;
         self.last_frame = frame;
-        if let Some((sent, job)) = &self.loading
-            && let Some(result) = job.poll()
-        {
-            let sent = sent.clone();
-            self.loading = None;
+        if let Some(result) = self.loading.poll() {
+            let sent = self.sent.take();
             match result {
                 Ok(model) => {
-                    if sent == key_of(&self.wanted) {
+                    if sent.as_ref() == Some(&self.wanted) {
                         // Adopt what the job filled in (scale, baseline) without recomputing.
                         self.wanted = model.settings.clone();
-                        self.computed_for = Some(key_of(&self.wanted));
+                        self.computed_for = Some(self.wanted.clone());
                     } else {
-                        self.computed_for = Some(sent);
+                        self.computed_for = sent;
                     }
                     if !self.wanted.ks.contains(&self.focus_k) {
                         self.focus_k = default_focus(&self.wanted.ks);
@@ -105,26 +110,26 @@ impl ScoreboardScreen {
                     self.model = Some(model);
                 }
                 Err(e) => {
-                    self.computed_for = Some(sent);
-                    self.error = Some(e);
+                    self.computed_for = sent;
+                    self.error = Some(e.to_string());
                 }
             }
         }
-        let key = key_of(&self.wanted);
-        if self.loading.is_none() && (entered || self.computed_for.as_ref() != Some(&key)) {
+        if !self.loading.is_running()
+            && (entered || self.computed_for.as_ref() != Some(&self.wanted))
+        {
             let p = path.to_path_buf();
             let settings = self.wanted.clone();
-            self.loading = Some((key, Pending::spawn(ctx, move || load(&p, settings))));
+            self.sent = Some(settings.clone());
+            self.loading.start(ctx, move || load(&p, settings));
         }
     }
 
     fn collect_side_jobs(&mut self) -> Option<ScoreboardAction> {
-        if let Some(result) = self.export_job.as_ref().and_then(Pending::poll) {
-            self.export_job = None;
-            self.message = Some(result.unwrap_or_else(|e| e));
+        if let Some(result) = self.export_job.poll() {
+            self.message = Some(result.unwrap_or_else(|e| e.to_string()));
         }
-        if let Some(result) = self.gap_job.as_ref().and_then(Pending::poll) {
-            self.gap_job = None;
+        if let Some(result) = self.gap_job.poll() {
             match result {
                 Ok((reviewer, queued, added)) => {
                     self.message = Some(format!(
@@ -153,7 +158,7 @@ impl ScoreboardScreen {
         }
         ui.horizontal(|ui| {
             ui.heading("Scoreboard");
-            if self.loading.is_some() {
+            if self.loading.is_running() {
                 ui.spinner();
                 ui.weak("Computing…");
             }
@@ -399,7 +404,7 @@ impl ScoreboardScreen {
             ) {
                 self.gap_reviewer = Some(r);
             }
-            let enabled = self.gap_reviewer.is_some() && self.gap_job.is_none();
+            let enabled = self.gap_reviewer.is_some() && !self.gap_job.is_running();
             let label = format!("Queue {} gaps and open the desk", model.gaps.len());
             if ui.add_enabled(enabled, egui::Button::new(label)).clicked()
                 && let Some(reviewer) = self.gap_reviewer.clone()
@@ -411,15 +416,13 @@ impl ScoreboardScreen {
                     .collect();
                 let scale = model.board.scale.clone();
                 let p: PathBuf = path.to_path_buf();
-                self.gap_job = Some(Pending::spawn(ctx, move || {
-                    let mut study = Study::open(&p).map_err(|e| e.to_string())?;
-                    let added = study
-                        .queue_gaps_first(&reviewer, &scale, &pairs)
-                        .map_err(|e| e.to_string())?;
+                self.gap_job.start(ctx, move || {
+                    let mut study = Study::open(&p)?;
+                    let added = study.queue_gaps_first(&reviewer, &scale, &pairs)?;
                     Ok((reviewer, pairs.len(), added))
-                }));
+                });
             }
-            if self.gap_job.is_some() {
+            if self.gap_job.is_running() {
                 ui.spinner();
             }
         });
@@ -428,7 +431,7 @@ impl ScoreboardScreen {
     fn export(&mut self, ui: &mut egui::Ui, ctx: &egui::Context, model: &ScoreboardModel) {
         ui.strong("Export");
         ui.horizontal(|ui| {
-            let busy = self.export_job.is_some();
+            let busy = self.export_job.is_running();
             let csv = ui.add_enabled(!busy, egui::Button::new("Save scores CSV…"));
             let md = ui.add_enabled(!busy, egui::Button::new("Save report (Markdown)…"));
             let report_wanted = if csv.clicked() {
@@ -441,7 +444,7 @@ impl ScoreboardScreen {
             // Rendering and writing happen on the job thread with a copy of the model.
             let board = model.board.clone();
             let agreement = model.agreement.clone();
-            self.export_job = Some(Pending::spawn(ctx, move || {
+            self.export_job.start(ctx, move || {
                 let (name, filter) = if report_wanted {
                     ("report.md", ("Markdown", "md"))
                 } else {
@@ -452,7 +455,7 @@ impl ScoreboardScreen {
                     .set_file_name(name)
                     .save_file();
                 let Some(handle) = block_on(dialog) else {
-                    return Err("Nothing saved.".to_string());
+                    return Ok("Nothing saved.".to_string());
                 };
                 let target = handle.path().to_path_buf();
                 let text = if report_wanted {
@@ -462,8 +465,11 @@ impl ScoreboardScreen {
                 };
                 std::fs::write(&target, text)
                     .map(|_| format!("Saved {}.", target.display()))
-                    .map_err(|e| format!("{}: {e}", target.display()))
-            }));
+                    .map_err(|source| JobError::Write {
+                        path: target.display().to_string(),
+                        source,
+                    })
+            });
         });
     }
 }

@@ -4,12 +4,14 @@
 
 use std::path::Path;
 
-use super::jobs::Pending;
-use super::scale_editor::{Editor, MapEditor};
+use super::jobs::{JobResult, Task};
+pub mod editor;
+
 use crate::core::agreement::CollapseMap;
 use crate::core::scale::{self, Scale};
 use crate::study::Study;
 use crate::study::scales::Saved;
+use editor::{Editor, MapEditor};
 
 /// One scale and how many grade events refer to it.
 #[derive(Debug, Clone)]
@@ -35,27 +37,24 @@ impl ScalesModel {
     }
 }
 
-pub fn load(path: &Path) -> Result<ScalesModel, String> {
-    let err = |e: crate::study::StudyError| e.to_string();
-    let study = Study::open(path).map_err(err)?;
-    let snapshot = study.snapshot().map_err(err)?;
+/// Reads the scales, maps and pilot; runs on a job thread.
+pub fn load(path: &Path) -> JobResult<ScalesModel> {
+    let study = Study::open(path)?;
+    let snapshot = study.snapshot()?;
     let mut scales = Vec::new();
     for s in &snapshot.scales {
         scales.push(ScaleEntry {
             scale: s.clone(),
-            grades: study.grade_count(&s.name).map_err(err)?,
+            grades: study.grade_count(&s.name)?,
         });
     }
-    let active = (!snapshot.scales.is_empty()).then(|| {
-        snapshot.scales[super::desk::active_scale(&study, &snapshot)]
-            .name
-            .clone()
-    });
+    let active = (!snapshot.scales.is_empty())
+        .then(|| snapshot.scales[snapshot.active_scale_index()].name.clone());
     Ok(ScalesModel {
         scales,
         active,
-        pilot: study.pilot_scales().map_err(err)?,
-        maps: study.collapse_maps().map_err(err)?,
+        pilot: study.pilot_scales()?,
+        maps: study.collapse_maps()?,
         read_only: study.is_read_only(),
     })
 }
@@ -77,9 +76,8 @@ pub enum Change {
 }
 
 /// Applies `change` and reloads the model; returns a sentence saying what happened.
-pub fn apply(path: &Path, change: Change) -> Result<(String, ScalesModel), String> {
-    let err = |e: crate::study::StudyError| e.to_string();
-    let mut study = Study::open(path).map_err(err)?;
+pub fn apply(path: &Path, change: Change) -> JobResult<(String, ScalesModel)> {
+    let mut study = Study::open(path)?;
     let message = match change {
         Change::SaveScale { scale, origins } => match study.save_scale(&scale, &origins) {
             Ok(Saved::Created(n)) => format!("Scale \"{n}\" created."),
@@ -88,25 +86,25 @@ pub fn apply(path: &Path, change: Change) -> Result<(String, ScalesModel), Strin
                 "\"{}\" already has grades, so the changed levels were saved as a new scale \"{n}\"; the old grades are untouched.",
                 scale.name
             ),
-            Err(e) => return Err(e.to_string()),
+            Err(e) => return Err(e.into()),
         },
         Change::Activate(name) => {
-            study.set_active_scale(&name).map_err(err)?;
+            study.set_active_scale(&name)?;
             format!("The grading desk now grades on \"{name}\".")
         }
         Change::SaveMap { scale, map } => {
-            study.save_collapse_map(&scale, &map).map_err(err)?;
+            study.save_collapse_map(&scale, &map)?;
             format!("Collapse map \"{}\" saved for \"{scale}\".", map.name)
         }
         Change::StartPilot(scales) => {
-            study.start_pilot(&scales).map_err(err)?;
+            study.start_pilot(&scales)?;
             format!(
                 "Pilot started: each reviewer grades the same pairs on {}, one scale at a time.",
                 scales.join(", ")
             )
         }
         Change::EndPilot => {
-            study.end_pilot().map_err(err)?;
+            study.end_pilot()?;
             "Pilot ended; the desk grades on the active scale again.".to_string()
         }
     };
@@ -115,40 +113,53 @@ pub fn apply(path: &Path, change: Change) -> Result<(String, ScalesModel), Strin
 }
 
 /// The Scales screen's state between frames.
-#[derive(Default)]
 pub struct ScalesScreen {
-    pub model: Option<Result<ScalesModel, String>>,
-    loading: Option<Pending<Result<ScalesModel, String>>>,
-    writing: Option<Pending<Result<(String, ScalesModel), String>>>,
+    pub model: Option<JobResult<ScalesModel>>,
+    loading: Task<JobResult<ScalesModel>>,
+    writing: Task<JobResult<(String, ScalesModel)>>,
     /// The last write's outcome: Ok(what happened) or Err(why not).
-    pub message: Option<Result<String, String>>,
+    pub message: Option<JobResult<String>>,
     pub editor: Option<Editor>,
     pub map_editor: MapEditor,
     pilot_choice: Vec<String>,
 }
 
+impl Default for ScalesScreen {
+    fn default() -> ScalesScreen {
+        ScalesScreen {
+            model: None,
+            loading: Task::named("scales-load"),
+            writing: Task::named("scales-write"),
+            message: None,
+            editor: None,
+            map_editor: MapEditor::default(),
+            pilot_choice: Vec::new(),
+        }
+    }
+}
+
 impl ScalesScreen {
+    /// Reads the scales again in the background.
     pub fn reload(&mut self, ctx: &egui::Context, path: &Path) {
         let p = path.to_path_buf();
-        self.loading = Some(Pending::spawn(ctx, move || load(&p)));
+        self.loading.start(ctx, move || load(&p));
     }
 
+    /// Whether a read or a write is in flight.
     pub fn is_busy(&self) -> bool {
-        self.loading.is_some() || self.writing.is_some()
+        self.loading.is_running() || self.writing.is_running()
     }
 
     fn request(&mut self, ctx: &egui::Context, path: &Path, change: Change) {
         let p = path.to_path_buf();
-        self.writing = Some(Pending::spawn(ctx, move || apply(&p, change)));
+        self.writing.start(ctx, move || apply(&p, change));
     }
 
     fn collect(&mut self) {
-        if let Some(result) = self.loading.as_ref().and_then(Pending::poll) {
-            self.loading = None;
+        if let Some(result) = self.loading.poll() {
             self.model = Some(result);
         }
-        if let Some(result) = self.writing.as_ref().and_then(Pending::poll) {
-            self.writing = None;
+        if let Some(result) = self.writing.poll() {
             match result {
                 Ok((message, model)) => {
                     self.message = Some(Ok(message));
@@ -162,7 +173,7 @@ impl ScalesScreen {
 
     pub fn ui(&mut self, ui: &mut egui::Ui, path: &Path) {
         let ctx = ui.ctx().clone();
-        if self.model.is_none() && self.loading.is_none() {
+        if self.model.is_none() && !self.loading.is_running() {
             self.reload(&ctx, path);
         }
         self.collect();
@@ -176,7 +187,7 @@ impl ScalesScreen {
                 return;
             }
             Some(Err(e)) => {
-                ui.colored_label(ui.visuals().error_fg_color, e);
+                ui.colored_label(ui.visuals().error_fg_color, e.to_string());
                 return;
             }
             Some(Ok(m)) => m.clone(),
@@ -215,11 +226,11 @@ impl ScalesScreen {
                 ui.vertical(|ui| {
                     if let Some(editor) = &mut self.editor {
                         let entry = editor.stored_name().and_then(|n| model.entry(n));
-                        match editor.ui(ui, entry, self.writing.is_some()) {
-                            Some(super::scale_editor::EditorAction::Save(scale, origins)) => {
+                        match editor.ui(ui, entry, self.writing.is_running()) {
+                            Some(editor::EditorAction::Save(scale, origins)) => {
                                 change = Some(Change::SaveScale { scale, origins });
                             }
-                            Some(super::scale_editor::EditorAction::Close) => {}
+                            Some(editor::EditorAction::Close) => {}
                             None => {}
                         }
                         if editor.closed {

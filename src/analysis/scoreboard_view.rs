@@ -1,22 +1,21 @@
-//! The Scoreboard's view model, built on a job thread from the same
-//! `analysis::scoreboard::build` that `plumbline score` prints, plus the text formats
-//! its cells and clipboard exports use.
+//! The Scoreboard screen's view model, built from one snapshot with the same
+//! `scoreboard::build` that `plumbline score` prints, plus NDCG curves, reviewer
+//! sensitivity, agreement, the gaps, and the text formats its cells and clipboard use.
 
 use std::collections::BTreeMap;
-use std::path::Path;
 
-use crate::analysis::agreement::{self, AgreementReport};
-use crate::analysis::gaps::{GapPair, gap_pairs};
-use crate::analysis::judgments::GradeSource;
-use crate::analysis::scoreboard::{self, ScoreSettings, Scoreboard};
+use super::agreement::{self, AgreementReport};
+use super::gaps::{GapPair, gap_pairs};
+use super::judgments::GradeSource;
+use super::scoreboard::{self, ScoreError, ScoreSettings, Scoreboard};
 use crate::core::stats::kendall_tau_b;
-use crate::study::Study;
+use crate::study::snapshot::Snapshot;
 
 /// Cut-offs offered as toggles; NDCG@k is also drawn for every k from 1 to `CURVE_MAX_K`.
 pub const OFFERED_KS: [usize; 6] = [1, 3, 5, 10, 15, 20];
 pub const CURVE_MAX_K: usize = 20;
-/// judged@k below this share earns a coverage warning.
-pub const COVERAGE_WARNING: f64 = 0.9;
+/// judged@k below this share earns a coverage warning (the CLI's caution uses the same).
+pub const COVERAGE_WARNING: f64 = super::defaults::COVERAGE_CAUTION;
 
 /// What the controls can be set to, read from the study.
 #[derive(Debug, Clone, Default)]
@@ -82,31 +81,28 @@ pub fn order_of(means: &[f64]) -> Vec<usize> {
     order
 }
 
-/// Builds the model. Heavy: runs on a job thread.
-pub fn load(path: &Path, requested: ScoreSettings) -> Result<ScoreboardModel, String> {
-    let err = |e: crate::study::StudyError| e.to_string();
-    let study = Study::open(path).map_err(err)?;
-    let snapshot = study.snapshot().map_err(err)?;
+/// Builds the model. Heavy (several scoreboards): the screen runs it on a job thread.
+pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<ScoreboardModel, ScoreError> {
+    let snapshot = snapshot;
     let mut settings = requested;
-    let board = scoreboard::build(&snapshot, &settings).map_err(|e| e.to_string())?;
+    let board = scoreboard::build(snapshot, &settings)?;
     // The baseline as resolved by the one rule (`scoreboard::resolve_baseline`).
     settings.baseline = board.settings.baseline.clone();
     let scale = snapshot
         .scale_index(&board.scale)
-        .ok_or("the scale vanished")?;
+        .ok_or_else(|| ScoreError::UnknownScale(board.scale.clone()))?;
     settings.scale = Some(board.scale.clone());
 
     // NDCG at every k from 1 to 20: one more build, with few randomization resamples
     // because only the rankers' intervals are drawn.
     let curve_board = scoreboard::build(
-        &snapshot,
+        snapshot,
         &ScoreSettings {
             ks: (1..=CURVE_MAX_K).collect(),
             randomization_resamples: 100,
             ..settings.clone()
         },
-    )
-    .map_err(|e| e.to_string())?;
+    )?;
     let curves = curve_board
         .rankers
         .iter()
@@ -129,7 +125,7 @@ pub fn load(path: &Path, requested: ScoreSettings) -> Result<ScoreboardModel, St
     // Reviewer sensitivity: means only, so few resamples.
     let quick = |grades: GradeSource| {
         scoreboard::build(
-            &snapshot,
+            snapshot,
             &ScoreSettings {
                 grades,
                 bootstrap_resamples: 200,
@@ -140,7 +136,7 @@ pub fn load(path: &Path, requested: ScoreSettings) -> Result<ScoreboardModel, St
     };
     let panel_board = match settings.grades {
         GradeSource::Panel => board.clone(),
-        _ => quick(GradeSource::Panel).map_err(|e| e.to_string())?,
+        _ => quick(GradeSource::Panel)?,
     };
     let keys = ndcg_keys(&settings.ks);
     let panel_means: BTreeMap<String, Vec<f64>> = keys
@@ -161,7 +157,7 @@ pub fn load(path: &Path, requested: ScoreSettings) -> Result<ScoreboardModel, St
         .collect();
     let mut sensitivity = Vec::new();
     for reviewer in graders {
-        let own = quick(GradeSource::Reviewer(reviewer.clone())).map_err(|e| e.to_string())?;
+        let own = quick(GradeSource::Reviewer(reviewer.clone()))?;
         let by_key = keys
             .iter()
             .map(|k| {
@@ -179,9 +175,9 @@ pub fn load(path: &Path, requested: ScoreSettings) -> Result<ScoreboardModel, St
         });
     }
 
-    let agreement = Some(agreement::build(&snapshot, scale, None, 1000, 20_261_201));
+    let agreement = Some(agreement::with_defaults(snapshot, scale, None));
     let gap_k = settings.ks.iter().copied().max().unwrap_or(10);
-    let gaps = gap_pairs(&snapshot, scale, &settings.grades, gap_k);
+    let gaps = gap_pairs(snapshot, scale, &settings.grades, gap_k);
     let mut segments = vec!["all".to_string(), "new".into(), "established".into()];
     for kind in ["query", "anchor"] {
         if snapshot.contexts.iter().any(|c| c.kind == kind) {
@@ -215,13 +211,10 @@ pub fn load(path: &Path, requested: ScoreSettings) -> Result<ScoreboardModel, St
     })
 }
 
-/// The focus k of the plots and the sensitivity table: 10 when chosen, else the largest.
+/// The focus k of the plots and the sensitivity table: the one rule of
+/// `defaults::focus_k`, which the command line's single-k columns use too.
 pub fn default_focus(ks: &[usize]) -> usize {
-    if ks.contains(&10) {
-        10
-    } else {
-        ks.iter().copied().max().unwrap_or(10)
-    }
+    super::defaults::focus_k(ks)
 }
 
 /// "mean [low, high]" as the table shows it.

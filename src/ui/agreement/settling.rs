@@ -4,11 +4,11 @@
 
 use std::path::Path;
 
-use super::agreement::AgreementModel;
-use super::jobs::Pending;
+use super::AgreementModel;
 use crate::analysis::panel_review::Disagreement;
 use crate::core::settle_rules::SettleRule;
 use crate::study::Study;
+use crate::ui::jobs::{JobResult, Task};
 
 /// A settling action waiting to be written.
 #[derive(Debug, Clone, PartialEq)]
@@ -31,28 +31,23 @@ pub fn write(
     scale: &str,
     settled_by: &str,
     action: SettleAction,
-) -> Result<String, String> {
-    let err = |e: crate::study::StudyError| e.to_string();
-    let mut study = Study::open(path).map_err(err)?;
+) -> JobResult<String> {
+    let mut study = Study::open(path)?;
     match action {
         SettleAction::ByHand {
             pair,
             value,
             reason,
         } => {
-            study
-                .settle_pair(scale, &pair, value, settled_by, &reason)
-                .map_err(err)?;
+            study.settle_pair(scale, &pair, value, settled_by, &reason)?;
             Ok(format!("{} / {} settled at level {value}.", pair.0, pair.1))
         }
         SettleAction::Undo { pair, reason } => {
-            study
-                .undo_settlement(scale, &pair, settled_by, &reason)
-                .map_err(err)?;
+            study.undo_settlement(scale, &pair, settled_by, &reason)?;
             Ok(format!("Settlement of {} / {} undone.", pair.0, pair.1))
         }
         SettleAction::Rule(rule) => {
-            let n = study.settle_by_rule(scale, rule, settled_by).map_err(err)?;
+            let n = study.settle_by_rule(scale, rule, settled_by)?;
             Ok(format!("{n} pairs settled by the {} rule.", rule.method()))
         }
     }
@@ -68,8 +63,9 @@ pub struct SettleForm {
     pub reason: String,
     /// Who settles when nobody is signed in.
     pub settler: String,
-    writing: Option<Pending<Result<String, String>>>,
-    pub message: Option<Result<String, String>>,
+    writing: Task<JobResult<String>>,
+    /// The last write's outcome: what happened, or why it did not.
+    pub message: Option<JobResult<String>>,
 }
 
 impl Default for SettleForm {
@@ -82,22 +78,22 @@ impl Default for SettleForm {
             level: None,
             reason: String::new(),
             settler: String::new(),
-            writing: None,
+            writing: Task::named("settle-write"),
             message: None,
         }
     }
 }
 
 impl SettleForm {
+    /// Whether a settling write is in flight.
     pub fn is_writing(&self) -> bool {
-        self.writing.is_some()
+        self.writing.is_running()
     }
 
     /// True once when a write has finished (the screen then reloads its model).
     pub fn poll_write(&mut self) -> bool {
-        match self.writing.as_ref().and_then(Pending::poll) {
+        match self.writing.poll() {
             Some(result) => {
-                self.writing = None;
                 if result.is_ok() {
                     self.reason.clear();
                     self.level = None;
@@ -141,9 +137,8 @@ impl SettleForm {
         let path = path.to_path_buf();
         let scale = model.scale.name.clone();
         self.message = None;
-        self.writing = Some(Pending::spawn(ctx, move || {
-            write(&path, &scale, &who, action)
-        }));
+        self.writing
+            .start(ctx, move || write(&path, &scale, &who, action));
     }
 
     pub fn ui(&mut self, ui: &mut egui::Ui, model: &AgreementModel, path: &Path) {
@@ -165,7 +160,8 @@ impl SettleForm {
             .viewer
             .clone()
             .unwrap_or_else(|| self.settler.trim().to_string());
-        let can_settle = !model.viewer_is_grading() && !model.read_only && self.writing.is_none();
+        let can_settle =
+            !model.viewer_is_grading() && !model.read_only && !self.writing.is_running();
         if model.viewer_is_grading() {
             ui.colored_label(
                 egui::Color32::from_rgb(0xc0, 0x7a, 0x10),
@@ -202,7 +198,7 @@ impl SettleForm {
                 }
             });
         }
-        if self.writing.is_some() {
+        if self.writing.is_running() {
             ui.horizontal(|ui| {
                 ui.spinner();
                 ui.label("Saving…");
@@ -213,7 +209,7 @@ impl SettleForm {
                 ui.label(m);
             }
             Some(Err(e)) => {
-                ui.colored_label(ui.visuals().error_fg_color, e);
+                ui.colored_label(ui.visuals().error_fg_color, e.to_string());
             }
             None => {}
         }

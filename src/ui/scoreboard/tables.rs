@@ -1,10 +1,10 @@
 //! The Scoreboard's tables and warnings, drawn from the cached model.
 
-use super::scoreboard_model::{
+use crate::analysis::scoreboard::{OFFLINE_CAUTION, Scoreboard};
+use crate::analysis::scoreboard_view::{
     COVERAGE_WARNING, ScoreboardModel, cell_text, column_title, difference_text, order_of, p_text,
     table_keys,
 };
-use crate::analysis::scoreboard::{OFFLINE_CAUTION, Scoreboard};
 
 pub fn coverage_warning(ui: &mut egui::Ui, board: &Scoreboard) {
     let mut low: Vec<String> = Vec::new();

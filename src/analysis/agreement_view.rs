@@ -1,0 +1,125 @@
+//! The Agreement screen's view model: panel coefficients (`agreement`), the panel review
+//! (`panel_review`) and the blind rule, from one read of the study.
+
+use std::collections::HashSet;
+
+use super::agreement::{self, AgreementReport, ReviewerPair};
+use super::panel_review::{self, PanelReview};
+use crate::core::scale::Scale;
+use crate::study::{Study, StudyError};
+
+/// What to compute: the scale and collapse map picked on screen, and who is looking.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct AgreementRequest {
+    pub scale: Option<String>,
+    pub collapse: Option<String>,
+    /// The signed-in reviewer; the blind rule hides pairs they still have to grade.
+    pub viewer: Option<String>,
+}
+
+/// Everything the screen shows, computed off the UI thread.
+#[derive(Debug, Clone)]
+pub struct AgreementModel {
+    pub request: AgreementRequest,
+    pub scale: Scale,
+    pub scale_names: Vec<String>,
+    /// Collapse maps saved for this scale.
+    pub collapse_names: Vec<String>,
+    pub report: AgreementReport,
+    pub review: PanelReview,
+    /// Pairs left out because the viewer has not graded them yet (blind rule).
+    pub hidden_pairs: usize,
+    pub read_only: bool,
+}
+
+impl AgreementModel {
+    /// True while the viewer still has ungraded pairs: settling waits until after grading.
+    pub fn viewer_is_grading(&self) -> bool {
+        self.hidden_pairs > 0
+    }
+
+    pub fn pair(&self, a: &str, b: &str) -> Option<&ReviewerPair> {
+        self.report.pairs.iter().find(|p| {
+            (p.reviewer_a == a && p.reviewer_b == b) || (p.reviewer_a == b && p.reviewer_b == a)
+        })
+    }
+}
+
+/// Builds the model from one read of the study (snapshot, grade details, settlements,
+/// gold pairs and the viewer's pending pairs in one transaction); `Ok(None)` when the study
+/// has no scale yet.
+pub fn build(
+    study: &Study,
+    request: AgreementRequest,
+) -> Result<Option<AgreementModel>, StudyError> {
+    study.read_together(|study| build_in(study, request))
+}
+
+fn build_in(
+    study: &Study,
+    request: AgreementRequest,
+) -> Result<Option<AgreementModel>, StudyError> {
+    let mut snapshot = study.snapshot()?;
+    if snapshot.scales.is_empty() {
+        return Ok(None);
+    }
+    let scale = request
+        .scale
+        .as_deref()
+        .and_then(|s| snapshot.scale_index(s))
+        .unwrap_or_else(|| snapshot.active_scale_index());
+    let scale_name = snapshot.scales[scale].name.clone();
+    let maps: Vec<_> = study
+        .collapse_maps()?
+        .into_iter()
+        .filter(|(s, _)| *s == scale_name)
+        .map(|(_, m)| m)
+        .collect();
+    let collapse = request
+        .collapse
+        .as_deref()
+        .and_then(|name| maps.iter().find(|m| m.name == name));
+    let pending = match &request.viewer {
+        Some(viewer) => study.pending_pairs(viewer, &scale_name)?,
+        None => HashSet::new(),
+    };
+    let mut grades = study.grade_details(&scale_name)?;
+    if !pending.is_empty() {
+        // Blind rule: drop every grade of the viewer's ungraded pairs before computing
+        // anything, so no number, list or detail can reveal the others' levels.
+        grades.retain(|g| !pending.contains(&(g.context_id.clone(), g.item_id.clone())));
+        let hidden: HashSet<(u32, u32)> = pending
+            .iter()
+            .filter_map(|(c, i)| {
+                let c = snapshot.contexts.iter().position(|x| &x.id == c)?;
+                let i = snapshot
+                    .items
+                    .binary_search_by(|x| x.id.as_str().cmp(i))
+                    .ok()?;
+                Some((c as u32, i as u32))
+            })
+            .collect();
+        snapshot
+            .grades
+            .retain(|g| g.scale as usize != scale || !hidden.contains(&(g.context, g.item)));
+    }
+    let settled = study.settled_in_force(&scale_name)?;
+    let gold = study.gold_pairs(&scale_name)?;
+    let top_k = snapshot.pool_depth;
+    let report = agreement::with_defaults(&snapshot, scale, collapse);
+    let review = panel_review::build(&snapshot, scale, &grades, &settled, &gold, collapse, top_k);
+    Ok(Some(AgreementModel {
+        request: AgreementRequest {
+            scale: Some(scale_name),
+            collapse: collapse.map(|c| c.name.clone()),
+            viewer: request.viewer,
+        },
+        scale: snapshot.scales[scale].clone(),
+        scale_names: snapshot.scales.iter().map(|s| s.name.clone()).collect(),
+        collapse_names: maps.iter().map(|m| m.name.clone()).collect(),
+        report,
+        review,
+        hidden_pairs: pending.len(),
+        read_only: study.is_read_only(),
+    }))
+}

@@ -1,0 +1,52 @@
+//! The one home of every default a figure depends on. The command line, the screens and
+//! the report read these, so a figure is the same wherever it is shown.
+
+/// Seed of every resampling (bootstrap, randomization tests): the same study and settings
+/// give the same intervals and p-values every time, on every machine.
+pub const SEED: u64 = 20_261_201;
+
+/// Cut-offs scored when none are chosen.
+pub const CUTOFFS: [usize; 3] = [5, 10, 20];
+
+/// Bootstrap resamples behind a scoreboard interval (common practice: 1000–2000 for a
+/// 95 % percentile interval).
+pub const SCORE_BOOTSTRAP: usize = 2000;
+
+/// Randomization-test resamples behind a paired comparison's p-value; 10 000 keeps the
+/// Monte Carlo error of p near 0.05 at about ±0.004 (binomial standard error).
+pub const SCORE_RANDOMIZATION: usize = 10_000;
+
+/// Bootstrap resamples behind Krippendorff's alpha's interval on the Agreement screen,
+/// `plumbline agree` and the report.
+pub const AGREEMENT_BOOTSTRAP: usize = 1000;
+
+/// Bootstrap resamples behind each piloted scale's figures in the scale trial.
+pub const TRIAL_BOOTSTRAP: usize = 2000;
+
+/// judged@k below this share of the top k earns a coverage caution.
+pub const COVERAGE_CAUTION: f64 = 0.9;
+
+/// Fewer contexts with a relevant item than this earns a "wide intervals" caution.
+pub const FEW_CONTEXTS: usize = 30;
+
+/// The cut-off the single-k columns (precision, ERR) and the screen's focus use: 10 when
+/// it is scored, else the first cut-off asked for.
+pub fn focus_k(ks: &[usize]) -> usize {
+    if ks.contains(&10) {
+        10
+    } else {
+        ks.first().copied().unwrap_or(10)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn focus_is_ten_when_scored_else_the_first_cutoff() {
+        assert_eq!(focus_k(&[5, 10, 20]), 10);
+        assert_eq!(focus_k(&[3, 20]), 3);
+        assert_eq!(focus_k(&[]), 10);
+    }
+}

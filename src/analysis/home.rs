@@ -1,0 +1,152 @@
+//! Home's view model: what the study holds, how far the depth-k pool is graded on the
+//! active scale, each reviewer's standing, and the next step to take.
+
+use std::collections::HashSet;
+
+use serde::Serialize;
+
+use crate::core::pooling::depth_pool;
+use crate::study::StudyCounts;
+use crate::study::queues::QueueProgress;
+use crate::study::snapshot::Snapshot;
+
+/// How much of one ranker's top k has a grade on the active scale.
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
+pub struct Coverage {
+    pub ranker: String,
+    pub graded: usize,
+    pub pairs: usize,
+}
+
+/// One reviewer's standing on the active scale.
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
+pub struct ReviewerProgress {
+    pub reviewer: String,
+    /// Grades given on the active scale (queued or not).
+    pub grades: usize,
+    /// (done, total) of the reviewer's queue, once a queue exists.
+    pub queue: Option<(u64, u64)>,
+}
+
+/// Everything Home shows (and `plumbline status` prints).
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct HomeModel {
+    pub name: String,
+    pub counts: StudyCounts,
+    pub scale: Option<String>,
+    pub depth: usize,
+    pub pool_size: usize,
+    pub pool_graded: usize,
+    pub coverage: Vec<Coverage>,
+    pub reviewers: Vec<ReviewerProgress>,
+    pub read_only: bool,
+}
+
+/// Builds Home from one snapshot, the queues' progress on the active scale and the
+/// study's row counts.
+pub fn build(
+    snapshot: &Snapshot,
+    queues: &[QueueProgress],
+    counts: StudyCounts,
+    read_only: bool,
+) -> HomeModel {
+    let depth = snapshot.pool_depth;
+    let scale = (!snapshot.scales.is_empty()).then(|| snapshot.active_scale_index());
+    let graded: HashSet<(u32, u32)> = snapshot
+        .grades
+        .iter()
+        .filter(|g| Some(g.scale as usize) == scale && g.value.is_some())
+        .map(|g| (g.context, g.item))
+        .collect();
+    let coverage = snapshot
+        .lists
+        .iter()
+        .enumerate()
+        .map(|(r, lists)| {
+            let top: Vec<(u32, u32)> = lists
+                .iter()
+                .enumerate()
+                .flat_map(|(c, list)| list.iter().take(depth).map(move |&i| (c as u32, i)))
+                .collect();
+            Coverage {
+                ranker: snapshot.rankers[r].clone(),
+                graded: top.iter().filter(|p| graded.contains(p)).count(),
+                pairs: top.len(),
+            }
+        })
+        .collect();
+    // The pool is the union of every ranker's top k per context (`core::pooling`).
+    let lists: Vec<(u32, Vec<u32>)> = snapshot
+        .lists
+        .iter()
+        .flat_map(|lists| {
+            lists
+                .iter()
+                .enumerate()
+                .filter(|(_, l)| !l.is_empty())
+                .map(|(c, l)| (c as u32, l.clone()))
+        })
+        .collect();
+    let pool = depth_pool(&lists, depth);
+    let pool_graded = pool.iter().filter(|p| graded.contains(p)).count();
+    let reviewers = snapshot
+        .reviewers
+        .iter()
+        .enumerate()
+        .map(|(r, name)| ReviewerProgress {
+            reviewer: name.clone(),
+            grades: snapshot
+                .grades
+                .iter()
+                .filter(|g| g.reviewer as usize == r && Some(g.scale as usize) == scale)
+                .count(),
+            queue: queues
+                .iter()
+                .find(|q| &q.reviewer == name)
+                .map(|q| (q.done, q.total)),
+        })
+        .collect();
+    HomeModel {
+        name: snapshot.name.clone(),
+        counts,
+        scale: scale.map(|s| snapshot.scales[s].name.clone()),
+        depth,
+        pool_size: pool.len(),
+        pool_graded,
+        coverage,
+        reviewers,
+        read_only,
+    }
+}
+
+/// What to do next, in one sentence, from what the study holds.
+pub fn next_step(model: &HomeModel) -> String {
+    let c = &model.counts;
+    if c.items == 0 || c.contexts == 0 {
+        "Import a catalog on the Catalog screen: items.csv and contexts.csv.".into()
+    } else if c.rankers == 0 {
+        "Import the rankers' lists on the Catalog screen: rankings.csv.".into()
+    } else if c.scales == 0 {
+        "Define a graded scale: import scales.csv on the Catalog screen.".into()
+    } else if let Some(r) = model
+        .reviewers
+        .iter()
+        .find(|r| r.queue.is_some_and(|(done, total)| done < total))
+        .filter(|_| model.pool_graded == model.pool_size)
+    {
+        let (done, total) = r.queue.unwrap_or_default();
+        format!(
+            "Every pool pair has a grade; queues are still open ({} has {} of {total} to go). Shared pairs graded by everyone make agreement measurable: keep grading on the Grading desk.",
+            r.reviewer,
+            total - done
+        )
+    } else if model.pool_graded < model.pool_size {
+        format!(
+            "Grade the pool on the Grading desk: {} of {} pairs still have no grade.",
+            model.pool_size - model.pool_graded,
+            model.pool_size
+        )
+    } else {
+        "The pool is graded: check agreement and settle disagreements on the Agreement screen, then compare the rankers on the Scoreboard.".into()
+    }
+}

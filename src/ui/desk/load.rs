@@ -1,0 +1,87 @@
+//! Loading the desk on a job thread: the reviewer's queue (made at first sign-in), their
+//! own marks, the cards, and a write handle that then moves to the writer thread.
+
+use std::collections::HashMap;
+use std::path::Path;
+
+use super::state::DeskData;
+use crate::study::Study;
+use crate::ui::jobs::{JobError, JobResult};
+
+/// Loads the desk for `reviewer`; `scale` (when given) becomes the active scale.
+/// Runs on a job thread; returns the write handle with the data.
+pub fn load(path: &Path, reviewer: &str, scale: Option<String>) -> JobResult<(DeskData, Study)> {
+    let mut study = Study::open(path)?;
+    if !study.is_read_only() {
+        study.add_reviewer(reviewer)?;
+    }
+    let snapshot = study.snapshot()?;
+    if snapshot.scales.is_empty() {
+        return Err(JobError::Missing(
+            "This study has no scale yet: import scales.csv on the Catalog screen.".into(),
+        ));
+    }
+    let scale_index = match &scale {
+        Some(name) => {
+            let i = snapshot
+                .scale_index(name)
+                .ok_or_else(|| JobError::Missing(format!("no scale named {name}")))?;
+            if !study.is_read_only() {
+                study.set_setting("active_scale", name)?;
+            }
+            i
+        }
+        // During a pilot the reviewer works through one scale's block after another.
+        None => match study.pilot_block(reviewer).ok().flatten() {
+            Some(name) => snapshot
+                .scale_index(&name)
+                .unwrap_or_else(|| snapshot.active_scale_index()),
+            None => snapshot.active_scale_index(),
+        },
+    };
+    let scale = snapshot.scales[scale_index].clone();
+    let pairs = study.ensure_queue(reviewer, &scale.name)?;
+    let marks_by_pair = study.reviewer_marks(reviewer, &scale.name)?;
+    let items = study.item_cards()?;
+    let contexts = study.context_cards()?;
+    let item_index: HashMap<String, u32> = items
+        .iter()
+        .enumerate()
+        .map(|(i, it)| (it.id.clone(), i as u32))
+        .collect();
+    let context_index: HashMap<&str, u32> = contexts
+        .iter()
+        .enumerate()
+        .map(|(i, c)| (c.id.as_str(), i as u32))
+        .collect();
+    let mut queue = Vec::with_capacity(pairs.len());
+    let mut marks = Vec::with_capacity(pairs.len());
+    for pair in &pairs {
+        let (Some(&c), Some(&i)) = (
+            context_index.get(pair.0.as_str()),
+            item_index.get(pair.1.as_str()),
+        ) else {
+            continue;
+        };
+        queue.push((c, i));
+        marks.push(marks_by_pair.get(pair).copied());
+    }
+    let (past_grades, past_seconds) = study.reviewer_effort(reviewer, &scale.name)?;
+    let catalog_dir = study.catalog_dir()?;
+    Ok((
+        DeskData {
+            reviewer: reviewer.to_string(),
+            scale,
+            scale_names: snapshot.scales.iter().map(|s| s.name.clone()).collect(),
+            queue,
+            marks,
+            items,
+            contexts,
+            item_index,
+            catalog_dir,
+            past_grades,
+            past_seconds,
+        },
+        study,
+    ))
+}

@@ -9,58 +9,102 @@ use crate::core::agreement::{
 use crate::core::stats::Z_975;
 use crate::study::snapshot::Snapshot;
 
+/// Agreement of two reviewers on one scale, over the pairs both of them graded.
 #[derive(Debug, Clone, Serialize)]
 pub struct ReviewerPair {
+    /// Name of the first reviewer (the lower reviewer index of the two).
     pub reviewer_a: String,
+    /// Name of the second reviewer.
     pub reviewer_b: String,
     /// Pairs graded by both (can't-judge left out).
     pub n: u64,
+    /// Unweighted Cohen's kappa (Cohen 1960), at most 1; NaN when both reviewers used a
+    /// single and the same level.
     pub kappa: f64,
+    /// Large-sample standard error of `kappa` (Fleiss, Cohen & Everitt 1969, eq. 13).
     pub kappa_se: f64,
+    /// Lower end of the 95 % normal interval, `kappa − Z_975 · kappa_se` (Z_975 ≈ 1.96).
     pub kappa_ci_low: f64,
+    /// Upper end of the 95 % normal interval, `kappa + Z_975 · kappa_se`.
     pub kappa_ci_high: f64,
+    /// Cohen's weighted kappa with linear weights |i − j| (Cohen 1968).
     pub kappa_linear: f64,
+    /// Cohen's weighted kappa with quadratic weights (i − j)² (Cohen 1968).
     pub kappa_quadratic: f64,
+    /// Gwet's AC1 (Gwet 2008) of these two reviewers, over the pairs both graded.
     pub ac1: f64,
+    /// Share of the `n` pairs given the same level by both, p_o, in 0..1.
     pub observed_agreement: f64,
+    /// Agreement expected by chance from each reviewer's own level shares, p_e, in 0..1.
     pub chance_agreement: f64,
+    /// Landis & Koch (1977) verbal band of `kappa` ("slight" … "almost perfect", "poor"
+    /// below 0, "undefined" for NaN).
     pub band: &'static str,
+    /// Prevalence and bias indices and PABAK (Byrt, Bishop & Carlin 1993) of the table.
     pub prevalence: PrevalenceBias,
     /// Row = reviewer_a's level, column = reviewer_b's level.
     pub confusion: Vec<Vec<u64>>,
 }
 
+/// Every agreement figure of one scale: reviewer pairs and panel-level coefficients.
 #[derive(Debug, Clone, Serialize)]
 pub struct AgreementReport {
+    /// Name of the study.
     pub study: String,
+    /// Name of the scale the grades belong to.
     pub scale: String,
+    /// Name of the collapse map applied before computing, if any.
     pub collapse: Option<String>,
+    /// Number of levels q the coefficients use: the scale's, or the coarse scale's after a
+    /// collapse map.
     pub levels: usize,
+    /// Names of the reviewers who graded this scale, in reviewer-index order.
     pub reviewers: Vec<String>,
     /// Pairs with at least one grade on this scale.
     pub units: usize,
+    /// Number of "can't judge" grades on this scale (grades, not pairs); agreement leaves
+    /// them out.
     pub cant_judge: usize,
+    /// Every two reviewers with at least one pair graded by both.
     pub pairs: Vec<ReviewerPair>,
+    /// Fleiss' kappa (Fleiss 1971) over the `fleiss_n` pairs graded by every reviewer;
+    /// NaN when there are none or fewer than two reviewers.
     pub fleiss_kappa: f64,
     /// Pairs graded by every reviewer of the panel (what Fleiss' kappa uses).
     pub fleiss_n: usize,
+    /// Krippendorff's alpha (Krippendorff 2011) with nominal distances: unordered levels.
     pub alpha_nominal: f64,
+    /// Krippendorff's alpha with ordinal distances: ranked levels.
     pub alpha_ordinal: f64,
+    /// Lower end of the 95 % percentile bootstrap interval of `alpha_ordinal`, resampling
+    /// pairs with replacement; NaN with fewer than two pairs of two or more grades.
     pub alpha_ordinal_ci_low: f64,
+    /// Upper end of the same interval.
     pub alpha_ordinal_ci_high: f64,
+    /// Krippendorff's alpha with interval distances: squared difference of level values.
     pub alpha_interval: f64,
     /// Pairs with at least two grades (what alpha uses).
     pub alpha_n: usize,
+    /// Gwet's AC1 of the whole panel (Gwet 2008, multi-rater form with missing grades).
     pub ac1: f64,
+    /// Where the verbal bands come from ([`LANDIS_KOCH`]).
     pub band_source: &'static str,
+    /// Plain-language warnings: one level dominating the grades, or too few pairs with
+    /// two or more grades for narrow intervals.
     pub cautions: Vec<String>,
 }
 
 /// Grades of one scale laid out as units (pairs) × reviewers; None = not graded or can't judge.
 pub struct UnitTable {
+    /// Snapshot indices of the reviewers who graded this scale, ascending; one column each.
     pub reviewers: Vec<u32>,
+    /// One row per pair, in the snapshot's grade order; `units[u][c]` is the level that
+    /// reviewer `reviewers[c]` gave.
     pub units: Vec<Vec<Option<u8>>>,
+    /// Recorded time spent on each grade of this scale, in seconds (grades without a time
+    /// left out, "can't judge" kept).
     pub seconds: Vec<f64>,
+    /// Number of "can't judge" grades on this scale.
     pub cant_judge: usize,
 }
 
@@ -100,6 +144,7 @@ pub fn unit_table(snapshot: &Snapshot, scale: usize) -> UnitTable {
     }
 }
 
+/// The source and bands behind every verbal kappa band, as shown beside the figures.
 pub const LANDIS_KOCH: &str = "Landis & Koch (1977), Biometrics 33: 0–0.20 slight, 0.21–0.40 fair, 0.41–0.60 moderate, 0.61–0.80 substantial, 0.81–1 almost perfect. Bands are conventions, not tests.";
 
 /// Every coefficient with the resampling defaults of `analysis::defaults`, as the

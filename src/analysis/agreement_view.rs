@@ -11,7 +11,9 @@ use crate::study::{Study, StudyError};
 /// What to compute: the scale and collapse map picked on screen, and who is looking.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct AgreementRequest {
+    /// The scale asked for; `None` = the active scale.
     pub scale: Option<String>,
+    /// A saved collapse map of that scale to apply first.
     pub collapse: Option<String>,
     /// The signed-in reviewer; the blind rule hides pairs they still have to grade.
     pub viewer: Option<String>,
@@ -20,15 +22,21 @@ pub struct AgreementRequest {
 /// Everything the screen shows, computed off the UI thread.
 #[derive(Debug, Clone)]
 pub struct AgreementModel {
+    /// What was computed, with the scale filled in.
     pub request: AgreementRequest,
+    /// The scale with its levels.
     pub scale: Scale,
+    /// Every scale of the study, for the selector.
     pub scale_names: Vec<String>,
     /// Collapse maps saved for this scale.
     pub collapse_names: Vec<String>,
+    /// Pairwise and panel coefficients (as `plumbline agree` prints them).
     pub report: AgreementReport,
+    /// Level use, gold accuracy, drift and the disagreements to settle.
     pub review: PanelReview,
     /// Pairs left out because the viewer has not graded them yet (blind rule).
     pub hidden_pairs: usize,
+    /// Whether the study is open read-only (settling is then off).
     pub read_only: bool,
 }
 
@@ -38,6 +46,7 @@ impl AgreementModel {
         self.hidden_pairs > 0
     }
 
+    /// The coefficients of two reviewers, in either order.
     pub fn pair(&self, a: &str, b: &str) -> Option<&ReviewerPair> {
         self.report.pairs.iter().find(|p| {
             (p.reviewer_a == a && p.reviewer_b == b) || (p.reviewer_a == b && p.reviewer_b == a)

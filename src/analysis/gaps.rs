@@ -9,9 +9,14 @@ use crate::study::snapshot::Snapshot;
 /// One pair to grade, by id, with why it is where it is.
 #[derive(Debug, Clone, PartialEq)]
 pub struct GapPair {
+    /// Id of the context the item has no grade in.
     pub context_id: String,
+    /// Id of the ungraded item.
     pub item_id: String,
+    /// Highest minus lowest DCG rank weight 1/log2(rank + 1) the rankers give the item
+    /// (0 outside the top k), in 0..1; 0 means every ranker places it alike.
     pub spread: f64,
+    /// Best (smallest, 1-based) rank any ranker gives the item within the top k.
     pub best_rank: usize,
 }
 

@@ -13,14 +13,18 @@ use crate::study::snapshot::Snapshot;
 /// How much of one ranker's top k has a grade on the active scale.
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct Coverage {
+    /// The ranker.
     pub ranker: String,
+    /// Pairs of its top k with a grade.
     pub graded: usize,
+    /// Pairs in its top k over all contexts.
     pub pairs: usize,
 }
 
 /// One reviewer's standing on the active scale.
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct ReviewerProgress {
+    /// The reviewer.
     pub reviewer: String,
     /// Grades given on the active scale (queued or not).
     pub grades: usize,
@@ -31,14 +35,23 @@ pub struct ReviewerProgress {
 /// Everything Home shows (and `plumbline status` prints).
 #[derive(Debug, Clone, Default, Serialize)]
 pub struct HomeModel {
+    /// The study's name.
     pub name: String,
+    /// Rows per table.
     pub counts: StudyCounts,
+    /// The active scale, once the study has one.
     pub scale: Option<String>,
+    /// The pooling depth k.
     pub depth: usize,
+    /// Pairs in the depth-k pool (every ranker's top k, each pair once).
     pub pool_size: usize,
+    /// Pool pairs with at least one grade on the active scale.
     pub pool_graded: usize,
+    /// Coverage per ranker.
     pub coverage: Vec<Coverage>,
+    /// Progress per reviewer.
     pub reviewers: Vec<ReviewerProgress>,
+    /// Whether the study is open read-only.
     pub read_only: bool,
 }
 

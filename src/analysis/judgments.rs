@@ -13,6 +13,8 @@ pub enum GradeSource {
 }
 
 impl GradeSource {
+    /// Reads a source as typed: exactly `panel` is the panel, any other text a reviewer
+    /// name (not checked here; an unknown reviewer resolves to no judgments).
     pub fn parse(text: &str) -> GradeSource {
         if text == "panel" {
             GradeSource::Panel
@@ -21,6 +23,7 @@ impl GradeSource {
         }
     }
 
+    /// `panel` or the reviewer's name, the inverse of [`GradeSource::parse`].
     pub fn label(&self) -> String {
         match self {
             GradeSource::Panel => "panel".into(),
@@ -45,6 +48,7 @@ pub enum PanelRule {
 }
 
 impl PanelRule {
+    /// Reads `lower-median`, `upper-median` or `mean-rounded`; None for anything else.
     pub fn parse(text: &str) -> Option<PanelRule> {
         match text {
             "lower-median" => Some(PanelRule::LowerMedian),
@@ -54,6 +58,8 @@ impl PanelRule {
         }
     }
 
+    /// The rule's short name, as [`PanelRule::parse`] reads it and the scoreboard text
+    /// prints it.
     pub fn label(self) -> &'static str {
         match self {
             PanelRule::LowerMedian => "lower-median",

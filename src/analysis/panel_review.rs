@@ -286,3 +286,9 @@ fn disagreements(
     });
     out
 }
+
+/// A reviewer's pace: grades per hour over the time recorded on the cards (`None`
+/// before the first timed grade). The desk shows it; reviewer quality reads it too.
+pub fn grades_per_hour(grades: u64, seconds: f64) -> Option<f64> {
+    (grades > 0 && seconds > 0.0).then(|| grades as f64 * 3600.0 / seconds)
+}

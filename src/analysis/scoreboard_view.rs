@@ -13,6 +13,7 @@ use crate::study::snapshot::Snapshot;
 
 /// Cut-offs offered as toggles; NDCG@k is also drawn for every k from 1 to `CURVE_MAX_K`.
 pub const OFFERED_KS: [usize; 6] = [1, 3, 5, 10, 15, 20];
+/// The largest k of the NDCG@k curves.
 pub const CURVE_MAX_K: usize = 20;
 /// judged@k below this share earns a coverage warning (the CLI's caution uses the same).
 pub const COVERAGE_WARNING: f64 = super::defaults::COVERAGE_CAUTION;
@@ -20,8 +21,11 @@ pub const COVERAGE_WARNING: f64 = super::defaults::COVERAGE_CAUTION;
 /// What the controls can be set to, read from the study.
 #[derive(Debug, Clone, Default)]
 pub struct Choices {
+    /// Scales with their names.
     pub scales: Vec<String>,
+    /// Rankers, for the baseline and candidate pickers.
     pub rankers: Vec<String>,
+    /// Reviewers, for one-reviewer scoring and the gap queue.
     pub reviewers: Vec<String>,
     /// Segment labels as `Segment::parse` reads them.
     pub segments: Vec<String>,
@@ -30,16 +34,22 @@ pub struct Choices {
 /// NDCG@k with its interval at one k, for the curve plot.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct CurvePoint {
+    /// The cut-off.
     pub k: usize,
+    /// Mean NDCG@k over the scored contexts.
     pub mean: f64,
+    /// Lower end of its 95 % bootstrap interval.
     pub low: f64,
+    /// Upper end of that interval.
     pub high: f64,
 }
 
 /// One reviewer's own grades scored alone, against the panel's ranker order.
 #[derive(Debug, Clone)]
 pub struct SensitivityRow {
+    /// The reviewer whose grades alone were scored.
     pub reviewer: String,
+    /// Contexts with a relevant item by this reviewer's grades.
     pub contexts_scored: usize,
     /// Per NDCG key: mean per ranker (board order), Kendall's tau-b with the panel's means,
     /// and whether the ranker order is the same as the panel's.
@@ -51,14 +61,19 @@ pub struct SensitivityRow {
 pub struct ScoreboardModel {
     /// The settings as used (baseline filled in from the study when none was chosen).
     pub settings: ScoreSettings,
+    /// The scoreboard as `plumbline score` prints it for these settings.
     pub board: Scoreboard,
+    /// NDCG@1…CURVE_MAX_K per ranker.
     pub curves: Vec<(String, Vec<CurvePoint>)>,
     /// The panel's NDCG means per key (board order), what sensitivity rows compare with.
     pub panel_means: BTreeMap<String, Vec<f64>>,
+    /// One row per reviewer who graded on the scale.
     pub sensitivity: Vec<SensitivityRow>,
+    /// Agreement on the scale, for the report export.
     pub agreement: Option<AgreementReport>,
     /// Unjudged pairs in the top max(k), most decisive first.
     pub gaps: Vec<GapPair>,
+    /// What the controls offer.
     pub choices: Choices,
 }
 
@@ -83,7 +98,6 @@ pub fn order_of(means: &[f64]) -> Vec<usize> {
 
 /// Builds the model. Heavy (several scoreboards): the screen runs it on a job thread.
 pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<ScoreboardModel, ScoreError> {
-    let snapshot = snapshot;
     let mut settings = requested;
     let board = scoreboard::build(snapshot, &settings)?;
     // The baseline as resolved by the one rule (`scoreboard::resolve_baseline`).
@@ -227,6 +241,7 @@ pub fn difference_text(diff: f64, low: f64, high: f64) -> String {
     format!("{diff:+.3} [{low:+.3}, {high:+.3}]")
 }
 
+/// A p-value as the table shows it ("< 0.001", three decimals, "–" when undefined).
 pub fn p_text(p: f64) -> String {
     if !p.is_finite() {
         "–".into()
@@ -247,6 +262,7 @@ pub fn table_keys(ks: &[usize], focus: usize) -> Vec<String> {
     keys
 }
 
+/// A metric key as a column title (`ndcg@10` → `NDCG@10`).
 pub fn column_title(key: &str) -> String {
     key.replace("ndcg", "NDCG")
         .replace("precision", "P")
@@ -254,6 +270,7 @@ pub fn column_title(key: &str) -> String {
         .replace("rr", "RR")
 }
 
+/// A table cell: judged@k as a percentage, the rest as mean with interval.
 pub fn cell_text(key: &str, m: &scoreboard::MetricSummary) -> String {
     if key.starts_with("judged") {
         format!("{:.0} %", m.mean * 100.0)

@@ -1,70 +1,15 @@
 //! Reading CSV files into rows of text with exact positions, so that every problem can
 //! be reported as `FILE:LINE:COLUMN: message`.
 
-use std::fmt;
 use std::path::Path;
+
+pub use super::export::{needs_guard, unguard};
+pub use super::problems::{MAX_PROBLEMS, Problem, ProblemLog, Problems};
 
 /// Longest field accepted, so a broken file cannot exhaust memory row by row.
 pub const MAX_FIELD_BYTES: usize = 1 << 20;
 /// Most columns a row may have (an item file's extra attributes included).
 pub const MAX_COLUMNS: usize = 1_000;
-/// How many problems one file reports before stopping.
-pub const MAX_PROBLEMS: usize = 20;
-
-/// One problem in an input file; line and column are 1-based (line 0 = the whole file;
-/// an empty file name = no file at all).
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub struct Problem {
-    pub file: String,
-    pub line: u64,
-    pub column: usize,
-    pub message: String,
-}
-
-impl Problem {
-    /// A problem with no file behind it (an unknown scale name, say).
-    pub fn general(message: impl Into<String>) -> Problem {
-        Problem {
-            file: String::new(),
-            line: 0,
-            column: 0,
-            message: message.into(),
-        }
-    }
-}
-
-impl fmt::Display for Problem {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        if self.file.is_empty() {
-            return f.write_str(&self.message);
-        }
-        if self.line == 0 {
-            // A problem with the whole file (unreadable, a folder, a pipe).
-            return write!(f, "{}: {}", self.file, self.message);
-        }
-        write!(
-            f,
-            "{}:{}:{}: {}",
-            self.file, self.line, self.column, self.message
-        )
-    }
-}
-
-/// All problems found in one import; the import changed nothing.
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub struct Problems(pub Vec<Problem>);
-
-impl fmt::Display for Problems {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        for (i, p) in self.0.iter().enumerate() {
-            if i > 0 {
-                writeln!(f)?;
-            }
-            write!(f, "{p}")?;
-        }
-        Ok(())
-    }
-}
 
 /// A data row: its line in the file and one text per header column.
 #[derive(Debug, Clone)]
@@ -104,55 +49,6 @@ impl Table {
             column,
             message: message.into(),
         }
-    }
-}
-
-/// Collects problems up to the cap.
-#[derive(Default)]
-pub struct ProblemLog(pub Vec<Problem>);
-
-impl ProblemLog {
-    pub fn push(&mut self, p: Problem) {
-        if self.0.len() < MAX_PROBLEMS {
-            self.0.push(p);
-        }
-    }
-
-    pub fn is_full(&self) -> bool {
-        self.0.len() >= MAX_PROBLEMS
-    }
-
-    pub fn into_result(self) -> Result<(), Problems> {
-        if self.0.is_empty() {
-            Ok(())
-        } else {
-            Err(Problems(self.0))
-        }
-    }
-}
-
-/// Characters that make a spreadsheet read a cell as a formula when they come first:
-/// OWASP's list (`=`, `+`, `-`, `@`, tab, carriage return) plus line feed and the
-/// fullwidth forms of the four signs, which some spreadsheets fold to ASCII.
-const FORMULA_STARTS: &[char] = &[
-    '=', '+', '-', '@', '\t', '\r', '\n', '\u{FF1D}', '\u{FF0B}', '\u{FF0D}', '\u{FF20}',
-];
-
-/// True when an exported cell needs a leading apostrophe: it starts with a formula
-/// character, possibly after spaces (some spreadsheets skip leading spaces before they
-/// look), or it starts with an apostrophe itself (so that the guard can be told apart
-/// from a value's own apostrophe on the way back). `;`, `|` and `%` start no formula on
-/// their own (a DDE payload such as `=cmd|…` needs the `=`), so they are left alone.
-pub fn needs_guard(text: &str) -> bool {
-    text.starts_with('\'') || text.trim_start_matches(' ').starts_with(FORMULA_STARTS)
-}
-
-/// Removes the apostrophe `needs_guard` adds: only when what follows needs the guard.
-/// A value's own leading apostrophe (`'tis`) is kept.
-pub fn unguard(text: &str) -> &str {
-    match text.strip_prefix('\'') {
-        Some(rest) if needs_guard(rest) => rest,
-        _ => text,
     }
 }
 

@@ -6,11 +6,36 @@ use std::io::Write;
 use super::import::SETTLED_REVIEWER;
 use super::{Result, Study};
 
+/// Characters that make a spreadsheet read a cell as a formula when they come first:
+/// OWASP's list (`=`, `+`, `-`, `@`, tab, carriage return) plus line feed and the
+/// fullwidth forms of the four signs, which some spreadsheets fold to ASCII.
+const FORMULA_STARTS: &[char] = &[
+    '=', '+', '-', '@', '\t', '\r', '\n', '\u{FF1D}', '\u{FF0B}', '\u{FF0D}', '\u{FF20}',
+];
+
+/// True when an exported cell needs a leading apostrophe: it starts with a formula
+/// character, possibly after spaces (some spreadsheets skip leading spaces before they
+/// look), or it starts with an apostrophe itself (so that the guard can be told apart
+/// from a value's own apostrophe on the way back). `;`, `|` and `%` start no formula on
+/// their own (a DDE payload such as `=cmd|…` needs the `=`), so they are left alone.
+pub fn needs_guard(text: &str) -> bool {
+    text.starts_with('\'') || text.trim_start_matches(' ').starts_with(FORMULA_STARTS)
+}
+
+/// Removes the apostrophe `needs_guard` adds: only when what follows needs the guard.
+/// A value's own leading apostrophe (`'tis`) is kept.
+pub fn unguard(text: &str) -> &str {
+    match text.strip_prefix('\'') {
+        Some(rest) if needs_guard(rest) => rest,
+        _ => text,
+    }
+}
+
 /// Prefixes a cell a spreadsheet could run as a formula with an apostrophe (OWASP, "CSV
-/// Injection"): see `csv_input::needs_guard` for the exact rule. Import removes exactly
-/// that apostrophe again (`csv_input::unguard`), so export → import is lossless.
+/// Injection"): see `needs_guard` for the exact rule. Import removes exactly
+/// that apostrophe again (`unguard`), so export → import is lossless.
 pub fn neutralise(text: &str) -> std::borrow::Cow<'_, str> {
-    if super::csv_input::needs_guard(text) {
+    if needs_guard(text) {
         format!("'{text}").into()
     } else {
         text.into()

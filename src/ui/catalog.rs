@@ -279,10 +279,8 @@ impl Catalog {
     fn import_panel(&mut self, ui: &mut egui::Ui, path: &Path) {
         let ctx = ui.ctx().clone();
         for k in 0..5 {
-            if let Some(picked) = self.dialogs[k].poll() {
-                if let Some(p) = picked {
-                    self.files[k] = p.display().to_string();
-                }
+            if let Some(Some(p)) = self.dialogs[k].poll() {
+                self.files[k] = p.display().to_string();
             }
         }
         if let Some(result) = self.importing.poll() {

@@ -3,7 +3,9 @@
 
 #![allow(clippy::unwrap_used)]
 
+mod architecture;
 mod cli;
+mod cli_conventions;
 mod common;
 mod demo;
 mod engines;
@@ -12,6 +14,7 @@ mod fuzz_import;
 mod gaps;
 mod golden;
 mod import;
+mod import_limits;
 mod merge;
 mod panel_review;
 mod properties;
@@ -26,6 +29,7 @@ mod trial;
 mod ui_agreement;
 mod ui_catalog;
 mod ui_desk;
+mod ui_desk_saving;
 mod ui_merge;
 mod ui_read_only;
 mod ui_scales;

@@ -1,0 +1,252 @@
+//! Bringing grades home: merging studies graded on other machines, and making the
+//! reviewer copies that are graded there. Events carry stable uids, so merging the same
+//! file twice adds nothing.
+//!
+//! A file from elsewhere is untrusted: it is opened read-only and immutable and its
+//! schema checked (`untrusted`), then every row is validated as strictly as an import
+//! before anything is written. Only the reviewer a copy was handed to may bring grades;
+//! other reviewers' events and settled grades come in only when the lead accepts their
+//! names. A refusal changes neither the study nor the copy.
+
+use std::collections::{BTreeMap, HashSet};
+use std::path::Path;
+
+use rusqlite::params;
+
+mod incoming;
+
+use super::untrusted;
+use super::{Result, Study, StudyError};
+use incoming::read_incoming;
+
+/// What one merge brought in (or, for a preview, would bring in).
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct MergeReport {
+    pub file: String,
+    pub grades_added: u64,
+    pub settled_added: u64,
+    pub reviewers_added: u64,
+    /// The reviewer the copy was handed to, when this study handed it out.
+    pub handed_out_to: Option<String>,
+    /// Names whose events need the lead's yes, with how many grades / settled grades.
+    pub needs_acceptance: Vec<NameCount>,
+}
+
+/// A reviewer (or settler) name and what the file holds from them.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct NameCount {
+    pub name: String,
+    pub grades: u64,
+    pub settled: u64,
+}
+
+/// What the lead allows beyond the copy's own reviewer.
+#[derive(Debug, Clone, Default)]
+pub struct MergeOptions {
+    /// Reviewer or settler names whose events may come in although the file was not
+    /// handed out to them.
+    pub accept: Vec<String>,
+}
+
+/// The folder beside a copy that holds its pictures (`rev-birch.plumb` →
+/// `rev-birch-pictures`); the copy names it relative to itself.
+pub fn pictures_folder_name(copy: &Path) -> String {
+    let stem = copy
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "copy".into());
+    format!("{stem}-pictures")
+}
+
+/// A copy refused as a whole, with the reason; nothing was changed.
+pub(super) fn refused(path: &Path, reason: String) -> StudyError {
+    StudyError::Refused {
+        path: path.display().to_string(),
+        reason,
+    }
+}
+
+/// Why names need the lead's yes, in words, with the way to give it.
+pub fn not_accepted(report: &MergeReport) -> String {
+    let names: Vec<String> = report
+        .needs_acceptance
+        .iter()
+        .map(|n| match (n.grades, n.settled) {
+            (g, 0) => format!("{} ({g} grade events)", n.name),
+            (0, s) => format!("{} ({s} settled grades)", n.name),
+            (g, s) => format!("{} ({g} grade events, {s} settled grades)", n.name),
+        })
+        .collect();
+    let whose = match &report.handed_out_to {
+        Some(r) => format!("this copy was handed out to {r}, but it also holds events by"),
+        None => "this file is not a reviewer copy this study handed out; it holds events by".into(),
+    };
+    format!(
+        "nothing was merged: {whose} {}; a copy brings its own reviewer's grades only, so bring these in only if you trust them (--accept-reviewer NAME, or tick them in the merge preview)",
+        names.join(", ")
+    )
+}
+
+impl Study {
+    /// Merges reviewers, grade history and settled grades from `other` in one transaction.
+    /// Refuses the whole file, naming the ids, when its definitions do not match.
+    pub fn merge_from(&mut self, other: &Path) -> Result<MergeReport> {
+        self.merge_with(other, &MergeOptions::default())
+    }
+
+    /// `merge_from` with names the lead accepts beyond the copy's own reviewer.
+    pub fn merge_with(&mut self, other: &Path, options: &MergeOptions) -> Result<MergeReport> {
+        let report = self.merge_or_preview(other, options, true)?;
+        if !report.needs_acceptance.is_empty() {
+            return Err(refused(other, not_accepted(&report)));
+        }
+        Ok(report)
+    }
+
+    /// What `merge_with` would bring in, without changing the study: the same checks and
+    /// inserts inside a transaction that is rolled back. Names that need the lead's yes
+    /// are listed in `needs_acceptance` instead of refusing.
+    pub fn merge_preview(&mut self, other: &Path) -> Result<MergeReport> {
+        self.merge_preview_with(other, &MergeOptions::default())
+    }
+
+    pub fn merge_preview_with(
+        &mut self,
+        other: &Path,
+        options: &MergeOptions,
+    ) -> Result<MergeReport> {
+        self.merge_or_preview(other, options, false)
+    }
+
+    fn merge_or_preview(
+        &mut self,
+        other: &Path,
+        options: &MergeOptions,
+        commit: bool,
+    ) -> Result<MergeReport> {
+        if self.is_read_only() {
+            return Err(StudyError::ReadOnly);
+        }
+        if std::fs::canonicalize(other).ok() == std::fs::canonicalize(self.path()).ok() {
+            return Err(refused(
+                other,
+                "a study cannot be merged into itself".into(),
+            ));
+        }
+        let copy = untrusted::open_copy(other)?;
+        let here = self.definitions()?;
+        let incoming = read_incoming(&copy, &here)?;
+        drop(copy);
+        // Whom this study handed the copy to, by its own record (a copy's word alone is
+        // not trusted: it could name anyone).
+        let handed_out_to = match (&incoming.copy_id, &incoming.handed_out_to) {
+            (Some(id), Some(named)) => self
+                .setting(&format!("hand_out:{id}"))?
+                .filter(|recorded| recorded == named),
+            _ => None,
+        };
+        let mut allowed: HashSet<&str> = options.accept.iter().map(String::as_str).collect();
+        if let Some(r) = &handed_out_to {
+            allowed.insert(r);
+        }
+        let mut waiting: BTreeMap<&str, (u64, u64)> = BTreeMap::new();
+        for g in &incoming.grades {
+            if !allowed.contains(g.reviewer.as_str()) {
+                waiting.entry(&g.reviewer).or_default().0 += 1;
+            }
+        }
+        // Settling is the lead's work: a settled grade comes in only when its settler is
+        // accepted by name, even if it is the reviewer the copy went to.
+        let accepted: HashSet<&str> = options.accept.iter().map(String::as_str).collect();
+        for s in &incoming.settlements {
+            if !accepted.contains(s.settled_by.as_str()) {
+                waiting.entry(&s.settled_by).or_default().1 += 1;
+            }
+        }
+        let needs_acceptance: Vec<NameCount> = waiting
+            .into_iter()
+            .map(|(name, (grades, settled))| NameCount {
+                name: name.to_string(),
+                grades,
+                settled,
+            })
+            .collect();
+        let file = other.display().to_string();
+        if commit && !needs_acceptance.is_empty() {
+            return Ok(MergeReport {
+                file,
+                grades_added: 0,
+                settled_added: 0,
+                reviewers_added: 0,
+                handed_out_to,
+                needs_acceptance,
+            });
+        }
+        let tx = self.begin_write()?;
+        let mut reviewers_added = 0;
+        let mut grades_added = 0;
+        let mut settled_added = 0;
+        {
+            let mut add_reviewer =
+                tx.prepare("INSERT OR IGNORE INTO reviewers(reviewer) VALUES (?1)")?;
+            let mut add_grade = tx.prepare(
+                "INSERT OR IGNORE INTO grade_events(uid, reviewer, context_id, item_id, scale, action, value, reason, seconds, graded_at, note)
+                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11)",
+            )?;
+            let mut add_settlement = tx.prepare(
+                "INSERT OR IGNORE INTO settle_events(uid, context_id, item_id, scale, value, method, settled_by, settled_at, reason)
+                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)",
+            )?;
+            for g in incoming
+                .grades
+                .iter()
+                .filter(|g| allowed.contains(g.reviewer.as_str()))
+            {
+                reviewers_added += add_reviewer.execute([&g.reviewer])? as u64;
+                grades_added += add_grade.execute(params![
+                    g.uid,
+                    g.reviewer,
+                    g.context,
+                    g.item,
+                    g.scale,
+                    g.action,
+                    g.value,
+                    g.reason,
+                    g.seconds,
+                    g.graded_at,
+                    g.note
+                ])? as u64;
+            }
+            for s in incoming
+                .settlements
+                .iter()
+                .filter(|s| accepted.contains(s.settled_by.as_str()))
+            {
+                settled_added += add_settlement.execute(params![
+                    s.uid,
+                    s.context,
+                    s.item,
+                    s.scale,
+                    s.value,
+                    s.method,
+                    s.settled_by,
+                    s.settled_at,
+                    s.reason
+                ])? as u64;
+            }
+        }
+        if commit {
+            tx.commit()?;
+        } else {
+            tx.rollback()?;
+        }
+        Ok(MergeReport {
+            file,
+            grades_added,
+            settled_added,
+            reviewers_added,
+            handed_out_to,
+            needs_acceptance,
+        })
+    }
+}

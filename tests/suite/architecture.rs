@@ -1,0 +1,109 @@
+//! The layers as DEVELOPERS.md draws them, held by a test: `core` and `analysis` stay free
+//! of the window and the database, nothing but the binary names the CLI, the screens keep
+//! no stringly errors, and every source file can be read in one sitting.
+
+use std::path::{Path, PathBuf};
+
+fn rust_files(dir: &Path) -> Vec<PathBuf> {
+    let mut files = Vec::new();
+    for entry in std::fs::read_dir(dir).unwrap() {
+        let path = entry.unwrap().path();
+        if path.is_dir() {
+            files.extend(rust_files(&path));
+        } else if path.extension().is_some_and(|e| e == "rs") {
+            files.push(path);
+        }
+    }
+    files.sort();
+    files
+}
+
+fn src(sub: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("src").join(sub)
+}
+
+/// Lines of code, with `//` comments dropped so a doc comment may name a layer.
+fn code_lines(path: &Path) -> Vec<(usize, String)> {
+    std::fs::read_to_string(path)
+        .unwrap()
+        .lines()
+        .enumerate()
+        .map(|(n, l)| (n + 1, l.split("//").next().unwrap_or("").to_string()))
+        .collect()
+}
+
+fn offenders(dirs: &[&str], names: &[&str]) -> Vec<String> {
+    let mut found = Vec::new();
+    for dir in dirs {
+        let files = rust_files(&src(dir));
+        assert!(!files.is_empty(), "no files under src/{dir}");
+        for file in files {
+            for (n, line) in code_lines(&file) {
+                for name in names {
+                    if line.contains(name) {
+                        found.push(format!("{}:{n}: {}", file.display(), line.trim()));
+                    }
+                }
+            }
+        }
+    }
+    found
+}
+
+#[test]
+fn core_and_analysis_name_neither_the_window_nor_the_database() {
+    let found = offenders(
+        &["core", "analysis"],
+        &["egui", "eframe", "rusqlite", "rfd::"],
+    );
+    assert!(found.is_empty(), "{found:#?}");
+}
+
+#[test]
+fn only_the_binary_names_the_command_line() {
+    let mut found = Vec::new();
+    for dir in ["core", "analysis", "study", "ui", "demo"] {
+        found.extend(offenders(&[dir], &["crate::cli", "plumbline::cli"]));
+    }
+    assert!(found.is_empty(), "{found:#?}");
+}
+
+#[test]
+fn screens_carry_typed_errors_not_strings() {
+    let found = offenders(&["ui"], &[", String>"]);
+    assert!(found.is_empty(), "{found:#?}");
+}
+
+#[test]
+fn every_source_file_reads_in_one_sitting() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let mut long = Vec::new();
+    for dir in ["src", "tests"] {
+        for file in rust_files(&root.join(dir)) {
+            let lines = std::fs::read_to_string(&file).unwrap().lines().count();
+            if lines > 600 {
+                long.push(format!("{}: {lines} lines", file.display()));
+            }
+        }
+    }
+    assert!(long.is_empty(), "over 600 lines: {long:#?}");
+}
+
+/// The checks above must be able to fail: a line that names the database is caught.
+#[test]
+fn the_layer_check_sees_a_forbidden_name() {
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("x.rs");
+    std::fs::write(
+        &file,
+        "// rusqlite in a comment is fine\nuse rusqlite::Connection;\n",
+    )
+    .unwrap();
+    let lines = code_lines(&file);
+    let hits: Vec<_> = lines
+        .iter()
+        .filter(|(_, l)| l.contains("rusqlite"))
+        .collect();
+    assert_eq!(hits.len(), 1);
+    assert_eq!(hits[0].0, 2);
+}

@@ -6,9 +6,9 @@ use std::collections::HashSet;
 use serde::Serialize;
 
 use crate::core::pooling::depth_pool;
-use crate::study::StudyCounts;
 use crate::study::queues::QueueProgress;
 use crate::study::snapshot::Snapshot;
+use crate::study::{Study, StudyCounts, StudyError};
 
 /// How much of one ranker's top k has a grade on the active scale.
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
@@ -53,6 +53,76 @@ pub struct HomeModel {
     pub reviewers: Vec<ReviewerProgress>,
     /// Whether the study is open read-only.
     pub read_only: bool,
+}
+
+/// Home as the screen and `plumbline status` show it, from one read of the study.
+pub fn of_study(study: &Study) -> Result<HomeModel, StudyError> {
+    study.read_together(|study| {
+        let snapshot = study.snapshot()?;
+        let queues = match snapshot.scales.get(snapshot.active_scale_index()) {
+            Some(scale) => study.queue_progress(&scale.name)?,
+            None => Vec::new(),
+        };
+        Ok(build(
+            &snapshot,
+            &queues,
+            study.counts()?,
+            study.is_read_only(),
+        ))
+    })
+}
+
+/// Home as plain text: counts, pool coverage, reviewers and the next step.
+pub fn text(model: &HomeModel) -> String {
+    let c = &model.counts;
+    let mut out = format!(
+        "Study {}{}\n{} items · {} contexts · {} rankers ({} ranked entries) · {} scales · {} reviewers · {} grades in force ({} history rows)\n",
+        model.name,
+        if model.read_only { " (read-only)" } else { "" },
+        c.items,
+        c.contexts,
+        c.rankers,
+        c.ranked_items,
+        c.scales,
+        c.reviewers,
+        c.current_grades,
+        c.grade_events
+    );
+    let percent = |done: usize, total: usize| match total {
+        0 => "–".to_string(),
+        t => format!("{:.0} %", 100.0 * done as f64 / t as f64),
+    };
+    if let Some(scale) = &model.scale {
+        out.push_str(&format!(
+            "\nPool coverage on {scale} (top {}): {} of {} pairs graded ({})\n",
+            model.depth,
+            model.pool_graded,
+            model.pool_size,
+            percent(model.pool_graded, model.pool_size)
+        ));
+        for cov in &model.coverage {
+            out.push_str(&format!(
+                "  {:<16} {} of {} ({})\n",
+                cov.ranker,
+                cov.graded,
+                cov.pairs,
+                percent(cov.graded, cov.pairs)
+            ));
+        }
+        out.push_str(&format!("\nReviewers on {scale}\n"));
+        for r in &model.reviewers {
+            let queue = match r.queue {
+                Some((done, total)) => format!("queue {done} of {total}"),
+                None => "no queue yet".to_string(),
+            };
+            out.push_str(&format!(
+                "  {:<16} {} grades, {queue}\n",
+                r.reviewer, r.grades
+            ));
+        }
+    }
+    out.push_str(&format!("\nNext: {}\n", next_step(model)));
+    out
 }
 
 /// Builds Home from one snapshot, the queues' progress on the active scale and the

@@ -14,21 +14,30 @@ use crate::study::snapshot::Snapshot;
 /// One reviewer's use of the levels.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Strictness {
+    /// Name of the reviewer.
     pub reviewer: String,
     /// Share of this reviewer's grades at each level (sums to 1 when `graded` > 0).
     pub shares: Vec<f64>,
+    /// Number of this reviewer's grades with a level ("can't judge" left out).
     pub graded: usize,
     /// Mean of (own level − lower median of the other reviewers' levels) over pairs the
-    /// others graded too; below 0 = stricter than the rest of the panel.
+    /// others graded too; below 0 = stricter than the rest of the panel. NaN when
+    /// `compared` is 0.
     pub mean_difference: f64,
+    /// Number of grades behind `mean_difference`: those on pairs where at least one other
+    /// reviewer gave a level.
     pub compared: usize,
 }
 
 /// Share of gold pairs a reviewer graded at the known level.
 #[derive(Debug, Clone, PartialEq)]
 pub struct GoldAccuracy {
+    /// Name of the reviewer.
     pub reviewer: String,
+    /// Gold pairs this reviewer graded at the known level (both mapped through the
+    /// collapse map when one is chosen).
     pub correct: usize,
+    /// Gold pairs this reviewer gave a level ("can't judge" left out); always above 0.
     pub graded: usize,
 }
 
@@ -36,18 +45,26 @@ pub struct GoldAccuracy {
 /// median of the others' levels on the same pair.
 #[derive(Debug, Clone, PartialEq)]
 pub struct DayAgreement {
+    /// Name of the reviewer.
     pub reviewer: String,
+    /// The day, the first ten characters of `graded_at` (`YYYY-MM-DD`).
     pub day: String,
+    /// Grades that day equal to the lower median of the others' levels.
     pub agreed: usize,
+    /// Grades that day on pairs where at least one other reviewer gave a level.
     pub compared: usize,
 }
 
 /// A disagreeing pair with everything needed to settle it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Disagreement {
+    /// Id of the pair's context.
     pub context_id: String,
+    /// Text of the context; empty when the snapshot does not hold the context.
     pub context_text: String,
+    /// Id of the pair's item.
     pub item_id: String,
+    /// Title of the item; empty when the snapshot does not hold the item.
     pub item_title: String,
     /// Highest minus lowest level given (can't-judge left out).
     pub spread: u8,
@@ -59,19 +76,29 @@ pub struct Disagreement {
     pub best_rank: Option<usize>,
     /// What `panel` scoring uses without a settlement.
     pub panel_level: u8,
+    /// The settlement in force for the pair, if one was passed in.
     pub settled: Option<SettleRecord>,
 }
 
+/// Everything the Agreement screen shows beside the coefficients for one scale.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct PanelReview {
+    /// Number of levels behind shares, gold and drift: the scale's, or the coarse scale's
+    /// after a collapse map.
     pub levels: usize,
     /// Share of all grades at each level.
     pub panel_shares: Vec<f64>,
+    /// One row per reviewer with a grade on the scale, by name.
     pub strictness: Vec<Strictness>,
+    /// Number of gold pairs (pairs with a known level) on the scale.
     pub gold_pairs: usize,
+    /// One row per reviewer who gave a level to at least one gold pair, by name.
     pub gold: Vec<GoldAccuracy>,
+    /// Every day with at least one compared grade, oldest first.
     pub days: Vec<String>,
+    /// One row per reviewer and day with compared grades, by reviewer then day.
     pub drift: Vec<DayAgreement>,
+    /// The cut-off behind `rankers_in_top_k` of each disagreement.
     pub top_k: usize,
     /// Sorted: widest spread first, then pairs more rankers hold in their top k, then by
     /// best rank, so the pairs that can move a ranker comparison come first.

@@ -51,6 +51,8 @@ fn aligned(rows: &[Vec<String>]) -> String {
     out
 }
 
+/// Plain-text scoreboard for a terminal: settings, one row per ranker with each mean and
+/// its interval, the paired comparisons against the baseline, then the cautions.
 pub fn scoreboard_text(board: &Scoreboard) -> String {
     let s = &board.settings;
     let mut out = String::new();
@@ -178,10 +180,14 @@ pub fn scoreboard_csv(board: &Scoreboard) -> String {
     String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
 }
 
+/// The whole scoreboard as pretty-printed JSON (an `{"error": …}` object if it cannot be
+/// serialised).
 pub fn scoreboard_json(board: &Scoreboard) -> String {
     serde_json::to_string_pretty(board).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))
 }
 
+/// Plain-text agreement report for a terminal: one row per reviewer pair, then the panel
+/// coefficients, the band source and the cautions.
 pub fn agreement_text(report: &AgreementReport) -> String {
     let mut out = String::new();
     let _ = writeln!(
@@ -295,10 +301,14 @@ pub fn agreement_csv(report: &AgreementReport) -> String {
     String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
 }
 
+/// The whole agreement report as pretty-printed JSON (an `{"error": …}` object if it
+/// cannot be serialised).
 pub fn agreement_json(report: &AgreementReport) -> String {
     serde_json::to_string_pretty(report).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))
 }
 
+/// Plain-text scale trial for a terminal: one row per trial row, then the recommendation
+/// and the cautions.
 pub fn trial_text(trial: &Trial) -> String {
     let mut out = String::new();
     let _ = writeln!(
@@ -379,6 +389,8 @@ pub fn trial_csv(trial: &Trial) -> String {
     String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
 }
 
+/// The whole scale trial as pretty-printed JSON (an `{"error": …}` object if it cannot
+/// be serialised).
 pub fn trial_json(trial: &Trial) -> String {
     serde_json::to_string_pretty(trial).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))
 }

@@ -14,6 +14,7 @@ use crate::study::snapshot::Snapshot;
 /// Which items carry gain, and which contexts count.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
 pub enum Segment {
+    /// Every item carries gain and every context counts.
     All,
     /// Only new items carry gain (in DCG and the ideal), over contexts with a relevant new item.
     New,
@@ -26,6 +27,8 @@ pub enum Segment {
 }
 
 impl Segment {
+    /// Reads `all`, `new`, `established`, `query` or `anchor`; any other text (with an
+    /// optional `label:` or `segment:` prefix) is a context segment label.
     pub fn parse(text: &str) -> Segment {
         match text {
             "all" => Segment::All,
@@ -44,6 +47,8 @@ impl Segment {
         }
     }
 
+    /// The segment as [`Segment::parse`] reads it back; a context segment label is written
+    /// `segment:NAME`.
     pub fn label(&self) -> String {
         match self {
             Segment::All => "all".into(),
@@ -58,19 +63,32 @@ impl Segment {
 /// Everything that decides the numbers; printed beside them in every export.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ScoreSettings {
+    /// Name of the scale to score; None = the scale with the most grades.
     pub scale: Option<String>,
+    /// Cut-offs k to score at, each at least 1 (default [`defaults::CUTOFFS`]).
     pub ks: Vec<usize>,
+    /// Gain rule for levels the scale gives no gain of its own.
     pub gain: GainKind,
+    /// Whose grades are scored: the panel's or one reviewer's.
     pub grades: GradeSource,
+    /// Whether unjudged items in a list count as gain 0 or are dropped before cutting at k.
     pub unjudged: Unjudged,
+    /// Ranker the others are compared against. As asked for when building; in a built
+    /// scoreboard, the baseline actually used (see [`resolve_baseline`]).
     pub baseline: Option<String>,
+    /// Which items carry gain and which contexts count.
     pub segment: Segment,
     /// How an unsettled pair's panel levels become one level.
     pub panel_grade: judgments::PanelRule,
     /// Level from which an item is relevant for precision and RR.
     pub relevant_from: u8,
+    /// Bootstrap resamples of contexts behind every interval (default
+    /// [`defaults::SCORE_BOOTSTRAP`]).
     pub bootstrap_resamples: usize,
+    /// Random sign flips behind each randomization p-value when there are too many
+    /// non-zero differences for the exact test (default [`defaults::SCORE_RANDOMIZATION`]).
     pub randomization_resamples: usize,
+    /// Base seed of every resampling; each purpose derives its own seed from it.
     pub seed: u64,
 }
 
@@ -93,50 +111,84 @@ impl Default for ScoreSettings {
     }
 }
 
+/// One metric of one ranker over the scored contexts.
 #[derive(Debug, Clone, Serialize)]
 pub struct MetricSummary {
+    /// Mean of the per-context values.
     pub mean: f64,
+    /// Lower end of the 95 % percentile bootstrap interval of the mean (contexts
+    /// resampled with replacement); NaN without contexts or resamples.
     pub ci_low: f64,
+    /// Upper end of the same interval.
     pub ci_high: f64,
 }
 
+/// Every metric value of one ranker in one scored context.
 #[derive(Debug, Clone, Serialize)]
 pub struct ContextScores {
+    /// Id of the context.
     pub context_id: String,
+    /// Metric key (see [`metric_keys`]) → value in this context.
     #[serde(flatten)]
     pub values: BTreeMap<String, f64>,
 }
 
+/// One ranker's scores: summaries over contexts and the values behind them.
 #[derive(Debug, Clone, Serialize)]
 pub struct RankerScores {
+    /// Name of the ranker.
     pub ranker: String,
+    /// Metric key (`ndcg@10`, `judged@5`, `rr`, …; see [`metric_keys`]) → summary.
     pub metrics: BTreeMap<String, MetricSummary>,
+    /// One entry per scored context, in the study's context order.
     pub per_context: Vec<ContextScores>,
 }
 
+/// A candidate ranker against the baseline on one NDCG cut-off, paired by context.
 #[derive(Debug, Clone, Serialize)]
 pub struct Comparison {
+    /// Name of the candidate ranker.
     pub ranker: String,
+    /// Name of the baseline ranker.
     pub baseline: String,
+    /// Metric key compared (always an `ndcg@k`).
     pub metric: String,
+    /// Number of paired contexts (the scored contexts).
     pub n: usize,
+    /// Mean over contexts of candidate − baseline; above 0 = the candidate scores higher.
     pub diff: f64,
+    /// Lower end of the 95 % percentile bootstrap interval of `diff` (contexts resampled,
+    /// pairs kept together).
     pub ci_low: f64,
+    /// Upper end of the same interval.
     pub ci_high: f64,
+    /// Two-sided paired randomization (sign-flip) test of mean difference 0 (Smucker,
+    /// Allan & Carterette 2007): exact for few non-zero differences, else Monte Carlo.
     pub p_randomization: f64,
+    /// Two-sided paired t-test p-value (Student 1908); NaN with fewer than two contexts or
+    /// when every difference is 0.
     pub p_t: f64,
+    /// `p_randomization` after Holm's (1979) step-down correction across the candidates
+    /// compared on the same metric.
     pub p_holm: f64,
+    /// Contexts where the candidate scores higher by more than 1e-9.
     pub wins: usize,
+    /// Contexts where the two differ by at most 1e-9.
     pub ties: usize,
+    /// Contexts where the candidate scores lower by more than 1e-9.
     pub losses: usize,
     /// Contexts for 80 % power at two-sided α = 0.05 (normal approximation); None if diff = 0.
     pub contexts_needed: Option<u64>,
 }
 
+/// Every ranker's metrics with intervals and the comparisons against the baseline.
 #[derive(Debug, Clone, Serialize)]
 pub struct Scoreboard {
+    /// Name of the study.
     pub study: String,
+    /// Name of the scale scored (the one asked for, or the scale with the most grades).
     pub scale: String,
+    /// The settings used, with `baseline` set to the baseline actually compared against.
     pub settings: ScoreSettings,
     /// The gains actually used, in words: a scale's own gains win over `--gain`.
     pub gains_used: String,
@@ -146,8 +198,12 @@ pub struct Scoreboard {
     pub contexts_without_relevant: usize,
     /// Contexts left out because no pair of them has a grade on this scale yet.
     pub contexts_without_grades: usize,
+    /// Every ranker of the study, in the study's ranker order (by name).
     pub rankers: Vec<RankerScores>,
+    /// Each other ranker against the baseline on every `ndcg@k`; empty without a baseline.
     pub comparisons: Vec<Comparison>,
+    /// Warnings to show beside the numbers: [`OFFLINE_CAUTION`] first, then any about the
+    /// baseline, few contexts or low judged@k coverage.
     pub cautions: Vec<String>,
 }
 
@@ -190,14 +246,19 @@ pub const OFFLINE_CAUTION: &str = "Offline judgments rank candidates for an onli
 /// Why the scoreboard could not be built.
 #[derive(Debug, thiserror::Error)]
 pub enum ScoreError {
+    /// No scale was asked for and the study has no scale to fall back on.
     #[error("the study has no scale with grades; import or give grades first")]
     NoScale,
+    /// The scale asked for (named here) is not in the study.
     #[error("unknown scale \"{0}\"")]
     UnknownScale(String),
+    /// The baseline asked for (named here) is not among the rankers.
     #[error("unknown ranker \"{0}\" for --baseline")]
     UnknownRanker(String),
+    /// The reviewer whose grades were asked for (named here) is not in the study.
     #[error("unknown reviewer \"{0}\" for --grades")]
     UnknownReviewer(String),
+    /// No cut-off was given, or one of them is 0.
     #[error("k must be at least 1")]
     BadK,
 }

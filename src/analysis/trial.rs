@@ -14,21 +14,37 @@ use crate::core::scale::{Level, Scale};
 use crate::core::stats;
 use crate::study::snapshot::Snapshot;
 
+/// One piloted scale (or a collapsed copy of one), measured on the common pairs.
 #[derive(Debug, Clone, Serialize)]
 pub struct TrialRow {
+    /// Name of the scale as the study holds it (also on a collapsed row).
     pub scale: String,
     /// The collapse map applied, if this row is a coarsened copy of a scale.
     pub collapse: Option<String>,
+    /// Number of levels: the scale's, or the coarse scale's after the collapse map.
     pub levels: usize,
+    /// Pairs this row is computed on (the common pairs, as graded on this scale).
     pub pairs: usize,
+    /// Reviewers with a grade of this scale on those pairs.
     pub reviewers: usize,
+    /// Krippendorff's alpha (Krippendorff 2011) with ordinal distances over those pairs.
     pub alpha_ordinal: f64,
+    /// Lower end of the 95 % percentile bootstrap interval of `alpha_ordinal`
+    /// (pairs resampled, at most 1000 resamples).
     pub alpha_ci_low: f64,
+    /// Upper end of the same interval.
     pub alpha_ci_high: f64,
+    /// Quadratic-weighted Cohen's kappa (Cohen 1968) averaged over every reviewer pair;
+    /// NaN without one.
     pub kappa_quadratic_mean: f64,
+    /// Gwet's AC1 (Gwet 2008) of each reviewer pair, averaged over the pairs; NaN without
+    /// one.
     pub ac1_mean: f64,
+    /// Median time recorded per grade, in seconds (NaN when no grade has a time).
     pub median_seconds: f64,
+    /// Interquartile range (75th − 25th percentile) of the time per grade, in seconds.
     pub iqr_seconds: f64,
+    /// Share of this scale's grades on those pairs that are "can't judge", in 0..1.
     pub cant_judge_rate: f64,
     /// Rankers from best to worst by mean NDCG@10 on these pairs.
     pub ranker_order: Vec<String>,
@@ -40,13 +56,22 @@ pub struct TrialRow {
     pub alpha_per_reviewer_minute: f64,
 }
 
+/// The scale trial of a study: one row per piloted scale and saved collapse map, and a
+/// verdict.
 #[derive(Debug, Clone, Serialize)]
 pub struct Trial {
+    /// Name of the study.
     pub study: String,
     /// Pairs graded on every compared scale; every row is computed on these.
     pub common_pairs: usize,
+    /// The finest graded scale (most levels) first; then the other rows in the study's
+    /// scale order, a scale's own row before its collapse maps (by map name).
     pub scales: Vec<TrialRow>,
+    /// Plain-language verdict: the uncollapsed scale with the most alpha per
+    /// reviewer-minute, or why the pilot cannot decide yet.
     pub recommendation: String,
+    /// Warnings to read with the rows (kappa across level counts, shared sample, few
+    /// common pairs).
     pub cautions: Vec<String>,
 }
 

@@ -76,6 +76,33 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                 Format::Json => render::scoreboard_json(&board),
             })
         }
+        Some(Command::Status { study, format }) => {
+            let model = crate::analysis::home::of_study(&open(&study)?)?;
+            print(match format {
+                Format::Text => crate::analysis::home::text(&model),
+                Format::Json => {
+                    let mut json = serde_json::to_string_pretty(&model)
+                        .map_err(|e| Failure::other(e.to_string()))?;
+                    json.push('\n');
+                    json
+                }
+                Format::Csv => {
+                    let mut csv = csv::Writer::from_writer(Vec::new());
+                    let io = |e: csv::Error| Failure::other(e.to_string());
+                    csv.write_record(["ranker", "graded", "pairs"])
+                        .map_err(io)?;
+                    for c in &model.coverage {
+                        let ranker = crate::study::export::neutralise(&c.ranker);
+                        csv.write_record([&*ranker, &c.graded.to_string(), &c.pairs.to_string()])
+                            .map_err(io)?;
+                    }
+                    let bytes = csv
+                        .into_inner()
+                        .map_err(|e| Failure::other(e.to_string()))?;
+                    String::from_utf8_lossy(&bytes).into_owned()
+                }
+            })
+        }
         Some(Command::Agree {
             study,
             scale,

@@ -120,6 +120,12 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "text")]
         format: Format,
     },
+    /// What the study holds, how far the pool is graded and what to do next (Home's figures).
+    Status {
+        study: PathBuf,
+        #[arg(long, value_enum, default_value = "text")]
+        format: Format,
+    },
     /// Reviewer agreement on one scale.
     Agree {
         study: PathBuf,

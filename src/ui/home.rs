@@ -8,20 +8,9 @@ pub use crate::analysis::home::HomeModel;
 use crate::analysis::home::{self, next_step};
 use crate::study::Study;
 
-/// Reads the study and builds Home's model; runs on a job thread.
+/// The same model as `plumbline status` (`home::of_study`); runs on a job thread.
 pub fn load(path: &Path) -> JobResult<HomeModel> {
-    let study = Study::open(path)?;
-    let snapshot = study.snapshot()?;
-    let queues = match snapshot.scales.get(snapshot.active_scale_index()) {
-        Some(scale) => study.queue_progress(&scale.name)?,
-        None => Vec::new(),
-    };
-    Ok(home::build(
-        &snapshot,
-        &queues,
-        study.counts()?,
-        study.is_read_only(),
-    ))
+    Ok(home::of_study(&Study::open(path)?)?)
 }
 
 fn fraction_bar(ui: &mut egui::Ui, done: usize, total: usize, width: f32) {

@@ -30,6 +30,7 @@ mod ui_agreement;
 mod ui_catalog;
 mod ui_desk;
 mod ui_desk_saving;
+mod ui_home;
 mod ui_merge;
 mod ui_read_only;
 mod ui_scales;

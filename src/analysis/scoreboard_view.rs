@@ -56,6 +56,49 @@ pub struct SensitivityRow {
     pub by_key: BTreeMap<String, (Vec<f64>, f64, bool)>,
 }
 
+/// One candidate against the baseline on one metric, per context.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Differences {
+    /// Candidate − baseline per context, ascending.
+    pub sorted: Vec<f64>,
+    /// Contexts where the candidate is better (by more than 1e-9).
+    pub wins: usize,
+    /// Contexts where it is worse (by more than 1e-9).
+    pub losses: usize,
+}
+
+/// Histogram bins of width 0.1 over [0, 1]; the last bin includes 1; NaN is left out.
+pub fn histogram(values: &[f64]) -> [usize; 10] {
+    let mut bins = [0usize; 10];
+    for v in values.iter().filter(|v| v.is_finite()) {
+        bins[((v * 10.0).floor() as usize).min(9)] += 1;
+    }
+    bins
+}
+
+/// Per-context candidate − baseline values on `key`, sorted, with wins and losses.
+pub fn differences(board: &Scoreboard, candidate: &str, key: &str) -> Differences {
+    let find = |name: &str| board.rankers.iter().find(|r| r.ranker == name);
+    let (Some(c), Some(b)) = (
+        find(candidate),
+        board.settings.baseline.as_deref().and_then(find),
+    ) else {
+        return Differences::default();
+    };
+    let mut sorted: Vec<f64> = c
+        .per_context
+        .iter()
+        .zip(&b.per_context)
+        .filter_map(|(x, y)| Some(x.values.get(key)? - y.values.get(key)?))
+        .collect();
+    sorted.sort_by(f64::total_cmp);
+    Differences {
+        wins: sorted.iter().filter(|x| **x > 1e-9).count(),
+        losses: sorted.iter().filter(|x| **x < -1e-9).count(),
+        sorted,
+    }
+}
+
 /// Everything the screen shows; built on a job thread.
 #[derive(Debug, Clone)]
 pub struct ScoreboardModel {
@@ -75,6 +118,11 @@ pub struct ScoreboardModel {
     pub gaps: Vec<GapPair>,
     /// What the controls offer.
     pub choices: Choices,
+    /// Per candidate, per NDCG key: its differences against the baseline (built once,
+    /// not every frame).
+    pub differences: BTreeMap<String, BTreeMap<String, Differences>>,
+    /// Per NDCG key: each ranker's per-context histogram (board order).
+    pub histograms: BTreeMap<String, Vec<[usize; 10]>>,
 }
 
 fn ndcg_keys(ks: &[usize]) -> Vec<String> {
@@ -213,7 +261,38 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
         reviewers: snapshot.reviewers.clone(),
         segments,
     };
+    let differences = board
+        .rankers
+        .iter()
+        .map(|r| {
+            let by_key = keys
+                .iter()
+                .map(|k| (k.clone(), differences(&board, &r.ranker, k)))
+                .collect();
+            (r.ranker.clone(), by_key)
+        })
+        .collect();
+    let histograms = keys
+        .iter()
+        .map(|k| {
+            let per_ranker = board
+                .rankers
+                .iter()
+                .map(|r| {
+                    let values: Vec<f64> = r
+                        .per_context
+                        .iter()
+                        .filter_map(|c| c.values.get(k).copied())
+                        .collect();
+                    histogram(&values)
+                })
+                .collect();
+            (k.clone(), per_ranker)
+        })
+        .collect();
     Ok(ScoreboardModel {
+        differences,
+        histograms,
         settings,
         board,
         curves,
@@ -324,4 +403,18 @@ pub fn comparisons_tsv(board: &Scoreboard) -> String {
         ));
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn histogram_puts_one_in_the_last_bin() {
+        let bins = histogram(&[0.0, 0.05, 0.1, 0.99, 1.0, f64::NAN]);
+        assert_eq!(bins[0], 2);
+        assert_eq!(bins[1], 1);
+        assert_eq!(bins[9], 2);
+        assert_eq!(bins.iter().sum::<usize>(), 5);
+    }
 }

@@ -137,12 +137,19 @@ impl Workbench {
             self.desk.start_loading(ctx, &self.path, &r, Some(scale));
         }
         if self.shown_screen != Some(self.screen) {
-            // Entering a screen refreshes what it shows (grades may have changed).
+            // Entering a screen refreshes what it shows (grades may have changed): the one
+            // place that notices it.
             if self.screen == Screen::Home && self.shown_screen.is_some() {
                 self.reload_home(ctx);
             }
             if self.screen == Screen::Scales && !self.scales.is_busy() {
                 self.scales.reload(ctx, &self.path);
+            }
+            if self.screen == Screen::Agreement {
+                self.agreement.entered();
+            }
+            if self.screen == Screen::Scoreboard {
+                self.scoreboard.entered();
             }
             if self.screen == Screen::Trial && !self.trial.is_loading() {
                 self.trial.reload(ctx, &self.path);

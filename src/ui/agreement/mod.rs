@@ -28,7 +28,8 @@ pub struct AgreementScreen {
     /// What the next load asks for (the selectors write here).
     pub wanted: AgreementRequest,
     loaded_path: Option<PathBuf>,
-    last_pass: u64,
+    /// Set by the workbench when the screen is entered: grades may have changed.
+    entered: bool,
     /// The reviewer pair whose confusion heatmap is shown.
     pub selected_cell: Option<(String, String)>,
     /// Which half is shown: the panel figures (false) or the disagreements to settle.
@@ -43,7 +44,7 @@ impl Default for AgreementScreen {
             loading: Task::named("agreement-load"),
             wanted: AgreementRequest::default(),
             loaded_path: None,
-            last_pass: 0,
+            entered: false,
             selected_cell: None,
             show_disagreements: false,
             settle: SettleForm::default(),
@@ -52,6 +53,11 @@ impl Default for AgreementScreen {
 }
 
 impl AgreementScreen {
+    /// The workbench calls this when the screen is entered; the next frame recomputes.
+    pub fn entered(&mut self) {
+        self.entered = true;
+    }
+
     /// Whether the model is being computed.
     pub fn is_loading(&self) -> bool {
         self.loading.is_running()
@@ -62,15 +68,15 @@ impl AgreementScreen {
         let path_buf = path.to_path_buf();
         let request = self.wanted.clone();
         self.loaded_path = Some(path_buf.clone());
+        self.entered = false;
         self.loading.start(ctx, move || load(&path_buf, request));
     }
 
     /// Reloads when the screen is entered again, the study or viewer changed, a
     /// selector changed, or a settlement was written.
     fn refresh(&mut self, ctx: &egui::Context, path: &Path, viewer: Option<&str>) {
-        let pass = ctx.cumulative_pass_nr();
-        let entered = pass > self.last_pass + 1;
-        self.last_pass = pass;
+        // Kept until a computation starts, so an entry during a run is not lost.
+        let entered = self.entered;
         self.wanted.viewer = viewer.map(str::to_string);
         if let Some(result) = self.loading.poll() {
             self.model = Some(result);
@@ -90,7 +96,6 @@ impl AgreementScreen {
         if !self.loading.is_running() && (entered || stale || other_study || self.model.is_none()) {
             if other_study {
                 *self = AgreementScreen::default();
-                self.last_pass = pass;
                 self.wanted.viewer = viewer.map(str::to_string);
             }
             self.start_loading(ctx, path);

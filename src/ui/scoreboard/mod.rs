@@ -45,7 +45,8 @@ pub struct ScoreboardScreen {
     /// The settings the running computation was asked for.
     sent: Option<ScoreSettings>,
     computed_for: Option<ScoreSettings>,
-    last_frame: u64,
+    /// Set by the workbench when the screen is entered: grades may have changed.
+    entered: bool,
     pub candidate: Option<String>,
     pub gap_reviewer: Option<String>,
     gap_job: GapJob,
@@ -63,7 +64,7 @@ impl Default for ScoreboardScreen {
             loading: Task::named("scoreboard-load"),
             sent: None,
             computed_for: None,
-            last_frame: 0,
+            entered: false,
             candidate: None,
             gap_reviewer: None,
             gap_job: Task::named("gap-queue"),
@@ -74,6 +75,11 @@ impl Default for ScoreboardScreen {
 }
 
 impl ScoreboardScreen {
+    /// The workbench calls this when the screen is entered; the next frame recomputes.
+    pub fn entered(&mut self) {
+        self.entered = true;
+    }
+
     /// Whether a computation is in flight.
     pub fn is_loading(&self) -> bool {
         self.loading.is_running()
@@ -89,9 +95,8 @@ impl ScoreboardScreen {
     /// Starts a computation when the settings changed (or on entering the screen, since
     /// grades may have changed); the last model stays drawn meanwhile.
     fn refresh(&mut self, ctx: &egui::Context, path: &Path) {
-        let frame = ctx.cumulative_frame_nr();
-        let entered = frame > self.last_frame + 1;
-        self.last_frame = frame;
+        // Kept until a computation starts, so an entry during a run is not lost.
+        let entered = self.entered;
         if let Some(result) = self.loading.poll() {
             let sent = self.sent.take();
             match result {
@@ -121,6 +126,7 @@ impl ScoreboardScreen {
             let p = path.to_path_buf();
             let settings = self.wanted.clone();
             self.sent = Some(settings.clone());
+            self.entered = false;
             self.loading.start(ctx, move || load(&p, settings));
         }
     }

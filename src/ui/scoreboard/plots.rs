@@ -4,7 +4,7 @@
 
 use egui_plot::{Bar, BarChart, Corner, FilledArea, Legend, Line, Plot, PlotPoints};
 
-use crate::analysis::scoreboard_view::ScoreboardModel;
+use crate::analysis::scoreboard_view::{Differences, ScoreboardModel};
 
 /// Distinct colours per ranker, readable on light and dark backgrounds.
 const PALETTE: [egui::Color32; 6] = [
@@ -18,35 +18,6 @@ const PALETTE: [egui::Color32; 6] = [
 
 pub fn colour(r: usize) -> egui::Color32 {
     PALETTE[r % PALETTE.len()]
-}
-
-/// Histogram bins of width 0.1 over [0, 1]; the last bin includes 1.
-pub fn histogram(values: &[f64]) -> [usize; 10] {
-    let mut bins = [0usize; 10];
-    for v in values.iter().filter(|v| v.is_finite()) {
-        bins[((v * 10.0).floor() as usize).min(9)] += 1;
-    }
-    bins
-}
-
-/// Per-context candidate − baseline values on `key`, sorted ascending.
-pub fn sorted_differences(model: &ScoreboardModel, candidate: &str, key: &str) -> Vec<f64> {
-    let board = &model.board;
-    let find = |name: &str| board.rankers.iter().find(|r| r.ranker == name);
-    let (Some(c), Some(b)) = (
-        find(candidate),
-        board.settings.baseline.as_deref().and_then(find),
-    ) else {
-        return Vec::new();
-    };
-    let mut d: Vec<f64> = c
-        .per_context
-        .iter()
-        .zip(&b.per_context)
-        .filter_map(|(x, y)| Some(x.values.get(key)? - y.values.get(key)?))
-        .collect();
-    d.sort_by(f64::total_cmp);
-    d
 }
 
 pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate: Option<&str>) {
@@ -85,10 +56,15 @@ pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate
             match candidate {
                 Some(c) => {
                     ui.strong(format!("{c} − {baseline}, NDCG@{focus} per context"));
-                    let d = sorted_differences(model, c, &key);
-                    let wins = d.iter().filter(|x| **x > 1e-9).count();
-                    let losses = d.iter().filter(|x| **x < -1e-9).count();
+                    let empty = Differences::default();
+                    let d = model
+                        .differences
+                        .get(c)
+                        .and_then(|by_key| by_key.get(&key))
+                        .unwrap_or(&empty);
+                    let (wins, losses) = (d.wins, d.losses);
                     let bars: Vec<Bar> = d
+                        .sorted
                         .iter()
                         .enumerate()
                         .map(|(i, v)| {
@@ -124,13 +100,11 @@ pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate
                 .x_axis_label(format!("NDCG@{focus}"))
                 .allow_scroll(false)
                 .show(ui, |p| {
+                    let none = Vec::new();
+                    let bins = model.histograms.get(&key).unwrap_or(&none);
                     for (r, ranker) in model.board.rankers.iter().enumerate() {
-                        let values: Vec<f64> = ranker
-                            .per_context
-                            .iter()
-                            .filter_map(|c| c.values.get(&key).copied())
-                            .collect();
-                        let bars: Vec<Bar> = histogram(&values)
+                        let Some(counts) = bins.get(r) else { continue };
+                        let bars: Vec<Bar> = counts
                             .iter()
                             .enumerate()
                             .map(|(b, count)| {
@@ -143,18 +117,4 @@ pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate
                 });
         });
     });
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn histogram_puts_one_in_the_last_bin() {
-        let bins = histogram(&[0.0, 0.05, 0.1, 0.99, 1.0, f64::NAN]);
-        assert_eq!(bins[0], 2);
-        assert_eq!(bins[1], 1);
-        assert_eq!(bins[9], 2);
-        assert_eq!(bins.iter().sum::<usize>(), 5);
-    }
 }

@@ -8,6 +8,7 @@ mod words;
 use std::path::{Path, PathBuf};
 
 use crate::study::import::{self, ImportSet, Source};
+use crate::study::settings::keys;
 use crate::study::{Study, StudyError};
 
 /// Where the workbench keeps the demo study: the platform's data folder.
@@ -31,7 +32,7 @@ pub fn catalog_folder(study: &Path) -> PathBuf {
 pub fn build_demo_study(path: &Path) -> Result<(), StudyError> {
     if path.exists() {
         let existing = Study::open(path)?;
-        if existing.setting("demo")?.as_deref() != Some("true") {
+        if existing.setting(keys::DEMO)?.as_deref() != Some("true") {
             return Err(StudyError::Refused {
                 path: path.display().to_string(),
                 reason: "a study that is not the demo is already there; choose another --out"
@@ -64,10 +65,10 @@ pub fn build_demo_study(path: &Path) -> Result<(), StudyError> {
     };
     let mut study = Study::create(path)?;
     import::import(&mut study, &set)?;
-    study.set_setting("demo", "true")?;
-    study.set_setting("name", "Fennel Hollow demo")?;
-    study.set_setting("baseline", generate::BASELINE_RANKER)?;
-    study.set_setting("pool_depth", "10")?;
+    study.set_setting(keys::DEMO, "true")?;
+    study.set_setting(keys::NAME, "Fennel Hollow demo")?;
+    study.set_setting(keys::BASELINE, generate::BASELINE_RANKER)?;
+    study.set_setting(keys::POOL_DEPTH, "10")?;
     Ok(())
 }
 

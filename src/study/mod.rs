@@ -13,6 +13,7 @@ mod problems;
 pub mod queues;
 pub mod scales;
 pub mod schema;
+pub mod settings;
 pub mod settle;
 pub mod snapshot;
 pub mod time;
@@ -135,7 +136,7 @@ impl Study {
             .file_stem()
             .map(|s| s.to_string_lossy().into_owned())
             .unwrap_or_default();
-        study.set_setting("name", &name)?;
+        study.set_setting(settings::keys::NAME, &name)?;
         Ok(study)
     }
 
@@ -351,7 +352,10 @@ impl Study {
     /// own pictures folder) is taken relative to the study file, so a copy finds its
     /// pictures wherever it is moved with them.
     pub fn catalog_dir(&self) -> Result<Option<PathBuf>> {
-        let Some(dir) = self.setting("catalog_dir")?.filter(|s| !s.is_empty()) else {
+        let Some(dir) = self
+            .setting(settings::keys::CATALOG_DIR)?
+            .filter(|s| !s.is_empty())
+        else {
             return Ok(None);
         };
         let dir = PathBuf::from(dir);
@@ -367,7 +371,10 @@ impl Study {
 
     /// The study's display name (file stem unless renamed).
     pub fn name(&self) -> String {
-        self.setting("name").ok().flatten().unwrap_or_default()
+        self.setting(settings::keys::NAME)
+            .ok()
+            .flatten()
+            .unwrap_or_default()
     }
 
     /// Row counts of the main tables, for summaries.

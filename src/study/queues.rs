@@ -16,9 +16,8 @@ use super::{Result, Study, StudyError};
 use crate::core::pooling::{assign_queues, depth_pool, shuffle};
 use crate::core::stats::Rng;
 
-pub const DEFAULT_POOL_DEPTH: usize = 10;
-pub const DEFAULT_OVERLAP_SHARE: f64 = 0.30;
-pub const DEFAULT_GOLD_RATE: f64 = 0.05;
+use super::settings::keys;
+pub use super::settings::{DEFAULT_GOLD_RATE, DEFAULT_OVERLAP_SHARE, DEFAULT_POOL_DEPTH};
 
 /// A (context_id, item_id) pair.
 pub type PairId = (String, String);
@@ -60,16 +59,11 @@ pub struct QueueProgress {
 }
 
 impl Study {
-    fn setting_or<T: std::str::FromStr>(&self, key: &str, default: T) -> Result<T> {
-        Ok(self
-            .setting(key)?
-            .and_then(|v| v.trim().parse().ok())
-            .unwrap_or(default))
-    }
-
     /// Pool depth k (setting `pool_depth`, default 10).
     pub fn pool_depth(&self) -> Result<usize> {
-        Ok(self.setting_or("pool_depth", DEFAULT_POOL_DEPTH)?.max(1))
+        Ok(self
+            .setting_or(keys::POOL_DEPTH, DEFAULT_POOL_DEPTH)?
+            .max(1))
     }
 
     /// The pool at the study's depth: pairs ordered by context, then first appearance.
@@ -98,14 +92,14 @@ impl Study {
 
     /// The queue seed (setting `queue_seed`), created from the clock on first use.
     pub fn queue_seed(&self) -> Result<u64> {
-        if let Some(seed) = self.setting("queue_seed")?.and_then(|s| s.parse().ok()) {
+        if let Some(seed) = self.setting(keys::QUEUE_SEED)?.and_then(|s| s.parse().ok()) {
             return Ok(seed);
         }
         let seed = std::time::SystemTime::now()
             .duration_since(std::time::UNIX_EPOCH)
             .map(|d| d.as_nanos() as u64)
             .unwrap_or(1);
-        self.set_setting("queue_seed", &seed.to_string())?;
+        self.set_setting(keys::QUEUE_SEED, &seed.to_string())?;
         Ok(seed)
     }
 
@@ -133,8 +127,8 @@ impl Study {
         }
         let pool = self.pool()?;
         let seed = self.queue_seed()?;
-        let overlap = self.setting_or("overlap_share", DEFAULT_OVERLAP_SHARE)?;
-        let gold_rate = self.setting_or("gold_rate", DEFAULT_GOLD_RATE)?;
+        let overlap = self.setting_or(keys::OVERLAP_SHARE, DEFAULT_OVERLAP_SHARE)?;
+        let gold_rate = self.setting_or(keys::GOLD_RATE, DEFAULT_GOLD_RATE)?;
         let gold = self.gold_pairs(scale)?;
         let panel: Vec<String> = {
             let mut stmt = self

@@ -17,7 +17,7 @@ use crate::core::scale::Scale;
 use crate::core::stats::Rng;
 
 /// Setting naming the scale the grading desk grades on.
-pub const ACTIVE_SCALE: &str = "active_scale";
+pub use super::settings::keys::ACTIVE_SCALE;
 /// Setting holding the pilot's scales as a JSON list, in block order.
 pub const PILOT_SCALES: &str = "pilot_scales";
 

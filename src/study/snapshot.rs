@@ -142,6 +142,7 @@ impl Study {
             false => None,
         };
         let conn = self.conn();
+        let settings = self.settings()?;
         let items: Vec<ItemInfo> = conn
             .prepare("SELECT item_id, title, category, is_new FROM items ORDER BY item_id")?
             .query_map([], |r| {
@@ -269,10 +270,10 @@ impl Study {
             }
         }
         Ok(Snapshot {
-            name: self.name(),
-            stored_baseline: self.setting("baseline")?.filter(|b| !b.is_empty()),
-            stored_active_scale: self.setting(super::scales::ACTIVE_SCALE)?,
-            pool_depth: self.pool_depth()?,
+            name: settings.name,
+            stored_baseline: settings.baseline,
+            stored_active_scale: settings.active_scale,
+            pool_depth: settings.pool_depth,
             items,
             contexts,
             rankers,

@@ -9,6 +9,7 @@ pub mod home;
 pub mod image_cache;
 pub mod jobs;
 pub mod merge_panel;
+pub mod palette;
 pub mod scales;
 pub mod scoreboard;
 pub mod shell;

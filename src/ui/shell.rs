@@ -287,8 +287,7 @@ impl Workbench {
                 |ui| match self.desk.save_state() {
                     SaveState::AllSaved => {
                         ui.label(
-                            egui::RichText::new("All grades saved")
-                                .color(egui::Color32::from_rgb(0x3c, 0x9a, 0x5f)),
+                            egui::RichText::new("All grades saved").color(super::palette::GOOD),
                         );
                     }
                     SaveState::Saving => {

@@ -208,13 +208,6 @@ fn table(ui: &mut egui::Ui, rows: &[TrialRow]) {
 }
 
 fn plot(ui: &mut egui::Ui, rows: &[TrialRow]) {
-    let palette = [
-        egui::Color32::from_rgb(0x3c, 0x7d, 0xc4),
-        egui::Color32::from_rgb(0xd0, 0x7a, 0x2c),
-        egui::Color32::from_rgb(0x3c, 0x9a, 0x5f),
-        egui::Color32::from_rgb(0x9a, 0x4c, 0xb0),
-        egui::Color32::from_rgb(0xb0, 0x3c, 0x4c),
-    ];
     // Room on the right of the slowest point for its label.
     let right = rows.iter().map(|r| r.median_seconds).fold(1.0, f64::max) * 1.3;
     Plot::new("trial_plot")
@@ -232,7 +225,7 @@ fn plot(ui: &mut egui::Ui, rows: &[TrialRow]) {
         .allow_drag(false)
         .show(ui, |p| {
             for (n, r) in rows.iter().enumerate() {
-                let colour = palette[n % palette.len()];
+                let colour = super::palette::series(n);
                 let name = row_name(r);
                 let x = r.median_seconds;
                 p.line(

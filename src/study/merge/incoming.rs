@@ -239,8 +239,8 @@ pub(super) fn read_incoming(copy: &CheckedCopy, here: &Definitions) -> Result<In
         )?;
         Ok(rows.first().and_then(|r| text(&r[0]).map(str::to_string)))
     };
-    let handed_out_to = setting("handed_out_to")?;
-    let copy_id = setting("copy_id")?;
+    let handed_out_to = setting(crate::study::settings::keys::HANDED_OUT_TO)?;
+    let copy_id = setting(crate::study::settings::keys::COPY_ID)?;
     let mut used = Used::default();
     let mut grades = Vec::new();
     let rows = untrusted::rows(

@@ -126,7 +126,7 @@ impl AgreementScreen {
                 self.selectors(ui, &model);
                 if model.viewer_is_grading() {
                     ui.colored_label(
-                        egui::Color32::from_rgb(0xc0, 0x7a, 0x10),
+                        super::palette::CAUTION,
                         format!(
                             "Blind rule: you still have {} ungraded pairs on this scale, so the other reviewers' grades for them are left out of everything below. Settling opens once your queue is done.",
                             model.hidden_pairs
@@ -261,9 +261,9 @@ fn kappa_colour(k: f64) -> egui::Color32 {
         return egui::Color32::GRAY;
     }
     let t = k.clamp(0.0, 1.0) as f32;
-    let red = egui::Color32::from_rgb(0xc8, 0x4b, 0x3c);
-    let amber = egui::Color32::from_rgb(0xd9, 0xa4, 0x2b);
-    let green = egui::Color32::from_rgb(0x3c, 0x9a, 0x5f);
+    let red = super::palette::KAPPA_LOW;
+    let amber = super::palette::KAPPA_MID;
+    let green = super::palette::GOOD;
     if t < 0.5 {
         red.lerp_to_gamma(amber, t * 2.0)
     } else {
@@ -363,9 +363,9 @@ fn heatmap(ui: &mut egui::Ui, model: &AgreementModel, selected: Option<&(String,
                         ui.allocate_exact_size(egui::vec2(58.0, 30.0), egui::Sense::hover());
                     let t = *count as f32 / max as f32;
                     let base = if i == j {
-                        egui::Color32::from_rgb(0x3c, 0x9a, 0x5f)
+                        super::palette::GOOD
                     } else {
-                        egui::Color32::from_rgb(0x3a, 0x6e, 0xa8)
+                        super::palette::DISAGREE
                     };
                     let fill = ui
                         .visuals()
@@ -392,7 +392,7 @@ fn heatmap(ui: &mut egui::Ui, model: &AgreementModel, selected: Option<&(String,
         });
     if p.prevalence.dominant_share >= crate::core::agreement::DOMINANT_SHARE_CAUTION {
         ui.colored_label(
-            egui::Color32::from_rgb(0xc0, 0x7a, 0x10),
+            super::palette::CAUTION,
             format!(
                 "Level {} holds {:.0} % of this pair's grades: kappa can be low although they mostly agree.",
                 p.prevalence.dominant_level,
@@ -475,10 +475,7 @@ fn panel_summary(ui: &mut egui::Ui, r: &AgreementReport) {
             );
         });
     for caution in &r.cautions {
-        ui.colored_label(
-            egui::Color32::from_rgb(0xc0, 0x7a, 0x10),
-            format!("⚠ {caution}"),
-        );
+        ui.colored_label(super::palette::CAUTION, format!("⚠ {caution}"));
     }
     ui.weak(
         "Kappa-type numbers mislead when one level dominates; small samples give wide intervals.",

@@ -164,7 +164,7 @@ impl SettleForm {
             !model.viewer_is_grading() && !model.read_only && !self.writing.is_running();
         if model.viewer_is_grading() {
             ui.colored_label(
-                egui::Color32::from_rgb(0xc0, 0x7a, 0x10),
+                crate::ui::palette::CAUTION,
                 "Settling is for after grading: finish your queue on the Grading desk first.",
             );
         } else if model.read_only {

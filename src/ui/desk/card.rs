@@ -112,7 +112,7 @@ impl Desk {
                         .shortcut_text(format!("key {key}"))
                         .min_size(egui::vec2(width, 40.0))
                         .selected(mark == Some(Some(level.value)));
-                    if let Some(colour) = parse_colour(&level.colour) {
+                    if let Some(colour) = crate::ui::palette::parse_hex(&level.colour) {
                         button = button.stroke(egui::Stroke::new(2.0, colour));
                     }
                     if ui.add_enabled(!waiting, button).clicked() {
@@ -284,7 +284,7 @@ pub fn new_badge(ui: &mut egui::Ui) -> egui::Response {
         .small()
         .strong()
         .color(egui::Color32::WHITE)
-        .background_color(egui::Color32::from_rgb(0x2f, 0x7d, 0x5b));
+        .background_color(crate::ui::palette::NEW_BADGE);
     ui.label(text).on_hover_text("No interaction history yet")
 }
 
@@ -322,17 +322,4 @@ pub(super) fn level_key_text(key: &str, value: u8) -> String {
     } else {
         key.to_string()
     }
-}
-
-pub(super) fn parse_colour(text: &str) -> Option<egui::Color32> {
-    let hex = text.trim().strip_prefix('#')?;
-    if hex.len() != 6 {
-        return None;
-    }
-    let v = u32::from_str_radix(hex, 16).ok()?;
-    Some(egui::Color32::from_rgb(
-        (v >> 16) as u8,
-        (v >> 8) as u8,
-        v as u8,
-    ))
 }

@@ -27,7 +27,7 @@ pub fn load(path: &Path, reviewer: &str, scale: Option<String>) -> JobResult<(De
                 .scale_index(name)
                 .ok_or_else(|| JobError::Missing(format!("no scale named {name}")))?;
             if !study.is_read_only() {
-                study.set_setting("active_scale", name)?;
+                study.set_setting(crate::study::settings::keys::ACTIVE_SCALE, name)?;
             }
             i
         }

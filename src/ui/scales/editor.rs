@@ -92,7 +92,7 @@ impl Editor {
                     },
                 };
                 let colour = r.colour.trim().to_string();
-                if !colour.is_empty() && parse_colour(&colour).is_none() {
+                if !colour.is_empty() && crate::ui::palette::parse_hex(&colour).is_none() {
                     problems.push(format!("level {v}: colour must look like #3c9a5f"));
                 }
                 Level {
@@ -208,7 +208,7 @@ impl Editor {
                     ui.horizontal(|ui| {
                         let (rect, _) =
                             ui.allocate_exact_size(egui::vec2(14.0, 14.0), egui::Sense::hover());
-                        if let Some(c) = parse_colour(&row.colour) {
+                        if let Some(c) = crate::ui::palette::parse_hex(&row.colour) {
                             ui.painter().rect_filled(rect, 3.0, c);
                         }
                         text_cell(ui, &mut row.colour, &format!("Level {v} colour"), 64.0);
@@ -247,20 +247,6 @@ fn text_cell(ui: &mut egui::Ui, text: &mut String, name: &str, width: f32) {
     // add_sized: a grid cell would otherwise shrink the field to its narrowest.
     ui.add_sized([width, 20.0], egui::TextEdit::singleline(text))
         .accessible_name(name);
-}
-
-/// `#rrggbb` → colour.
-pub fn parse_colour(text: &str) -> Option<egui::Color32> {
-    let hex = text.strip_prefix('#')?;
-    if hex.len() != 6 {
-        return None;
-    }
-    let n = u32::from_str_radix(hex, 16).ok()?;
-    Some(egui::Color32::from_rgb(
-        (n >> 16) as u8,
-        (n >> 8) as u8,
-        n as u8,
-    ))
 }
 
 /// The collapse-map editor: one fine scale, a name, a coarse target per level.

@@ -199,7 +199,7 @@ impl ScalesScreen {
         );
         match &self.message {
             Some(Ok(m)) => {
-                ui.colored_label(egui::Color32::from_rgb(0x3c, 0x9a, 0x5f), m);
+                ui.colored_label(crate::ui::palette::GOOD, m);
             }
             Some(Err(e)) => {
                 ui.colored_label(ui.visuals().error_fg_color, format!("Not saved: {e}"));

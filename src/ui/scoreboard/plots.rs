@@ -6,18 +6,9 @@ use egui_plot::{Bar, BarChart, Corner, FilledArea, Legend, Line, Plot, PlotPoint
 
 use crate::analysis::scoreboard_view::{Differences, ScoreboardModel};
 
-/// Distinct colours per ranker, readable on light and dark backgrounds.
-const PALETTE: [egui::Color32; 6] = [
-    egui::Color32::from_rgb(0x4c, 0x78, 0xa8),
-    egui::Color32::from_rgb(0xe4, 0x7f, 0x2b),
-    egui::Color32::from_rgb(0x3c, 0x9a, 0x5f),
-    egui::Color32::from_rgb(0xb0, 0x4a, 0x8f),
-    egui::Color32::from_rgb(0x8c, 0x6d, 0x3f),
-    egui::Color32::from_rgb(0x5f, 0x5f, 0x9e),
-];
-
+/// The colour of ranker `r` (board order), the same in every plot and legend.
 pub fn colour(r: usize) -> egui::Color32 {
-    PALETTE[r % PALETTE.len()]
+    crate::ui::palette::series(r)
 }
 
 pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate: Option<&str>) {
@@ -69,9 +60,9 @@ pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate
                         .enumerate()
                         .map(|(i, v)| {
                             let fill = if *v >= 0.0 {
-                                egui::Color32::from_rgb(0x3c, 0x9a, 0x5f)
+                                crate::ui::palette::GOOD
                             } else {
-                                egui::Color32::from_rgb(0xc0, 0x50, 0x40)
+                                crate::ui::palette::WORSE
                             };
                             Bar::new(i as f64, *v).width(0.9).fill(fill)
                         })

@@ -9,7 +9,7 @@ use crate::core::scale::Scale;
 use crate::study::{Study, StudyError};
 
 /// What to compute: the scale and collapse map picked on screen, and who is looking.
-#[derive(Debug, Clone, Default, PartialEq)]
+#[derive(Debug, Clone, Default, PartialEq, serde::Serialize)]
 pub struct AgreementRequest {
     /// The scale asked for; `None` = the active scale.
     pub scale: Option<String>,
@@ -20,7 +20,7 @@ pub struct AgreementRequest {
 }
 
 /// Everything the screen shows, computed off the UI thread.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, serde::Serialize)]
 pub struct AgreementModel {
     /// What was computed, with the scale filled in.
     pub request: AgreementRequest,

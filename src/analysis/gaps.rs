@@ -7,7 +7,7 @@ use crate::core::gaps::order_gaps;
 use crate::study::snapshot::Snapshot;
 
 /// One pair to grade, by id, with why it is where it is.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct GapPair {
     /// Id of the context the item has no grade in.
     pub context_id: String,

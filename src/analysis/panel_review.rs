@@ -12,7 +12,7 @@ use crate::study::settle::{GradeDetail, SettleRecord};
 use crate::study::snapshot::Snapshot;
 
 /// One reviewer's use of the levels.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Strictness {
     /// Name of the reviewer.
     pub reviewer: String,
@@ -30,7 +30,7 @@ pub struct Strictness {
 }
 
 /// Share of gold pairs a reviewer graded at the known level.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct GoldAccuracy {
     /// Name of the reviewer.
     pub reviewer: String,
@@ -43,7 +43,7 @@ pub struct GoldAccuracy {
 
 /// On one day (UTC, from `graded_at`), how often a reviewer's level equalled the lower
 /// median of the others' levels on the same pair.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct DayAgreement {
     /// Name of the reviewer.
     pub reviewer: String,
@@ -56,7 +56,7 @@ pub struct DayAgreement {
 }
 
 /// A disagreeing pair with everything needed to settle it.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Disagreement {
     /// Id of the pair's context.
     pub context_id: String,
@@ -81,7 +81,7 @@ pub struct Disagreement {
 }
 
 /// Everything the Agreement screen shows beside the coefficients for one scale.
-#[derive(Debug, Clone, Default, PartialEq)]
+#[derive(Debug, Clone, Default, PartialEq, serde::Serialize)]
 pub struct PanelReview {
     /// Number of levels behind shares, gold and drift: the scale's, or the coarse scale's
     /// after a collapse map.

@@ -19,7 +19,7 @@ pub const CURVE_MAX_K: usize = 20;
 pub const COVERAGE_WARNING: f64 = super::defaults::COVERAGE_CAUTION;
 
 /// What the controls can be set to, read from the study.
-#[derive(Debug, Clone, Default)]
+#[derive(Debug, Clone, Default, serde::Serialize)]
 pub struct Choices {
     /// Scales with their names.
     pub scales: Vec<String>,
@@ -32,7 +32,7 @@ pub struct Choices {
 }
 
 /// NDCG@k with its interval at one k, for the curve plot.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct CurvePoint {
     /// The cut-off.
     pub k: usize,
@@ -45,7 +45,7 @@ pub struct CurvePoint {
 }
 
 /// One reviewer's own grades scored alone, against the panel's ranker order.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, serde::Serialize)]
 pub struct SensitivityRow {
     /// The reviewer whose grades alone were scored.
     pub reviewer: String,
@@ -57,7 +57,7 @@ pub struct SensitivityRow {
 }
 
 /// One candidate against the baseline on one metric, per context.
-#[derive(Debug, Clone, Default, PartialEq)]
+#[derive(Debug, Clone, Default, PartialEq, serde::Serialize)]
 pub struct Differences {
     /// Candidate − baseline per context, ascending.
     pub sorted: Vec<f64>,
@@ -100,7 +100,7 @@ pub fn differences(board: &Scoreboard, candidate: &str, key: &str) -> Difference
 }
 
 /// Everything the screen shows; built on a job thread.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, serde::Serialize)]
 pub struct ScoreboardModel {
     /// The settings as used (baseline filled in from the study when none was chosen).
     pub settings: ScoreSettings,

@@ -76,6 +76,45 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                 Format::Json => render::scoreboard_json(&board),
             })
         }
+        Some(Command::View {
+            screen,
+            study,
+            viewer,
+        }) => {
+            use crate::analysis::{agreement_view, home, scoreboard_view};
+            let study = open(&study)?;
+            let json = |value: Result<String, serde_json::Error>| {
+                value
+                    .map(|mut s| {
+                        s.push('\n');
+                        s
+                    })
+                    .map_err(|e| Failure::other(e.to_string()))
+            };
+            print(match screen {
+                super::ViewName::Home => {
+                    json(serde_json::to_string_pretty(&home::of_study(&study)?))?
+                }
+                super::ViewName::Agreement => {
+                    let request = agreement_view::AgreementRequest {
+                        viewer,
+                        ..Default::default()
+                    };
+                    let model = agreement_view::build(&study, request)?
+                        .ok_or_else(|| Failure::input("the study has no scales"))?;
+                    json(serde_json::to_string_pretty(&model))?
+                }
+                super::ViewName::Scoreboard => {
+                    let snapshot = study.snapshot()?;
+                    let model = scoreboard_view::build(&snapshot, Default::default())
+                        .map_err(|e| Failure::input(e.to_string()))?;
+                    json(serde_json::to_string_pretty(&model))?
+                }
+                super::ViewName::Trial => {
+                    json(serde_json::to_string_pretty(&trial::of_study(&study)?))?
+                }
+            })
+        }
         Some(Command::Status { study, format }) => {
             let model = crate::analysis::home::of_study(&open(&study)?)?;
             print(match format {

@@ -33,6 +33,15 @@ pub enum Format {
     Json,
 }
 
+/// Screens whose whole view model `plumbline view` prints.
+#[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
+pub enum ViewName {
+    Home,
+    Agreement,
+    Scoreboard,
+    Trial,
+}
+
 /// `--screen` values; the workbench's own `ui::Screen` knows nothing of the command line.
 #[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
 pub enum ScreenName {
@@ -125,6 +134,18 @@ pub enum Command {
         study: PathBuf,
         #[arg(long, value_enum, default_value = "text")]
         format: Format,
+    },
+    /// Print everything a screen shows, as JSON: its whole view model with the default
+    /// settings (Home, Agreement with its panel review, Scoreboard with curves and
+    /// reviewer sensitivity, Scale trial).
+    View {
+        #[arg(value_enum)]
+        screen: ViewName,
+        study: PathBuf,
+        /// For the Agreement screen: whose blind rule applies (pairs they still have to
+        /// grade are left out).
+        #[arg(long)]
+        viewer: Option<String>,
     },
     /// Reviewer agreement on one scale.
     Agree {

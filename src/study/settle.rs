@@ -17,7 +17,7 @@ pub const BY_HAND: &str = "hand";
 pub const UNDONE: &str = "undo";
 
 /// One row of settle history.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct SettleRecord {
     pub context_id: String,
     pub item_id: String,
@@ -30,7 +30,7 @@ pub struct SettleRecord {
 }
 
 /// A reviewer's current grade with what the desk recorded beside it.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct GradeDetail {
     pub reviewer: String,
     pub context_id: String,

@@ -321,3 +321,36 @@ fn the_blind_rule_hides_other_grades_from_a_reviewer_with_pending_pairs() {
     assert!(h.query_by_label("Settle the rest by median").is_none());
     assert!(h.query_by_label("Record settled level").is_none());
 }
+
+/// Promise: what the Agreement screen shows below the coefficients (how each reviewer
+/// uses the levels) is what `plumbline view agreement` prints.
+#[test]
+fn level_use_on_screen_is_what_view_agreement_prints() {
+    let (_dir, path) = demo_copy();
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_plumbline"))
+        .args(["view", "agreement"])
+        .arg(&path)
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{out:?}");
+    let printed: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let rows = printed["review"]["strictness"].as_array().unwrap();
+    assert_eq!(rows.len(), 3, "the demo panel has three reviewers");
+
+    let mut h = harness(Workbench::new(path.clone(), Screen::Agreement));
+    wait_for_model(&mut h);
+    for row in rows {
+        let shown = format!(
+            "{:+.2} over {} pairs",
+            row["mean_difference"].as_f64().unwrap(),
+            row["compared"].as_u64().unwrap()
+        );
+        assert!(h.query_by_label(&shown).is_some(), "{shown} not on screen");
+    }
+    let wrong = format!(
+        "{:+.2} over {} pairs",
+        rows[0]["mean_difference"].as_f64().unwrap(),
+        rows[0]["compared"].as_u64().unwrap() + 1
+    );
+    assert!(h.query_by_label(&wrong).is_none());
+}

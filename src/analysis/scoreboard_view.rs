@@ -15,8 +15,6 @@ use crate::study::snapshot::Snapshot;
 pub const OFFERED_KS: [usize; 6] = [1, 3, 5, 10, 15, 20];
 /// The largest k of the NDCG@k curves.
 pub const CURVE_MAX_K: usize = 20;
-/// judged@k below this share earns a coverage warning (the CLI's caution uses the same).
-pub const COVERAGE_WARNING: f64 = super::defaults::COVERAGE_CAUTION;
 
 /// What the controls can be set to, read from the study.
 #[derive(Debug, Clone, Default, serde::Serialize)]
@@ -302,12 +300,6 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
         gaps,
         choices,
     })
-}
-
-/// The focus k of the plots and the sensitivity table: the one rule of
-/// `defaults::focus_k`, which the command line's single-k columns use too.
-pub fn default_focus(ks: &[usize]) -> usize {
-    super::defaults::focus_k(ks)
 }
 
 /// "mean [low, high]" as the table shows it.

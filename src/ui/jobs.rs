@@ -96,11 +96,6 @@ fn panic_text(payload: &(dyn std::any::Any + Send)) -> String {
 }
 
 impl<T: JobOutput + Send + 'static> Pending<T> {
-    /// Runs `work` on a new thread named "job"; `ctx` is woken when it finishes.
-    pub fn spawn(ctx: &egui::Context, work: impl FnOnce() -> T + Send + 'static) -> Pending<T> {
-        Pending::spawn_named("job", ctx, work)
-    }
-
     /// Runs `work` on a new thread with `name` (shown by debuggers and in panics).
     pub fn spawn_named(
         name: &str,
@@ -143,11 +138,6 @@ impl<T: JobOutput + Send + 'static> Pending<T> {
                 "a background task ended without a result; try again".into(),
             )),
         }
-    }
-
-    /// Waits for the result (tests and benchmarks only).
-    pub fn wait(self) -> Option<T> {
-        self.receiver.recv().ok()
     }
 }
 

@@ -109,7 +109,7 @@ impl ScoreboardScreen {
                         self.computed_for = sent;
                     }
                     if !self.wanted.ks.contains(&self.focus_k) {
-                        self.focus_k = default_focus(&self.wanted.ks);
+                        self.focus_k = crate::analysis::defaults::focus_k(&self.wanted.ks);
                     }
                     self.error = None;
                     self.model = Some(model);
@@ -313,7 +313,7 @@ impl ScoreboardScreen {
         let focus = if board.settings.ks.contains(&self.focus_k) {
             self.focus_k
         } else {
-            default_focus(&board.settings.ks)
+            crate::analysis::defaults::focus_k(&board.settings.ks)
         };
         ui.label(format!(
             "{} contexts scored on scale {}; {} left out with no relevant item. Means over contexts with 95 % percentile bootstrap intervals ({} resamples).",

@@ -1,9 +1,9 @@
 //! The Scoreboard's tables and warnings, drawn from the cached model.
 
+use crate::analysis::defaults::COVERAGE_CAUTION;
 use crate::analysis::scoreboard::{OFFLINE_CAUTION, Scoreboard};
 use crate::analysis::scoreboard_view::{
-    COVERAGE_WARNING, ScoreboardModel, cell_text, column_title, difference_text, order_of, p_text,
-    table_keys,
+    ScoreboardModel, cell_text, column_title, difference_text, order_of, p_text, table_keys,
 };
 
 pub fn coverage_warning(ui: &mut egui::Ui, board: &Scoreboard) {
@@ -11,7 +11,7 @@ pub fn coverage_warning(ui: &mut egui::Ui, board: &Scoreboard) {
     for r in &board.rankers {
         for k in &board.settings.ks {
             if let Some(j) = r.metrics.get(&format!("judged@{k}"))
-                && j.mean < COVERAGE_WARNING
+                && j.mean < COVERAGE_CAUTION
             {
                 low.push(format!("{} at k={k}: {:.0} %", r.ranker, j.mean * 100.0));
             }
@@ -47,7 +47,7 @@ pub fn ranker_table(ui: &mut egui::Ui, board: &Scoreboard, focus: usize) {
                         for key in &keys {
                             match r.metrics.get(key) {
                                 Some(m)
-                                    if key.starts_with("judged") && m.mean < COVERAGE_WARNING =>
+                                    if key.starts_with("judged") && m.mean < COVERAGE_CAUTION =>
                                 {
                                     ui.colored_label(ui.visuals().warn_fg_color, cell_text(key, m));
                                 }

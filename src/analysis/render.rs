@@ -75,6 +75,7 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
         s.panel_grade.label(),
         s.bootstrap_resamples
     );
+    out.push_str(&rankings_files_text(board));
     let mut keys: Vec<String> = Vec::new();
     for k in &s.ks {
         keys.push(format!("ndcg@{k}"));
@@ -92,7 +93,10 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
             .collect::<Vec<_>>(),
     ];
     for r in &board.rankers {
-        let mut row = vec![r.ranker.clone()];
+        let mut row = vec![match &r.from_file {
+            Some(file) => format!("{} ({file})", r.ranker),
+            None => r.ranker.clone(),
+        }];
         for key in &keys {
             row.push(match r.metrics.get(key) {
                 Some(m) if key.starts_with("judged") => format!("{:.0}%", m.mean * 100.0),
@@ -134,10 +138,105 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
         out.push_str(&aligned(&rows));
         out.push_str("Contexts needed: for 80 % power at two-sided α = 0.05, normal approximation with the observed mean and SD of the differences.\n");
     }
+    out.push_str(&pool_bias_text(board));
     out.push('\n');
     for c in &board.cautions {
         let _ = writeln!(out, "Caution: {c}");
     }
+    out
+}
+
+/// Where each rankings file's lists went, in words (empty without files).
+pub fn rankings_files_text(board: &Scoreboard) -> String {
+    let mut out = String::new();
+    for f in &board.rankings_files {
+        let rankers: Vec<String> = f
+            .rankers
+            .iter()
+            .map(|r| match f.replaced.contains(r) {
+                true => format!("{r} (replaces the study's lists of {r} for this run)"),
+                false => format!("{r} (not in the study)"),
+            })
+            .collect();
+        let _ = write!(
+            out,
+            "Lists from {} (not imported): {}; {} lists, {} entries",
+            f.file,
+            rankers.join(", "),
+            f.lists,
+            f.entries
+        );
+        if f.contexts_left_out > 0 {
+            let _ = write!(
+                out,
+                "; {} {} left out (context not in the study)",
+                f.contexts_left_out,
+                if f.contexts_left_out == 1 {
+                    "list"
+                } else {
+                    "lists"
+                }
+            );
+        }
+        if f.unknown_items > 0 {
+            let _ = write!(
+                out,
+                "; {} {} of items not in the catalog count as unjudged",
+                f.unknown_items,
+                if f.unknown_items == 1 {
+                    "entry"
+                } else {
+                    "entries"
+                }
+            );
+        }
+        out.push_str(".\n");
+    }
+    out
+}
+
+/// The pool-bias table and its reading in words.
+fn pool_bias_text(board: &Scoreboard) -> String {
+    let mut out = String::new();
+    if board.pool_bias.is_empty() {
+        return out;
+    }
+    out.push_str("\nPool bias (leave-one-out, Zobel 1998): each ranker scored again without the judged pairs only it found in its top k:\n");
+    let mut rows = vec![
+        [
+            "ranker",
+            "metric",
+            "as scored",
+            "without own pairs",
+            "drop",
+            "contexts",
+            "own pairs",
+            "judged",
+            "judged without",
+            "Kendall tau-b",
+        ]
+        .map(String::from)
+        .to_vec(),
+    ];
+    for p in &board.pool_bias {
+        rows.push(vec![
+            match &p.from_file {
+                Some(file) => format!("{} ({file})", p.ranker),
+                None => p.ranker.clone(),
+            },
+            p.metric.clone(),
+            num(p.mean),
+            p.mean_left_out.map_or("–".into(), num),
+            p.drop.map_or("–".into(), |d| format!("{d:+.3}")),
+            p.contexts.to_string(),
+            p.unique_pairs.to_string(),
+            format!("{:.0}%", p.judged * 100.0),
+            format!("{:.0}%", p.judged_left_out * 100.0),
+            p.kendall_tau_b.map_or("–".into(), |t| format!("{t:.3}")),
+        ]);
+    }
+    out.push_str(&aligned(&rows));
+    out.push_str("Kendall tau-b compares the ranker order by mean NDCG@k with the order when only this ranker loses its own pairs (1 = unchanged).\n");
     out
 }
 

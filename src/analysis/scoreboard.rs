@@ -7,58 +7,12 @@ use serde::Serialize;
 
 use super::defaults;
 use super::judgments::{self, GradeSource};
+use super::pool_bias::{self, PoolBias};
+pub use super::segment::Segment;
 use crate::core::metrics::{self, AtK, GainKind, JudgedList, ListSettings, Unjudged};
 use crate::core::stats;
+use crate::study::outside_lists::FileLists;
 use crate::study::snapshot::Snapshot;
-
-/// Which items carry gain, and which contexts count.
-#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
-pub enum Segment {
-    /// Every item carries gain and every context counts.
-    All,
-    /// Only new items carry gain (in DCG and the ideal), over contexts with a relevant new item.
-    New,
-    /// Only established (not new) items carry gain.
-    Established,
-    /// Only contexts of this kind (`query` or `anchor`).
-    Kind(String),
-    /// Only contexts with this segment label.
-    ContextSegment(String),
-}
-
-impl Segment {
-    /// Reads `all`, `new`, `established`, `query` or `anchor`; any other text (with an
-    /// optional `label:` or `segment:` prefix) is a context segment label.
-    pub fn parse(text: &str) -> Segment {
-        match text {
-            "all" => Segment::All,
-            "new" => Segment::New,
-            "established" => Segment::Established,
-            "query" | "anchor" => Segment::Kind(text.to_string()),
-            // `label:NAME` always means a context segment label, even one literally
-            // called "new", "query" or "all"; `segment:NAME` is the older spelling.
-            other => Segment::ContextSegment(
-                other
-                    .strip_prefix("label:")
-                    .or_else(|| other.strip_prefix("segment:"))
-                    .unwrap_or(other)
-                    .to_string(),
-            ),
-        }
-    }
-
-    /// The segment as [`Segment::parse`] reads it back; a context segment label is written
-    /// `segment:NAME`.
-    pub fn label(&self) -> String {
-        match self {
-            Segment::All => "all".into(),
-            Segment::New => "new".into(),
-            Segment::Established => "established".into(),
-            Segment::Kind(k) => k.clone(),
-            Segment::ContextSegment(s) => format!("segment:{s}"),
-        }
-    }
-}
 
 /// Everything that decides the numbers; printed beside them in every export.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -142,6 +96,9 @@ pub struct RankerScores {
     pub metrics: BTreeMap<String, MetricSummary>,
     /// One entry per scored context, in the study's context order.
     pub per_context: Vec<ContextScores>,
+    /// The file its lists came from for this run (`score --rankings`); None for the
+    /// study's own lists.
+    pub from_file: Option<String>,
 }
 
 /// A candidate ranker against the baseline on one NDCG cut-off, paired by context.
@@ -202,6 +159,11 @@ pub struct Scoreboard {
     pub rankers: Vec<RankerScores>,
     /// Each other ranker against the baseline on every `ndcg@k`; empty without a baseline.
     pub comparisons: Vec<Comparison>,
+    /// Every ranker at every NDCG cut-off without the judged pairs only it found
+    /// (Zobel 1998): how fair the pool is to a ranker that was not in it.
+    pub pool_bias: Vec<PoolBias>,
+    /// The rankings files scored beside the study's lists, without importing them.
+    pub rankings_files: Vec<FileLists>,
     /// Warnings to show beside the numbers: [`OFFLINE_CAUTION`] first, then any about the
     /// baseline, few contexts or low judged@k coverage.
     pub cautions: Vec<String>,
@@ -452,8 +414,23 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
                         .collect(),
                 })
                 .collect(),
+            from_file: snapshot.ranker_file(r).map(str::to_string),
         })
         .collect();
+    let mean_at = |r: usize, offset: usize| -> Vec<f64> {
+        (0..settings.ks.len())
+            .map(|ki| intervals[r * keys.len() + ki * 5 + offset].mean)
+            .collect()
+    };
+    let pool_bias = pool_bias::compute(&pool_bias::Scored {
+        snapshot,
+        judged: &judged,
+        scored_contexts: &scored_contexts,
+        list_settings: &list_settings,
+        means: (0..snapshot.rankers.len()).map(|r| mean_at(r, 0)).collect(),
+        judged_means: (0..snapshot.rankers.len()).map(|r| mean_at(r, 4)).collect(),
+        ks: &settings.ks,
+    });
     let diff_intervals = &intervals[snapshot.rankers.len() * keys.len()..];
     let mut comparisons: Vec<Comparison> = comparison_jobs
         .iter()
@@ -526,6 +503,7 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
             }
         }
     }
+    cautions.extend(pool_bias::cautions(&pool_bias));
     let gains_used = describe_gains(&scale.gains(), &list_settings.gains, settings.gain);
     let mut settings = settings.clone();
     settings.baseline = baseline_name.map(str::to_string);
@@ -539,6 +517,8 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         contexts_without_grades: without_grades,
         rankers,
         comparisons,
+        pool_bias,
+        rankings_files: snapshot.outside.files.clone(),
         cautions,
     })
 }

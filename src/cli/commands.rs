@@ -49,9 +49,13 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             panel_grade,
             bootstrap,
             randomization,
+            rankings,
             format,
         }) => {
-            let snapshot = open(&study)?.snapshot()?;
+            let mut snapshot = open(&study)?.snapshot()?;
+            for file in &rankings {
+                snapshot.add_rankings_file(file)?;
+            }
             let settings = scoreboard::ScoreSettings {
                 scale,
                 ks: k,

@@ -126,6 +126,11 @@ pub enum Command {
         bootstrap: usize,
         #[arg(long, default_value_t = crate::analysis::defaults::SCORE_RANDOMIZATION)]
         randomization: usize,
+        /// Score the lists in this file (rankings.csv columns, `rank` or `score`) beside
+        /// the study's, without importing them; a ranker the study has is replaced for
+        /// this run. May be given more than once. The study is only read.
+        #[arg(long = "rankings", value_name = "FILE")]
+        rankings: Vec<PathBuf>,
         #[arg(long, value_enum, default_value = "text")]
         format: Format,
     },

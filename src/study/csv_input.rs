@@ -11,11 +11,12 @@ pub const MAX_FIELD_BYTES: usize = 1 << 20;
 /// Most columns a row may have (an item file's extra attributes included).
 pub const MAX_COLUMNS: usize = 1_000;
 
-/// A data row: its line in the file and one text per header column.
-#[derive(Debug, Clone)]
+/// A data row: its line in the file and where its fields are in the table's text
+/// (fields `first .. first + header.len()` of [`Table::field`]).
+#[derive(Debug, Clone, Copy)]
 pub struct Row {
     pub line: u64,
-    pub fields: Vec<String>,
+    first: usize,
 }
 
 /// The declared shape of one CSV kind.
@@ -28,15 +29,26 @@ pub struct Shape {
     pub extra_allowed: bool,
 }
 
-/// A parsed file: header names (lower-cased) and rows.
+/// A parsed file: header names (lower-cased) and rows. Every field's text lives in one
+/// buffer with its end offset beside it, so a million-row file costs its own size plus
+/// a word per field, not an allocation per field.
 #[derive(Debug)]
 pub struct Table {
     pub file: String,
     pub header: Vec<String>,
     pub rows: Vec<Row>,
+    text: String,
+    ends: Vec<usize>,
 }
 
 impl Table {
+    /// The text of field `column` (0-based) of `row`.
+    pub fn field(&self, row: &Row, column: usize) -> &str {
+        let at = row.first + column;
+        let start = if at == 0 { 0 } else { self.ends[at - 1] };
+        &self.text[start..self.ends[at]]
+    }
+
     /// Index of a named column, if present.
     pub fn column(&self, name: &str) -> Option<usize> {
         self.header.iter().position(|h| h == name)
@@ -141,6 +153,8 @@ pub fn parse_reader(
     let mut log = ProblemLog::default();
     let mut header: Option<Vec<String>> = None;
     let mut rows = Vec::new();
+    let mut text = String::new();
+    let mut ends: Vec<usize> = Vec::new();
     let mut record = csv::ByteRecord::new();
     loop {
         match reader.read_byte_record(&mut record) {
@@ -163,11 +177,11 @@ pub fn parse_reader(
         let line = record
             .position()
             .map_or(1, |p| state.borrow_mut().line_of(p.byte()));
-        let mut fields = Vec::with_capacity(record.len());
+        let mut fields: Vec<&str> = Vec::with_capacity(record.len());
         let mut row_ok = true;
         for (i, raw) in record.iter().enumerate() {
             match check_field(raw) {
-                Ok(text) => fields.push(text),
+                Ok(field) => fields.push(field),
                 Err(message) => {
                     log.push(problem(line, i + 1, message));
                     row_ok = false;
@@ -218,7 +232,14 @@ pub fn parse_reader(
                     ));
                     continue;
                 }
-                rows.push(Row { line, fields });
+                rows.push(Row {
+                    line,
+                    first: ends.len(),
+                });
+                for f in &fields {
+                    text.push_str(f);
+                    ends.push(text.len());
+                }
             }
         }
         if log.is_full() {
@@ -250,6 +271,8 @@ pub fn parse_reader(
         file: file.to_string(),
         header: header.unwrap_or_default(),
         rows,
+        text,
+        ends,
     })
 }
 
@@ -432,7 +455,7 @@ impl<R: std::io::BufRead> std::io::Read for Tracker<R> {
     }
 }
 
-fn check_field(raw: &[u8]) -> Result<String, String> {
+fn check_field(raw: &[u8]) -> Result<&str, String> {
     if raw.len() > MAX_FIELD_BYTES {
         return Err(format!(
             "field is {} bytes long; the limit is {} bytes",
@@ -444,7 +467,7 @@ fn check_field(raw: &[u8]) -> Result<String, String> {
         return Err(format!("field contains a NUL byte at byte {}", at + 1));
     }
     match std::str::from_utf8(raw) {
-        Ok(text) => Ok(text.to_string()),
+        Ok(text) => Ok(text),
         Err(e) => Err(format!(
             "field is not valid UTF-8 (byte {} of the field); save the file as UTF-8",
             e.valid_up_to() + 1
@@ -510,7 +533,7 @@ mod tests {
     #[test]
     fn quoted_newlines_keep_line_numbers() {
         let t = parse("x.csv", b"a,b\n\"1\n2\",3\n4,5\n", &SHAPE).unwrap();
-        assert_eq!(t.rows[0].fields[0], "1\n2");
+        assert_eq!(t.field(&t.rows[0], 0), "1\n2");
         assert_eq!(t.rows[1].line, 4);
     }
 

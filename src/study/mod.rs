@@ -9,6 +9,7 @@ mod hand_out;
 pub mod import;
 pub mod merge;
 mod open_files;
+pub mod outside_lists;
 mod problems;
 pub mod queues;
 pub mod scales;
@@ -278,7 +279,7 @@ impl Study {
             .conn
             .pragma_query_value(None, "user_version", |r| r.get(0))?;
         let path = self.path.clone();
-        for (i, sql) in schema::MIGRATIONS.iter().enumerate().skip(version as usize) {
+        for (i, step) in schema::MIGRATIONS.iter().enumerate().skip(version as usize) {
             let upgrade = |e: rusqlite::Error| match StudyError::from(e) {
                 StudyError::Sql(e) if i == 0 => refused(
                     &path,
@@ -298,7 +299,7 @@ impl Study {
                 other => other,
             };
             let tx = self.begin_write()?;
-            tx.execute_batch(sql).map_err(upgrade)?;
+            step.apply(&tx).map_err(upgrade)?;
             tx.pragma_update(None, "user_version", (i + 1) as i32)
                 .map_err(upgrade)?;
             tx.commit()?;
@@ -389,7 +390,12 @@ impl Study {
             items: count("items")?,
             contexts: count("contexts")?,
             rankers: count("rankers")?,
-            ranked_items: count("ranked_items")?,
+            // Entries, counted from the lists' arrays (one row per list since schema 3).
+            ranked_items: self.conn.query_row(
+                "SELECT COALESCE(SUM(json_array_length(items)), 0) FROM ranked_lists",
+                [],
+                |r| r.get::<_, i64>(0),
+            )? as u64,
             scales: count("scales")?,
             reviewers: count("reviewers")?,
             grade_events: count("grade_events")?,

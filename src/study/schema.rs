@@ -1,12 +1,35 @@
 //! The study file's schema as ordered migrations; `PRAGMA user_version` counts them.
 
+use rusqlite::Connection;
+
 /// Marks a SQLite file as a Plumbline study ("PLMB").
 pub const APPLICATION_ID: i32 = 0x504C_4D42;
 
+/// One step of the schema: SQL, or code where SQL alone cannot move the data exactly.
+#[derive(Clone, Copy)]
+pub enum Migration {
+    /// A batch of SQL statements.
+    Sql(&'static str),
+    /// A step written in Rust (run inside the caller's transaction).
+    Code(fn(&Connection) -> rusqlite::Result<()>),
+}
+
+impl Migration {
+    /// Runs the step on `conn` (a transaction for a study, a scratch connection for a
+    /// reviewer's copy or the expected schema).
+    pub fn apply(&self, conn: &Connection) -> rusqlite::Result<()> {
+        match self {
+            Migration::Sql(sql) => conn.execute_batch(sql),
+            Migration::Code(step) => step(conn),
+        }
+    }
+}
+
 /// Each entry moves the schema from version i to i + 1, inside one transaction.
-pub const MIGRATIONS: &[&str] = &[
+pub const MIGRATIONS: &[Migration] = &[
     // 1: the whole first schema.
-    r#"
+    Migration::Sql(
+        r#"
 CREATE TABLE settings(
     key   TEXT PRIMARY KEY,
     value TEXT NOT NULL
@@ -134,10 +157,12 @@ CREATE TABLE queue_entries(
     PRIMARY KEY (reviewer, scale, position)
 ) WITHOUT ROWID;
 "#,
+    ),
     // 2: the keep-current trigger looks for a later event with two index seeks instead
     // of scanning every event that shares the new one's time (which made many events
     // with one `graded_at` on a pair quadratic).
-    r#"
+    Migration::Sql(
+        r#"
 DROP TRIGGER grade_events_keep_current;
 CREATE TRIGGER grade_events_keep_current AFTER INSERT ON grade_events
 WHEN NOT EXISTS (
@@ -158,7 +183,138 @@ BEGIN
     WHERE NEW.action != 'undo';
 END;
 "#,
+    ),
+    // 3: one row per ranked list instead of one per entry, so that import and the
+    // snapshot scale with lists; `ranked_items` stays readable as a view. Bulk grade
+    // imports switch the keep-current trigger off for their own transaction and keep
+    // `current_grades` in one set-based pass (`study::import::grades`).
+    Migration::Code(compact_ranked_lists),
 ];
+
+/// Marks a write transaction whose grade events keep `current_grades` in one pass of
+/// their own ([`refresh_current_grades`]) instead of through the trigger, row by row.
+/// Inserted and removed inside that one transaction, so no other connection sees it.
+pub const BULK_GRADES_KEY: &str = "bulk_grade_import";
+
+const RANKED_LISTS: &str = r#"
+-- A ranker's list for one context: item ids in rank order as a JSON array of strings,
+-- and their scores as a JSON array (a number or null each), NULL when no entry has one.
+-- Import checks every item and context id before it writes a list.
+CREATE TABLE ranked_lists(
+    ranker     TEXT NOT NULL REFERENCES rankers(ranker),
+    context_id TEXT NOT NULL REFERENCES contexts(context_id),
+    items      TEXT NOT NULL CHECK (json_valid(items) AND json_type(items) = 'array'),
+    scores     TEXT CHECK (scores IS NULL OR json_valid(scores)),
+    PRIMARY KEY (ranker, context_id)
+) WITHOUT ROWID;
+"#;
+
+const AFTER_COMPACT_LISTS: &str = r#"
+DROP TABLE ranked_items;
+-- The lists one entry per row, for reading (pooling, counts, outside scripts).
+CREATE VIEW ranked_items(ranker, context_id, rank, item_id, score) AS
+SELECT l.ranker, l.context_id, j.key + 1, j.value,
+       CASE WHEN l.scores IS NULL THEN NULL ELSE json_extract(l.scores, '$[' || j.key || ']') END
+FROM ranked_lists l, json_each(l.items) j;
+DROP TRIGGER grade_events_keep_current;
+CREATE TRIGGER grade_events_keep_current AFTER INSERT ON grade_events
+WHEN NOT EXISTS (SELECT 1 FROM settings WHERE key = 'bulk_grade_import')
+AND NOT EXISTS (
+    SELECT 1 FROM grade_events e
+    WHERE e.scale = NEW.scale AND e.context_id = NEW.context_id AND e.item_id = NEW.item_id
+      AND e.reviewer = NEW.reviewer AND e.graded_at > NEW.graded_at
+) AND NOT EXISTS (
+    SELECT 1 FROM grade_events e
+    WHERE e.scale = NEW.scale AND e.context_id = NEW.context_id AND e.item_id = NEW.item_id
+      AND e.reviewer = NEW.reviewer AND e.graded_at = NEW.graded_at AND e.id > NEW.id
+)
+BEGIN
+    DELETE FROM current_grades
+    WHERE scale = NEW.scale AND context_id = NEW.context_id AND item_id = NEW.item_id
+      AND reviewer = NEW.reviewer;
+    INSERT INTO current_grades(scale, context_id, item_id, reviewer, event_id)
+    SELECT NEW.scale, NEW.context_id, NEW.item_id, NEW.reviewer, NEW.id
+    WHERE NEW.action != 'undo';
+END;
+"#;
+
+/// (ranker, context, item ids, scores) of one list being moved.
+type StoredList = (String, String, Vec<String>, Vec<Option<f64>>);
+
+/// Migration 3: moves every ranked entry into one row per list, scores exactly (Rust
+/// writes the JSON numbers; SQLite's own JSON functions print reals to 15 digits).
+fn compact_ranked_lists(conn: &Connection) -> rusqlite::Result<()> {
+    conn.execute_batch(RANKED_LISTS)?;
+    {
+        let mut read = conn.prepare(
+            "SELECT ranker, context_id, item_id, score FROM ranked_items ORDER BY ranker, context_id, rank",
+        )?;
+        let mut write = conn.prepare(
+            "INSERT INTO ranked_lists(ranker, context_id, items, scores) VALUES (?1, ?2, ?3, ?4)",
+        )?;
+        let mut rows = read.query([])?;
+        let mut list: Option<StoredList> = None;
+        let mut flush = |list: Option<StoredList>| match list {
+            Some((ranker, context, items, scores)) => {
+                let (items, scores) = list_json(&items, &scores);
+                write.execute(rusqlite::params![ranker, context, items, scores])
+            }
+            None => Ok(0),
+        };
+        while let Some(r) = rows.next()? {
+            let (ranker, context): (String, String) = (r.get(0)?, r.get(1)?);
+            if list
+                .as_ref()
+                .is_none_or(|l| l.0 != ranker || l.1 != context)
+            {
+                flush(list.take())?;
+                list = Some((ranker, context, Vec::new(), Vec::new()));
+            }
+            if let Some(l) = list.as_mut() {
+                l.2.push(r.get(2)?);
+                l.3.push(r.get(3)?);
+            }
+        }
+        flush(list)?;
+    }
+    conn.execute_batch(AFTER_COMPACT_LISTS)
+}
+
+/// The stored form of one list: item ids as a JSON array, and the scores as one (NULL
+/// when no entry has a score). Numbers are written so that they read back exactly.
+pub fn list_json(items: &[String], scores: &[Option<f64>]) -> (String, Option<String>) {
+    let items = serde_json::to_string(items).unwrap_or_else(|_| "[]".into());
+    let scores = scores
+        .iter()
+        .any(Option::is_some)
+        .then(|| serde_json::to_string(scores).unwrap_or_else(|_| "[]".into()));
+    (items, scores)
+}
+
+/// Keeps `current_grades` for every pair and reviewer that has an event with an id
+/// above `after`: the latest event by (`graded_at`, id) is in force unless it is an
+/// undo, the same rule as the trigger's.
+pub fn refresh_current_grades(conn: &Connection, after: i64) -> rusqlite::Result<()> {
+    conn.execute_batch("DROP TABLE IF EXISTS temp.touched_pairs")?;
+    conn.execute(
+        "CREATE TEMP TABLE touched_pairs AS
+         SELECT DISTINCT scale, context_id, item_id, reviewer FROM grade_events WHERE id > ?1",
+        [after],
+    )?;
+    conn.execute_batch(
+        "DELETE FROM current_grades
+         WHERE (scale, context_id, item_id, reviewer) IN (SELECT * FROM temp.touched_pairs);
+         INSERT INTO current_grades(scale, context_id, item_id, reviewer, event_id)
+         SELECT scale, context_id, item_id, reviewer, id FROM (
+           SELECT e.id, e.scale, e.context_id, e.item_id, e.reviewer, e.action,
+                  ROW_NUMBER() OVER (PARTITION BY e.scale, e.context_id, e.item_id, e.reviewer
+                                     ORDER BY e.graded_at DESC, e.id DESC) AS latest
+           FROM grade_events e
+           WHERE (e.scale, e.context_id, e.item_id, e.reviewer) IN (SELECT * FROM temp.touched_pairs))
+         WHERE latest = 1 AND action != 'undo';
+         DROP TABLE temp.touched_pairs;",
+    )
+}
 
 /// The schema version this build writes.
 pub fn current_version() -> i32 {

@@ -64,6 +64,8 @@ pub struct Snapshot {
     pub reviewers: Vec<String>,
     pub grades: Vec<GradeRow>,
     pub settled: Vec<SettledRow>,
+    /// Lists from files for this run (`score --rankings`); empty for a plain snapshot.
+    pub outside: super::outside_lists::OutsideLists,
 }
 
 impl Snapshot {
@@ -121,6 +123,10 @@ impl std::hash::Hasher for IdHasher {
         self.0
     }
 }
+
+/// A stored list's item ids, borrowed from the row's text unless an id has escapes.
+#[derive(serde::Deserialize)]
+struct JsonIds<'a>(#[serde(borrow)] Vec<std::borrow::Cow<'a, str>>);
 
 type IdMap<'a> = HashMap<&'a str, u32, std::hash::BuildHasherDefault<IdHasher>>;
 
@@ -182,21 +188,22 @@ impl Study {
 
         let mut lists = vec![vec![Vec::new(); contexts.len()]; rankers.len()];
         {
-            let mut stmt = conn.prepare(
-                "SELECT ranker, context_id, item_id FROM ranked_items ORDER BY ranker, context_id, rank",
-            )?;
+            let mut stmt = conn.prepare("SELECT ranker, context_id, items FROM ranked_lists")?;
             let mut rows = stmt.query([])?;
-            // Rows arrive list by list: look the list's ids up once, not once per row.
-            let mut list_key = (String::new(), String::new());
-            let mut list_at = (0u32, 0u32);
             while let Some(r) = rows.next()? {
-                let (ranker, context) = (r.get_ref(0)?.as_str()?, r.get_ref(1)?.as_str()?);
-                if ranker != list_key.0 || context != list_key.1 {
-                    list_at = (ranker_index[ranker], context_index[context]);
-                    list_key = (ranker.to_string(), context.to_string());
-                }
-                let item = item_index[r.get_ref(2)?.as_str()?];
-                lists[list_at.0 as usize][list_at.1 as usize].push(item);
+                let ranker = ranker_index[r.get_ref(0)?.as_str()?] as usize;
+                let context = context_index[r.get_ref(1)?.as_str()?] as usize;
+                let ids: Vec<std::borrow::Cow<str>> =
+                    serde_json::from_str::<JsonIds>(r.get_ref(2)?.as_str()?)
+                        .map_err(|e| {
+                            rusqlite::Error::FromSqlConversionFailure(
+                                2,
+                                rusqlite::types::Type::Text,
+                                Box::new(e),
+                            )
+                        })?
+                        .0;
+                lists[ranker][context] = ids.iter().map(|id| item_index[id.as_ref()]).collect();
             }
         }
 
@@ -282,6 +289,7 @@ impl Study {
             reviewers,
             grades,
             settled,
+            outside: Default::default(),
         })
     }
 }

@@ -11,7 +11,7 @@ use std::time::{Duration, Instant};
 
 use rusqlite::config::DbConfig;
 use rusqlite::limits::Limit;
-use rusqlite::types::Value;
+use rusqlite::types::{Value, ValueRef};
 use rusqlite::{Connection, OpenFlags};
 
 use super::{Result, StudyError, open_files, schema};
@@ -136,8 +136,8 @@ fn schema_of(conn: &Connection) -> rusqlite::Result<Vec<SchemaObject>> {
 /// The schema this build writes at `version`, built in memory from the migrations.
 fn expected_schema(version: i32) -> rusqlite::Result<Vec<SchemaObject>> {
     let conn = Connection::open_in_memory()?;
-    for sql in schema::MIGRATIONS.iter().take(version as usize) {
-        conn.execute_batch(sql)?;
+    for step in schema::MIGRATIONS.iter().take(version as usize) {
+        step.apply(&conn)?;
     }
     schema_of(&conn)
 }
@@ -254,8 +254,8 @@ pub fn open_copy(path: &Path) -> Result<CheckedCopy> {
     {
         let conn = Connection::open(&scratch.0)?;
         conn.pragma_update(None, "journal_mode", "DELETE")?;
-        for (i, sql) in schema::MIGRATIONS.iter().enumerate().skip(version as usize) {
-            conn.execute_batch(sql)
+        for (i, step) in schema::MIGRATIONS.iter().enumerate().skip(version as usize) {
+            step.apply(&conn)
                 .map_err(|e| refused(path, format!("cannot be upgraded from schema {i}: {e}")))?;
             conn.pragma_update(None, "user_version", (i + 1) as i32)?;
         }
@@ -339,7 +339,22 @@ pub fn rows(copy: &CheckedCopy, sql: &str, width: usize) -> Result<Vec<Vec<Value
     while let Some(row) = result.next().map_err(|e| reading(&copy.path, e))? {
         let mut values = Vec::with_capacity(width);
         for i in 0..width {
-            values.push(row.get::<_, Value>(i).map_err(|e| reading(&copy.path, e))?);
+            // `Value::from(ValueRef)` panics on text that is not UTF-8; a hostile copy
+            // can hold such bytes anywhere, so they are refused here instead.
+            let value = match row.get_ref(i).map_err(|e| reading(&copy.path, e))? {
+                ValueRef::Text(bytes) => match std::str::from_utf8(bytes) {
+                    Ok(text) => Value::Text(text.to_string()),
+                    Err(_) => {
+                        return Err(refused(
+                            &copy.path,
+                            "it holds text that is not valid UTF-8 (a damaged file?); it is refused"
+                                .to_string(),
+                        ));
+                    }
+                },
+                other => Value::from(other),
+            };
+            values.push(value);
         }
         out.push(values);
     }

@@ -91,6 +91,7 @@ fn synthetic() -> (Snapshot, Vec<u8>) {
         reviewers: vec!["bench".into()],
         grades,
         settled: Vec::new(),
+        outside: Default::default(),
     };
     (snapshot, ranked_levels)
 }

@@ -385,17 +385,28 @@ fn merged_untouched(study: &std::path::Path, copy: &std::path::Path, what: &str)
 fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
     let (_f, study, copy) = lead_and_copy();
     {
-        // Put the copy back at schema 1 (the first trigger), as an older build wrote it.
-        let v1 = plumbline::study::schema::MIGRATIONS[0];
-        let start = v1.find("CREATE TRIGGER grade_events_keep_current").unwrap();
-        let end = v1[start..].find("END;").unwrap() + start + 4;
+        // Put the copy back at schema 1 (the first trigger, one row per ranked entry),
+        // as an older build wrote it.
+        let plumbline::study::schema::Migration::Sql(v1) = plumbline::study::schema::MIGRATIONS[0]
+        else {
+            panic!("the first schema is SQL")
+        };
+        let part = |from: &str, to: &str| {
+            let start = v1.find(from).unwrap();
+            &v1[start..v1[start..].find(to).unwrap() + start + to.len()]
+        };
         tamper(
             &copy,
             &format!(
-                "DROP TRIGGER grade_events_keep_current; {}
+                "DROP VIEW ranked_items; {}
+                 INSERT INTO ranked_items(ranker, context_id, rank, item_id)
+                   SELECT l.ranker, l.context_id, j.key + 1, j.value FROM ranked_lists l, json_each(l.items) j;
+                 DROP TABLE ranked_lists;
+                 DROP TRIGGER grade_events_keep_current; {}
                  PRAGMA user_version = 1;
                  {GRADE} VALUES ('b9', 'bo', 'q2', 'i1', 'fit', 'grade', 1, '', 2, '2026-11-30T10:00:00.000Z', '');",
-                &v1[start..end]
+                part("CREATE TABLE ranked_items(", ") WITHOUT ROWID;"),
+                part("CREATE TRIGGER grade_events_keep_current", "END;")
             ),
         );
     }

@@ -477,7 +477,8 @@ fn a_schema_one_study_is_upgraded_with_its_grades() {
             plumbline::study::schema::APPLICATION_ID,
         )
         .unwrap();
-        conn.execute_batch(plumbline::study::schema::MIGRATIONS[0])
+        plumbline::study::schema::MIGRATIONS[0]
+            .apply(&conn)
             .unwrap();
         conn.pragma_update(None, "user_version", 1).unwrap();
         conn.execute_batch(

@@ -71,8 +71,13 @@ pub(super) fn import_items(tx: &Transaction, src: &Source) -> Result<FileReport>
         }
         let attributes: BTreeMap<&str, &str> = extra
             .iter()
-            .filter(|i| !row.fields[**i].is_empty())
-            .map(|i| (table.header[*i].as_str(), unneutralise(&row.fields[*i])))
+            .filter(|i| !table.field(row, **i).is_empty())
+            .map(|i| {
+                (
+                    table.header[*i].as_str(),
+                    unneutralise(table.field(row, *i)),
+                )
+            })
             .collect();
         parsed.push((
             id.to_string(),

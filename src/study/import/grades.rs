@@ -6,7 +6,7 @@ use rusqlite::{Transaction, params};
 
 use super::{Fields, FileReport, GRADES, Source, content_uid, id_set, input_error, parse, report};
 use crate::study::csv_input::ProblemLog;
-use crate::study::{Result, time};
+use crate::study::{Result, schema, time};
 
 pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport> {
     let table = parse(src, &GRADES)?;
@@ -119,6 +119,16 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
            AND value IS ?5 AND settled_by = ?6 AND reason = ?7)",
     )?;
     let mut known_reviewers: HashSet<String> = HashSet::new();
+    // The keep-current trigger would seek and rewrite `current_grades` once per row;
+    // for this transaction it stands aside and one set-based pass follows the inserts.
+    let events_before: i64 =
+        tx.query_row("SELECT COALESCE(MAX(id), 0) FROM grade_events", [], |r| {
+            r.get(0)
+        })?;
+    tx.execute(
+        "INSERT OR REPLACE INTO settings(key, value) VALUES (?1, '1')",
+        [schema::BULK_GRADES_KEY],
+    )?;
     for g in &grades {
         let value_text = g.value.map(|v| v.to_string()).unwrap_or_default();
         let seconds_text = g.seconds.map(|s| s.to_string()).unwrap_or_default();
@@ -200,6 +210,11 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
             report.added += 1;
         }
     }
+    tx.execute(
+        "DELETE FROM settings WHERE key = ?1",
+        [schema::BULK_GRADES_KEY],
+    )?;
+    schema::refresh_current_grades(tx, events_before)?;
     Ok(report)
 }
 

@@ -14,6 +14,8 @@ mod grades;
 mod rankings;
 mod scales;
 
+pub(crate) use rankings::{KnownIds, read_lists};
+
 pub const ITEMS: Shape = Shape {
     required: &["item_id", "title"],
     optional: &["category", "description", "price", "image", "new"],
@@ -200,7 +202,7 @@ impl<'a> Fields<'a> {
     fn text(&self, name: &str) -> &'a str {
         self.table
             .column(name)
-            .map_or("", |i| unneutralise(self.row.fields[i].as_str()))
+            .map_or("", |i| unneutralise(self.table.field(self.row, i)))
     }
 
     fn col(&self, name: &str) -> usize {

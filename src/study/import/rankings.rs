@@ -1,4 +1,5 @@
-//! Ranked lists: by rank or by score, checked list by list.
+//! Ranked lists: by rank or by score, checked list by list. The same reader serves the
+//! import and `score --rankings` (lists scored from a file without importing them).
 
 use std::collections::{BTreeMap, HashMap, HashSet};
 
@@ -6,53 +7,82 @@ use rusqlite::{Transaction, params};
 
 use super::{Fields, FileReport, RANKINGS, Source, id_set, input_error, parse, report};
 use crate::study::Result;
-use crate::study::csv_input::ProblemLog;
-
-/// (rank, item, score) of one stored list entry.
-type RankedEntry = (i64, String, Option<f64>);
+use crate::study::csv_input::{ProblemLog, Table};
+use crate::study::schema::list_json;
 
 /// One row of a ranked list as read from the file.
-struct RankedRow {
+struct RankedRow<'a> {
     line: u64,
-    item: String,
+    item: &'a str,
     rank: Option<u64>,
     score: Option<f64>,
 }
 
-pub(super) fn import_rankings(tx: &Transaction, src: &Source) -> Result<FileReport> {
-    let table = parse(src, &RANKINGS)?;
+/// One checked list: its ranker, context and (item, score) entries in rank order.
+pub(crate) struct ParsedList<'a> {
+    pub ranker: &'a str,
+    pub context: &'a str,
+    pub entries: Vec<(&'a str, Option<f64>)>,
+}
+
+/// What the reader does with ids the study does not have.
+pub(crate) struct KnownIds<'k> {
+    pub contexts: &'k dyn Fn(&str) -> bool,
+    pub items: &'k dyn Fn(&str) -> bool,
+    /// Import: an unknown id is a problem. Scoring from a file: a list of an unknown
+    /// context is left out (and counted), an unknown item stays in its list, unjudged.
+    pub refuse_unknown: bool,
+}
+
+/// Lists read from a file; `left_out` counts lists whose context the study lacks.
+pub(crate) struct ReadLists<'a> {
+    pub lists: Vec<ParsedList<'a>>,
+    pub left_out: usize,
+}
+
+/// Reads and checks every list of a rankings table: no item twice in a list, ranks 1..n
+/// without gaps or repeats, scores finite; score-ordered lists rank higher scores first,
+/// ties by item id ascending. Problems go to `log` with their line and column.
+pub(crate) fn read_lists<'a>(
+    table: &'a Table,
+    known: &KnownIds,
+    log: &mut ProblemLog,
+) -> ReadLists<'a> {
     let has_rank = table.column("rank").is_some();
     let has_score = table.column("score").is_some();
-    let mut log = ProblemLog::default();
     if !has_rank && !has_score {
         log.push(table.problem(
             1,
             table.header.len() + 1,
             "rankings need a rank or a score column",
         ));
+        return ReadLists {
+            lists: Vec::new(),
+            left_out: 0,
+        };
     }
-    log.into_result().map_err(input_error)?;
-    let mut log = ProblemLog::default();
-    let contexts = id_set(tx, "SELECT context_id FROM contexts")?;
-    let items = id_set(tx, "SELECT item_id FROM items")?;
-    let mut lists: BTreeMap<(String, String), Vec<RankedRow>> = BTreeMap::new();
+    let mut lists: BTreeMap<(&str, &str), Vec<RankedRow>> = BTreeMap::new();
+    let mut left_out: HashSet<(&str, &str)> = HashSet::new();
     for row in &table.rows {
-        let f = Fields { table: &table, row };
+        let f = Fields { table, row };
         let (Some(ranker), Some(context), Some(item)) = (
-            f.required("ranker", &mut log),
-            f.required("context_id", &mut log),
-            f.required("item_id", &mut log),
+            f.required("ranker", log),
+            f.required("context_id", log),
+            f.required("item_id", log),
         ) else {
             continue;
         };
-        if !contexts.contains(context) {
-            log.push(f.problem(
-                "context_id",
-                format!("unknown context \"{context}\"; import it in contexts.csv first"),
-            ));
-            continue;
+        if !(known.contexts)(context) {
+            if known.refuse_unknown {
+                log.push(f.problem(
+                    "context_id",
+                    format!("unknown context \"{context}\"; import it in contexts.csv first"),
+                ));
+                continue;
+            }
+            left_out.insert((ranker, context));
         }
-        if !items.contains(item) {
+        if known.refuse_unknown && !(known.items)(item) {
             log.push(f.problem(
                 "item_id",
                 format!("unknown item \"{item}\"; import it in items.csv first"),
@@ -87,41 +117,37 @@ pub(super) fn import_rankings(tx: &Transaction, src: &Source) -> Result<FileRepo
         } else {
             None
         };
-        lists
-            .entry((ranker.to_string(), context.to_string()))
-            .or_default()
-            .push(RankedRow {
-                line: row.line,
-                item: item.to_string(),
-                rank,
-                score,
-            });
+        lists.entry((ranker, context)).or_default().push(RankedRow {
+            line: row.line,
+            item,
+            rank,
+            score,
+        });
         if log.is_full() {
             break;
         }
     }
-    // Per list: no item twice, ranks 1..n without gaps or repeats; scores give ranks.
-    let mut ordered: Vec<((String, String), Vec<RankedEntry>)> = Vec::new();
-    for (key, mut rows) in lists {
-        let mut seen_items: HashMap<&str, u64> = HashMap::new();
+    let mut ordered = Vec::with_capacity(lists.len());
+    for ((ranker, context), mut rows) in lists {
+        let mut seen_items: HashMap<&str, u64> = HashMap::with_capacity(rows.len());
         for r in &rows {
-            if let Some(first) = seen_items.insert(r.item.as_str(), r.line) {
+            if let Some(first) = seen_items.insert(r.item, r.line) {
                 log.push(table.problem(
                     r.line,
                     table.column("item_id").unwrap_or(0) + 1,
-                    format!("item \"{}\" appears twice in the list of ranker \"{}\" for context \"{}\" (first on line {first})", r.item, key.0, key.1),
+                    format!("item \"{}\" appears twice in the list of ranker \"{ranker}\" for context \"{context}\" (first on line {first})", r.item),
                 ));
             }
         }
         if has_rank {
             let rank_col = table.column("rank").unwrap_or(0) + 1;
-            let mut by_rank: HashMap<u64, u64> = HashMap::new();
+            let mut by_rank: HashMap<u64, u64> = HashMap::with_capacity(rows.len());
             for r in &rows {
                 if let Some(first) = by_rank.insert(r.rank.unwrap_or(0), r.line) {
                     log.push(table.problem(
                         r.line,
                         rank_col,
-                        format!("rank {} is used twice in the list of ranker \"{}\" for context \"{}\" (first on line {first})", r.rank.unwrap_or(0), key.0, key.1),
+                        format!("rank {} is used twice in the list of ranker \"{ranker}\" for context \"{context}\" (first on line {first})", r.rank.unwrap_or(0)),
                     ));
                 }
             }
@@ -135,7 +161,7 @@ pub(super) fn import_rankings(tx: &Transaction, src: &Source) -> Result<FileRepo
                 log.push(table.problem(
                     r.line,
                     rank_col,
-                    format!("ranks must run 1, 2, 3… in each list; rank {} is missing in the list of ranker \"{}\" for context \"{}\"", n + 1, key.0, key.1),
+                    format!("ranks must run 1, 2, 3… in each list; rank {} is missing in the list of ranker \"{ranker}\" for context \"{context}\"", n + 1),
                 ));
             }
         } else {
@@ -143,51 +169,77 @@ pub(super) fn import_rankings(tx: &Transaction, src: &Source) -> Result<FileRepo
                 b.score
                     .unwrap_or(f64::NEG_INFINITY)
                     .total_cmp(&a.score.unwrap_or(f64::NEG_INFINITY))
-                    .then_with(|| a.item.cmp(&b.item))
+                    .then_with(|| a.item.cmp(b.item))
             });
         }
-        let list = rows
-            .into_iter()
-            .enumerate()
-            .map(|(n, r)| (n as i64 + 1, r.item, r.score))
-            .collect();
-        ordered.push((key, list));
+        if left_out.contains(&(ranker, context)) {
+            continue;
+        }
+        ordered.push(ParsedList {
+            ranker,
+            context,
+            entries: rows.into_iter().map(|r| (r.item, r.score)).collect(),
+        });
     }
+    ReadLists {
+        lists: ordered,
+        left_out: left_out.len(),
+    }
+}
+
+pub(super) fn import_rankings(tx: &Transaction, src: &Source) -> Result<FileReport> {
+    let table = parse(src, &RANKINGS)?;
+    let contexts = id_set(tx, "SELECT context_id FROM contexts")?;
+    let items = id_set(tx, "SELECT item_id FROM items")?;
+    let mut log = ProblemLog::default();
+    let known = KnownIds {
+        contexts: &|c| contexts.contains(c),
+        items: &|i| items.contains(i),
+        refuse_unknown: true,
+    };
+    let read = read_lists(&table, &known, &mut log);
     log.into_result().map_err(input_error)?;
 
     let mut report = report(src, "rankings");
+    let mut stored: HashMap<(String, String), (String, Option<String>)> = HashMap::new();
+    {
+        let mut stmt = tx.prepare("SELECT ranker, context_id, items, scores FROM ranked_lists")?;
+        let mut rows = stmt.query([])?;
+        while let Some(r) = rows.next()? {
+            stored.insert((r.get(0)?, r.get(1)?), (r.get(2)?, r.get(3)?));
+        }
+    }
     let mut add_ranker = tx.prepare("INSERT OR IGNORE INTO rankers(ranker) VALUES (?1)")?;
-    let mut load = tx.prepare(
-        "SELECT rank, item_id, score FROM ranked_items WHERE ranker = ?1 AND context_id = ?2 ORDER BY rank",
+    let mut upsert = tx.prepare(
+        "INSERT INTO ranked_lists(ranker, context_id, items, scores) VALUES (?1, ?2, ?3, ?4)
+         ON CONFLICT(ranker, context_id) DO UPDATE SET items = excluded.items, scores = excluded.scores",
     )?;
-    let mut delete =
-        tx.prepare("DELETE FROM ranked_items WHERE ranker = ?1 AND context_id = ?2")?;
-    let mut insert = tx.prepare(
-        "INSERT INTO ranked_items(ranker, context_id, rank, item_id, score) VALUES (?1, ?2, ?3, ?4, ?5)",
-    )?;
-    let mut known_rankers: HashSet<String> = HashSet::new();
-    for ((ranker, context), list) in ordered {
-        if known_rankers.insert(ranker.clone()) {
-            add_ranker.execute([&ranker])?;
+    let mut known_rankers: HashSet<&str> = HashSet::new();
+    let mut ids: Vec<String> = Vec::new();
+    let mut scores: Vec<Option<f64>> = Vec::new();
+    for list in &read.lists {
+        if known_rankers.insert(list.ranker) {
+            add_ranker.execute([list.ranker])?;
         }
-        let old: Vec<RankedEntry> = load
-            .query_map([&ranker, &context], |r| {
-                Ok((r.get(0)?, r.get(1)?, r.get(2)?))
-            })?
-            .collect::<std::result::Result<_, _>>()?;
-        if old == list {
-            report.unchanged += list.len() as u64;
-            continue;
+        ids.clear();
+        scores.clear();
+        for (item, score) in &list.entries {
+            ids.push((*item).to_string());
+            scores.push(*score);
         }
-        if old.is_empty() {
-            report.added += list.len() as u64;
-        } else {
-            report.updated += list.len() as u64;
-            delete.execute([&ranker, &context])?;
+        let (items_json, scores_json) = list_json(&ids, &scores);
+        let entries = list.entries.len() as u64;
+        match stored.get(&(list.ranker.to_string(), list.context.to_string())) {
+            Some((old_items, old_scores))
+                if *old_items == items_json && *old_scores == scores_json =>
+            {
+                report.unchanged += entries;
+                continue;
+            }
+            Some(_) => report.updated += entries,
+            None => report.added += entries,
         }
-        for (rank, item, score) in &list {
-            insert.execute(params![ranker, context, rank, item, score])?;
-        }
+        upsert.execute(params![list.ranker, list.context, items_json, scores_json])?;
     }
     Ok(report)
 }

@@ -1,0 +1,220 @@
+//! Is the pool fair to a ranker that was not in it? The leave-one-out test of Zobel
+//! (1998), SIGIR, "How reliable are the results of large-scale information retrieval
+//! experiments?": score each ranker again as if the judged pairs only it found in its
+//! top k had never been judged, and see how far its score and the ranker order move
+//! (Büttcher, Clarke, Yeung & Soboroff 2007, SIGIR, compare the orders by rank
+//! correlation). A large drop means a newcomer that finds different items than the
+//! pooled rankers is likely scored low.
+
+use std::collections::HashSet;
+
+use serde::Serialize;
+
+use super::judgments::{self, ContextJudgments};
+use crate::core::metrics::{self, AtK, JudgedList, ListSettings};
+use crate::core::stats;
+use crate::study::snapshot::Snapshot;
+
+/// One ranker at one NDCG cut-off, with and without the pairs only it found.
+#[derive(Debug, Clone, Serialize)]
+pub struct PoolBias {
+    /// Name of the ranker.
+    pub ranker: String,
+    /// The file its lists came from for this run; None for the study's own.
+    pub from_file: Option<String>,
+    /// Metric key (`ndcg@k`).
+    pub metric: String,
+    /// Its mean NDCG@k as scored (over the scored contexts).
+    pub mean: f64,
+    /// Its mean NDCG@k with its unique pairs treated as never judged, over `contexts`;
+    /// None when no context keeps a relevant item.
+    pub mean_left_out: Option<f64>,
+    /// `mean − mean_left_out`: how much the pairs only it found are worth to it.
+    pub drop: Option<f64>,
+    /// Scored contexts that still have a relevant item without those pairs.
+    pub contexts: usize,
+    /// Judged pairs in its top k that no other pooled ranker has in its top k.
+    pub unique_pairs: usize,
+    /// Its judged@k as scored.
+    pub judged: f64,
+    /// Its judged@k with its unique pairs counted as unjudged (over the scored contexts).
+    pub judged_left_out: f64,
+    /// Kendall's tau-b (Kendall 1945) between every ranker's mean NDCG@k and the same
+    /// with this ranker's mean replaced by `mean_left_out`; None when undefined.
+    pub kendall_tau_b: Option<f64>,
+}
+
+/// What the scoreboard already resolved, reused here.
+pub(super) struct Scored<'a> {
+    pub snapshot: &'a Snapshot,
+    pub judged: &'a ContextJudgments,
+    pub scored_contexts: &'a [usize],
+    pub list_settings: &'a ListSettings,
+    /// `means[ranker][i]`: mean NDCG at `ks[i]`.
+    pub means: Vec<Vec<f64>>,
+    /// `judged[ranker][i]`: mean judged@k at `ks[i]`.
+    pub judged_means: Vec<Vec<f64>>,
+    pub ks: &'a [usize],
+}
+
+/// Every ranker's pool-bias figures, by ranker then cut-off. The "other" rankers are
+/// the pooled ones (the study's lists as stored) under a different name: a ranker from
+/// a file never counts as pool.
+pub(super) fn compute(s: &Scored) -> Vec<PoolBias> {
+    let snapshot = s.snapshot;
+    let pooled: Vec<(usize, &[Vec<u32>])> = (0..snapshot.rankers.len())
+        .filter_map(|r| snapshot.pooled_lists(r).map(|lists| (r, lists)))
+        .collect();
+    let mut out = Vec::new();
+    let mut levels: Vec<Option<u8>> = Vec::new();
+    let mut ideal: Vec<f64> = Vec::new();
+    let mut scratch = Vec::new();
+    let mut at_k: Vec<AtK> = Vec::new();
+    for (r, name) in snapshot.rankers.iter().enumerate() {
+        for (ki, &k) in s.ks.iter().enumerate() {
+            let (mut sum, mut kept, mut unique_pairs, mut judged_sum) = (0.0, 0usize, 0, 0.0);
+            for &c in s.scored_contexts {
+                let list = &snapshot.lists[r][c];
+                let top = &list[..list.len().min(k)];
+                let others: HashSet<u32> = pooled
+                    .iter()
+                    .filter(|(p, _)| *p != r)
+                    .flat_map(|(_, lists)| lists[c].iter().take(k).copied())
+                    .collect();
+                let unique: HashSet<u32> = top
+                    .iter()
+                    .copied()
+                    .filter(|item| {
+                        !others.contains(item) && judgments::level_of(&s.judged[c], *item).is_some()
+                    })
+                    .collect();
+                unique_pairs += unique.len();
+                levels.clear();
+                levels.extend(list.iter().map(|item| match unique.contains(item) {
+                    true => None,
+                    false => judgments::level_of(&s.judged[c], *item),
+                }));
+                ideal.clear();
+                ideal.extend(
+                    s.judged[c]
+                        .iter()
+                        .filter(|(item, _)| !unique.contains(item))
+                        .map(|(_, level)| s.list_settings.gains[*level as usize]),
+                );
+                ideal.sort_by(|a, b| b.total_cmp(a));
+                let has_relevant = s.judged[c]
+                    .iter()
+                    .any(|(item, level)| *level > 0 && !unique.contains(item));
+                let judged_list = JudgedList {
+                    levels: &levels,
+                    ideal_gains: &ideal,
+                    has_relevant,
+                };
+                metrics::score_list(&judged_list, s.list_settings, &[k], &mut scratch, &mut at_k);
+                judged_sum += at_k[0].judged;
+                if has_relevant {
+                    sum += at_k[0].ndcg.unwrap_or(0.0);
+                    kept += 1;
+                }
+            }
+            let mean = s.means[r][ki];
+            let mean_left_out = (kept > 0).then(|| sum / kept as f64);
+            let kendall_tau_b = mean_left_out.and_then(|left_out| {
+                let before: Vec<f64> = s.means.iter().map(|m| m[ki]).collect();
+                let mut after = before.clone();
+                after[r] = left_out;
+                let tau = stats::kendall_tau_b(&before, &after);
+                tau.is_finite().then_some(tau)
+            });
+            let scored = s.scored_contexts.len();
+            out.push(PoolBias {
+                ranker: name.clone(),
+                from_file: snapshot.ranker_file(r).map(str::to_string),
+                metric: format!("ndcg@{k}"),
+                mean,
+                mean_left_out,
+                drop: mean_left_out.map(|m| mean - m),
+                contexts: kept,
+                unique_pairs,
+                judged: s.judged_means[r][ki],
+                judged_left_out: if scored == 0 {
+                    0.0
+                } else {
+                    judged_sum / scored as f64
+                },
+                kendall_tau_b,
+            });
+        }
+    }
+    out
+}
+
+/// Cautions for rankers from files whose judged@k falls below the lowest judged@k any
+/// pooled ranker keeps with its own pairs left out: the pool knows less of their top k
+/// than it would of a pooled ranker's, so their scores are likely biased low.
+pub(super) fn cautions(rows: &[PoolBias]) -> Vec<String> {
+    let mut out = Vec::new();
+    let metrics: Vec<&str> = {
+        let mut m: Vec<&str> = rows.iter().map(|r| r.metric.as_str()).collect();
+        m.dedup();
+        m.sort();
+        m.dedup();
+        m
+    };
+    for metric in metrics {
+        let floor = rows
+            .iter()
+            .filter(|r| r.metric == metric && r.from_file.is_none())
+            .map(|r| r.judged_left_out)
+            .min_by(f64::total_cmp);
+        let Some(floor) = floor else { continue };
+        let k = metric.trim_start_matches("ndcg@");
+        for row in rows
+            .iter()
+            .filter(|r| r.metric == metric && r.from_file.is_some())
+        {
+            if row.judged < floor - 1e-12 {
+                out.push(format!(
+                    "{} (from {}) has {:.0} % of its top {k} judged, below the {:.0} % every pooled ranker keeps without the pairs only it found: its {metric} is likely biased low. Judge the gaps (Scoreboard, \"Judge the gaps\") before trusting it.",
+                    row.ranker,
+                    row.from_file.as_deref().unwrap_or_default(),
+                    row.judged * 100.0,
+                    floor * 100.0,
+                ));
+            }
+        }
+    }
+    out
+}
+
+/// The finding in plain words, for the text output, the report and the Scoreboard.
+pub fn in_words(row: &PoolBias) -> String {
+    let k = row.metric.trim_start_matches("ndcg@");
+    let who = match &row.from_file {
+        Some(file) => format!("{} (from {file})", row.ranker),
+        None => row.ranker.clone(),
+    };
+    if row.unique_pairs == 0 {
+        return format!(
+            "{who} has no judged pair in its top {k} that the other pooled rankers lack; leaving its own pairs out changes nothing."
+        );
+    }
+    let pairs = match row.unique_pairs {
+        1 => "the one judged pair".to_string(),
+        n => format!("the {n} judged pairs"),
+    };
+    match (row.mean_left_out, row.drop) {
+        (Some(left_out), Some(drop)) => format!(
+            "Without {pairs} only it found in its top {k}, {who} would score {left_out:.3} instead of {:.3} {} ({} {:.3}, over the {} contexts that keep a relevant item).",
+            row.mean,
+            row.metric,
+            if drop >= 0.0 { "down" } else { "up" },
+            drop.abs(),
+            row.contexts
+        ),
+        _ => format!(
+            "Without {pairs} only it found in its top {k}, no context keeps a relevant item for {who}: its {} rests on those pairs alone.",
+            row.metric
+        ),
+    }
+}

@@ -5,6 +5,7 @@
 
 pub mod agreement;
 pub mod digest;
+pub mod fast_hash;
 pub mod gaps;
 pub mod metrics;
 pub mod pooling;

@@ -38,15 +38,19 @@ pub struct Table {
     pub header: Vec<String>,
     pub rows: Vec<Row>,
     text: String,
-    ends: Vec<usize>,
+    ends: Vec<u32>,
 }
 
 impl Table {
     /// The text of field `column` (0-based) of `row`.
     pub fn field(&self, row: &Row, column: usize) -> &str {
         let at = row.first + column;
-        let start = if at == 0 { 0 } else { self.ends[at - 1] };
-        &self.text[start..self.ends[at]]
+        let start = if at == 0 {
+            0
+        } else {
+            self.ends[at - 1] as usize
+        };
+        &self.text[start..self.ends[at] as usize]
     }
 
     /// Index of a named column, if present.
@@ -154,7 +158,7 @@ pub fn parse_reader(
     let mut header: Option<Vec<String>> = None;
     let mut rows = Vec::new();
     let mut text = String::new();
-    let mut ends: Vec<usize> = Vec::new();
+    let mut ends: Vec<u32> = Vec::new();
     let mut record = csv::ByteRecord::new();
     loop {
         match reader.read_byte_record(&mut record) {
@@ -232,14 +236,24 @@ pub fn parse_reader(
                     ));
                     continue;
                 }
+                let size = text.len() + fields.iter().map(|f| f.len()).sum::<usize>();
+                let Ok(size) = u32::try_from(size) else {
+                    log.push(problem(
+                        line,
+                        1,
+                        format!("the file holds more than {} bytes of fields; split it into smaller files", u32::MAX),
+                    ));
+                    break;
+                };
                 rows.push(Row {
                     line,
                     first: ends.len(),
                 });
                 for f in &fields {
                     text.push_str(f);
-                    ends.push(text.len());
+                    ends.push(text.len() as u32);
                 }
+                debug_assert_eq!(text.len() as u32, size);
             }
         }
         if log.is_full() {

@@ -5,6 +5,8 @@
 use std::collections::HashMap;
 use std::path::Path;
 
+use crate::core::fast_hash::FastMap;
+
 use serde::Serialize;
 
 use super::csv_input::{self, ProblemLog, Problems};
@@ -51,7 +53,7 @@ impl Snapshot {
     /// study's. Bad rows are refused with their line and column, as by import.
     pub fn add_rankings_file(&mut self, path: &Path) -> Result<FileLists> {
         let table = csv_input::read_file(path, &RANKINGS).map_err(StudyError::Input)?;
-        let context_index: HashMap<&str, u32> = self
+        let context_index: FastMap<&str, u32> = self
             .contexts
             .iter()
             .enumerate()
@@ -82,7 +84,7 @@ impl Snapshot {
                 )])));
             }
         }
-        let mut item_index: HashMap<String, u32> = self
+        let mut item_index: FastMap<String, u32> = self
             .items
             .iter()
             .enumerate()
@@ -126,7 +128,13 @@ impl Snapshot {
             let mut items = Vec::with_capacity(list.entries.len());
             for (id, _) in &list.entries {
                 let next = self.items.len() as u32;
-                let index = *item_index.entry((*id).to_string()).or_insert(next);
+                let index = match item_index.get(*id) {
+                    Some(&index) => index,
+                    None => {
+                        item_index.insert((*id).to_string(), next);
+                        next
+                    }
+                };
                 if index == next {
                     // Not in the catalog: a stand-in nobody judged.
                     self.items.push(ItemInfo {

@@ -216,6 +216,13 @@ CREATE VIEW ranked_items(ranker, context_id, rank, item_id, score) AS
 SELECT l.ranker, l.context_id, j.key + 1, j.value,
        CASE WHEN l.scores IS NULL THEN NULL ELSE json_extract(l.scores, '$[' || j.key || ']') END
 FROM ranked_lists l, json_each(l.items) j;
+-- The grade's value and time beside it, so that loading every current grade is one
+-- scan (events never change once written, so the copy cannot go stale).
+ALTER TABLE current_grades ADD COLUMN value INTEGER;
+ALTER TABLE current_grades ADD COLUMN seconds REAL;
+UPDATE current_grades SET
+    value = (SELECT e.value FROM grade_events e WHERE e.id = current_grades.event_id),
+    seconds = (SELECT e.seconds FROM grade_events e WHERE e.id = current_grades.event_id);
 DROP TRIGGER grade_events_keep_current;
 CREATE TRIGGER grade_events_keep_current AFTER INSERT ON grade_events
 WHEN NOT EXISTS (SELECT 1 FROM settings WHERE key = 'bulk_grade_import')
@@ -232,8 +239,8 @@ BEGIN
     DELETE FROM current_grades
     WHERE scale = NEW.scale AND context_id = NEW.context_id AND item_id = NEW.item_id
       AND reviewer = NEW.reviewer;
-    INSERT INTO current_grades(scale, context_id, item_id, reviewer, event_id)
-    SELECT NEW.scale, NEW.context_id, NEW.item_id, NEW.reviewer, NEW.id
+    INSERT INTO current_grades(scale, context_id, item_id, reviewer, event_id, value, seconds)
+    SELECT NEW.scale, NEW.context_id, NEW.item_id, NEW.reviewer, NEW.id, NEW.value, NEW.seconds
     WHERE NEW.action != 'undo';
 END;
 "#;
@@ -293,27 +300,34 @@ pub fn list_json(items: &[String], scores: &[Option<f64>]) -> (String, Option<St
 
 /// Keeps `current_grades` for every pair and reviewer that has an event with an id
 /// above `after`: the latest event by (`graded_at`, id) is in force unless it is an
-/// undo, the same rule as the trigger's.
+/// undo, the same rule as the trigger's. Each new event is checked with two seeks in
+/// `grade_events_by_key`, so the pass costs one seek per imported row.
 pub fn refresh_current_grades(conn: &Connection, after: i64) -> rusqlite::Result<()> {
-    conn.execute_batch("DROP TABLE IF EXISTS temp.touched_pairs")?;
+    const LATEST: &str = "NOT EXISTS (
+            SELECT 1 FROM grade_events l
+            WHERE l.scale = e.scale AND l.context_id = e.context_id AND l.item_id = e.item_id
+              AND l.reviewer = e.reviewer AND l.graded_at > e.graded_at)
+        AND NOT EXISTS (
+            SELECT 1 FROM grade_events l
+            WHERE l.scale = e.scale AND l.context_id = e.context_id AND l.item_id = e.item_id
+              AND l.reviewer = e.reviewer AND l.graded_at = e.graded_at AND l.id > e.id)";
     conn.execute(
-        "CREATE TEMP TABLE touched_pairs AS
-         SELECT DISTINCT scale, context_id, item_id, reviewer FROM grade_events WHERE id > ?1",
+        &format!(
+            "INSERT OR REPLACE INTO current_grades(scale, context_id, item_id, reviewer, event_id, value, seconds)
+             SELECT e.scale, e.context_id, e.item_id, e.reviewer, e.id, e.value, e.seconds
+             FROM grade_events e WHERE e.id > ?1 AND e.action != 'undo' AND {LATEST}"
+        ),
         [after],
     )?;
-    conn.execute_batch(
-        "DELETE FROM current_grades
-         WHERE (scale, context_id, item_id, reviewer) IN (SELECT * FROM temp.touched_pairs);
-         INSERT INTO current_grades(scale, context_id, item_id, reviewer, event_id)
-         SELECT scale, context_id, item_id, reviewer, id FROM (
-           SELECT e.id, e.scale, e.context_id, e.item_id, e.reviewer, e.action,
-                  ROW_NUMBER() OVER (PARTITION BY e.scale, e.context_id, e.item_id, e.reviewer
-                                     ORDER BY e.graded_at DESC, e.id DESC) AS latest
-           FROM grade_events e
-           WHERE (e.scale, e.context_id, e.item_id, e.reviewer) IN (SELECT * FROM temp.touched_pairs))
-         WHERE latest = 1 AND action != 'undo';
-         DROP TABLE temp.touched_pairs;",
-    )
+    conn.execute(
+        &format!(
+            "DELETE FROM current_grades WHERE (scale, context_id, item_id, reviewer) IN (
+               SELECT e.scale, e.context_id, e.item_id, e.reviewer
+               FROM grade_events e WHERE e.id > ?1 AND e.action = 'undo' AND {LATEST})"
+        ),
+        [after],
+    )?;
+    Ok(())
 }
 
 /// The schema version this build writes.

@@ -1,8 +1,7 @@
 //! A read-only picture of a study, loaded in a handful of queries, that the analysis
 //! layer works from. Nothing downstream touches SQL.
 
-use std::collections::HashMap;
-
+use crate::core::fast_hash::FastMap;
 use crate::core::scale::{Level, Scale};
 
 use super::{Result, Study};
@@ -101,34 +100,11 @@ impl Snapshot {
     }
 }
 
-/// A small multiply-rotate hasher (the FxHash scheme of the Rust compiler): ids are
-/// looked up once per loaded row, where the default SipHash dominated snapshot time.
-#[derive(Default, Clone, Copy)]
-struct IdHasher(u64);
-
-impl std::hash::Hasher for IdHasher {
-    fn write(&mut self, bytes: &[u8]) {
-        const K: u64 = 0x517c_c1b7_2722_0a95;
-        let mut chunks = bytes.chunks_exact(8);
-        for c in &mut chunks {
-            let word = u64::from_le_bytes(c.try_into().expect("8 bytes"));
-            self.0 = (self.0.rotate_left(5) ^ word).wrapping_mul(K);
-        }
-        for b in chunks.remainder() {
-            self.0 = (self.0.rotate_left(5) ^ *b as u64).wrapping_mul(K);
-        }
-    }
-
-    fn finish(&self) -> u64 {
-        self.0
-    }
-}
-
 /// A stored list's item ids, borrowed from the row's text unless an id has escapes.
 #[derive(serde::Deserialize)]
 struct JsonIds<'a>(#[serde(borrow)] Vec<std::borrow::Cow<'a, str>>);
 
-type IdMap<'a> = HashMap<&'a str, u32, std::hash::BuildHasherDefault<IdHasher>>;
+type IdMap<'a> = FastMap<&'a str, u32>;
 
 fn index_of(ids: &[String]) -> IdMap<'_> {
     ids.iter()
@@ -237,17 +213,30 @@ impl Study {
 
         let mut grades = Vec::new();
         {
+            // One scan in key order (scale, context, item, reviewer): a run of rows shares
+            // its scale and context, so those are looked up once per run.
             let mut stmt = conn.prepare(
-                "SELECT e.reviewer, e.context_id, e.item_id, e.scale, e.value, e.seconds
-                 FROM current_grades c JOIN grade_events e ON e.id = c.event_id",
+                "SELECT reviewer, context_id, item_id, scale, value, seconds FROM current_grades",
             )?;
             let mut rows = stmt.query([])?;
+            let (mut scale_key, mut context_key) = (String::new(), String::new());
+            let (mut scale_at, mut context_at) = (0u32, 0u32);
             while let Some(r) = rows.next()? {
+                let scale = r.get_ref(3)?.as_str()?;
+                if scale != scale_key || scale_key.is_empty() {
+                    scale_at = scale_index[scale];
+                    scale_key = scale.to_string();
+                }
+                let context = r.get_ref(1)?.as_str()?;
+                if context != context_key || context_key.is_empty() {
+                    context_at = context_index[context];
+                    context_key = context.to_string();
+                }
                 grades.push(GradeRow {
                     reviewer: reviewer_index[r.get_ref(0)?.as_str()?],
-                    context: context_index[r.get_ref(1)?.as_str()?],
+                    context: context_at,
                     item: item_index[r.get_ref(2)?.as_str()?],
-                    scale: scale_index[r.get_ref(3)?.as_str()?],
+                    scale: scale_at,
                     value: r.get(4)?,
                     seconds: r.get(5)?,
                 });

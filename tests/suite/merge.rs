@@ -385,8 +385,8 @@ fn merged_untouched(study: &std::path::Path, copy: &std::path::Path, what: &str)
 fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
     let (_f, study, copy) = lead_and_copy();
     {
-        // Put the copy back at schema 1 (the first trigger, one row per ranked entry),
-        // as an older build wrote it.
+        // Put the copy back at schema 1 (the first trigger, one row per ranked entry,
+        // current grades without their values), as an older build wrote it.
         let plumbline::study::schema::Migration::Sql(v1) = plumbline::study::schema::MIGRATIONS[0]
         else {
             panic!("the first schema is SQL")
@@ -402,10 +402,15 @@ fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
                  INSERT INTO ranked_items(ranker, context_id, rank, item_id)
                    SELECT l.ranker, l.context_id, j.key + 1, j.value FROM ranked_lists l, json_each(l.items) j;
                  DROP TABLE ranked_lists;
+                 CREATE TEMP TABLE kept AS SELECT scale, context_id, item_id, reviewer, event_id FROM current_grades;
+                 DROP TABLE current_grades; {} {}
+                 INSERT INTO current_grades SELECT * FROM temp.kept;
                  DROP TRIGGER grade_events_keep_current; {}
                  PRAGMA user_version = 1;
                  {GRADE} VALUES ('b9', 'bo', 'q2', 'i1', 'fit', 'grade', 1, '', 2, '2026-11-30T10:00:00.000Z', '');",
                 part("CREATE TABLE ranked_items(", ") WITHOUT ROWID;"),
+                part("CREATE TABLE current_grades(", ") WITHOUT ROWID;"),
+                part("CREATE INDEX current_grades_by_reviewer", ";"),
                 part("CREATE TRIGGER grade_events_keep_current", "END;")
             ),
         );

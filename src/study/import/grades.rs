@@ -86,16 +86,16 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
             }
         };
         grades.push(ImportedGrade {
-            reviewer: reviewer.to_string(),
-            context: context.to_string(),
-            item: item.to_string(),
-            scale: scale.to_string(),
+            reviewer,
+            context,
+            item,
+            scale,
             value,
-            reason: f.text("reason").to_string(),
+            reason: f.text("reason"),
             seconds,
             graded_at,
-            note: f.text("note").to_string(),
-            settled_by: f.text("settled_by").trim().to_string(),
+            note: f.text("note"),
+            settled_by: f.text("settled_by").trim(),
         });
         if log.is_full() {
             break;
@@ -118,7 +118,7 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
          WHERE scale = ?1 AND context_id = ?2 AND item_id = ?3 AND settled_at = ?4
            AND value IS ?5 AND settled_by = ?6 AND reason = ?7)",
     )?;
-    let mut known_reviewers: HashSet<String> = HashSet::new();
+    let mut known_reviewers: HashSet<&str> = HashSet::new();
     // The keep-current trigger would seek and rewrite `current_grades` once per row;
     // for this transaction it stands aside and one set-based pass follows the inserts.
     let events_before: i64 =
@@ -133,15 +133,15 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
         let value_text = g.value.map(|v| v.to_string()).unwrap_or_default();
         let seconds_text = g.seconds.map(|s| s.to_string()).unwrap_or_default();
         let parts = [
-            g.reviewer.as_str(),
-            &g.context,
-            &g.item,
-            &g.scale,
+            g.reviewer,
+            g.context,
+            g.item,
+            g.scale,
             &value_text,
-            &g.reason,
+            g.reason,
             &seconds_text,
             &g.graded_at,
-            &g.note,
+            g.note,
         ];
         let uid = content_uid(&parts);
         let action = if g.value.is_some() {
@@ -187,8 +187,8 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
                 g.reason
             ])?
         } else {
-            if known_reviewers.insert(g.reviewer.clone()) {
-                add_reviewer.execute([&g.reviewer])?;
+            if known_reviewers.insert(g.reviewer) {
+                add_reviewer.execute([g.reviewer])?;
             }
             insert.execute(params![
                 uid,
@@ -218,15 +218,17 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
     Ok(report)
 }
 
-struct ImportedGrade {
-    reviewer: String,
-    context: String,
-    item: String,
-    scale: String,
+/// One checked row, its texts borrowed from the parsed file (a large import holds
+/// every row at once, so owned copies would double its memory).
+struct ImportedGrade<'a> {
+    reviewer: &'a str,
+    context: &'a str,
+    item: &'a str,
+    scale: &'a str,
     value: Option<u8>,
-    reason: String,
+    reason: &'a str,
     seconds: Option<f64>,
     graded_at: String,
-    note: String,
-    settled_by: String,
+    note: &'a str,
+    settled_by: &'a str,
 }

@@ -146,7 +146,7 @@ pub fn import(study: &mut Study, set: &ImportSet) -> Result<Vec<FileReport>> {
 }
 
 /// Page cache during imports, in KiB (negative = KiB for SQLite's `cache_size`).
-const IMPORT_CACHE_KIB: i64 = -262_144;
+const IMPORT_CACHE_KIB: i64 = -32_768;
 
 fn import_in_transaction(study: &mut Study, set: &ImportSet) -> Result<Vec<FileReport>> {
     let tx = study.begin_write()?;

@@ -1,11 +1,12 @@
 //! Ranked lists: by rank or by score, checked list by list. The same reader serves the
 //! import and `score --rankings` (lists scored from a file without importing them).
 
-use std::collections::{BTreeMap, HashMap, HashSet};
+use std::collections::{HashMap, HashSet};
 
 use rusqlite::{Transaction, params};
 
 use super::{Fields, FileReport, RANKINGS, Source, id_set, input_error, parse, report};
+use crate::core::fast_hash::{FastMap, FastSet};
 use crate::study::Result;
 use crate::study::csv_input::{ProblemLog, Table};
 use crate::study::schema::list_json;
@@ -61,8 +62,10 @@ pub(crate) fn read_lists<'a>(
             left_out: 0,
         };
     }
-    let mut lists: BTreeMap<(&str, &str), Vec<RankedRow>> = BTreeMap::new();
-    let mut left_out: HashSet<(&str, &str)> = HashSet::new();
+    // Lists in order of first appearance, found by (ranker, context); sorted at the end.
+    let mut lists: Vec<((&str, &str), Vec<RankedRow>)> = Vec::new();
+    let mut list_at: FastMap<(&str, &str), usize> = FastMap::default();
+    let mut left_out: FastSet<(&str, &str)> = FastSet::default();
     for row in &table.rows {
         let f = Fields { table, row };
         let (Some(ranker), Some(context), Some(item)) = (
@@ -117,7 +120,11 @@ pub(crate) fn read_lists<'a>(
         } else {
             None
         };
-        lists.entry((ranker, context)).or_default().push(RankedRow {
+        let at = *list_at.entry((ranker, context)).or_insert_with(|| {
+            lists.push(((ranker, context), Vec::new()));
+            lists.len() - 1
+        });
+        lists[at].1.push(RankedRow {
             line: row.line,
             item,
             rank,
@@ -127,36 +134,43 @@ pub(crate) fn read_lists<'a>(
             break;
         }
     }
+    lists.sort_unstable_by(|a, b| a.0.cmp(&b.0));
+    let item_col = table.column("item_id").unwrap_or(0) + 1;
+    let rank_col = table.column("rank").unwrap_or(0) + 1;
     let mut ordered = Vec::with_capacity(lists.len());
+    let mut by_item: Vec<(&str, u64)> = Vec::new();
     for ((ranker, context), mut rows) in lists {
-        let mut seen_items: HashMap<&str, u64> = HashMap::with_capacity(rows.len());
-        for r in &rows {
-            if let Some(first) = seen_items.insert(r.item, r.line) {
+        // Repeats found by sorting a copy: lists are short, a hash set per list is not.
+        by_item.clear();
+        by_item.extend(rows.iter().map(|r| (r.item, r.line)));
+        by_item.sort_unstable();
+        for pair in by_item.windows(2) {
+            if pair[0].0 == pair[1].0 {
                 log.push(table.problem(
-                    r.line,
-                    table.column("item_id").unwrap_or(0) + 1,
-                    format!("item \"{}\" appears twice in the list of ranker \"{ranker}\" for context \"{context}\" (first on line {first})", r.item),
+                    pair[1].1,
+                    item_col,
+                    format!("item \"{}\" appears twice in the list of ranker \"{ranker}\" for context \"{context}\" (first on line {})", pair[1].0, pair[0].1),
                 ));
             }
         }
         if has_rank {
-            let rank_col = table.column("rank").unwrap_or(0) + 1;
-            let mut by_rank: HashMap<u64, u64> = HashMap::with_capacity(rows.len());
-            for r in &rows {
-                if let Some(first) = by_rank.insert(r.rank.unwrap_or(0), r.line) {
+            rows.sort_by_key(|r| (r.rank, r.line));
+            let mut repeated = false;
+            for pair in rows.windows(2) {
+                if pair[0].rank == pair[1].rank {
+                    repeated = true;
                     log.push(table.problem(
-                        r.line,
+                        pair[1].line,
                         rank_col,
-                        format!("rank {} is used twice in the list of ranker \"{ranker}\" for context \"{context}\" (first on line {first})", r.rank.unwrap_or(0)),
+                        format!("rank {} is used twice in the list of ranker \"{ranker}\" for context \"{context}\" (first on line {})", pair[1].rank.unwrap_or(0), pair[0].line),
                     ));
                 }
             }
-            rows.sort_by_key(|r| r.rank);
             if let Some((n, r)) = rows
                 .iter()
                 .enumerate()
                 .find(|(n, r)| r.rank != Some(*n as u64 + 1))
-                && by_rank.len() == rows.len()
+                && !repeated
             {
                 log.push(table.problem(
                     r.line,

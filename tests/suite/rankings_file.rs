@@ -1,0 +1,308 @@
+//! Scoring lists from a file without importing them (`score --rankings`), and the
+//! pool-bias figures, against an independent computation
+//! (`tests/reference/gen_pool_bias.py`, the leave-one-out test of Zobel 1998, SIGIR).
+
+use std::path::{Path, PathBuf};
+
+use serde_json::Value;
+
+use crate::cli::{args, plumbline};
+use crate::common::Fixture;
+
+fn fixture_file(name: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/fixtures/pool_bias")
+        .join(name)
+}
+
+/// A study holding the fixture's catalog, pooled rankers and grades.
+fn pooled_study(fixture: &Fixture, name: &str) -> PathBuf {
+    let study = fixture.path(name);
+    let s = study.to_str().unwrap();
+    run(args!["new", s]);
+    let f = |n: &str| fixture_file(n).to_str().unwrap().to_string();
+    run(args![
+        "import",
+        s,
+        "--items",
+        &f("items.csv"),
+        "--contexts",
+        &f("contexts.csv"),
+        "--scales",
+        &f("scales.csv"),
+        "--rankings",
+        &f("rankings.csv"),
+        "--grades",
+        &f("grades.csv")
+    ]);
+    study
+}
+
+fn run(args: &[&std::ffi::OsStr]) -> String {
+    let out = plumbline(args);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    String::from_utf8(out.stdout).unwrap()
+}
+
+fn score_json(study: &Path, files: &[&str]) -> Value {
+    let mut a: Vec<String> = [
+        "score",
+        study.to_str().unwrap(),
+        "--k",
+        "3,5",
+        "--format",
+        "json",
+    ]
+    .map(String::from)
+    .to_vec();
+    for f in files {
+        a.push("--rankings".into());
+        a.push(fixture_file(f).to_str().unwrap().to_string());
+    }
+    let a: Vec<&std::ffi::OsStr> = a.iter().map(std::ffi::OsStr::new).collect();
+    serde_json::from_str(&run(&a)).unwrap()
+}
+
+fn close(a: &Value, b: &Value, what: &str) {
+    match (a.as_f64(), b.as_f64()) {
+        (Some(x), Some(y)) => assert!((x - y).abs() < 1e-12, "{what}: {x} vs {y}"),
+        _ => assert_eq!(a, b, "{what}"),
+    }
+}
+
+#[test]
+fn pool_bias_equals_the_independent_computation() {
+    let expected: Value = serde_json::from_str(
+        &std::fs::read_to_string(
+            Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/pool_bias_expected.json"),
+        )
+        .unwrap(),
+    )
+    .unwrap();
+    let cases = expected["cases"].as_array().unwrap();
+    assert!(cases.len() >= 3, "the reference must keep its cases");
+    let fixture = Fixture::new();
+    let study = pooled_study(&fixture, "pool.plumb");
+    for case in cases {
+        let name = case["name"].as_str().unwrap();
+        let files: Vec<&str> = case["rankings_files"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|f| f.as_str().unwrap())
+            .collect();
+        let board = score_json(&study, &files);
+        assert_eq!(board["contexts_scored"], case["contexts_scored"], "{name}");
+        let left_out: u64 = board["rankings_files"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|f| f["contexts_left_out"].as_u64().unwrap())
+            .sum();
+        assert_eq!(
+            left_out,
+            case["contexts_left_out_of_files"].as_u64().unwrap(),
+            "{name}"
+        );
+        for (ranker, means) in case["means"].as_object().unwrap() {
+            let ours = board["rankers"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .find(|r| r["ranker"] == ranker.as_str())
+                .unwrap_or_else(|| panic!("{name}: ranker {ranker} missing"));
+            for (metric, value) in means.as_object().unwrap() {
+                close(
+                    &ours["metrics"][metric]["mean"],
+                    value,
+                    &format!("{name} {ranker} {metric}"),
+                );
+            }
+        }
+        let theirs = case["pool_bias"].as_array().unwrap();
+        let ours = board["pool_bias"].as_array().unwrap();
+        assert_eq!(ours.len(), theirs.len(), "{name}: pool-bias rows");
+        for t in theirs {
+            let o = ours
+                .iter()
+                .find(|o| o["ranker"] == t["ranker"] && o["metric"] == t["metric"])
+                .unwrap_or_else(|| panic!("{name}: no row for {} {}", t["ranker"], t["metric"]));
+            for field in [
+                "mean",
+                "mean_left_out",
+                "drop",
+                "contexts",
+                "unique_pairs",
+                "judged_left_out",
+                "kendall_tau_b",
+            ] {
+                close(
+                    &o[field],
+                    &t[field],
+                    &format!("{name} {} {} {field}", t["ranker"], t["metric"]),
+                );
+            }
+        }
+    }
+}
+
+#[test]
+fn the_file_path_and_the_import_path_give_the_same_scores() {
+    // The candidate file has score-ordered lists with a tie, an item the catalog lacks,
+    // a context the study lacks, a context without a list and short lists.
+    let fixture = Fixture::new();
+    let study = pooled_study(&fixture, "file.plumb");
+    let before = std::fs::read(&study).unwrap();
+    let from_file = score_json(&study, &["candidate.csv"]);
+    assert!(
+        std::fs::read(&study).unwrap() == before,
+        "scoring from a file must not write the study"
+    );
+    let summary = &from_file["rankings_files"][0];
+    assert_eq!(summary["rankers"], serde_json::json!(["delta"]));
+    assert_eq!(summary["contexts_left_out"], 1);
+    assert!(summary["unknown_items"].as_u64().unwrap() >= 1);
+
+    // The same lists imported: the unknown item added to the catalog (ungraded, so just
+    // as unjudged) and the unknown context's rows dropped, as the file path does.
+    let imported = pooled_study(&fixture, "imported.plumb");
+    let text = std::fs::read_to_string(fixture_file("candidate.csv")).unwrap();
+    let items = std::fs::read_to_string(fixture_file("items.csv")).unwrap();
+    let known: Vec<&str> = items
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').next().unwrap())
+        .collect();
+    let contexts = std::fs::read_to_string(fixture_file("contexts.csv")).unwrap();
+    let known_contexts: Vec<&str> = contexts
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').next().unwrap())
+        .collect();
+    let mut kept = String::from("ranker,context_id,item_id,score\n");
+    let mut extra = String::from("item_id,title\n");
+    for line in text.lines().skip(1) {
+        let cells: Vec<&str> = line.split(',').collect();
+        if !known_contexts.contains(&cells[1]) {
+            continue;
+        }
+        if !known.contains(&cells[2]) && !extra.contains(&format!("\n{},", cells[2])) {
+            extra.push_str(&format!("{},stand-in\n", cells[2]));
+        }
+        kept.push_str(line);
+        kept.push('\n');
+    }
+    let kept_path = fixture.write("kept.csv", &kept);
+    let extra_path = fixture.write("extra_items.csv", &extra);
+    run(args![
+        "import",
+        imported.to_str().unwrap(),
+        "--items",
+        extra_path.to_str().unwrap(),
+        "--rankings",
+        kept_path.to_str().unwrap()
+    ]);
+    let from_import = score_json(&imported, &[]);
+    let find = |board: &Value| -> Value {
+        board["rankers"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|r| r["ranker"] == "delta")
+            .unwrap()
+            .clone()
+    };
+    let (a, b) = (find(&from_file), find(&from_import));
+    assert_eq!(a["from_file"], "candidate.csv");
+    let metrics = b["metrics"].as_object().unwrap();
+    assert!(metrics.len() >= 10);
+    for (metric, summary) in metrics {
+        for field in ["mean", "ci_low", "ci_high"] {
+            close(&a["metrics"][metric][field], &summary[field], metric);
+        }
+    }
+    let (pa, pb) = (
+        a["per_context"].as_array().unwrap(),
+        b["per_context"].as_array().unwrap(),
+    );
+    assert_eq!(pa.len(), pb.len());
+    for (x, y) in pa.iter().zip(pb) {
+        for (key, value) in y.as_object().unwrap() {
+            close(&x[key], value, key);
+        }
+    }
+}
+
+#[test]
+fn a_file_ranker_the_study_has_replaces_it_and_says_so() {
+    let fixture = Fixture::new();
+    let study = pooled_study(&fixture, "replace.plumb");
+    let board = score_json(&study, &["candidate_replaces.csv"]);
+    assert_eq!(
+        board["rankings_files"][0]["replaced"],
+        serde_json::json!(["beta"])
+    );
+    let text = run(args![
+        "score",
+        study.to_str().unwrap(),
+        "--rankings",
+        fixture_file("candidate_replaces.csv").to_str().unwrap()
+    ]);
+    assert!(
+        text.contains("beta (replaces the study's lists of beta for this run)"),
+        "{text}"
+    );
+    assert!(text.contains("Pool bias"), "{text}");
+}
+
+#[test]
+fn bad_rows_in_a_rankings_file_are_refused_with_line_and_column() {
+    let fixture = Fixture::new();
+    let study = pooled_study(&fixture, "bad.plumb");
+    let bad = fixture.write(
+        "bad.csv",
+        "ranker,context_id,item_id,rank\nnew,c01,it01,1\nnew,c01,it02,x\n",
+    );
+    let out = plumbline(args![
+        "score",
+        study.to_str().unwrap(),
+        "--rankings",
+        bad.to_str().unwrap()
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        stderr.contains("bad.csv:3:4: rank must be a positive integer, got \"x\""),
+        "{stderr}"
+    );
+}
+
+#[test]
+fn a_file_ranker_judged_less_than_the_pool_gets_a_caution() {
+    // Lists of items nobody judged: judged@k far below any pooled ranker's.
+    let fixture = Fixture::new();
+    let study = pooled_study(&fixture, "caution.plumb");
+    let mut text = String::from("ranker,context_id,item_id,rank\n");
+    for c in 1..=12 {
+        for (rank, item) in ["zz1", "zz2", "it01"].iter().enumerate() {
+            text.push_str(&format!("fresh,c{c:02},{item},{}\n", rank + 1));
+        }
+    }
+    let file = fixture.write("fresh.csv", &text);
+    let out = run(args![
+        "score",
+        study.to_str().unwrap(),
+        "--k",
+        "3",
+        "--rankings",
+        file.to_str().unwrap()
+    ]);
+    assert!(
+        out.contains("fresh (from fresh.csv) has") && out.contains("likely biased low"),
+        "{out}"
+    );
+}

@@ -191,6 +191,20 @@ pub fn markdown(board: &Scoreboard, agreement: Option<&AgreementReport>) -> Stri
         let _ = writeln!(out, "> {OFFLINE_CAUTION}\n");
     }
 
+    if !board.pool_bias.is_empty() {
+        out.push_str("## Is the pool fair to a newcomer?\n\n");
+        out.push_str("Each ranker scored again as if the judged pairs only it found in its top k had never been judged (the leave-one-out test of Zobel 1998, SIGIR). A large drop warns that a ranker finding different items than the pooled ones is likely scored low; judge its gaps before trusting its score.\n\n");
+        let focus = super::defaults::focus_k(&board.settings.ks);
+        for p in board
+            .pool_bias
+            .iter()
+            .filter(|p| p.metric == format!("ndcg@{focus}"))
+        {
+            let _ = writeln!(out, "- {}", super::pool_bias::in_words(p));
+        }
+        out.push('\n');
+    }
+
     out.push_str("## Reviewer agreement\n\n");
     match agreement {
         Some(a) if !a.pairs.is_empty() => {

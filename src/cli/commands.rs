@@ -335,7 +335,10 @@ fn import_files(
         ));
     }
     let mut study = open(study)?;
-    let reports = import::import(&mut study, &set)?;
+    let mut line = ProgressLine::new();
+    let reports = import::import_with_progress(&mut study, &set, &mut |step| line.show(step));
+    line.finish();
+    let reports = reports?;
     for r in reports {
         println!(
             "{} ({}): {} added, {} updated, {} unchanged",
@@ -389,4 +392,51 @@ fn grade_loop(path: &Path, reviewer: &str, count: usize) -> Result<(), Failure> 
         out.flush().map_err(|e| Failure::other(e.to_string()))?;
     }
     Ok(())
+}
+
+/// An import's progress on stderr, rewritten in place: only on a terminal, and only once
+/// the import has run for more than a second (quick imports and pipelines stay quiet).
+struct ProgressLine {
+    started: std::time::Instant,
+    terminal: bool,
+    shown: bool,
+}
+
+impl ProgressLine {
+    fn new() -> ProgressLine {
+        use std::io::IsTerminal;
+        ProgressLine {
+            started: std::time::Instant::now(),
+            terminal: std::io::stderr().is_terminal(),
+            shown: false,
+        }
+    }
+
+    fn show(&mut self, step: &import::ImportStep) {
+        let elapsed = self.started.elapsed().as_secs_f64();
+        if !self.terminal || elapsed < 1.0 {
+            return;
+        }
+        let rows = match (step.rows_total, step.rows_done) {
+            (0, _) => "reading".to_string(),
+            (total, 0) => format!("checked {total} rows, writing"),
+            (total, done) => format!("{done} of {total} rows written"),
+        };
+        eprint!(
+            "\r\x1b[2Kimporting {} (file {} of {}): {rows} · {elapsed:.0} s",
+            step.file,
+            step.files_done + 1,
+            step.files_total
+        );
+        self.shown = true;
+    }
+
+    fn finish(&self) {
+        if self.shown {
+            eprintln!(
+                "\r\x1b[2Kimport finished in {:.1} s",
+                self.started.elapsed().as_secs_f64()
+            );
+        }
+    }
 }

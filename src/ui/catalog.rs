@@ -10,7 +10,7 @@ use super::jobs::{JobResult, Task};
 use super::study_picker::block_on;
 use crate::study::Problem;
 use crate::study::Study;
-use crate::study::import::{FileReport, ImportSet, Source, import};
+use crate::study::import::{FileReport, ImportSet, Source, import_with_progress};
 use crate::study::queues::{ContextCard, ItemCard};
 
 const ROW_HEIGHT: f32 = 44.0;
@@ -126,7 +126,18 @@ fn run_import(
         grades,
     };
     let mut study = Study::open(path)?;
-    let reports = import(&mut study, &set)?;
+    let reports = import_with_progress(&mut study, &set, &mut |step| {
+        let file_share = match step.rows_total {
+            0 => 0.0,
+            total => step.rows_done as f32 / total as f32,
+        };
+        let done = (step.files_done as f32 + file_share) / step.files_total.max(1) as f32;
+        let what = match step.rows_total {
+            0 => format!("checking {}", step.file),
+            total => format!("writing {}: {} of {total} rows", step.file, step.rows_done),
+        };
+        set_progress(0.5 + 0.5 * done, what);
+    })?;
     set_progress(1.0, "done".into());
     Ok(reports)
 }

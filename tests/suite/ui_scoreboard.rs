@@ -288,3 +288,77 @@ fn every_control_on_the_scoreboard_has_an_accessible_label() {
     }
     assert!(controls >= 14, "only {controls} controls found");
 }
+
+#[test]
+fn lists_from_a_file_are_scored_beside_the_study_without_importing_them() {
+    let (_dir, path) = demo_copy();
+    // Next week's candidate: the production lists in reverse order, under a new name.
+    let conn = rusqlite::Connection::open(&path).unwrap();
+    let mut csv = String::from("ranker,context_id,item_id,rank\n");
+    let mut stmt = conn
+        .prepare(
+            "SELECT context_id, item_id, rank FROM ranked_items WHERE ranker = 'lexical-prod'
+             ORDER BY context_id, rank DESC",
+        )
+        .unwrap();
+    let rows: Vec<(String, String)> = stmt
+        .query_map([], |r| Ok((r.get(0)?, r.get(1)?)))
+        .unwrap()
+        .collect::<Result<_, _>>()
+        .unwrap();
+    let mut rank = 0;
+    let mut last = String::new();
+    for (context, item) in rows {
+        rank = if context == last { rank + 1 } else { 1 };
+        last = context.clone();
+        csv.push_str(&format!("next-week,{context},{item},{rank}\n"));
+    }
+    drop(stmt);
+    drop(conn);
+    let file = path.with_file_name("next.csv");
+    std::fs::write(&file, csv).unwrap();
+    let before = std::fs::read(&path).unwrap();
+
+    let mut h = harness(&path);
+    settle(&mut h);
+    let field = "Score lists from a file (nothing imported):";
+    h.get_by_role_and_label(Role::TextInput, field).focus();
+    h.step();
+    h.get_by_role_and_label(Role::TextInput, field)
+        .type_text(file.to_str().unwrap());
+    h.step();
+    h.get_by_label("Score it").click();
+    h.step();
+    step_until(&mut h, "the file's lists", |h| {
+        h.state().scoreboard.is_current()
+            && h.state()
+                .scoreboard
+                .model
+                .as_ref()
+                .is_some_and(|m| m.board.rankers.iter().any(|r| r.ranker == "next-week"))
+    });
+    let texts = all_texts(&h);
+    assert!(
+        texts
+            .iter()
+            .any(|t| t.contains("next-week (from next.csv)")),
+        "{texts:?}"
+    );
+    assert!(
+        texts
+            .iter()
+            .any(|t| t.contains("Is the pool fair to a newcomer?"))
+    );
+    // Reversed, its top 10 is what the pool judged least: the screen says so.
+    assert!(
+        texts
+            .iter()
+            .any(|t| t.contains("next-week (from next.csv) has") && t.contains("likely biased low")),
+        "{texts:?}"
+    );
+    drop(h);
+    assert!(
+        std::fs::read(&path).unwrap() == before,
+        "the study must not be written"
+    );
+}

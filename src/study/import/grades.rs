@@ -4,12 +4,20 @@ use std::collections::{HashMap, HashSet};
 
 use rusqlite::{Transaction, params};
 
-use super::{Fields, FileReport, GRADES, Source, content_uid, id_set, input_error, parse, report};
+use super::{
+    Fields, FileProgress, FileReport, GRADES, Source, content_uid, id_set, input_error, parse,
+    report,
+};
 use crate::study::csv_input::ProblemLog;
 use crate::study::{Result, schema, time};
 
-pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport> {
+pub(super) fn import_grades(
+    tx: &Transaction,
+    src: &Source,
+    progress: &mut FileProgress,
+) -> Result<FileReport> {
     let table = parse(src, &GRADES)?;
+    progress.total(table.rows.len() as u64);
     let contexts = id_set(tx, "SELECT context_id FROM contexts")?;
     let items = id_set(tx, "SELECT item_id FROM items")?;
     let mut scale_sizes: HashMap<String, i64> = HashMap::new();
@@ -130,6 +138,7 @@ pub(super) fn import_grades(tx: &Transaction, src: &Source) -> Result<FileReport
         [schema::BULK_GRADES_KEY],
     )?;
     for g in &grades {
+        progress.rows(report.added + report.unchanged);
         let value_text = g.value.map(|v| v.to_string()).unwrap_or_default();
         let seconds_text = g.seconds.map(|s| s.to_string()).unwrap_or_default();
         let parts = [

@@ -124,8 +124,77 @@ pub struct FileReport {
     pub warnings: Vec<String>,
 }
 
+/// Where an import stands, for a progress line or bar.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct ImportStep {
+    /// The file being imported, as messages call it.
+    pub file: String,
+    /// Files finished before this one, and files in the import.
+    pub files_done: usize,
+    pub files_total: usize,
+    /// Rows of this file written so far, and its rows (0 while it is being read).
+    pub rows_done: u64,
+    pub rows_total: u64,
+}
+
+/// Receives [`ImportStep`]s as an import runs (from the importing thread).
+pub type Progress<'a> = &'a mut dyn FnMut(&ImportStep);
+
+/// How many rows pass between two progress reports.
+const PROGRESS_EVERY: u64 = 20_000;
+
+/// Reports one file's progress; `rows` is called with (done, total) as rows are written.
+pub(super) struct FileProgress<'p> {
+    progress: &'p mut dyn FnMut(&ImportStep),
+    step: ImportStep,
+    last: u64,
+}
+
+impl<'p> FileProgress<'p> {
+    fn start(
+        progress: &'p mut dyn FnMut(&ImportStep),
+        src: &Source,
+        files_done: usize,
+        files_total: usize,
+    ) -> FileProgress<'p> {
+        FileProgress {
+            step: ImportStep {
+                file: src.name.clone(),
+                files_done,
+                files_total,
+                rows_done: 0,
+                rows_total: 0,
+            },
+            last: 0,
+            progress,
+        }
+    }
+
+    pub(super) fn total(&mut self, rows: u64) {
+        self.step.rows_total = rows;
+        (self.progress)(&self.step);
+    }
+
+    pub(super) fn rows(&mut self, done: u64) {
+        if done >= self.last + PROGRESS_EVERY {
+            self.last = done;
+            self.step.rows_done = done;
+            (self.progress)(&self.step);
+        }
+    }
+}
+
 /// Imports every file given, in dependency order, in one transaction.
 pub fn import(study: &mut Study, set: &ImportSet) -> Result<Vec<FileReport>> {
+    import_with_progress(study, set, &mut |_| {})
+}
+
+/// [`import`], reporting each file's progress as it goes.
+pub fn import_with_progress(
+    study: &mut Study,
+    set: &ImportSet,
+    progress: Progress,
+) -> Result<Vec<FileReport>> {
     if study.is_read_only() {
         return Err(StudyError::ReadOnly);
     }
@@ -137,7 +206,7 @@ pub fn import(study: &mut Study, set: &ImportSet) -> Result<Vec<FileReport>> {
     // Every reference was checked row by row before the store is touched (with its line
     // and column), so SQLite's own foreign-key probes would only repeat that work.
     study.conn().pragma_update(None, "foreign_keys", false)?;
-    let result = import_in_transaction(study, set);
+    let result = import_in_transaction(study, set, progress);
     study.conn().pragma_update(None, "foreign_keys", true)?;
     study
         .conn()
@@ -148,23 +217,45 @@ pub fn import(study: &mut Study, set: &ImportSet) -> Result<Vec<FileReport>> {
 /// Page cache during imports, in KiB (negative = KiB for SQLite's `cache_size`).
 const IMPORT_CACHE_KIB: i64 = -32_768;
 
-fn import_in_transaction(study: &mut Study, set: &ImportSet) -> Result<Vec<FileReport>> {
+fn import_in_transaction(
+    study: &mut Study,
+    set: &ImportSet,
+    progress: Progress,
+) -> Result<Vec<FileReport>> {
     let tx = study.begin_write()?;
     let mut reports = Vec::new();
+    let files = [
+        &set.scales,
+        &set.items,
+        &set.contexts,
+        &set.rankings,
+        &set.grades,
+    ];
+    let files_total = files.iter().filter(|f| f.is_some()).count();
+    let mut files_done = 0;
     if let Some(src) = &set.scales {
+        FileProgress::start(&mut *progress, src, files_done, files_total).total(0);
         reports.push(scales::import_scales(&tx, src)?);
+        files_done += 1;
     }
     if let Some(src) = &set.items {
+        FileProgress::start(&mut *progress, src, files_done, files_total).total(0);
         reports.push(catalog::import_items(&tx, src)?);
+        files_done += 1;
     }
     if let Some(src) = &set.contexts {
+        FileProgress::start(&mut *progress, src, files_done, files_total).total(0);
         reports.push(catalog::import_contexts(&tx, src)?);
+        files_done += 1;
     }
     if let Some(src) = &set.rankings {
-        reports.push(rankings::import_rankings(&tx, src)?);
+        let mut p = FileProgress::start(&mut *progress, src, files_done, files_total);
+        reports.push(rankings::import_rankings(&tx, src, &mut p)?);
+        files_done += 1;
     }
     if let Some(src) = &set.grades {
-        reports.push(grades::import_grades(&tx, src)?);
+        let mut p = FileProgress::start(&mut *progress, src, files_done, files_total);
+        reports.push(grades::import_grades(&tx, src, &mut p)?);
     }
     tx.commit()?;
     Ok(reports)

@@ -5,7 +5,9 @@ use std::collections::{HashMap, HashSet};
 
 use rusqlite::{Transaction, params};
 
-use super::{Fields, FileReport, RANKINGS, Source, id_set, input_error, parse, report};
+use super::{
+    Fields, FileProgress, FileReport, RANKINGS, Source, id_set, input_error, parse, report,
+};
 use crate::core::fast_hash::{FastMap, FastSet};
 use crate::study::Result;
 use crate::study::csv_input::{ProblemLog, Table};
@@ -201,8 +203,13 @@ pub(crate) fn read_lists<'a>(
     }
 }
 
-pub(super) fn import_rankings(tx: &Transaction, src: &Source) -> Result<FileReport> {
+pub(super) fn import_rankings(
+    tx: &Transaction,
+    src: &Source,
+    progress: &mut FileProgress,
+) -> Result<FileReport> {
     let table = parse(src, &RANKINGS)?;
+    progress.total(table.rows.len() as u64);
     let contexts = id_set(tx, "SELECT context_id FROM contexts")?;
     let items = id_set(tx, "SELECT item_id FROM items")?;
     let mut log = ProblemLog::default();
@@ -232,6 +239,7 @@ pub(super) fn import_rankings(tx: &Transaction, src: &Source) -> Result<FileRepo
     let mut ids: Vec<String> = Vec::new();
     let mut scores: Vec<Option<f64>> = Vec::new();
     for list in &read.lists {
+        progress.rows(report.added + report.updated + report.unchanged);
         if known_rankers.insert(list.ranker) {
             add_ranker.execute([list.ranker])?;
         }

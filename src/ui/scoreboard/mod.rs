@@ -29,8 +29,15 @@ pub enum ScoreboardAction {
 type GapJob = Task<JobResult<(String, usize, usize)>>;
 
 /// Reads the study and builds the model for `settings`; runs on a job thread.
-pub fn load(path: &Path, settings: ScoreSettings) -> JobResult<ScoreboardModel> {
-    let snapshot = Study::open(path)?.snapshot()?;
+pub fn load(
+    path: &Path,
+    settings: ScoreSettings,
+    lists_files: &[PathBuf],
+) -> JobResult<ScoreboardModel> {
+    let mut snapshot = Study::open(path)?.snapshot()?;
+    for file in lists_files {
+        snapshot.add_rankings_file(file)?;
+    }
     Ok(build(&snapshot, settings)?)
 }
 
@@ -52,6 +59,10 @@ pub struct ScoreboardScreen {
     gap_job: GapJob,
     pub message: Option<String>,
     export_job: Task<JobResult<String>>,
+    /// Rankings files scored beside the study's lists (nothing imported).
+    pub lists_files: Vec<PathBuf>,
+    /// The path typed for the next one.
+    pub lists_path: String,
 }
 
 impl Default for ScoreboardScreen {
@@ -70,6 +81,8 @@ impl Default for ScoreboardScreen {
             gap_job: Task::named("gap-queue"),
             message: None,
             export_job: Task::named("scoreboard-export"),
+            lists_files: Vec::new(),
+            lists_path: String::new(),
         }
     }
 }
@@ -127,7 +140,8 @@ impl ScoreboardScreen {
             let settings = self.wanted.clone();
             self.sent = Some(settings.clone());
             self.entered = false;
-            self.loading.start(ctx, move || load(&p, settings));
+            let files = self.lists_files.clone();
+            self.loading.start(ctx, move || load(&p, settings, &files));
         }
     }
 
@@ -342,6 +356,13 @@ impl ScoreboardScreen {
         });
         comparisons(ui, board);
         ui.add_space(10.0);
+        self.lists_from_files(ui);
+        let files_text = crate::analysis::render::rankings_files_text(board);
+        if !files_text.is_empty() {
+            ui.label(files_text.trim_end());
+        }
+        tables::pool_bias(ui, board, focus);
+        ui.add_space(10.0);
         let candidates: Vec<String> = board
             .rankers
             .iter()
@@ -378,6 +399,43 @@ impl ScoreboardScreen {
         if let Some(m) = &self.message {
             ui.add_space(6.0);
             ui.label(m);
+        }
+    }
+
+    /// "Score lists from a file": a typed path (no file dialog needed), scored beside the
+    /// study's lists on the next computation; nothing is imported.
+    fn lists_from_files(&mut self, ui: &mut egui::Ui) {
+        ui.horizontal(|ui| {
+            let label = ui.label("Score lists from a file (nothing imported):");
+            ui.add(
+                egui::TextEdit::singleline(&mut self.lists_path)
+                    .hint_text("path to a rankings CSV")
+                    .desired_width(320.0),
+            )
+            .labelled_by(label.id);
+            let path = PathBuf::from(self.lists_path.trim());
+            if ui
+                .add_enabled(
+                    !self.lists_path.trim().is_empty(),
+                    egui::Button::new("Score it"),
+                )
+                .clicked()
+                && !self.lists_files.contains(&path)
+            {
+                self.lists_files.push(path);
+                self.lists_path.clear();
+                self.entered = true;
+            }
+            if !self.lists_files.is_empty() && ui.button("Back to the study's lists").clicked() {
+                self.lists_files.clear();
+                self.entered = true;
+            }
+        });
+        for file in &self.lists_files {
+            ui.label(format!(
+                "Scoring {} beside the study's lists.",
+                file.display()
+            ));
         }
     }
 

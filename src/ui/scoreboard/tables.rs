@@ -193,3 +193,50 @@ fn order_text(board: &Scoreboard, means: &[f64]) -> String {
         .collect::<Vec<_>>()
         .join(" > ")
 }
+
+/// Pool bias at the focus k: each ranker with and without the pairs only it found.
+pub fn pool_bias(ui: &mut egui::Ui, board: &Scoreboard, focus: usize) {
+    let metric = format!("ndcg@{focus}");
+    let rows: Vec<_> = board
+        .pool_bias
+        .iter()
+        .filter(|p| p.metric == metric)
+        .collect();
+    if rows.is_empty() {
+        return;
+    }
+    ui.strong(format!("Is the pool fair to a newcomer? (pool bias at k = {focus})"))
+        .on_hover_text("Leave-one-out test of Zobel (1998), SIGIR: each ranker scored again as if the judged pairs only it found in its top k had never been judged. A large drop means a ranker that finds different items than the pooled ones is likely scored low.");
+    egui::Grid::new("sb_pool_bias")
+        .striped(true)
+        .show(ui, |ui| {
+            for title in [
+                "Ranker",
+                "NDCG as scored",
+                "Without its own pairs",
+                "Drop",
+                "Pairs only it found",
+                "Judged",
+                "Judged without them",
+            ] {
+                ui.strong(title);
+            }
+            ui.end_row();
+            for p in &rows {
+                ui.label(match &p.from_file {
+                    Some(file) => format!("{} (from {file})", p.ranker),
+                    None => p.ranker.clone(),
+                });
+                ui.label(format!("{:.3}", p.mean));
+                ui.label(p.mean_left_out.map_or("–".into(), |m| format!("{m:.3}")));
+                ui.label(p.drop.map_or("–".into(), |d| format!("{d:+.3}")));
+                ui.label(p.unique_pairs.to_string());
+                ui.label(format!("{:.0} %", p.judged * 100.0));
+                ui.label(format!("{:.0} %", p.judged_left_out * 100.0));
+                ui.end_row();
+            }
+        });
+    for p in &rows {
+        ui.label(crate::analysis::pool_bias::in_words(p));
+    }
+}

@@ -58,8 +58,14 @@ pub struct AgreementReport {
     /// Number of levels q the coefficients use: the scale's, or the coarse scale's after a
     /// collapse map.
     pub levels: usize,
-    /// Names of the reviewers who graded this scale, in reviewer-index order.
-    pub reviewers: Vec<String>,
+    /// Names of the panel's reviewers who graded this scale, in reviewer-index order
+    /// (machine judges only when the study counts them in the panel).
+    pub reviewer_names: Vec<String>,
+    /// Every reviewer who graded this scale, people and machine judges, with their gold
+    /// accuracy (on the scale's own levels, whatever the collapse map).
+    pub reviewers: Vec<super::reviewer_quality::ReviewerQuality>,
+    /// Every machine judge against the people's panel grade (settled, else lower median).
+    pub machines: Vec<super::reviewer_quality::MachineAgreement>,
     /// Pairs with at least one grade on this scale.
     pub units: usize,
     /// Number of "can't judge" grades on this scale (grades, not pairs); agreement leaves
@@ -67,11 +73,19 @@ pub struct AgreementReport {
     pub cant_judge: usize,
     /// Every two reviewers with at least one pair graded by both.
     pub pairs: Vec<ReviewerPair>,
-    /// Fleiss' kappa (Fleiss 1971) over the `fleiss_n` pairs graded by every reviewer;
-    /// NaN when there are none or fewer than two reviewers.
+    /// Fleiss' kappa (Fleiss 1971) over the `fleiss_n` pairs that have the most common
+    /// number of grades (`fleiss_grades_per_pair`; ties go to the larger number); NaN
+    /// when no pair has two grades.
     pub fleiss_kappa: f64,
-    /// Pairs graded by every reviewer of the panel (what Fleiss' kappa uses).
+    /// Pairs behind `fleiss_kappa`.
     pub fleiss_n: usize,
+    /// The number of grades every pair behind `fleiss_kappa` has.
+    pub fleiss_grades_per_pair: usize,
+    /// Fleiss' kappa over the pairs graded by every reviewer of the panel (the older
+    /// rule, which one late reviewer collapses to a handful of pairs).
+    pub fleiss_kappa_complete: f64,
+    /// Pairs graded by every reviewer of the panel.
+    pub fleiss_n_complete: usize,
     /// Krippendorff's alpha (Krippendorff 2011) with nominal distances: unordered levels.
     pub alpha_nominal: f64,
     /// Krippendorff's alpha with ordinal distances: ranked levels.
@@ -216,7 +230,9 @@ pub fn build(
             });
         }
     }
-    let (fleiss_kappa, fleiss_n) = agreement::fleiss_kappa(levels, &units);
+    let (fleiss_kappa, fleiss_n, fleiss_grades_per_pair) =
+        agreement::fleiss_kappa_modal(levels, &units);
+    let (fleiss_kappa_complete, fleiss_n_complete) = agreement::fleiss_kappa(levels, &units);
     let alpha_n = units
         .iter()
         .filter(|u| u.iter().flatten().count() >= 2)
@@ -248,16 +264,21 @@ pub fn build(
         scale: snapshot.scales[scale].name.clone(),
         collapse: collapse.map(|c| c.name.clone()),
         levels,
-        reviewers: table
+        reviewer_names: table
             .reviewers
             .iter()
             .map(|r| snapshot.reviewers[*r as usize].clone())
             .collect(),
+        reviewers: super::reviewer_quality::reviewers(snapshot, scale),
+        machines: super::reviewer_quality::machines(snapshot, scale),
         units: units.len(),
         cant_judge: table.cant_judge,
         pairs,
         fleiss_kappa,
         fleiss_n,
+        fleiss_grades_per_pair,
+        fleiss_kappa_complete,
+        fleiss_n_complete,
         alpha_nominal: agreement::krippendorff_alpha(levels, &units, AlphaLevel::Nominal),
         alpha_ordinal: agreement::krippendorff_alpha(levels, &units, AlphaLevel::Ordinal),
         alpha_ordinal_ci_low: ci_low,

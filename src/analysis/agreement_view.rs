@@ -93,6 +93,14 @@ fn build_in(
         None => HashSet::new(),
     };
     let mut grades = study.grade_details(&scale_name)?;
+    if !snapshot.machines_in_panel {
+        // Machine judges are measured against the panel, never part of its review.
+        grades.retain(|g| {
+            snapshot
+                .reviewer_index(&g.reviewer)
+                .is_none_or(|r| !snapshot.is_machine(r))
+        });
+    }
     if !pending.is_empty() {
         // Blind rule: drop every grade of the viewer's ungraded pairs before computing
         // anything, so no number, list or detail can reveal the others' levels.

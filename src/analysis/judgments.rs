@@ -132,9 +132,16 @@ pub fn resolve_with(
         },
         GradeSource::Panel => None,
     };
-    // Grades are sorted by (scale, context, item, reviewer): walk runs of one pair.
-    let grades: Vec<_> = snapshot
-        .grades
+    // Grades are sorted by (scale, context, item, reviewer): walk runs of one pair. A
+    // machine judge's own grades live apart from the panel's unless the study counts
+    // machines in the panel.
+    let source = match reviewer {
+        Some(r) if snapshot.is_machine(r as usize) && !snapshot.machines_in_panel => {
+            &snapshot.machine_grades
+        }
+        _ => &snapshot.grades,
+    };
+    let grades: Vec<_> = source
         .iter()
         .filter(|g| g.scale as usize == scale)
         .collect();

@@ -13,6 +13,7 @@ pub mod panel_review;
 pub mod pool_bias;
 pub mod render;
 pub mod report;
+pub mod reviewer_quality;
 pub mod scoreboard;
 pub mod scoreboard_view;
 pub mod segment;

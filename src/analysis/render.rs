@@ -300,7 +300,7 @@ pub fn agreement_text(report: &AgreementReport) -> String {
             .map(|c| format!(" (collapsed by {c})"))
             .unwrap_or_default(),
         report.levels,
-        report.reviewers.join(", ")
+        report.reviewer_names.join(", ")
     );
     let _ = writeln!(
         out,
@@ -341,9 +341,12 @@ pub fn agreement_text(report: &AgreementReport) -> String {
     out.push_str(&aligned(&rows));
     let _ = writeln!(
         out,
-        "\nPanel: Fleiss' kappa {} (n = {}), Krippendorff's alpha nominal {} · ordinal {} [{}, {}] · interval {} (n = {}), Gwet's AC1 {}",
+        "\nPanel: Fleiss' kappa {} (n = {} pairs with {} grades each; {} over the {} pairs graded by everyone), Krippendorff's alpha nominal {} · ordinal {} [{}, {}] · interval {} (n = {}), Gwet's AC1 {}",
         num(report.fleiss_kappa),
         report.fleiss_n,
+        report.fleiss_grades_per_pair,
+        num(report.fleiss_kappa_complete),
+        report.fleiss_n_complete,
         num(report.alpha_nominal),
         num(report.alpha_ordinal),
         num(report.alpha_ordinal_ci_low),
@@ -353,8 +356,98 @@ pub fn agreement_text(report: &AgreementReport) -> String {
         num(report.ac1)
     );
     let _ = writeln!(out, "Bands: {}", report.band_source);
+    out.push_str(&reviewer_quality_text(report));
     for c in &report.cautions {
         let _ = writeln!(out, "Caution: {c}");
+    }
+    out
+}
+
+/// Gold accuracy per reviewer and each machine judge against the people's panel grade.
+fn reviewer_quality_text(report: &AgreementReport) -> String {
+    let mut out = String::new();
+    if report
+        .reviewers
+        .iter()
+        .any(|r| r.gold_n + r.gold_cant_judge > 0)
+    {
+        out.push_str("\nGold pairs (known levels):\n");
+        let mut rows = vec![
+            [
+                "reviewer",
+                "kind",
+                "grades",
+                "gold graded",
+                "exactly right",
+                "within one",
+                "can't judge",
+                "by day (exactly right)",
+            ]
+            .map(String::from)
+            .to_vec(),
+        ];
+        let share = |x: Option<f64>| x.map_or("–".into(), |v| format!("{:.0}%", v * 100.0));
+        for r in &report.reviewers {
+            rows.push(vec![
+                r.reviewer.clone(),
+                r.kind.to_string(),
+                r.grades.to_string(),
+                r.gold_n.to_string(),
+                share(r.gold_exact),
+                share(r.gold_within_one),
+                r.gold_cant_judge.to_string(),
+                r.gold_by_day
+                    .iter()
+                    .map(|d| format!("{} {:.0}% of {}", d.day, d.exact * 100.0, d.n))
+                    .collect::<Vec<_>>()
+                    .join(", "),
+            ]);
+        }
+        out.push_str(&aligned(&rows));
+    }
+    if !report.machines.is_empty() {
+        out.push_str(
+            "\nMachine judges against the people's panel grade (settled, else lower median):\n",
+        );
+        let mut rows = vec![
+            [
+                "judge",
+                "n",
+                "kappa",
+                "quadratic",
+                "AC1",
+                "exactly equal",
+                "new",
+                "established",
+                "query",
+                "anchor",
+            ]
+            .map(String::from)
+            .to_vec(),
+        ];
+        for m in &report.machines {
+            let mut row = vec![
+                m.reviewer.clone(),
+                m.n.to_string(),
+                num(m.kappa),
+                num(m.kappa_quadratic),
+                num(m.ac1),
+                if m.exact.is_finite() {
+                    format!("{:.0}%", m.exact * 100.0)
+                } else {
+                    "–".into()
+                },
+            ];
+            for s in &m.by_segment {
+                row.push(match s.kappa {
+                    Some(k) => format!("κ {} (n {})", num(k), s.n),
+                    None => format!("– (n {})", s.n),
+                });
+            }
+            rows.push(row);
+        }
+        out.push_str(&aligned(&rows));
+        let _ = writeln!(out, "Caution: {}", super::reviewer_quality::MACHINE_CAUTION);
     }
     out
 }
@@ -390,6 +483,11 @@ pub fn agreement_csv(report: &AgreementReport) -> String {
     }
     for (name, value, n) in [
         ("fleiss_kappa", report.fleiss_kappa, report.fleiss_n),
+        (
+            "fleiss_kappa_complete",
+            report.fleiss_kappa_complete,
+            report.fleiss_n_complete,
+        ),
         ("alpha_nominal", report.alpha_nominal, report.alpha_n),
         ("alpha_ordinal", report.alpha_ordinal, report.alpha_n),
         ("alpha_interval", report.alpha_interval, report.alpha_n),

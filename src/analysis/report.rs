@@ -212,7 +212,7 @@ pub fn markdown(board: &Scoreboard, agreement: Option<&AgreementReport>) -> Stri
                 out,
                 "Scale {} · reviewers {} · {} pairs graded, {} can't-judge grades left out.\n",
                 a.scale,
-                a.reviewers.join(", "),
+                a.reviewer_names.join(", "),
                 a.units,
                 a.cant_judge
             );
@@ -246,9 +246,12 @@ pub fn markdown(board: &Scoreboard, agreement: Option<&AgreementReport>) -> Stri
             table(&mut out, &header, &rows);
             let _ = writeln!(
                 out,
-                "- **Fleiss' kappa:** {} (pairs graded by every reviewer: {})",
+                "- **Fleiss' kappa:** {} over the {} pairs with {} grades each (the most common number); {} over the {} pairs graded by every reviewer",
                 num(a.fleiss_kappa),
-                a.fleiss_n
+                a.fleiss_n,
+                a.fleiss_grades_per_pair,
+                num(a.fleiss_kappa_complete),
+                a.fleiss_n_complete
             );
             let _ = writeln!(
                 out,

@@ -36,7 +36,18 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             rankings,
             scales,
             grades,
-        }) => import_files(&study, items, contexts, rankings, scales, grades),
+            gold,
+        }) => import_files(
+            &study,
+            ImportPaths {
+                items,
+                contexts,
+                rankings,
+                scales,
+                grades,
+                gold,
+            },
+        ),
         Some(Command::Score {
             study,
             scale,
@@ -305,33 +316,38 @@ fn open(path: &Path) -> Result<Study, Failure> {
     Ok(study)
 }
 
-fn import_files(
-    study: &Path,
+/// The files `plumbline import` was given.
+struct ImportPaths {
     items: Option<PathBuf>,
     contexts: Option<PathBuf>,
     rankings: Option<PathBuf>,
     scales: Option<PathBuf>,
     grades: Option<PathBuf>,
-) -> Result<(), Failure> {
+    gold: Option<PathBuf>,
+}
+
+fn import_files(study: &Path, paths: ImportPaths) -> Result<(), Failure> {
     let read = |p: Option<PathBuf>| -> Result<Option<Source>, Failure> {
         p.map(|p| Source::from_path(&p).map_err(|e| Failure::input(e.to_string())))
             .transpose()
     };
     let set = ImportSet {
-        items: read(items)?,
-        contexts: read(contexts)?,
-        rankings: read(rankings)?,
-        scales: read(scales)?,
-        grades: read(grades)?,
+        items: read(paths.items)?,
+        contexts: read(paths.contexts)?,
+        rankings: read(paths.rankings)?,
+        scales: read(paths.scales)?,
+        grades: read(paths.grades)?,
+        gold: read(paths.gold)?,
     };
     if set.items.is_none()
         && set.contexts.is_none()
         && set.rankings.is_none()
         && set.scales.is_none()
         && set.grades.is_none()
+        && set.gold.is_none()
     {
         return Err(Failure::input(
-            "name at least one file to import (--items, --contexts, --rankings, --scales, --grades)",
+            "name at least one file to import (--items, --contexts, --rankings, --scales, --grades, --gold)",
         ));
     }
     let mut study = open(study)?;

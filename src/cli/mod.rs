@@ -97,6 +97,9 @@ pub enum Command {
         scales: Option<PathBuf>,
         #[arg(long)]
         grades: Option<PathBuf>,
+        /// Gold pairs: context_id, item_id, scale, value (the known level), rationale.
+        #[arg(long)]
+        gold: Option<PathBuf>,
     },
     /// Score every ranker with graded metrics, intervals and paired tests.
     Score {

@@ -238,6 +238,36 @@ pub fn fleiss_kappa(levels: usize, units: &[Vec<Option<u8>>]) -> (f64, usize) {
     ((p_bar - p_e) / (1.0 - p_e), n)
 }
 
+/// Fleiss' kappa (Fleiss 1971) over the pairs with the most common number of grades.
+/// Fleiss needs the same number of ratings on every unit, not the same raters, so a
+/// late reviewer who graded a few pairs does not shrink it to the pairs everyone
+/// graded. Counts are of levels given (None left out); the most common count of at
+/// least 2 wins, a tie going to the larger count. Returns (kappa, pairs used, grades
+/// per pair); kappa is NaN when no pair has two grades.
+pub fn fleiss_kappa_modal(levels: usize, units: &[Vec<Option<u8>>]) -> (f64, usize, usize) {
+    let count = |u: &Vec<Option<u8>>| u.iter().flatten().count();
+    let mut frequency: std::collections::BTreeMap<usize, usize> = Default::default();
+    for u in units {
+        let c = count(u);
+        if c >= 2 {
+            *frequency.entry(c).or_default() += 1;
+        }
+    }
+    let Some((&m, _)) = frequency
+        .iter()
+        .max_by(|a, b| a.1.cmp(b.1).then(a.0.cmp(b.0)))
+    else {
+        return (f64::NAN, 0, 0);
+    };
+    let rows: Vec<Vec<Option<u8>>> = units
+        .iter()
+        .filter(|u| count(u) == m)
+        .map(|u| u.iter().flatten().map(|v| Some(*v)).collect())
+        .collect();
+    let (kappa, n) = fleiss_kappa(levels, &rows);
+    (kappa, n, m)
+}
+
 /// The level of measurement for Krippendorff's alpha.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum AlphaLevel {

@@ -292,6 +292,13 @@ fn grade_as(
             0.85
         };
         let median = if useful2 { 3.4 } else { 5.2 };
+        // rev-birch drifts: from the third day on they grade most of a level more
+        // strictly, which their gold pairs show day by day.
+        let drift = if r == 1 && clock >= 2 * 86_400 {
+            -0.8
+        } else {
+            0.0
+        };
         let mut seconds = (median * hard * (0.45 * rng.normal()).exp()).max(0.8);
         let (mut value, mut reason, mut note) = (None, "", "");
         if useful2 {
@@ -300,7 +307,7 @@ fn grade_as(
             seconds *= 2.5;
             reason = why;
         } else {
-            value = Some(level(seen[p][r]));
+            value = Some(level(seen[p][r] + drift));
             if rng.chance(0.03) {
                 note = *rng.pick(&NOTES);
             }
@@ -470,6 +477,39 @@ fn grades_csv(grades: &[Grade], ctxs: &[Ctx], items: &[Item]) -> String {
     csv.0
 }
 
+/// Gold pairs: two dozen pairs every reviewer graded on fit4, with the level the catalog
+/// team agreed (the pair's true level in the simulation) and why.
+fn gold_csv(grades: &[Grade], util: &[Vec<f64>], ctxs: &[Ctx], items: &[Item]) -> String {
+    let mut graders: BTreeMap<(usize, usize), usize> = BTreeMap::new();
+    for g in grades.iter().filter(|g| !g.useful2 && g.value.is_some()) {
+        *graders.entry((g.ctx, g.item)).or_default() += 1;
+    }
+    let shared: Vec<(usize, usize)> = graders
+        .into_iter()
+        .filter(|(_, n)| *n == REVIEWERS.len())
+        .map(|(pair, _)| pair)
+        .collect();
+    let step = (shared.len() / GOLD_PAIRS).max(1);
+    let mut csv = Csv::new("context_id,item_id,scale,value,rationale");
+    for &(c, i) in shared.iter().step_by(step).take(GOLD_PAIRS) {
+        let v = level(util[c][i]);
+        let why = match v {
+            0 => format!("{} does not answer this context at all.", items[i].title),
+            1 => format!(
+                "{} is in the right area but misses what was asked.",
+                items[i].title
+            ),
+            2 => format!("{} fits, with one clear shortcoming.", items[i].title),
+            _ => format!("{} is exactly what was asked for.", items[i].title),
+        };
+        csv.row(&[&ctxs[c].id, &items[i].id, "fit4", &v.to_string(), &why]);
+    }
+    csv.0
+}
+
+/// How many gold pairs the demo has.
+const GOLD_PAIRS: usize = 24;
+
 // ---------------------------------------------------------------- entry point
 
 /// Writes the whole demo catalog into `out_dir`, replacing earlier output.
@@ -523,6 +563,10 @@ pub fn write_demo_catalog(out_dir: &Path) -> io::Result<()> {
     fs::write(
         out_dir.join("grades.csv"),
         grades_csv(&grades, &ctxs, &items),
+    )?;
+    fs::write(
+        out_dir.join("gold.csv"),
+        gold_csv(&grades, &util, &ctxs, &items),
     )?;
     fs::write(
         out_dir.join("README.md"),

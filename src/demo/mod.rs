@@ -62,6 +62,7 @@ pub fn build_demo_study(path: &Path) -> Result<(), StudyError> {
         rankings: source("rankings.csv")?,
         scales: source("scales.csv")?,
         grades: source("grades.csv")?,
+        gold: source("gold.csv")?,
     };
     let mut study = Study::create(path)?;
     import::import(&mut study, &set)?;

@@ -64,18 +64,30 @@ impl Study {
     pub fn export_grades(&self, out: &mut dyn Write) -> Result<u64> {
         let mut writer = csv::Writer::from_writer(out);
         let csv_err = |e: csv::Error| super::StudyError::Io(std::io::Error::other(e));
-        writer.write_record(GRADE_COLUMNS).map_err(csv_err)?;
+        // A `kind` column only when the study has a machine judge, so that a people-only
+        // study exports exactly as it always did.
+        let has_machines: bool = self.conn().query_row(
+            "SELECT EXISTS (SELECT 1 FROM reviewers WHERE kind = 'machine')",
+            [],
+            |r| r.get(0),
+        )?;
+        let mut header: Vec<&str> = GRADE_COLUMNS.to_vec();
+        if has_machines {
+            header.push("kind");
+        }
+        writer.write_record(&header).map_err(csv_err)?;
         let mut rows = 0u64;
         let mut stmt = self.conn().prepare(
             "SELECT e.reviewer, e.context_id, e.item_id, e.scale, e.value, e.reason, e.seconds,
-                    e.graded_at, e.note, '' AS settled_by, x.text, i.title
+                    e.graded_at, e.note, '' AS settled_by, x.text, i.title, v.kind
              FROM current_grades c
              JOIN grade_events e ON e.id = c.event_id
+             JOIN reviewers v ON v.reviewer = e.reviewer
              JOIN contexts x ON x.context_id = e.context_id
              JOIN items i ON i.item_id = e.item_id
              UNION ALL
              SELECT ?1, s.context_id, s.item_id, s.scale, s.value, s.reason, NULL,
-                    s.settled_at, '', s.settled_by, x.text, i.title
+                    s.settled_at, '', s.settled_by, x.text, i.title, ''
              FROM settle_events s
              JOIN contexts x ON x.context_id = s.context_id
              JOIN items i ON i.item_id = s.item_id
@@ -103,8 +115,16 @@ impl Study {
                 r.get(10)?,
                 r.get(11)?,
             ];
+            let kind: String = r.get(12)?;
+            let kind = [kind];
+            let extra: &[String] = if has_machines { &kind } else { &[] };
             writer
-                .write_record(texts.iter().map(|t| neutralise(t).into_owned()))
+                .write_record(
+                    texts
+                        .iter()
+                        .chain(extra)
+                        .map(|t| neutralise(t).into_owned()),
+                )
                 .map_err(csv_err)?;
             rows += 1;
         }

@@ -189,6 +189,16 @@ END;
     // imports switch the keep-current trigger off for their own transaction and keep
     // `current_grades` in one set-based pass (`study::import::grades`).
     Migration::Code(compact_ranked_lists),
+    // 4: machine judges beside people (their grades stay out of the panel unless the
+    // lead turns that on), and gold pairs with the rationale shown to reviewers in
+    // training.
+    Migration::Sql(
+        r#"
+ALTER TABLE reviewers ADD COLUMN kind TEXT NOT NULL DEFAULT 'person'
+    CHECK (kind IN ('person', 'machine'));
+ALTER TABLE gold_pairs ADD COLUMN rationale TEXT NOT NULL DEFAULT '';
+"#,
+    ),
 ];
 
 /// Marks a write transaction whose grade events keep `current_grades` in one pass of
@@ -218,11 +228,15 @@ SELECT l.ranker, l.context_id, j.key + 1, j.value,
 FROM ranked_lists l, json_each(l.items) j;
 -- The grade's value and time beside it, so that loading every current grade is one
 -- scan (events never change once written, so the copy cannot go stale).
+-- `graded_day` is the UTC day of `graded_at`, counted from 1970-01-01 (for drift by day).
 ALTER TABLE current_grades ADD COLUMN value INTEGER;
 ALTER TABLE current_grades ADD COLUMN seconds REAL;
+ALTER TABLE current_grades ADD COLUMN graded_day INTEGER;
 UPDATE current_grades SET
     value = (SELECT e.value FROM grade_events e WHERE e.id = current_grades.event_id),
-    seconds = (SELECT e.seconds FROM grade_events e WHERE e.id = current_grades.event_id);
+    seconds = (SELECT e.seconds FROM grade_events e WHERE e.id = current_grades.event_id),
+    graded_day = (SELECT CAST(julianday(date(e.graded_at)) - 2440587.5 AS INTEGER)
+                  FROM grade_events e WHERE e.id = current_grades.event_id);
 DROP TRIGGER grade_events_keep_current;
 CREATE TRIGGER grade_events_keep_current AFTER INSERT ON grade_events
 WHEN NOT EXISTS (SELECT 1 FROM settings WHERE key = 'bulk_grade_import')
@@ -239,8 +253,9 @@ BEGIN
     DELETE FROM current_grades
     WHERE scale = NEW.scale AND context_id = NEW.context_id AND item_id = NEW.item_id
       AND reviewer = NEW.reviewer;
-    INSERT INTO current_grades(scale, context_id, item_id, reviewer, event_id, value, seconds)
-    SELECT NEW.scale, NEW.context_id, NEW.item_id, NEW.reviewer, NEW.id, NEW.value, NEW.seconds
+    INSERT INTO current_grades(scale, context_id, item_id, reviewer, event_id, value, seconds, graded_day)
+    SELECT NEW.scale, NEW.context_id, NEW.item_id, NEW.reviewer, NEW.id, NEW.value, NEW.seconds,
+           CAST(julianday(date(NEW.graded_at)) - 2440587.5 AS INTEGER)
     WHERE NEW.action != 'undo';
 END;
 "#;
@@ -313,8 +328,9 @@ pub fn refresh_current_grades(conn: &Connection, after: i64) -> rusqlite::Result
               AND l.reviewer = e.reviewer AND l.graded_at = e.graded_at AND l.id > e.id)";
     conn.execute(
         &format!(
-            "INSERT OR REPLACE INTO current_grades(scale, context_id, item_id, reviewer, event_id, value, seconds)
-             SELECT e.scale, e.context_id, e.item_id, e.reviewer, e.id, e.value, e.seconds
+            "INSERT OR REPLACE INTO current_grades(scale, context_id, item_id, reviewer, event_id, value, seconds, graded_day)
+             SELECT e.scale, e.context_id, e.item_id, e.reviewer, e.id, e.value, e.seconds,
+                    CAST(julianday(date(e.graded_at)) - 2440587.5 AS INTEGER)
              FROM grade_events e WHERE e.id > ?1 AND e.action != 'undo' AND {LATEST}"
         ),
         [after],

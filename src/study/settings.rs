@@ -30,6 +30,12 @@ pub mod keys {
     pub const COPY_ID: &str = "copy_id";
     /// Marks the built-in demo study.
     pub const DEMO: &str = "demo";
+    /// `true` when machine judges' grades count in the panel grade, agreement and
+    /// settling (off by default: they are measured against the people instead).
+    pub const MACHINES_IN_PANEL: &str = "machines_in_panel";
+    /// Reviewers in training, comma separated: after grading a gold pair they see its
+    /// known level and rationale.
+    pub const TRAINING_REVIEWERS: &str = "training_reviewers";
 }
 
 /// Pool depth k when the study names none (common practice: 10, the depth most
@@ -55,6 +61,10 @@ pub struct StudySettings {
     pub gold_rate: f64,
     /// The stored active scale, which may name a scale that no longer exists.
     pub active_scale: Option<String>,
+    /// Whether machine judges' grades count in the panel (default false).
+    pub machines_in_panel: bool,
+    /// Reviewers who see a gold pair's level and rationale after grading it.
+    pub training_reviewers: Vec<String>,
 }
 
 impl Study {
@@ -77,6 +87,15 @@ impl Study {
             overlap_share: self.setting_or(keys::OVERLAP_SHARE, DEFAULT_OVERLAP_SHARE)?,
             gold_rate: self.setting_or(keys::GOLD_RATE, DEFAULT_GOLD_RATE)?,
             active_scale: self.setting(keys::ACTIVE_SCALE)?,
+            machines_in_panel: self.setting_or(keys::MACHINES_IN_PANEL, false)?,
+            training_reviewers: self
+                .setting(keys::TRAINING_REVIEWERS)?
+                .unwrap_or_default()
+                .split(',')
+                .map(str::trim)
+                .filter(|r| !r.is_empty())
+                .map(str::to_string)
+                .collect(),
         })
     }
 }

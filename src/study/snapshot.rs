@@ -31,6 +31,14 @@ pub struct GradeRow {
     pub scale: u32,
     pub value: Option<u8>,
     pub seconds: Option<f64>,
+    /// UTC day of the grade, counted from 1970-01-01 (see [`day_text`]).
+    pub day: i32,
+}
+
+/// A day number of [`GradeRow::day`] as `YYYY-MM-DD`.
+pub fn day_text(day: i32) -> String {
+    let text = super::time::format_millis(i64::from(day) * 86_400_000);
+    text.get(..10).unwrap_or(&text).to_string()
 }
 
 /// A settled grade in force.
@@ -61,8 +69,18 @@ pub struct Snapshot {
     pub lists: Vec<Vec<Vec<u32>>>,
     pub scales: Vec<Scale>,
     pub reviewers: Vec<String>,
+    /// Current grades that make up the panel: the people's, and the machine judges' too
+    /// only when the study counts them in the panel.
     pub grades: Vec<GradeRow>,
+    /// Every machine judge's current grades (measured against the people's panel grade).
+    pub machine_grades: Vec<GradeRow>,
+    /// Per reviewer: true for a machine judge.
+    pub machines: Vec<bool>,
+    /// Whether machine grades also count in `grades` (the study's `machines_in_panel`).
+    pub machines_in_panel: bool,
     pub settled: Vec<SettledRow>,
+    /// Gold pairs: (context, item, scale, known level).
+    pub gold: Vec<(u32, u32, u32, u8)>,
     /// Lists from files for this run (`score --rankings`); empty for a plain snapshot.
     pub outside: super::outside_lists::OutsideLists,
 }
@@ -88,6 +106,22 @@ impl Snapshot {
 
     pub fn reviewer_index(&self, name: &str) -> Option<usize> {
         self.reviewers.iter().position(|r| r == name)
+    }
+
+    /// Whether a reviewer is a machine judge.
+    pub fn is_machine(&self, reviewer: usize) -> bool {
+        self.machines.get(reviewer).copied().unwrap_or(false)
+    }
+
+    /// One reviewer's current grades, people's and machines' alike.
+    pub fn grades_of(&self, reviewer: usize) -> impl Iterator<Item = &GradeRow> {
+        let source = match self.is_machine(reviewer) && !self.machines_in_panel {
+            true => &self.machine_grades,
+            false => &self.grades,
+        };
+        source
+            .iter()
+            .filter(move |g| g.reviewer as usize == reviewer)
     }
 
     /// The scale with the most grades (ties: first by name); the default for `--scale`.
@@ -151,10 +185,12 @@ impl Study {
             .prepare("SELECT ranker FROM rankers ORDER BY ranker")?
             .query_map([], |r| r.get(0))?
             .collect::<std::result::Result<_, _>>()?;
-        let reviewers: Vec<String> = conn
-            .prepare("SELECT reviewer FROM reviewers ORDER BY reviewer")?
-            .query_map([], |r| r.get(0))?
-            .collect::<std::result::Result<_, _>>()?;
+        let (reviewers, machines): (Vec<String>, Vec<bool>) = conn
+            .prepare("SELECT reviewer, kind = 'machine' FROM reviewers ORDER BY reviewer")?
+            .query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, bool>(1)?)))?
+            .collect::<std::result::Result<Vec<_>, _>>()?
+            .into_iter()
+            .unzip();
         let item_ids: Vec<String> = items.iter().map(|i| i.id.clone()).collect();
         let context_ids: Vec<String> = contexts.iter().map(|c| c.id.clone()).collect();
         let item_index = index_of(&item_ids);
@@ -216,7 +252,7 @@ impl Study {
             // One scan in key order (scale, context, item, reviewer): a run of rows shares
             // its scale and context, so those are looked up once per run.
             let mut stmt = conn.prepare(
-                "SELECT reviewer, context_id, item_id, scale, value, seconds FROM current_grades",
+                "SELECT reviewer, context_id, item_id, scale, value, seconds, graded_day FROM current_grades",
             )?;
             let mut rows = stmt.query([])?;
             let (mut scale_key, mut context_key) = (String::new(), String::new());
@@ -239,10 +275,19 @@ impl Study {
                     scale: scale_at,
                     value: r.get(4)?,
                     seconds: r.get(5)?,
+                    day: r.get::<_, Option<i32>>(6)?.unwrap_or(0),
                 });
             }
         }
         grades.sort_by_key(|g| (g.scale, g.context, g.item, g.reviewer));
+        let machine_grades: Vec<GradeRow> = grades
+            .iter()
+            .filter(|g| machines[g.reviewer as usize])
+            .copied()
+            .collect();
+        if !settings.machines_in_panel && !machine_grades.is_empty() {
+            grades.retain(|g| !machines[g.reviewer as usize]);
+        }
 
         let mut settled = Vec::new();
         {
@@ -265,6 +310,20 @@ impl Study {
                 });
             }
         }
+        let mut gold = Vec::new();
+        {
+            let mut stmt =
+                conn.prepare("SELECT context_id, item_id, scale, value FROM gold_pairs")?;
+            let mut rows = stmt.query([])?;
+            while let Some(r) = rows.next()? {
+                gold.push((
+                    context_index[r.get_ref(0)?.as_str()?],
+                    item_index[r.get_ref(1)?.as_str()?],
+                    scale_index[r.get_ref(2)?.as_str()?],
+                    r.get(3)?,
+                ));
+            }
+        }
         Ok(Snapshot {
             name: settings.name,
             stored_baseline: settings.baseline,
@@ -277,7 +336,11 @@ impl Study {
             scales,
             reviewers,
             grades,
+            machine_grades,
+            machines,
+            machines_in_panel: settings.machines_in_panel,
             settled,
+            gold,
             outside: Default::default(),
         })
     }

@@ -85,7 +85,8 @@ enum Table {
     Rankers,
 }
 
-const KINDS: [&str; 5] = ["items", "contexts", "rankings", "scales", "grades"];
+/// The files the import panel takes, in its order; `gold` holds gold pairs (known levels).
+const KINDS: [&str; 6] = ["items", "contexts", "rankings", "scales", "grades", "gold"];
 
 /// Shared between the import thread and the screen: (fraction, what is happening).
 type Progress = Arc<Mutex<(f32, String)>>;
@@ -95,7 +96,7 @@ type ImportJob = Task<JobResult<Vec<FileReport>>>;
 
 fn run_import(
     path: &Path,
-    files: [Option<PathBuf>; 5],
+    files: [Option<PathBuf>; 6],
     progress: &Progress,
 ) -> JobResult<Vec<FileReport>> {
     let set_progress = |f: f32, text: String| {
@@ -104,7 +105,7 @@ fn run_import(
         }
     };
     let total = files.iter().flatten().count().max(1) as f32;
-    let mut sources: [Option<Source>; 5] = Default::default();
+    let mut sources: [Option<Source>; 6] = Default::default();
     let mut read = 0.0;
     for (k, file) in files.iter().enumerate() {
         if let Some(file) = file {
@@ -117,13 +118,14 @@ fn run_import(
         0.5,
         "checking and writing every row in one transaction".into(),
     );
-    let [items, contexts, rankings, scales, grades] = sources;
+    let [items, contexts, rankings, scales, grades, gold] = sources;
     let set = ImportSet {
         items,
         contexts,
         rankings,
         scales,
         grades,
+        gold,
     };
     let mut study = Study::open(path)?;
     let reports = import_with_progress(&mut study, &set, &mut |step| {
@@ -151,8 +153,8 @@ pub struct Catalog {
     filtered_for: Option<(String, Table)>,
     filtered: Vec<usize>,
     images: Option<ImageCache>,
-    files: [String; 5],
-    dialogs: [Task<Option<PathBuf>>; 5],
+    files: [String; 6],
+    dialogs: [Task<Option<PathBuf>>; 6],
     importing: ImportJob,
     progress: Progress,
     pub reports: Vec<FileReport>,
@@ -339,7 +341,7 @@ impl Catalog {
                             ui.end_row();
                         }
                     });
-                let chosen: [Option<PathBuf>; 5] = std::array::from_fn(|k| {
+                let chosen: [Option<PathBuf>; 6] = std::array::from_fn(|k| {
                     let t = self.files[k].trim();
                     (!t.is_empty()).then(|| PathBuf::from(t))
                 });

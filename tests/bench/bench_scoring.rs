@@ -52,6 +52,7 @@ fn synthetic() -> (Snapshot, Vec<u8>) {
                 scale: 0,
                 value: Some(level),
                 seconds: None,
+                day: 0,
             });
         }
     }
@@ -92,6 +93,7 @@ fn synthetic() -> (Snapshot, Vec<u8>) {
         grades,
         settled: Vec::new(),
         outside: Default::default(),
+        ..Default::default()
     };
     (snapshot, ranked_levels)
 }

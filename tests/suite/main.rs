@@ -24,6 +24,7 @@ mod rankings_file;
 mod reference_libraries;
 mod reliability;
 mod report;
+mod reviewer_quality;
 mod scales;
 mod settle;
 mod store;

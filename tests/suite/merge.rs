@@ -233,7 +233,7 @@ fn grades_by_a_reviewer_the_copy_was_not_handed_to_are_refused_by_name() {
     tamper(
         &copy,
         &format!(
-            "INSERT OR IGNORE INTO reviewers VALUES ('ann');
+            "INSERT OR IGNORE INTO reviewers(reviewer) VALUES ('ann');
              {GRADE} VALUES ('x1', 'ann', 'q1', 'i1', 'fit', 'grade', 0, '', 1, '2026-11-30T10:00:00.000Z', ''),
                     ('x2', 'ann', 'q1', 'i2', 'fit', 'grade', 0, '', 1, '2026-11-30T10:00:01.000Z', '');"
         ),
@@ -254,7 +254,7 @@ fn a_new_reviewer_in_a_copy_is_refused_by_name() {
     tamper(
         &copy,
         &format!(
-            "INSERT INTO reviewers VALUES ('mallory');
+            "INSERT INTO reviewers(reviewer) VALUES ('mallory');
              {GRADE} VALUES ('m1', 'mallory', 'q1', 'i1', 'fit', 'grade', 2, '', 1, '2026-11-30T10:00:00.000Z', '');"
         ),
     );
@@ -267,7 +267,7 @@ fn undo_rows_against_another_reviewer_are_refused() {
     tamper(
         &copy,
         &format!(
-            "INSERT OR IGNORE INTO reviewers VALUES ('ann');
+            "INSERT OR IGNORE INTO reviewers(reviewer) VALUES ('ann');
              {GRADE} VALUES ('u1', 'ann', 'q1', 'i1', 'fit', 'undo', NULL, '', 0, '2026-11-30T10:00:00.000Z', '');"
         ),
     );
@@ -386,7 +386,8 @@ fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
     let (_f, study, copy) = lead_and_copy();
     {
         // Put the copy back at schema 1 (the first trigger, one row per ranked entry,
-        // current grades without their values), as an older build wrote it.
+        // current grades without their values, reviewers without a kind, gold pairs
+        // without a rationale), as an older build wrote it.
         let plumbline::study::schema::Migration::Sql(v1) = plumbline::study::schema::MIGRATIONS[0]
         else {
             panic!("the first schema is SQL")
@@ -398,19 +399,27 @@ fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
         tamper(
             &copy,
             &format!(
-                "DROP VIEW ranked_items; {}
+                "PRAGMA foreign_keys = OFF; DROP VIEW ranked_items; {}
                  INSERT INTO ranked_items(ranker, context_id, rank, item_id)
                    SELECT l.ranker, l.context_id, j.key + 1, j.value FROM ranked_lists l, json_each(l.items) j;
                  DROP TABLE ranked_lists;
                  CREATE TEMP TABLE kept AS SELECT scale, context_id, item_id, reviewer, event_id FROM current_grades;
                  DROP TABLE current_grades; {} {}
                  INSERT INTO current_grades SELECT * FROM temp.kept;
+                 CREATE TEMP TABLE people AS SELECT reviewer FROM reviewers;
+                 DROP TABLE reviewers; {}
+                 INSERT INTO reviewers SELECT * FROM temp.people;
+                 CREATE TEMP TABLE known AS SELECT context_id, item_id, scale, value FROM gold_pairs;
+                 DROP TABLE gold_pairs; {}
+                 INSERT INTO gold_pairs SELECT * FROM temp.known;
                  DROP TRIGGER grade_events_keep_current; {}
                  PRAGMA user_version = 1;
                  {GRADE} VALUES ('b9', 'bo', 'q2', 'i1', 'fit', 'grade', 1, '', 2, '2026-11-30T10:00:00.000Z', '');",
                 part("CREATE TABLE ranked_items(", ") WITHOUT ROWID;"),
                 part("CREATE TABLE current_grades(", ") WITHOUT ROWID;"),
                 part("CREATE INDEX current_grades_by_reviewer", ";"),
+                part("CREATE TABLE reviewers(", ");"),
+                part("CREATE TABLE gold_pairs(", ") WITHOUT ROWID;"),
                 part("CREATE TRIGGER grade_events_keep_current", "END;")
             ),
         );

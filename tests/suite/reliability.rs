@@ -141,7 +141,7 @@ fn a_study_held_by_another_program_gives_a_clear_message() {
     study.set_write_wait(Duration::from_millis(300)).unwrap();
     let holder = rusqlite::Connection::open(&path).unwrap();
     holder
-        .execute_batch("BEGIN IMMEDIATE; INSERT INTO reviewers VALUES ('holder');")
+        .execute_batch("BEGIN IMMEDIATE; INSERT INTO reviewers(reviewer) VALUES ('holder');")
         .unwrap();
     let err = study.record_grade(&a_grade()).unwrap_err();
     assert!(matches!(err, StudyError::Busy), "{err}");
@@ -368,7 +368,9 @@ fn a_waiting_writer_says_so_and_gives_up_only_at_its_limit() {
         std::thread::spawn(move || {
             let holder = rusqlite::Connection::open(&path).unwrap();
             holder
-                .execute_batch("BEGIN IMMEDIATE; INSERT INTO reviewers VALUES ('holder');")
+                .execute_batch(
+                    "BEGIN IMMEDIATE; INSERT INTO reviewers(reviewer) VALUES ('holder');",
+                )
                 .unwrap();
             std::thread::sleep(Duration::from_secs(seconds));
             holder.execute_batch("ROLLBACK").unwrap();

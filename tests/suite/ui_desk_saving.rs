@@ -136,7 +136,7 @@ fn presses_made_while_the_study_is_busy_are_all_saved_in_order() {
     let pairs = next_open_pairs(&h, 4);
     let holder = rusqlite::Connection::open(&path).unwrap();
     holder
-        .execute_batch("BEGIN IMMEDIATE; INSERT INTO reviewers VALUES ('holder');")
+        .execute_batch("BEGIN IMMEDIATE; INSERT INTO reviewers(reviewer) VALUES ('holder');")
         .unwrap();
     for v in [3, 1, 2, 0] {
         h.key_press(DIGITS[v]);

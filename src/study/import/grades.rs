@@ -28,6 +28,26 @@ pub(super) fn import_grades(
             scale_sizes.insert(s, n);
         }
     }
+    // A reviewer is a person or a machine for good: the study's word, else the file's
+    // first row for them.
+    let mut kinds: HashMap<String, (&'static str, u64)> = HashMap::new();
+    {
+        let mut stmt = tx.prepare("SELECT reviewer, kind FROM reviewers")?;
+        for row in stmt.query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, String>(1)?)))? {
+            let (reviewer, kind) = row?;
+            kinds.insert(
+                reviewer,
+                (
+                    if kind == "machine" {
+                        "machine"
+                    } else {
+                        "person"
+                    },
+                    0,
+                ),
+            );
+        }
+    }
     let mut log = ProblemLog::default();
     let mut grades = Vec::new();
     for row in &table.rows {
@@ -93,6 +113,37 @@ pub(super) fn import_grades(
                 }
             }
         };
+        let settled_by = f.text("settled_by").trim();
+        let kind = match f.text("kind").trim() {
+            "" | "person" => "person",
+            "machine" => "machine",
+            other => {
+                log.push(f.problem(
+                    "kind",
+                    format!("kind must be person or machine, got \"{other}\""),
+                ));
+                continue;
+            }
+        };
+        if settled_by.is_empty() {
+            match kinds.get(reviewer) {
+                Some((known, line)) if *known != kind => {
+                    let whose = match *line {
+                        0 => "in this study".to_string(),
+                        n => format!("on line {n}"),
+                    };
+                    log.push(f.problem(
+                        "kind",
+                        format!("reviewer \"{reviewer}\" is a {known} {whose}; a reviewer's kind cannot change"),
+                    ));
+                    continue;
+                }
+                Some(_) => {}
+                None => {
+                    kinds.insert(reviewer.to_string(), (kind, row.line));
+                }
+            }
+        }
         grades.push(ImportedGrade {
             reviewer,
             context,
@@ -103,7 +154,8 @@ pub(super) fn import_grades(
             seconds,
             graded_at,
             note: f.text("note"),
-            settled_by: f.text("settled_by").trim(),
+            settled_by,
+            kind,
         });
         if log.is_full() {
             break;
@@ -111,7 +163,8 @@ pub(super) fn import_grades(
     }
     log.into_result().map_err(input_error)?;
     let mut report = report(src, "grades");
-    let mut add_reviewer = tx.prepare("INSERT OR IGNORE INTO reviewers(reviewer) VALUES (?1)")?;
+    let mut add_reviewer =
+        tx.prepare("INSERT OR IGNORE INTO reviewers(reviewer, kind) VALUES (?1, ?2)")?;
     let mut insert = tx.prepare(
         "INSERT OR IGNORE INTO grade_events(uid, reviewer, context_id, item_id, scale, action, value, reason, seconds, graded_at, note)
          VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11)",
@@ -197,7 +250,7 @@ pub(super) fn import_grades(
             ])?
         } else {
             if known_reviewers.insert(g.reviewer) {
-                add_reviewer.execute([g.reviewer])?;
+                add_reviewer.execute([g.reviewer, g.kind])?;
             }
             insert.execute(params![
                 uid,
@@ -240,4 +293,6 @@ struct ImportedGrade<'a> {
     graded_at: String,
     note: &'a str,
     settled_by: &'a str,
+    /// `person` or `machine`.
+    kind: &'static str,
 }

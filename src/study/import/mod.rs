@@ -10,6 +10,7 @@ use super::csv_input::{self, Problem, ProblemLog, Problems, Row, Shape, Table};
 use super::{Result, Study, StudyError};
 
 mod catalog;
+mod gold;
 mod grades;
 mod rankings;
 mod scales;
@@ -40,6 +41,12 @@ pub const SCALES: Shape = Shape {
     ignored: &[],
     extra_allowed: false,
 };
+pub const GOLD: Shape = Shape {
+    required: &["context_id", "item_id", "scale", "value"],
+    optional: &["rationale"],
+    ignored: &[],
+    extra_allowed: false,
+};
 pub const GRADES: Shape = Shape {
     required: &["reviewer", "context_id", "item_id", "scale"],
     optional: &[
@@ -49,6 +56,7 @@ pub const GRADES: Shape = Shape {
         "graded_at",
         "note",
         "settled_by",
+        "kind",
     ],
     ignored: &["context_text", "item_title"],
     extra_allowed: false,
@@ -109,6 +117,8 @@ pub struct ImportSet {
     pub rankings: Option<Source>,
     pub scales: Option<Source>,
     pub grades: Option<Source>,
+    /// Gold pairs (after grades' scales, contexts and items exist).
+    pub gold: Option<Source>,
 }
 
 /// What one file did to the study.
@@ -256,6 +266,11 @@ fn import_in_transaction(
     if let Some(src) = &set.grades {
         let mut p = FileProgress::start(&mut *progress, src, files_done, files_total);
         reports.push(grades::import_grades(&tx, src, &mut p)?);
+        files_done += 1;
+    }
+    if let Some(src) = &set.gold {
+        let mut p = FileProgress::start(&mut *progress, src, files_done, files_total);
+        reports.push(gold::import_gold(&tx, src, &mut p)?);
     }
     tx.commit()?;
     Ok(reports)

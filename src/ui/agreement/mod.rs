@@ -5,6 +5,7 @@
 use std::path::{Path, PathBuf};
 
 use super::jobs::{JobError, JobResult, Task};
+mod quality;
 pub mod settling;
 
 use crate::analysis::agreement::{AgreementReport, ReviewerPair};
@@ -159,6 +160,8 @@ impl AgreementScreen {
                 strictness(ui, &model);
                 ui.add_space(10.0);
                 drift(ui, &model.review);
+                ui.add_space(10.0);
+                quality::gold_and_machines(ui, &model.report);
             });
         self.model = Some(Ok(model));
     }
@@ -216,7 +219,7 @@ impl AgreementScreen {
     fn matrix(&mut self, ui: &mut egui::Ui, report: &AgreementReport) {
         ui.heading("Reviewer pairs");
         ui.weak("Linear-weighted kappa per pair; hover for n, interval and band, click for the heatmap.");
-        let names = &report.reviewers;
+        let names = &report.reviewer_names;
         egui::Grid::new("kappa_matrix")
             .spacing([4.0, 4.0])
             .show(ui, |ui| {
@@ -419,7 +422,7 @@ fn panel_summary(ui: &mut egui::Ui, r: &AgreementReport) {
         r.collapse
             .as_ref()
             .map_or(String::new(), |c| format!(" collapsed by {c}")),
-        r.reviewers.len(),
+        r.reviewer_names.len(),
         r.units,
         r.cant_judge
     ));
@@ -437,7 +440,13 @@ fn panel_summary(ui: &mut egui::Ui, r: &AgreementReport) {
                 ui,
                 "Fleiss' kappa",
                 r.fleiss_kappa,
-                format!("{} pairs graded by everyone", r.fleiss_n),
+                format!(
+                    "{} pairs with {} grades each (the most common number; {:.3} over the {} pairs graded by everyone)",
+                    r.fleiss_n,
+                    r.fleiss_grades_per_pair,
+                    r.fleiss_kappa_complete,
+                    r.fleiss_n_complete
+                ),
                 s,
             );
             coefficient_row(

@@ -235,7 +235,7 @@ impl SettleForm {
                     {
                         self.filter_reviewer = None;
                     }
-                    for r in &model.report.reviewers {
+                    for r in &model.report.reviewer_names {
                         let on = self.filter_reviewer.as_ref() == Some(r);
                         if ui.selectable_label(on, r).clicked() {
                             self.filter_reviewer = Some(r.clone());

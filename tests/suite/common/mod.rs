@@ -83,6 +83,7 @@ impl Fixture {
             rankings: src("rankings.csv"),
             scales: src("scales.csv"),
             grades: src("grades.csv"),
+            gold: None,
         }
     }
 }

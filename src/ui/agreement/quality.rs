@@ -1,0 +1,108 @@
+//! Reviewer quality on the Agreement screen: gold accuracy per reviewer (with drift by
+//! day) and each machine judge against the people's panel grade, drawn from the report.
+
+use crate::analysis::agreement::AgreementReport;
+use crate::analysis::reviewer_quality::MACHINE_CAUTION;
+
+fn share(x: Option<f64>) -> String {
+    x.map_or("–".into(), |v| format!("{:.0} %", v * 100.0))
+}
+
+fn figure(x: f64) -> String {
+    if x.is_finite() {
+        format!("{x:.3}")
+    } else {
+        "–".into()
+    }
+}
+
+/// Gold pairs per reviewer, then the machine judges; nothing when neither exists.
+pub fn gold_and_machines(ui: &mut egui::Ui, report: &AgreementReport) {
+    if report
+        .reviewers
+        .iter()
+        .any(|r| r.gold_n + r.gold_cant_judge > 0)
+    {
+        ui.heading("Gold pairs: graded against the known level");
+        egui::Grid::new("gold_by_reviewer")
+            .striped(true)
+            .show(ui, |ui| {
+                for title in [
+                    "Reviewer",
+                    "Kind",
+                    "Gold pairs graded",
+                    "Exactly right",
+                    "Within one level",
+                    "Can't judge",
+                    "Exactly right by day",
+                ] {
+                    ui.strong(title);
+                }
+                ui.end_row();
+                for r in &report.reviewers {
+                    ui.label(&r.reviewer);
+                    ui.label(r.kind);
+                    ui.label(r.gold_n.to_string());
+                    ui.label(share(r.gold_exact));
+                    ui.label(share(r.gold_within_one));
+                    ui.label(r.gold_cant_judge.to_string());
+                    ui.label(
+                        r.gold_by_day
+                            .iter()
+                            .map(|d| format!("{}: {:.0} % of {}", d.day, d.exact * 100.0, d.n))
+                            .collect::<Vec<_>>()
+                            .join(" · "),
+                    );
+                    ui.end_row();
+                }
+            });
+        ui.weak("A few gold pairs give a rough check only; a falling share day by day is drift worth a word with the reviewer.");
+        ui.add_space(10.0);
+    }
+    if report.machines.is_empty() {
+        return;
+    }
+    ui.heading("Machine judges against the people's panel grade");
+    egui::Grid::new("machines_against_panel")
+        .striped(true)
+        .show(ui, |ui| {
+            for title in [
+                "Judge",
+                "Pairs",
+                "Cohen's kappa",
+                "Quadratic kappa",
+                "Gwet's AC1",
+                "Exactly equal",
+                "New items",
+                "Established items",
+                "Queries",
+                "Anchors",
+            ] {
+                ui.strong(title);
+            }
+            ui.end_row();
+            for m in &report.machines {
+                ui.label(&m.reviewer);
+                ui.label(m.n.to_string());
+                ui.label(figure(m.kappa))
+                    .on_hover_text("Cohen (1960), judge against the panel grade (settled, else the people's lower median)");
+                ui.label(figure(m.kappa_quadratic))
+                    .on_hover_text("Cohen (1968), quadratic weights");
+                ui.label(figure(m.ac1)).on_hover_text("Gwet (2008)");
+                ui.label(if m.n == 0 {
+                    "–".into()
+                } else {
+                    format!("{:.0} %", m.exact * 100.0)
+                });
+                for s in &m.by_segment {
+                    ui.label(match (s.kappa, s.exact) {
+                        (Some(k), Some(e)) => format!("κ {k:.2}, {:.0} % equal (n {})", e * 100.0, s.n),
+                        (None, Some(e)) => format!("{:.0} % equal (n {})", e * 100.0, s.n),
+                        _ => "no pairs".into(),
+                    });
+                }
+                ui.end_row();
+            }
+        });
+    ui.colored_label(ui.visuals().warn_fg_color, MACHINE_CAUTION);
+}

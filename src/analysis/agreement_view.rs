@@ -38,6 +38,10 @@ pub struct AgreementModel {
     pub hidden_pairs: usize,
     /// Whether the study is open read-only (settling is then off).
     pub read_only: bool,
+    /// Reviewers in training (they see a gold pair's level after grading it).
+    pub training_reviewers: Vec<String>,
+    /// Whether machine judges' grades count in the panel.
+    pub machines_in_panel: bool,
 }
 
 impl AgreementModel {
@@ -138,5 +142,7 @@ fn build_in(
         review,
         hidden_pairs: pending.len(),
         read_only: study.is_read_only(),
+        training_reviewers: study.settings()?.training_reviewers,
+        machines_in_panel: snapshot.machines_in_panel,
     }))
 }

@@ -47,6 +47,9 @@ pub struct CurvePoint {
 pub struct SensitivityRow {
     /// The reviewer whose grades alone were scored.
     pub reviewer: String,
+    /// Whether that reviewer is a machine judge (its order against the people's is the
+    /// question: Voorhees 2000, IP&M 36, shows orders survive assessor disagreement).
+    pub machine: bool,
     /// Contexts with a relevant item by this reviewer's grades.
     pub contexts_scored: usize,
     /// Per NDCG key: mean per ranker (board order), Kendall's tau-b with the panel's means,
@@ -207,12 +210,7 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
         .reviewers
         .iter()
         .enumerate()
-        .filter(|(r, _)| {
-            snapshot
-                .grades
-                .iter()
-                .any(|g| g.reviewer as usize == *r && g.scale as usize == scale)
-        })
+        .filter(|(r, _)| snapshot.grades_of(*r).any(|g| g.scale as usize == scale))
         .map(|(_, name)| name)
         .collect();
     let mut sensitivity = Vec::new();
@@ -229,6 +227,9 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
             })
             .collect();
         sensitivity.push(SensitivityRow {
+            machine: snapshot
+                .reviewer_index(reviewer)
+                .is_some_and(|r| snapshot.is_machine(r)),
             reviewer: reviewer.clone(),
             contexts_scored: own.contexts_scored,
             by_key,

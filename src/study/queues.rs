@@ -239,6 +239,20 @@ impl Study {
         Ok(rows)
     }
 
+    /// Gold pairs of a scale with their rationale: (context_id, item_id, level, rationale).
+    pub fn gold_with_rationale(&self, scale: &str) -> Result<Vec<(String, String, u8, String)>> {
+        let mut stmt = self.conn().prepare(
+            "SELECT context_id, item_id, value, rationale FROM gold_pairs WHERE scale = ?1
+             ORDER BY context_id, item_id",
+        )?;
+        let rows = stmt
+            .query_map([scale], |r| {
+                Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?))
+            })?
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(rows)
+    }
+
     /// A reviewer's current marks on a scale, keyed by pair.
     pub fn reviewer_marks(&self, reviewer: &str, scale: &str) -> Result<HashMap<PairId, Mark>> {
         let mut stmt = self.conn().prepare(

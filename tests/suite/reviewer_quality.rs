@@ -223,3 +223,129 @@ fn gold_import_is_checked_by_line_and_column_and_idempotent() {
         .unwrap();
     assert_eq!(n as usize, rows);
 }
+
+#[test]
+fn gold_pairs_fill_their_share_of_a_new_queue_within_one_pair() {
+    // The demo's useful2 pool, with 60 gold pairs outside it (items nobody ranked high).
+    let (_dir, path) = crate::ui_support::demo_copy();
+    let mut study = plumbline::study::Study::open(&path).unwrap();
+    let pool: std::collections::HashSet<(String, String)> =
+        study.pool().unwrap().into_iter().collect();
+    let contexts: Vec<String> = {
+        let mut c: Vec<String> = pool.iter().map(|p| p.0.clone()).collect();
+        c.sort();
+        c.dedup();
+        c
+    };
+    let items: Vec<String> = study
+        .item_cards()
+        .unwrap()
+        .into_iter()
+        .map(|i| i.id)
+        .collect();
+    let mut csv = String::from("context_id,item_id,scale,value,rationale\n");
+    let mut gold = std::collections::HashSet::new();
+    'fill: for c in &contexts {
+        for i in &items {
+            if !pool.contains(&(c.clone(), i.clone())) {
+                csv.push_str(&format!("{c},{i},useful2,0,not what was asked\n"));
+                gold.insert((c.clone(), i.clone()));
+                if gold.len() == 60 {
+                    break 'fill;
+                }
+                break;
+            }
+        }
+    }
+    let file = path.with_file_name("gold.csv");
+    std::fs::write(&file, csv).unwrap();
+    let set = plumbline::study::import::ImportSet {
+        gold: Some(plumbline::study::import::Source::from_path(&file).unwrap()),
+        ..Default::default()
+    };
+    plumbline::study::import::import(&mut study, &set).unwrap();
+    for (reviewer, rate) in [("rev-dune", 0.05), ("rev-elm", 0.10)] {
+        study.set_setting("gold_rate", &rate.to_string()).unwrap();
+        study.add_reviewer(reviewer).unwrap();
+        let queue = study.ensure_queue(reviewer, "useful2").unwrap();
+        let golds = queue.iter().filter(|p| gold.contains(*p)).count();
+        let wanted = rate * queue.len() as f64;
+        assert!(
+            (golds as f64 - wanted).abs() <= 1.0,
+            "{reviewer}: {golds} gold pairs in a queue of {}, wanted {wanted:.1}",
+            queue.len()
+        );
+        assert!(golds > 0);
+    }
+}
+
+#[test]
+fn the_scoreboard_scores_a_machine_judge_alone_beside_the_people() {
+    let fixture = Fixture::new();
+    let study = study_with(
+        &fixture,
+        "machine.plumb",
+        &fixture_file("grades.csv"),
+        false,
+    );
+    // Two rankers over the graded pairs: one in file order, one reversed.
+    let grades = std::fs::read_to_string(fixture_file("grades.csv")).unwrap();
+    let mut lists: std::collections::BTreeMap<String, Vec<String>> = Default::default();
+    for line in grades.lines().skip(1) {
+        let cells: Vec<&str> = line.split(',').collect();
+        let list = lists.entry(cells[1].to_string()).or_default();
+        if !list.iter().any(|i| i == cells[2]) {
+            list.push(cells[2].to_string());
+        }
+    }
+    let mut csv = String::from("ranker,context_id,item_id,rank\n");
+    for (context, items) in &lists {
+        for (n, item) in items.iter().enumerate() {
+            csv.push_str(&format!("straight,{context},{item},{}\n", n + 1));
+        }
+        for (n, item) in items.iter().rev().enumerate() {
+            csv.push_str(&format!("reversed,{context},{item},{}\n", n + 1));
+        }
+    }
+    let rankings = fixture.write("rankings.csv", &csv);
+    run(args![
+        "import",
+        study.to_str().unwrap(),
+        "--rankings",
+        rankings.to_str().unwrap()
+    ]);
+    let view: Value =
+        serde_json::from_str(&run(args!["view", "scoreboard", study.to_str().unwrap()])).unwrap();
+    let rows = view["sensitivity"].as_array().unwrap();
+    let machine = rows
+        .iter()
+        .find(|r| r["reviewer"] == "judge-m1")
+        .expect("the machine judge is scored alone");
+    assert_eq!(machine["machine"], true);
+    assert!(rows.iter().filter(|r| r["machine"] == false).count() >= 3);
+    let alone: Value = serde_json::from_str(&run(args![
+        "score",
+        study.to_str().unwrap(),
+        "--grades",
+        "judge-m1",
+        "--format",
+        "json"
+    ]))
+    .unwrap();
+    let means: Vec<f64> = alone["rankers"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["metrics"]["ndcg@10"]["mean"].as_f64().unwrap())
+        .collect();
+    let shown: Vec<f64> = machine["by_key"]["ndcg@10"][0]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_f64().unwrap())
+        .collect();
+    assert_eq!(shown.len(), means.len());
+    for (a, b) in shown.iter().zip(&means) {
+        assert!((a - b).abs() < 1e-12);
+    }
+}

@@ -36,6 +36,8 @@ pub struct AgreementScreen {
     /// Which half is shown: the panel figures (false) or the disagreements to settle.
     pub show_disagreements: bool,
     pub settle: SettleForm,
+    /// Writes a reviewer-quality setting (training, machines in the panel).
+    quality_write: Task<JobResult<()>>,
 }
 
 impl Default for AgreementScreen {
@@ -49,6 +51,7 @@ impl Default for AgreementScreen {
             selected_cell: None,
             show_disagreements: false,
             settle: SettleForm::default(),
+            quality_write: Task::named("quality-setting"),
         }
     }
 }
@@ -62,6 +65,24 @@ impl AgreementScreen {
     /// Whether the model is being computed.
     pub fn is_loading(&self) -> bool {
         self.loading.is_running()
+    }
+
+    /// Writes a setting changed in the reviewer-quality section, then reloads.
+    fn save_quality(&mut self, ctx: &egui::Context, path: &Path, change: quality::QualityChange) {
+        use crate::study::settings::keys;
+        let path = path.to_path_buf();
+        self.quality_write.start(ctx, move || {
+            let study = Study::open(&path)?;
+            match change {
+                quality::QualityChange::Training(list) => {
+                    study.set_setting(keys::TRAINING_REVIEWERS, &list.join(","))?
+                }
+                quality::QualityChange::MachinesInPanel(on) => {
+                    study.set_setting(keys::MACHINES_IN_PANEL, if on { "true" } else { "false" })?
+                }
+            }
+            Ok(())
+        });
     }
 
     /// Computes the model for `wanted` in the background.
@@ -84,6 +105,12 @@ impl AgreementScreen {
         }
         if self.settle.poll_write() {
             self.start_loading(ctx, path);
+        }
+        if let Some(result) = self.quality_write.poll() {
+            match result {
+                Ok(()) => self.start_loading(ctx, path),
+                Err(e) => self.model = Some(Err(e)),
+            }
         }
         let stale = match &self.model {
             Some(Ok(m)) => {
@@ -161,7 +188,9 @@ impl AgreementScreen {
                 ui.add_space(10.0);
                 drift(ui, &model.review);
                 ui.add_space(10.0);
-                quality::gold_and_machines(ui, &model.report);
+                if let Some(change) = quality::gold_and_machines(ui, &model) {
+                    self.save_quality(ui.ctx(), path, change);
+                }
             });
         self.model = Some(Ok(model));
     }
@@ -484,7 +513,7 @@ fn panel_summary(ui: &mut egui::Ui, r: &AgreementReport) {
             );
         });
     for caution in &r.cautions {
-        ui.colored_label(super::palette::CAUTION, format!("⚠ {caution}"));
+        ui.colored_label(super::palette::CAUTION, format!("Caution: {caution}"));
     }
     ui.weak(
         "Kappa-type numbers mislead when one level dominates; small samples give wide intervals.",

@@ -1,8 +1,17 @@
 //! Reviewer quality on the Agreement screen: gold accuracy per reviewer (with drift by
 //! day) and each machine judge against the people's panel grade, drawn from the report.
 
-use crate::analysis::agreement::AgreementReport;
+use crate::analysis::agreement_view::AgreementModel;
 use crate::analysis::reviewer_quality::MACHINE_CAUTION;
+
+/// A setting the lead changed in this section, for the screen to write.
+#[derive(Debug, Clone, PartialEq)]
+pub enum QualityChange {
+    /// The new list of reviewers in training.
+    Training(Vec<String>),
+    /// Whether machine judges count in the panel.
+    MachinesInPanel(bool),
+}
 
 fn share(x: Option<f64>) -> String {
     x.map_or("–".into(), |v| format!("{:.0} %", v * 100.0))
@@ -17,7 +26,11 @@ fn figure(x: f64) -> String {
 }
 
 /// Gold pairs per reviewer, then the machine judges; nothing when neither exists.
-pub fn gold_and_machines(ui: &mut egui::Ui, report: &AgreementReport) {
+/// Returns a setting the lead changed (training, machines in the panel).
+pub fn gold_and_machines(ui: &mut egui::Ui, model: &AgreementModel) -> Option<QualityChange> {
+    let report = &model.report;
+    let editable = !model.read_only && model.request.viewer.is_none();
+    let mut change = None;
     if report
         .reviewers
         .iter()
@@ -35,6 +48,7 @@ pub fn gold_and_machines(ui: &mut egui::Ui, report: &AgreementReport) {
                     "Within one level",
                     "Can't judge",
                     "Exactly right by day",
+                    "In training",
                 ] {
                     ui.strong(title);
                 }
@@ -53,6 +67,25 @@ pub fn gold_and_machines(ui: &mut egui::Ui, report: &AgreementReport) {
                             .collect::<Vec<_>>()
                             .join(" · "),
                     );
+                    let mut training = model.training_reviewers.contains(&r.reviewer);
+                    let tick = ui
+                        .add_enabled(
+                            editable && r.kind == "person",
+                            egui::Checkbox::new(&mut training, "in training"),
+                        )
+                        .on_hover_text("A reviewer in training sees a gold pair's known level and rationale on the desk right after grading it.");
+                    if tick.changed() {
+                        let mut list: Vec<String> = model
+                            .training_reviewers
+                            .iter()
+                            .filter(|t| **t != r.reviewer)
+                            .cloned()
+                            .collect();
+                        if training {
+                            list.push(r.reviewer.clone());
+                        }
+                        change = Some(QualityChange::Training(list));
+                    }
                     ui.end_row();
                 }
             });
@@ -60,7 +93,7 @@ pub fn gold_and_machines(ui: &mut egui::Ui, report: &AgreementReport) {
         ui.add_space(10.0);
     }
     if report.machines.is_empty() {
-        return;
+        return change;
     }
     ui.heading("Machine judges against the people's panel grade");
     egui::Grid::new("machines_against_panel")
@@ -105,4 +138,18 @@ pub fn gold_and_machines(ui: &mut egui::Ui, report: &AgreementReport) {
             }
         });
     ui.colored_label(ui.visuals().warn_fg_color, MACHINE_CAUTION);
+    let mut counted = model.machines_in_panel;
+    if ui
+        .add_enabled(
+            editable,
+            egui::Checkbox::new(
+                &mut counted,
+                "Count machine judges in the panel grade, agreement and settling",
+            ),
+        )
+        .changed()
+    {
+        change = Some(QualityChange::MachinesInPanel(counted));
+    }
+    change
 }

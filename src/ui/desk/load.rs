@@ -66,6 +66,23 @@ pub fn load(path: &Path, reviewer: &str, scale: Option<String>) -> JobResult<(De
         queue.push((c, i));
         marks.push(marks_by_pair.get(pair).copied());
     }
+    // A reviewer in training learns a gold pair's level and rationale right after
+    // grading it; for everyone else gold pairs look like any other pair.
+    let mut training_gold = HashMap::new();
+    if study
+        .settings()?
+        .training_reviewers
+        .iter()
+        .any(|r| r == reviewer)
+    {
+        for (c, i, level, why) in study.gold_with_rationale(&scale.name)? {
+            if let (Some(&c), Some(&i)) =
+                (context_index.get(c.as_str()), item_index.get(i.as_str()))
+            {
+                training_gold.insert((c, i), (level, why));
+            }
+        }
+    }
     let (past_grades, past_seconds) = study.reviewer_effort(reviewer, &scale.name)?;
     let catalog_dir = study.catalog_dir()?;
     Ok((
@@ -81,6 +98,7 @@ pub fn load(path: &Path, reviewer: &str, scale: Option<String>) -> JobResult<(De
             catalog_dir,
             past_grades,
             past_seconds,
+            training_gold,
         },
         study,
     ))

@@ -10,7 +10,7 @@
 //! are never loaded; the queue order is a seeded shuffle (see `study::queues`).
 
 mod card;
-mod load;
+pub mod load;
 pub mod state;
 pub mod writer;
 
@@ -212,6 +212,7 @@ impl Desk {
         self.run_presses();
         self.header(ui);
         ui.separator();
+        self.gold_feedback(ui);
         if self.data().is_some_and(|d| d.queue.is_empty()) {
             ui.add_space(24.0);
             ui.heading("Nothing to grade yet");
@@ -248,6 +249,39 @@ impl Desk {
         self.prefetch(&ctx, position);
         // Keep counting visible time for the pace even when nothing else repaints.
         ctx.request_repaint_after_secs(1.0);
+    }
+
+    /// For a reviewer in training: the gold pair just graded, its known level and why.
+    fn gold_feedback(&self, ui: &mut egui::Ui) {
+        let Some(state) = &self.state else { return };
+        let Some(f) = &state.feedback else { return };
+        let label = |v: u8| {
+            state
+                .data
+                .scale
+                .levels
+                .get(v as usize)
+                .map_or(v.to_string(), |l| format!("{v} ({})", l.label))
+        };
+        let verdict = match f.given {
+            Some(v) if v == f.known => format!("You gave {}: right.", label(v)),
+            Some(v) => format!(
+                "You gave {}; the known level is {}.",
+                label(v),
+                label(f.known)
+            ),
+            None => format!(
+                "You could not judge it; the known level is {}.",
+                label(f.known)
+            ),
+        };
+        egui::Frame::group(ui.style()).show(ui, |ui| {
+            ui.strong("Training: that was a gold pair");
+            ui.label(verdict);
+            if !f.rationale.is_empty() {
+                ui.label(format!("Why: {}", f.rationale));
+            }
+        });
     }
 
     /// Takes the desk's key presses out of this frame's events, one by one, in order.

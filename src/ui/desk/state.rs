@@ -32,6 +32,19 @@ pub struct DeskData {
     /// Grades and seconds before this session, for the pace.
     pub past_grades: u64,
     pub past_seconds: f64,
+    /// Only for a reviewer in training: gold pairs by (context, item) with their known
+    /// level and rationale, shown after the reviewer grades one.
+    pub training_gold: HashMap<(u32, u32), (u8, String)>,
+}
+
+/// What a reviewer in training sees after grading a gold pair.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GoldFeedback {
+    /// The level given; None for can't judge.
+    pub given: Option<u8>,
+    /// The known level.
+    pub known: u8,
+    pub rationale: String,
 }
 
 impl DeskData {
@@ -115,6 +128,8 @@ pub struct DeskState {
     pub in_flight: Option<InFlight>,
     pub session_grades: u64,
     pub session_seconds: f64,
+    /// Feedback on the gold pair just graded (training only), until the next grade.
+    pub feedback: Option<GoldFeedback>,
     next_ticket: u64,
 }
 
@@ -136,6 +151,7 @@ impl DeskState {
             in_flight: None,
             session_grades: 0,
             session_seconds: 0.0,
+            feedback: None,
             next_ticket: 1,
         }
     }
@@ -289,10 +305,20 @@ impl DeskState {
                 self.current = Some(position);
             }
             action => {
-                self.data.marks[position] = Some(match action {
+                let given = match action {
                     GradeAction::Grade(v) => Some(*v),
                     _ => None,
-                });
+                };
+                self.data.marks[position] = Some(given);
+                self.feedback =
+                    self.data
+                        .training_gold
+                        .get(&self.data.queue[position])
+                        .map(|(known, why)| GoldFeedback {
+                            given,
+                            known: *known,
+                            rationale: why.clone(),
+                        });
                 self.session_grades += 1;
                 self.session_seconds += flight.grade.seconds;
                 self.undo_stack.push(position);
@@ -360,7 +386,32 @@ mod tests {
             catalog_dir: None,
             past_grades: 0,
             past_seconds: 0.0,
+            training_gold: HashMap::new(),
         })
+    }
+
+    #[test]
+    fn a_reviewer_in_training_sees_the_gold_level_after_grading_it_and_only_then() {
+        let mut s = state(3);
+        s.data
+            .training_gold
+            .insert((0, 1), (2, "Fits, one flaw.".into()));
+        s.push(key(3));
+        drain(&mut s);
+        assert_eq!(s.feedback, None, "an ordinary pair says nothing");
+        s.push(key(1));
+        drain(&mut s);
+        assert_eq!(
+            s.feedback,
+            Some(GoldFeedback {
+                given: Some(1),
+                known: 2,
+                rationale: "Fits, one flaw.".into()
+            })
+        );
+        s.push(key(0));
+        drain(&mut s);
+        assert_eq!(s.feedback, None, "gone with the next grade");
     }
 
     fn key(v: u8) -> Press {

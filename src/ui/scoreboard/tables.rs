@@ -133,7 +133,7 @@ fn caution_box(ui: &mut egui::Ui, board: &Scoreboard) {
 pub fn sensitivity(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize) {
     let key = format!("ndcg@{focus}");
     ui.strong(format!("Reviewer sensitivity (NDCG@{focus})"));
-    ui.label("Each reviewer's own grades scored alone. Kendall's tau-b compares the ranker order with the panel's; a changed order means the ranking rests on whose judgment counts. A reviewer who graded only a share of the pool leaves the rest unjudged (counted by the unjudged setting), so compare orders here, not levels.");
+    ui.label("Each reviewer's own grades scored alone. Kendall's tau-b compares the ranker order with the panel's; a changed order means the ranking rests on whose judgment counts. A reviewer who graded only a share of the pool leaves the rest unjudged (counted by the unjudged setting), so compare orders here, not levels. A machine judge is scored on its grades alone too: the ranker order it gives, against the panel's, is what tells whether it could take over part of the work (Voorhees 2000, IP&M 36).");
     let Some(panel) = model.panel_means.get(&key) else {
         return;
     };
@@ -161,7 +161,10 @@ pub fn sensitivity(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize) {
                 let Some((means, tau, same)) = row.by_key.get(&key) else {
                     continue;
                 };
-                ui.label(&row.reviewer);
+                ui.label(match row.machine {
+                    true => format!("{} (machine judge)", row.reviewer),
+                    false => row.reviewer.clone(),
+                });
                 for m in means {
                     ui.label(if m.is_finite() {
                         format!("{m:.3}")

@@ -4,6 +4,7 @@ pub mod collapse;
 pub mod csv_input;
 pub mod export;
 pub mod gap_queue;
+pub mod gold;
 pub mod grades;
 mod hand_out;
 pub mod import;

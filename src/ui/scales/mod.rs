@@ -6,6 +6,7 @@ use std::path::Path;
 
 use super::jobs::{JobResult, Task};
 pub mod editor;
+pub mod gold;
 
 use crate::core::agreement::CollapseMap;
 use crate::core::scale::{self, Scale};
@@ -28,6 +29,8 @@ pub struct ScalesModel {
     pub active: Option<String>,
     pub pilot: Vec<String>,
     pub maps: Vec<(String, CollapseMap)>,
+    /// Gold pairs of every scale: (scale, context, item, known level, rationale).
+    pub gold: Vec<(String, String, String, u8, String)>,
     pub read_only: bool,
 }
 
@@ -48,6 +51,12 @@ pub fn load(path: &Path) -> JobResult<ScalesModel> {
             grades: study.grade_count(&s.name)?,
         });
     }
+    let mut gold = Vec::new();
+    for s in &snapshot.scales {
+        for (c, i, v, why) in study.gold_with_rationale(&s.name)? {
+            gold.push((s.name.clone(), c, i, v, why));
+        }
+    }
     let active = (!snapshot.scales.is_empty())
         .then(|| snapshot.scales[snapshot.active_scale_index()].name.clone());
     Ok(ScalesModel {
@@ -55,6 +64,7 @@ pub fn load(path: &Path) -> JobResult<ScalesModel> {
         active,
         pilot: study.pilot_scales()?,
         maps: study.collapse_maps()?,
+        gold,
         read_only: study.is_read_only(),
     })
 }
@@ -73,6 +83,18 @@ pub enum Change {
     },
     StartPilot(Vec<String>),
     EndPilot,
+    SaveGold {
+        scale: String,
+        context: String,
+        item: String,
+        value: u8,
+        rationale: String,
+    },
+    RemoveGold {
+        scale: String,
+        context: String,
+        item: String,
+    },
 }
 
 /// Applies `change` and reloads the model; returns a sentence saying what happened.
@@ -107,6 +129,24 @@ pub fn apply(path: &Path, change: Change) -> JobResult<(String, ScalesModel)> {
             study.end_pilot()?;
             "Pilot ended; the desk grades on the active scale again.".to_string()
         }
+        Change::SaveGold {
+            scale,
+            context,
+            item,
+            value,
+            rationale,
+        } => {
+            study.save_gold_pair(&scale, &context, &item, value, &rationale)?;
+            format!("Gold pair ({context}, {item}) on \"{scale}\" saved at level {value}.")
+        }
+        Change::RemoveGold {
+            scale,
+            context,
+            item,
+        } => {
+            study.remove_gold_pair(&scale, &context, &item)?;
+            format!("({context}, {item}) is no longer a gold pair on \"{scale}\".")
+        }
     };
     drop(study);
     Ok((message, load(path)?))
@@ -121,6 +161,7 @@ pub struct ScalesScreen {
     pub message: Option<JobResult<String>>,
     pub editor: Option<Editor>,
     pub map_editor: MapEditor,
+    pub gold_form: gold::GoldForm,
     pilot_choice: Vec<String>,
 }
 
@@ -133,6 +174,7 @@ impl Default for ScalesScreen {
             message: None,
             editor: None,
             map_editor: MapEditor::default(),
+            gold_form: Default::default(),
             pilot_choice: Vec::new(),
         }
     }
@@ -241,6 +283,11 @@ impl ScalesScreen {
                     }
                     if let Some((scale, map)) = self.map_editor.ui(ui, &model) {
                         change = Some(Change::SaveMap { scale, map });
+                    }
+                    ui.add_space(12.0);
+                    ui.separator();
+                    if let Some(c) = self.gold_form.ui(ui, &model, self.writing.is_running()) {
+                        change = Some(c);
                     }
                 });
             });

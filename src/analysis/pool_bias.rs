@@ -37,7 +37,8 @@ pub struct PoolBias {
     pub unique_pairs: usize,
     /// Its judged@k as scored.
     pub judged: f64,
-    /// Its judged@k with its unique pairs counted as unjudged (over the scored contexts).
+    /// Its judged@k with its unique pairs counted as unjudged (over the scored contexts;
+    /// NaN, printed as null, without any).
     pub judged_left_out: f64,
     /// Kendall's tau-b (Kendall 1945) between every ranker's mean NDCG@k and the same
     /// with this ranker's mean replaced by `mean_left_out`; None when undefined.
@@ -138,7 +139,7 @@ pub(super) fn compute(s: &Scored) -> Vec<PoolBias> {
                 unique_pairs,
                 judged: s.judged_means[r][ki],
                 judged_left_out: if scored == 0 {
-                    0.0
+                    f64::NAN
                 } else {
                     judged_sum / scored as f64
                 },
@@ -217,4 +218,50 @@ pub fn in_words(row: &PoolBias) -> String {
             row.metric
         ),
     }
+}
+
+/// The pool-bias table and its reading in words.
+pub(super) fn table_text(board: &super::scoreboard::Scoreboard) -> String {
+    use super::render::{aligned, num, percent};
+    let mut out = String::new();
+    if board.pool_bias.is_empty() {
+        return out;
+    }
+    out.push_str("\nPool bias (leave-one-out, Zobel 1998): each ranker scored again without the judged pairs only it found in its top k:\n");
+    let mut rows = vec![
+        [
+            "ranker",
+            "metric",
+            "as scored",
+            "without own pairs",
+            "drop",
+            "contexts",
+            "own pairs",
+            "judged",
+            "judged without",
+            "Kendall tau-b",
+        ]
+        .map(String::from)
+        .to_vec(),
+    ];
+    for p in &board.pool_bias {
+        rows.push(vec![
+            match &p.from_file {
+                Some(file) => format!("{} ({file})", p.ranker),
+                None => p.ranker.clone(),
+            },
+            p.metric.clone(),
+            num(p.mean),
+            p.mean_left_out.map_or("–".into(), num),
+            p.drop.map_or("–".into(), |d| format!("{d:+.3}")),
+            p.contexts.to_string(),
+            p.unique_pairs.to_string(),
+            percent(p.judged),
+            percent(p.judged_left_out),
+            p.kendall_tau_b.map_or("–".into(), |t| format!("{t:.3}")),
+        ]);
+    }
+    out.push_str(&aligned(&rows));
+    out.push_str("Kendall tau-b compares the ranker order by mean NDCG@k with the order when only this ranker loses its own pairs (1 = unchanged).\n");
+    out
 }

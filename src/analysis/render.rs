@@ -15,6 +15,34 @@ pub(super) fn num(x: f64) -> String {
     }
 }
 
+/// `decimals` decimals, or a dash for a value that is not defined (no NaN or inf on any
+/// screen or in any text).
+pub fn fixed(x: f64, decimals: usize) -> String {
+    if x.is_finite() {
+        format!("{x:.decimals$}")
+    } else {
+        "–".into()
+    }
+}
+
+/// A share in 0..1 as a whole percentage, or a dash when not defined.
+pub fn percent(x: f64) -> String {
+    if x.is_finite() {
+        format!("{:.0}%", x * 100.0)
+    } else {
+        "–".into()
+    }
+}
+
+/// [`percent`] as the screens write it, with a space before the sign ("12 %").
+pub fn percent_spaced(x: f64) -> String {
+    if x.is_finite() {
+        format!("{:.0} %", x * 100.0)
+    } else {
+        "–".into()
+    }
+}
+
 /// A p-value as people read it: three decimals, or "< 0.001".
 pub(super) fn p_value(p: f64) -> String {
     if !p.is_finite() {
@@ -27,7 +55,7 @@ pub(super) fn p_value(p: f64) -> String {
 }
 
 /// Pads columns so the table reads in a terminal.
-fn aligned(rows: &[Vec<String>]) -> String {
+pub(super) fn aligned(rows: &[Vec<String>]) -> String {
     let cols = rows.iter().map(Vec::len).max().unwrap_or(0);
     let widths: Vec<usize> = (0..cols)
         .map(|c| {
@@ -58,12 +86,12 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
     let mut out = String::new();
     let _ = writeln!(
         out,
-        "Study {} · scale {} · grades {} · gains {} · unjudged {:?} · segment {}",
+        "Study {} · scale {} · grades {} · gains {} · unjudged items {} · segment {}",
         board.study,
         board.scale,
         s.grades.label(),
         board.gains_used,
-        s.unjudged,
+        s.unjudged.words(),
         s.segment.label()
     );
     let _ = writeln!(
@@ -76,6 +104,9 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
         s.bootstrap_resamples
     );
     out.push_str(&rankings_files_text(board));
+    if board.contexts_scored == 0 {
+        let _ = writeln!(out, "{}\n", super::scoreboard::NOTHING_TO_SCORE);
+    }
     let mut keys: Vec<String> = Vec::new();
     for k in &s.ks {
         keys.push(format!("ndcg@{k}"));
@@ -99,8 +130,8 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
         }];
         for key in &keys {
             row.push(match r.metrics.get(key) {
-                Some(m) if key.starts_with("judged") => format!("{:.0}%", m.mean * 100.0),
-                Some(m) => format!("{} [{}, {}]", num(m.mean), num(m.ci_low), num(m.ci_high)),
+                Some(m) if key.starts_with("judged") => percent(m.mean),
+                Some(m) => super::scoreboard_view::with_interval(m.mean, m.ci_low, m.ci_high),
                 None => "–".into(),
             });
         }
@@ -127,7 +158,7 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
             rows.push(vec![
                 format!("{} vs {}", c.ranker, c.baseline),
                 c.metric.clone(),
-                format!("{:+.3} [{:+.3}, {:+.3}]", c.diff, c.ci_low, c.ci_high),
+                super::scoreboard_view::difference_text(c.diff, c.ci_low, c.ci_high),
                 p_value(c.p_randomization),
                 p_value(c.p_t),
                 p_value(c.p_holm),
@@ -138,7 +169,7 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
         out.push_str(&aligned(&rows));
         out.push_str("Contexts needed: for 80 % power at two-sided α = 0.05, normal approximation with the observed mean and SD of the differences.\n");
     }
-    out.push_str(&pool_bias_text(board));
+    out.push_str(&super::pool_bias::table_text(board));
     out.push('\n');
     for c in &board.cautions {
         let _ = writeln!(out, "Caution: {c}");
@@ -192,51 +223,6 @@ pub fn rankings_files_text(board: &Scoreboard) -> String {
         }
         out.push_str(".\n");
     }
-    out
-}
-
-/// The pool-bias table and its reading in words.
-fn pool_bias_text(board: &Scoreboard) -> String {
-    let mut out = String::new();
-    if board.pool_bias.is_empty() {
-        return out;
-    }
-    out.push_str("\nPool bias (leave-one-out, Zobel 1998): each ranker scored again without the judged pairs only it found in its top k:\n");
-    let mut rows = vec![
-        [
-            "ranker",
-            "metric",
-            "as scored",
-            "without own pairs",
-            "drop",
-            "contexts",
-            "own pairs",
-            "judged",
-            "judged without",
-            "Kendall tau-b",
-        ]
-        .map(String::from)
-        .to_vec(),
-    ];
-    for p in &board.pool_bias {
-        rows.push(vec![
-            match &p.from_file {
-                Some(file) => format!("{} ({file})", p.ranker),
-                None => p.ranker.clone(),
-            },
-            p.metric.clone(),
-            num(p.mean),
-            p.mean_left_out.map_or("–".into(), num),
-            p.drop.map_or("–".into(), |d| format!("{d:+.3}")),
-            p.contexts.to_string(),
-            p.unique_pairs.to_string(),
-            format!("{:.0}%", p.judged * 100.0),
-            format!("{:.0}%", p.judged_left_out * 100.0),
-            p.kendall_tau_b.map_or("–".into(), |t| format!("{t:.3}")),
-        ]);
-    }
-    out.push_str(&aligned(&rows));
-    out.push_str("Kendall tau-b compares the ranker order by mean NDCG@k with the order when only this ranker loses its own pairs (1 = unchanged).\n");
     out
 }
 
@@ -356,98 +342,9 @@ pub fn agreement_text(report: &AgreementReport) -> String {
         num(report.ac1)
     );
     let _ = writeln!(out, "Bands: {}", report.band_source);
-    out.push_str(&reviewer_quality_text(report));
+    out.push_str(&super::reviewer_quality::text(report));
     for c in &report.cautions {
         let _ = writeln!(out, "Caution: {c}");
-    }
-    out
-}
-
-/// Gold accuracy per reviewer and each machine judge against the people's panel grade.
-fn reviewer_quality_text(report: &AgreementReport) -> String {
-    let mut out = String::new();
-    if report
-        .reviewers
-        .iter()
-        .any(|r| r.gold_n + r.gold_cant_judge > 0)
-    {
-        out.push_str("\nGold pairs (known levels):\n");
-        let mut rows = vec![
-            [
-                "reviewer",
-                "kind",
-                "grades",
-                "gold graded",
-                "exactly right",
-                "within one",
-                "can't judge",
-                "by day (exactly right)",
-            ]
-            .map(String::from)
-            .to_vec(),
-        ];
-        let share = |x: Option<f64>| x.map_or("–".into(), |v| format!("{:.0}%", v * 100.0));
-        for r in &report.reviewers {
-            rows.push(vec![
-                r.reviewer.clone(),
-                r.kind.to_string(),
-                r.grades.to_string(),
-                r.gold_n.to_string(),
-                share(r.gold_exact),
-                share(r.gold_within_one),
-                r.gold_cant_judge.to_string(),
-                r.gold_by_day
-                    .iter()
-                    .map(|d| format!("{} {:.0}% of {}", d.day, d.exact * 100.0, d.n))
-                    .collect::<Vec<_>>()
-                    .join(", "),
-            ]);
-        }
-        out.push_str(&aligned(&rows));
-    }
-    if !report.machines.is_empty() {
-        out.push_str(
-            "\nMachine judges against the people's panel grade (settled, else lower median):\n",
-        );
-        let mut rows = vec![
-            [
-                "judge",
-                "n",
-                "kappa",
-                "quadratic",
-                "AC1",
-                "exactly equal",
-                "new",
-                "established",
-                "query",
-                "anchor",
-            ]
-            .map(String::from)
-            .to_vec(),
-        ];
-        for m in &report.machines {
-            let mut row = vec![
-                m.reviewer.clone(),
-                m.n.to_string(),
-                num(m.kappa),
-                num(m.kappa_quadratic),
-                num(m.ac1),
-                if m.exact.is_finite() {
-                    format!("{:.0}%", m.exact * 100.0)
-                } else {
-                    "–".into()
-                },
-            ];
-            for s in &m.by_segment {
-                row.push(match s.kappa {
-                    Some(k) => format!("κ {} (n {})", num(k), s.n),
-                    None => format!("– (n {})", s.n),
-                });
-            }
-            rows.push(row);
-        }
-        out.push_str(&aligned(&rows));
-        let _ = writeln!(out, "Caution: {}", super::reviewer_quality::MACHINE_CAUTION);
     }
     out
 }

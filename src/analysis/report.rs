@@ -7,7 +7,7 @@ use std::fmt::Write;
 use super::agreement::AgreementReport;
 use super::render::{num, p_value};
 use super::scoreboard::{OFFLINE_CAUTION, Scoreboard};
-use crate::core::metrics::{GainKind, Unjudged};
+use crate::core::metrics::GainKind;
 
 /// A table cell: pipes and line breaks would break the table.
 fn cell(text: &str) -> String {
@@ -67,13 +67,7 @@ fn settings_lines(board: &Scoreboard) -> Vec<(String, String)> {
                 GainKind::Linear => "linear (level)".into(),
             },
         ),
-        (
-            "Unjudged items".into(),
-            match s.unjudged {
-                Unjudged::Zero => "count as gain 0".into(),
-                Unjudged::Condense => "removed before cutting at k (condensed lists)".into(),
-            },
-        ),
+        ("Unjudged items".into(), s.unjudged.words().into()),
         ("Segment".into(), s.segment.label()),
         (
             "Baseline".into(),
@@ -177,7 +171,7 @@ pub fn markdown(board: &Scoreboard, agreement: Option<&AgreementReport>) -> Stri
                     c.ranker.clone(),
                     c.baseline.clone(),
                     c.metric.replace("ndcg", "NDCG"),
-                    format!("{:+.3} [{:+.3}, {:+.3}]", c.diff, c.ci_low, c.ci_high),
+                    super::scoreboard_view::difference_text(c.diff, c.ci_low, c.ci_high),
                     p_value(c.p_randomization),
                     p_value(c.p_t),
                     p_value(c.p_holm),

@@ -202,6 +202,9 @@ pub fn metric_keys(ks: &[usize]) -> Vec<String> {
     keys
 }
 
+/// Why every figure is "–" when no context can be scored.
+pub const NOTHING_TO_SCORE: &str = "No context has a relevant item yet (nothing graded above the lowest level on this scale), so no NDCG, interval or test is defined: every figure shows –. Grade the pool first.";
+
 /// Standard caution printed with every comparison.
 pub const OFFLINE_CAUTION: &str = "Offline judgments rank candidates for an online experiment; they do not replace it. These grades reflect this panel only, and small samples give wide intervals.";
 
@@ -448,11 +451,17 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
                 diff: ci.mean,
                 ci_low: ci.low,
                 ci_high: ci.high,
-                p_randomization: stats::randomization_test(
-                    d,
-                    settings.randomization_resamples,
-                    seed_for(settings.seed, &["randomization", name, &keys[m]]),
-                ),
+                // No paired context, no test: a p-value without data would read as "no
+                // difference found".
+                p_randomization: if d.is_empty() {
+                    f64::NAN
+                } else {
+                    stats::randomization_test(
+                        d,
+                        settings.randomization_resamples,
+                        seed_for(settings.seed, &["randomization", name, &keys[m]]),
+                    )
+                },
                 p_t: stats::paired_t_test(d).p,
                 p_holm: f64::NAN,
                 wins,
@@ -465,11 +474,17 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
     apply_holm(&mut comparisons);
     let mut cautions = vec![OFFLINE_CAUTION.to_string()];
     cautions.extend(baseline_note);
-    if scored_contexts.len() < defaults::FEW_CONTEXTS {
-        cautions.push(format!(
-            "Only {} contexts have a relevant item; intervals are wide and tests weak.",
-            scored_contexts.len()
-        ));
+    match scored_contexts.len() {
+        0 => cautions.push(NOTHING_TO_SCORE.to_string()),
+        n if n < defaults::FEW_CONTEXTS => cautions.push(format!(
+            "Only {n} {} a relevant item; intervals are wide and tests weak.",
+            if n == 1 {
+                "context has"
+            } else {
+                "contexts have"
+            }
+        )),
+        _ => {}
     }
     for (ri, r) in rankers.iter().enumerate() {
         for k in &settings.ks {
@@ -561,8 +576,11 @@ fn apply_holm(comparisons: &mut [Comparison]) {
     let metrics: std::collections::BTreeSet<String> =
         comparisons.iter().map(|c| c.metric.clone()).collect();
     for metric in metrics {
+        // Only tests that ran are corrected; one without data keeps its undefined p.
         let idx: Vec<usize> = (0..comparisons.len())
-            .filter(|i| comparisons[*i].metric == metric)
+            .filter(|i| {
+                comparisons[*i].metric == metric && comparisons[*i].p_randomization.is_finite()
+            })
             .collect();
         let p: Vec<f64> = idx
             .iter()

@@ -305,12 +305,26 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
 
 /// "mean [low, high]" as the table shows it.
 pub fn with_interval(mean: f64, low: f64, high: f64) -> String {
-    format!("{mean:.3} [{low:.3}, {high:.3}]")
+    if !mean.is_finite() {
+        return "–".into();
+    }
+    let f = |x: f64| super::render::fixed(x, 3);
+    format!("{} [{}, {}]", f(mean), f(low), f(high))
 }
 
 /// "+diff [+low, +high]" as the comparison rows show it.
 pub fn difference_text(diff: f64, low: f64, high: f64) -> String {
-    format!("{diff:+.3} [{low:+.3}, {high:+.3}]")
+    if !diff.is_finite() {
+        return "– (no paired contexts)".into();
+    }
+    let signed = |x: f64| {
+        if x.is_finite() {
+            format!("{x:+.3}")
+        } else {
+            "–".into()
+        }
+    };
+    format!("{} [{}, {}]", signed(diff), signed(low), signed(high))
 }
 
 /// A p-value as the table shows it ("< 0.001", three decimals, "–" when undefined).
@@ -345,7 +359,7 @@ pub fn column_title(key: &str) -> String {
 /// A table cell: judged@k as a percentage, the rest as mean with interval.
 pub fn cell_text(key: &str, m: &scoreboard::MetricSummary) -> String {
     if key.starts_with("judged") {
-        format!("{:.0} %", m.mean * 100.0)
+        super::render::percent_spaced(m.mean)
     } else {
         with_interval(m.mean, m.ci_low, m.ci_high)
     }

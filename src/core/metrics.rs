@@ -52,6 +52,14 @@ impl Unjudged {
             _ => None,
         }
     }
+
+    /// The rule in words, as settings lines and the report state it.
+    pub fn words(self) -> &'static str {
+        match self {
+            Unjudged::Zero => "count as gain 0",
+            Unjudged::Condense => "removed before cutting at k (condensed lists)",
+        }
+    }
 }
 
 /// Discount for a 1-based rank: 1 / log2(rank + 1).

@@ -8,6 +8,7 @@ use std::path::Path;
 use egui_plot::{Line, Plot, PlotPoint, Points, Text};
 
 use super::jobs::{JobResult, Task};
+use crate::analysis::render::{fixed, percent_spaced as percent};
 use crate::analysis::trial::{self, Trial, TrialRow};
 use crate::study::Study;
 
@@ -119,8 +120,9 @@ fn show(ui: &mut egui::Ui, t: &Trial) {
             .sum::<f64>()
             / t.scales.len() as f64;
         cautions.push(format!(
-            "A pilot of {} pairs gives alpha intervals about ±{half:.2} wide; quadrupling the pairs roughly halves them.",
-            t.common_pairs
+            "A pilot of {} pairs gives alpha intervals about ±{} wide; quadrupling the pairs roughly halves them.",
+            t.common_pairs,
+            fixed(half, 2)
         ));
     }
     if intervals_overlap(&t.scales) {
@@ -190,18 +192,23 @@ fn table(ui: &mut egui::Ui, rows: &[TrialRow]) {
                 ui.label(r.levels.to_string());
                 ui.label(r.pairs.to_string());
                 ui.label(r.reviewers.to_string());
-                ui.label(format!(
-                    "{:.3} [{:.3}, {:.3}]",
-                    r.alpha_ordinal, r.alpha_ci_low, r.alpha_ci_high
+                ui.label(crate::analysis::scoreboard_view::with_interval(
+                    r.alpha_ordinal,
+                    r.alpha_ci_low,
+                    r.alpha_ci_high,
                 ));
-                ui.label(format!("{:.3}", r.kappa_quadratic_mean));
-                ui.label(format!("{:.3}", r.ac1_mean));
-                ui.label(format!("{:.1} ({:.1})", r.median_seconds, r.iqr_seconds));
-                ui.label(format!("{:.1} %", r.cant_judge_rate * 100.0));
+                ui.label(fixed(r.kappa_quadratic_mean, 3));
+                ui.label(fixed(r.ac1_mean, 3));
+                ui.label(format!(
+                    "{} ({})",
+                    fixed(r.median_seconds, 1),
+                    fixed(r.iqr_seconds, 1)
+                ));
+                ui.label(percent(r.cant_judge_rate));
                 ui.label(r.ranker_order.join(" > "));
-                ui.label(format!("{:.3}", r.kendall_tau));
-                ui.label(format!("{:.0} %", r.discriminative_power * 100.0));
-                ui.label(format!("{:.3}", r.alpha_per_reviewer_minute));
+                ui.label(fixed(r.kendall_tau, 3));
+                ui.label(percent(r.discriminative_power));
+                ui.label(fixed(r.alpha_per_reviewer_minute, 3));
                 ui.end_row();
             }
         });

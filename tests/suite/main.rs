@@ -35,6 +35,7 @@ mod ui_desk;
 mod ui_desk_saving;
 mod ui_home;
 mod ui_merge;
+mod ui_no_nan;
 mod ui_quality;
 mod ui_read_only;
 mod ui_scales;

@@ -11,7 +11,7 @@ pub mod settling;
 use crate::analysis::agreement::{AgreementReport, ReviewerPair};
 pub use crate::analysis::agreement_view::{AgreementModel, AgreementRequest};
 use crate::analysis::defaults;
-use crate::analysis::panel_review::PanelReview;
+use crate::analysis::render::{fixed, percent_spaced as percent};
 use crate::study::Study;
 use settling::SettleForm;
 
@@ -184,9 +184,9 @@ impl AgreementScreen {
                     heatmap(&mut cols[1], &model, self.selected_cell.as_ref());
                 });
                 ui.add_space(10.0);
-                strictness(ui, &model);
+                quality::strictness(ui, &model);
                 ui.add_space(10.0);
-                drift(ui, &model.review);
+                quality::drift(ui, &model.review);
                 ui.add_space(10.0);
                 if let Some(change) = quality::gold_and_machines(ui, &model) {
                     self.save_quality(ui.ctx(), path, change);
@@ -328,19 +328,19 @@ fn kappa_cell(
     let label = format!("Reviewers {a} and {b}");
     response.widget_info(|| egui::WidgetInfo::labeled(egui::Role::Button, true, &label));
     response.on_hover_text(format!(
-        "{} and {}: {} pairs graded by both\nweighted kappa (linear) {:.3}, quadratic {:.3}\nkappa {:.3}, 95 % CI {:.3} to {:.3} ({})\nAC1 {:.3}; observed agreement {:.0} %, chance {:.0} %\nband of the weighted value: {} (Landis & Koch 1977)",
+        "{} and {}: {} pairs graded by both\nweighted kappa (linear) {}, quadratic {}\nkappa {}, 95 % CI {} to {} ({})\nAC1 {}; observed agreement {}, chance {}\nband of the weighted value: {} (Landis & Koch 1977)",
         p.reviewer_a,
         p.reviewer_b,
         p.n,
-        p.kappa_linear,
-        p.kappa_quadratic,
-        p.kappa,
-        p.kappa_ci_low,
-        p.kappa_ci_high,
+        fixed(p.kappa_linear, 3),
+        fixed(p.kappa_quadratic, 3),
+        fixed(p.kappa, 3),
+        fixed(p.kappa_ci_low, 3),
+        fixed(p.kappa_ci_high, 3),
         p.band,
-        p.ac1,
-        100.0 * p.observed_agreement,
-        100.0 * p.chance_agreement,
+        fixed(p.ac1, 3),
+        percent(p.observed_agreement),
+        percent(p.chance_agreement),
         crate::core::agreement::landis_koch_band(p.kappa_linear)
     ))
 }
@@ -436,8 +436,15 @@ fn heatmap(ui: &mut egui::Ui, model: &AgreementModel, selected: Option<&(String,
 
 fn coefficient_row(ui: &mut egui::Ui, name: &str, value: f64, extra: String, source: &str) {
     ui.label(name);
-    ui.monospace(format!("{value:.3}"));
-    ui.label(extra);
+    if value.is_finite() {
+        ui.monospace(format!("{value:.3}"));
+        ui.label(extra);
+    } else {
+        ui.monospace("–");
+        ui.label(format!(
+            "{extra}: not defined yet (too few pairs with two grades, or a single level used)"
+        ));
+    }
     ui.label(crate::core::agreement::landis_koch_band(value))
         .on_hover_text(source);
     ui.end_row();
@@ -470,10 +477,10 @@ fn panel_summary(ui: &mut egui::Ui, r: &AgreementReport) {
                 "Fleiss' kappa",
                 r.fleiss_kappa,
                 format!(
-                    "{} pairs with {} grades each (the most common number; {:.3} over the {} pairs graded by everyone)",
+                    "{} pairs with {} grades each (the most common number; {} over the {} pairs graded by everyone)",
                     r.fleiss_n,
                     r.fleiss_grades_per_pair,
-                    r.fleiss_kappa_complete,
+                    crate::analysis::render::fixed(r.fleiss_kappa_complete, 3),
                     r.fleiss_n_complete
                 ),
                 s,
@@ -490,9 +497,9 @@ fn panel_summary(ui: &mut egui::Ui, r: &AgreementReport) {
                 "Krippendorff's alpha (ordinal)",
                 r.alpha_ordinal,
                 format!(
-                    "95 % CI {:.3} to {:.3} (bootstrap, {} resamples)",
-                    r.alpha_ordinal_ci_low,
-                    r.alpha_ordinal_ci_high,
+                    "95 % CI {} to {} (bootstrap, {} resamples)",
+                    fixed(r.alpha_ordinal_ci_low, 3),
+                    fixed(r.alpha_ordinal_ci_high, 3),
                     defaults::AGREEMENT_BOOTSTRAP
                 ),
                 s,
@@ -518,82 +525,4 @@ fn panel_summary(ui: &mut egui::Ui, r: &AgreementReport) {
     ui.weak(
         "Kappa-type numbers mislead when one level dominates; small samples give wide intervals.",
     );
-}
-
-fn strictness(ui: &mut egui::Ui, model: &AgreementModel) {
-    let review = &model.review;
-    ui.heading("How each reviewer uses the levels");
-    egui::Grid::new("strictness")
-        .striped(true)
-        .show(ui, |ui| {
-            ui.strong("Reviewer");
-            for l in 0..review.levels {
-                ui.strong(format!("level {l}"));
-            }
-            ui.strong("grades");
-            ui.strong("mean difference from the others")
-                .on_hover_text("Own level minus the lower median of the other reviewers' levels on the same pair; below 0 means stricter.");
-            ui.strong("gold pairs right");
-            ui.end_row();
-            for s in &review.strictness {
-                ui.label(&s.reviewer);
-                for (l, share) in s.shares.iter().enumerate() {
-                    let panel = review.panel_shares.get(l).copied().unwrap_or(0.0);
-                    ui.label(format!("{:.0} % (panel {:.0} %)", 100.0 * share, 100.0 * panel));
-                }
-                ui.label(s.graded.to_string());
-                if s.compared == 0 {
-                    ui.weak("no shared pairs");
-                } else {
-                    ui.label(format!("{:+.2} over {} pairs", s.mean_difference, s.compared));
-                }
-                match review.gold.iter().find(|g| g.reviewer == s.reviewer) {
-                    Some(g) => ui.label(format!(
-                        "{} of {} ({:.0} %)",
-                        g.correct,
-                        g.graded,
-                        100.0 * g.correct as f64 / g.graded as f64
-                    )),
-                    None => ui.weak("none graded"),
-                };
-                ui.end_row();
-            }
-        });
-    if review.gold_pairs == 0 {
-        ui.weak("This scale has no gold pairs, so there is no gold accuracy to show.");
-    }
-}
-
-fn drift(ui: &mut egui::Ui, review: &PanelReview) {
-    ui.heading("Agreement with the others by day");
-    ui.weak("Share of a reviewer's grades equal to the lower median of the others' levels on the same pair, by the day graded (UTC). A falling share can mean drift; few pairs on a day mean a wide margin.");
-    if review.days.is_empty() {
-        ui.weak("No pairs were graded by two or more reviewers yet.");
-        return;
-    }
-    egui::Grid::new("drift").striped(true).show(ui, |ui| {
-        ui.strong("Reviewer");
-        for d in &review.days {
-            ui.strong(d);
-        }
-        ui.end_row();
-        for s in &review.strictness {
-            ui.label(&s.reviewer);
-            for d in &review.days {
-                match review
-                    .drift
-                    .iter()
-                    .find(|x| x.reviewer == s.reviewer && &x.day == d)
-                {
-                    Some(x) => ui.label(format!(
-                        "{:.0} % of {}",
-                        100.0 * x.agreed as f64 / x.compared as f64,
-                        x.compared
-                    )),
-                    None => ui.weak("—"),
-                };
-            }
-            ui.end_row();
-        }
-    });
 }

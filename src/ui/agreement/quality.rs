@@ -1,7 +1,9 @@
-//! Reviewer quality on the Agreement screen: gold accuracy per reviewer (with drift by
-//! day) and each machine judge against the people's panel grade, drawn from the report.
+//! Reviewer quality on the Agreement screen: how each reviewer uses the levels, their
+//! agreement with the others by day, gold accuracy (with drift by day) and each machine
+//! judge against the people's panel grade, drawn from the cached model.
 
 use crate::analysis::agreement_view::AgreementModel;
+use crate::analysis::panel_review::PanelReview;
 use crate::analysis::reviewer_quality::MACHINE_CAUTION;
 
 /// A setting the lead changed in this section, for the screen to write.
@@ -152,4 +154,82 @@ pub fn gold_and_machines(ui: &mut egui::Ui, model: &AgreementModel) -> Option<Qu
         change = Some(QualityChange::MachinesInPanel(counted));
     }
     change
+}
+
+pub fn strictness(ui: &mut egui::Ui, model: &AgreementModel) {
+    let review = &model.review;
+    ui.heading("How each reviewer uses the levels");
+    egui::Grid::new("strictness")
+        .striped(true)
+        .show(ui, |ui| {
+            ui.strong("Reviewer");
+            for l in 0..review.levels {
+                ui.strong(format!("level {l}"));
+            }
+            ui.strong("grades");
+            ui.strong("mean difference from the others")
+                .on_hover_text("Own level minus the lower median of the other reviewers' levels on the same pair; below 0 means stricter.");
+            ui.strong("gold pairs right");
+            ui.end_row();
+            for s in &review.strictness {
+                ui.label(&s.reviewer);
+                for (l, share) in s.shares.iter().enumerate() {
+                    let panel = review.panel_shares.get(l).copied().unwrap_or(0.0);
+                    ui.label(format!("{:.0} % (panel {:.0} %)", 100.0 * share, 100.0 * panel));
+                }
+                ui.label(s.graded.to_string());
+                if s.compared == 0 {
+                    ui.weak("no shared pairs");
+                } else {
+                    ui.label(format!("{:+.2} over {} pairs", s.mean_difference, s.compared));
+                }
+                match review.gold.iter().find(|g| g.reviewer == s.reviewer) {
+                    Some(g) => ui.label(format!(
+                        "{} of {} ({:.0} %)",
+                        g.correct,
+                        g.graded,
+                        100.0 * g.correct as f64 / g.graded as f64
+                    )),
+                    None => ui.weak("none graded"),
+                };
+                ui.end_row();
+            }
+        });
+    if review.gold_pairs == 0 {
+        ui.weak("This scale has no gold pairs, so there is no gold accuracy to show.");
+    }
+}
+
+pub fn drift(ui: &mut egui::Ui, review: &PanelReview) {
+    ui.heading("Agreement with the others by day");
+    ui.weak("Share of a reviewer's grades equal to the lower median of the others' levels on the same pair, by the day graded (UTC). A falling share can mean drift; few pairs on a day mean a wide margin.");
+    if review.days.is_empty() {
+        ui.weak("No pairs were graded by two or more reviewers yet.");
+        return;
+    }
+    egui::Grid::new("drift").striped(true).show(ui, |ui| {
+        ui.strong("Reviewer");
+        for d in &review.days {
+            ui.strong(d);
+        }
+        ui.end_row();
+        for s in &review.strictness {
+            ui.label(&s.reviewer);
+            for d in &review.days {
+                match review
+                    .drift
+                    .iter()
+                    .find(|x| x.reviewer == s.reviewer && &x.day == d)
+                {
+                    Some(x) => ui.label(format!(
+                        "{:.0} % of {}",
+                        100.0 * x.agreed as f64 / x.compared as f64,
+                        x.compared
+                    )),
+                    None => ui.weak("—"),
+                };
+            }
+            ui.end_row();
+        }
+    });
 }

@@ -1,6 +1,7 @@
 //! The Scoreboard's tables and warnings, drawn from the cached model.
 
 use crate::analysis::defaults::COVERAGE_CAUTION;
+use crate::analysis::render::{fixed, percent_spaced as percent};
 use crate::analysis::scoreboard::{OFFLINE_CAUTION, Scoreboard};
 use crate::analysis::scoreboard_view::{
     ScoreboardModel, cell_text, column_title, difference_text, order_of, p_text, table_keys,
@@ -13,7 +14,7 @@ pub fn coverage_warning(ui: &mut egui::Ui, board: &Scoreboard) {
             if let Some(j) = r.metrics.get(&format!("judged@{k}"))
                 && j.mean < COVERAGE_CAUTION
             {
-                low.push(format!("{} at k={k}: {:.0} %", r.ranker, j.mean * 100.0));
+                low.push(format!("{} at k={k}: {}", r.ranker, percent(j.mean)));
             }
         }
     }
@@ -151,7 +152,7 @@ pub fn sensitivity(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize) {
             ui.end_row();
             ui.label("panel");
             for m in panel {
-                ui.label(format!("{m:.3}"));
+                ui.label(fixed(*m, 3));
             }
             ui.label(model.board.contexts_scored.to_string());
             ui.label("–");
@@ -230,12 +231,12 @@ pub fn pool_bias(ui: &mut egui::Ui, board: &Scoreboard, focus: usize) {
                     Some(file) => format!("{} (from {file})", p.ranker),
                     None => p.ranker.clone(),
                 });
-                ui.label(format!("{:.3}", p.mean));
-                ui.label(p.mean_left_out.map_or("–".into(), |m| format!("{m:.3}")));
+                ui.label(fixed(p.mean, 3));
+                ui.label(p.mean_left_out.map_or("–".into(), |m| fixed(m, 3)));
                 ui.label(p.drop.map_or("–".into(), |d| format!("{d:+.3}")));
                 ui.label(p.unique_pairs.to_string());
-                ui.label(format!("{:.0} %", p.judged * 100.0));
-                ui.label(format!("{:.0} %", p.judged_left_out * 100.0));
+                ui.label(percent(p.judged));
+                ui.label(percent(p.judged_left_out));
                 ui.end_row();
             }
         });

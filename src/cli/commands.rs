@@ -4,8 +4,7 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use super::{Command, Failure, Format};
-use crate::analysis::{agreement, judgments::GradeSource, render, scoreboard, trial};
-use crate::core::metrics::{GainKind, Unjudged};
+use crate::analysis::{agreement, render, scoreboard, trial};
 use crate::study::Study;
 use crate::study::import::{self, ImportSet, Source};
 
@@ -50,16 +49,8 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
         ),
         Some(Command::Score {
             study,
-            scale,
-            k,
-            gain,
+            options,
             grades,
-            unjudged,
-            baseline,
-            segment,
-            panel_grade,
-            bootstrap,
-            randomization,
             rankings,
             format,
         }) => {
@@ -67,22 +58,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             for file in &rankings {
                 snapshot.add_rankings_file(file)?;
             }
-            let settings = scoreboard::ScoreSettings {
-                scale,
-                ks: k,
-                gain: GainKind::parse(&gain).unwrap_or(GainKind::Exponential),
-                grades: GradeSource::parse(&grades),
-                unjudged: Unjudged::parse(&unjudged).unwrap_or(Unjudged::Zero),
-                // None: the study's stored baseline, else the first ranker (one rule,
-                // `scoreboard::resolve_baseline`).
-                baseline,
-                segment: scoreboard::Segment::parse(&segment),
-                panel_grade: crate::analysis::judgments::PanelRule::parse(&panel_grade)
-                    .unwrap_or_default(),
-                bootstrap_resamples: bootstrap,
-                randomization_resamples: randomization,
-                ..Default::default()
-            };
+            let settings = options.settings(&grades);
             let board = scoreboard::build(&snapshot, &settings)
                 .map_err(|e| Failure::input(e.to_string()))?;
             print(match format {
@@ -191,11 +167,24 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             grades,
             scores,
             report,
+            options,
         }) => {
             let study_file = open(&study)?;
+            // `--grades` names the grades file, or (as for `score`) whose grades count.
+            let reviewers = study_file.snapshot()?.reviewers;
+            let (sources, files): (Vec<String>, Vec<String>) = grades
+                .into_iter()
+                .partition(|g| g == "panel" || reviewers.contains(g));
+            if sources.len() > 1 || files.len() > 1 {
+                return Err(Failure::input(
+                    "give --grades at most twice: once a file to write the grades to, once panel or a reviewer whose grades the scores use",
+                ));
+            }
+            let source = sources.into_iter().next().unwrap_or_else(|| "panel".into());
+            let grades = files.into_iter().next().map(PathBuf::from);
             if grades.is_none() && scores.is_none() && report.is_none() {
                 return Err(Failure::input(
-                    "name at least one of --grades, --scores or --report",
+                    "name at least one of --grades FILE, --scores or --report",
                 ));
             }
             if let Some(path) = grades {
@@ -206,7 +195,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             }
             if scores.is_some() || report.is_some() {
                 let snapshot = study_file.snapshot()?;
-                let settings = scoreboard::ScoreSettings::default();
+                let settings = options.settings(&source);
                 let board = scoreboard::build(&snapshot, &settings)
                     .map_err(|e| Failure::input(e.to_string()))?;
                 let write = |path: &Path, text: String, what: &str| {

@@ -23,6 +23,57 @@ pub struct Cli {
     pub wait: u64,
 }
 
+/// The settings `score` and `export` share (every one but whose grades count, which
+/// `export` reads from `--grades` beside the grades file).
+#[derive(clap::Args, Debug, Clone)]
+pub struct ScoreOptions {
+    #[arg(long)]
+    pub scale: Option<String>,
+    /// Cut-offs, comma separated.
+    #[arg(long, value_delimiter = ',', default_values_t = crate::analysis::defaults::CUTOFFS)]
+    pub k: Vec<usize>,
+    #[arg(long, default_value = "exponential", value_parser = ["exponential", "linear"])]
+    pub gain: String,
+    #[arg(long, default_value = "zero", value_parser = ["zero", "condense"])]
+    pub unjudged: String,
+    #[arg(long)]
+    pub baseline: Option<String>,
+    /// all, new, established, query, anchor, or a context segment label
+    /// (`label:NAME` always means a label, even one called "new").
+    #[arg(long, default_value = "all")]
+    pub segment: String,
+    /// How an unsettled pair's panel levels become one level.
+    #[arg(long = "panel-grade", default_value = "lower-median", value_parser = ["lower-median", "upper-median", "mean-rounded"])]
+    pub panel_grade: String,
+    #[arg(long, default_value_t = crate::analysis::defaults::SCORE_BOOTSTRAP)]
+    pub bootstrap: usize,
+    #[arg(long, default_value_t = crate::analysis::defaults::SCORE_RANDOMIZATION)]
+    pub randomization: usize,
+}
+
+impl ScoreOptions {
+    /// The scoreboard settings these options and `grades` (panel or a reviewer) ask for.
+    pub fn settings(&self, grades: &str) -> crate::analysis::scoreboard::ScoreSettings {
+        use crate::analysis::judgments::{GradeSource, PanelRule};
+        use crate::core::metrics::{GainKind, Unjudged};
+        crate::analysis::scoreboard::ScoreSettings {
+            scale: self.scale.clone(),
+            ks: self.k.clone(),
+            gain: GainKind::parse(&self.gain).unwrap_or(GainKind::Exponential),
+            grades: GradeSource::parse(grades),
+            unjudged: Unjudged::parse(&self.unjudged).unwrap_or(Unjudged::Zero),
+            // None: the study's stored baseline, else the first ranker (one rule,
+            // `scoreboard::resolve_baseline`).
+            baseline: self.baseline.clone(),
+            segment: crate::analysis::scoreboard::Segment::parse(&self.segment),
+            panel_grade: PanelRule::parse(&self.panel_grade).unwrap_or_default(),
+            bootstrap_resamples: self.bootstrap,
+            randomization_resamples: self.randomization,
+            ..Default::default()
+        }
+    }
+}
+
 /// The command line's default for `--wait`: long, because giving up loses the work.
 pub const DEFAULT_WAIT_SECONDS: u64 = 600;
 
@@ -104,31 +155,11 @@ pub enum Command {
     /// Score every ranker with graded metrics, intervals and paired tests.
     Score {
         study: PathBuf,
-        #[arg(long)]
-        scale: Option<String>,
-        /// Cut-offs, comma separated.
-        #[arg(long, value_delimiter = ',', default_values_t = crate::analysis::defaults::CUTOFFS)]
-        k: Vec<usize>,
-        #[arg(long, default_value = "exponential", value_parser = ["exponential", "linear"])]
-        gain: String,
+        #[command(flatten)]
+        options: ScoreOptions,
         /// `panel` or a reviewer's name.
         #[arg(long, default_value = "panel")]
         grades: String,
-        #[arg(long, default_value = "zero", value_parser = ["zero", "condense"])]
-        unjudged: String,
-        #[arg(long)]
-        baseline: Option<String>,
-        /// all, new, established, query, anchor, or a context segment label
-        /// (`label:NAME` always means a label, even one called "new").
-        #[arg(long, default_value = "all")]
-        segment: String,
-        /// How an unsettled pair's panel levels become one level.
-        #[arg(long = "panel-grade", default_value = "lower-median", value_parser = ["lower-median", "upper-median", "mean-rounded"])]
-        panel_grade: String,
-        #[arg(long, default_value_t = crate::analysis::defaults::SCORE_BOOTSTRAP)]
-        bootstrap: usize,
-        #[arg(long, default_value_t = crate::analysis::defaults::SCORE_RANDOMIZATION)]
-        randomization: usize,
         /// Score the lists in this file (rankings.csv columns, `rank` or `score`) beside
         /// the study's, without importing them; a ranker the study has is replaced for
         /// this run. May be given more than once. The study is only read.
@@ -172,13 +203,19 @@ pub enum Command {
     /// Write grades or scores to files.
     Export {
         study: PathBuf,
-        #[arg(long)]
-        grades: Option<PathBuf>,
+        /// Where to write the grades (a file, e.g. grades.csv); given `panel` or a
+        /// reviewer's name instead, whose grades the scores and report use (as `score
+        /// --grades`). May be given twice, once for each.
+        #[arg(long, value_name = "FILE|panel|REVIEWER")]
+        grades: Vec<String>,
         #[arg(long)]
         scores: Option<PathBuf>,
         /// A Markdown report: settings, rankers with intervals, comparisons, agreement, cautions.
         #[arg(long)]
         report: Option<PathBuf>,
+        /// The settings of the scores and the report, as for `score`.
+        #[command(flatten)]
+        options: ScoreOptions,
     },
     /// Bring in grades and settled grades from studies graded elsewhere.
     Merge {

@@ -65,3 +65,78 @@ fn grade_export_round_trips_exactly_with_formula_like_text() {
     assert_eq!(reports[0].added, 0);
     assert_eq!(common::study_dump(&path), before);
 }
+
+/// `export` takes the settings of `score`: the scores file equals `score --format csv` with
+/// the same settings, and the report states each of them.
+#[test]
+fn export_takes_the_score_settings_and_the_report_states_them() {
+    let (_dir, path) = crate::ui_support::demo_copy();
+    let s = path.to_str().unwrap();
+    let dir = path.parent().unwrap();
+    let (scores, report, grades) = (
+        dir.join("scores.csv"),
+        dir.join("report.md"),
+        dir.join("grades.csv"),
+    );
+    let settings = [
+        "--scale",
+        "fit4",
+        "--k",
+        "3,7",
+        "--gain",
+        "linear",
+        "--unjudged",
+        "condense",
+        "--segment",
+        "new",
+        "--baseline",
+        "hybrid-cand",
+        "--bootstrap",
+        "200",
+    ];
+    let mut args: Vec<&str> = vec![
+        "export",
+        s,
+        "--scores",
+        scores.to_str().unwrap(),
+        "--report",
+        report.to_str().unwrap(),
+        "--grades",
+        grades.to_str().unwrap(),
+        "--grades",
+        "rev-amber",
+    ];
+    args.extend(settings);
+    let run = |args: &[&str]| {
+        let a: Vec<&std::ffi::OsStr> = args.iter().map(std::ffi::OsStr::new).collect();
+        let out = crate::cli::plumbline(&a);
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        String::from_utf8(out.stdout).unwrap()
+    };
+    run(&args);
+    let mut score: Vec<&str> = vec!["score", s, "--format", "csv", "--grades", "rev-amber"];
+    score.extend(settings);
+    assert_eq!(std::fs::read_to_string(&scores).unwrap(), run(&score));
+    let md = std::fs::read_to_string(&report).unwrap();
+    for line in [
+        "- **Scale:** fit4",
+        "- **Grades:** reviewer rev-amber only",
+        "- **Cut-offs k:** 3, 7",
+        "- **Gain:** linear (level)",
+        "- **Unjudged items:** removed before cutting at k (condensed lists)",
+        "- **Segment:** new",
+        "- **Baseline:** hybrid-cand",
+        "200 resamples",
+    ] {
+        assert!(md.contains(line), "{line} missing from the report");
+    }
+    assert!(
+        std::fs::read_to_string(&grades)
+            .unwrap()
+            .starts_with("reviewer,")
+    );
+}

@@ -53,6 +53,20 @@ pub struct HomeModel {
     pub reviewers: Vec<ReviewerProgress>,
     /// Whether the study is open read-only.
     pub read_only: bool,
+    /// In a reviewer's copy: whom it was handed out to (absent for a lead's study).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub copy_for: Option<String>,
+}
+
+impl HomeModel {
+    /// The study's title as every screen shows it: a reviewer's copy says so, so it is
+    /// never taken for the lead's study.
+    pub fn title(&self) -> String {
+        match &self.copy_for {
+            Some(reviewer) => format!("{} — copy for {reviewer}", self.name),
+            None => self.name.clone(),
+        }
+    }
 }
 
 /// Home as the screen and `plumbline status` show it, from one read of the study.
@@ -63,12 +77,11 @@ pub fn of_study(study: &Study) -> Result<HomeModel, StudyError> {
             Some(scale) => study.queue_progress(&scale.name)?,
             None => Vec::new(),
         };
-        Ok(build(
-            &snapshot,
-            &queues,
-            study.counts()?,
-            study.is_read_only(),
-        ))
+        let mut model = build(&snapshot, &queues, study.counts()?, study.is_read_only());
+        model.copy_for = study
+            .setting(crate::study::settings::keys::HANDED_OUT_TO)?
+            .filter(|r| !r.is_empty());
+        Ok(model)
     })
 }
 
@@ -77,7 +90,7 @@ pub fn text(model: &HomeModel) -> String {
     let c = &model.counts;
     let mut out = format!(
         "Study {}{}\n{} items · {} contexts · {} rankers ({} ranked entries) · {} scales · {} reviewers · {} grades in force ({} history rows)\n",
-        model.name,
+        model.title(),
         if model.read_only { " (read-only)" } else { "" },
         c.items,
         c.contexts,
@@ -199,6 +212,7 @@ pub fn build(
         coverage,
         reviewers,
         read_only,
+        copy_for: None,
     }
 }
 

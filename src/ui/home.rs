@@ -33,7 +33,7 @@ pub fn ui(ui: &mut egui::Ui, model: &HomeModel) {
 }
 
 fn body(ui: &mut egui::Ui, model: &HomeModel) {
-    ui.heading(&model.name);
+    ui.heading(model.title());
     if model.read_only {
         ui.colored_label(
             ui.visuals().warn_fg_color,

@@ -97,9 +97,9 @@ impl Workbench {
         if self.desk.has_unsaved() {
             return; // a grade is waiting to be saved; keep this study until it is
         }
-        let screen = self.screen;
+        // Another study opens on Home, whatever screen the last one showed.
         let prefs = std::mem::take(&mut self.prefs);
-        *self = Workbench::with_prefs(path, screen, prefs);
+        *self = Workbench::with_prefs(path, Screen::Home, prefs);
     }
 
     fn reload_home(&mut self, ctx: &egui::Context) {
@@ -114,12 +114,12 @@ impl Workbench {
         }
         if let Some(result) = self.home_loading.poll() {
             if let Ok(m) = &result
-                && self.title.as_deref() != Some(m.name.as_str())
+                && self.title.as_deref() != Some(m.title().as_str())
             {
-                self.title = Some(m.name.clone());
+                self.title = Some(m.title());
                 ctx.send_viewport_cmd(egui::ViewportCommand::Title(format!(
                     "{} — Plumbline",
-                    m.name
+                    m.title()
                 )));
             }
             self.home = Some(result);
@@ -248,7 +248,7 @@ impl Workbench {
             ui.strong("Plumbline");
             ui.separator();
             let name = match &self.home {
-                Some(Ok(m)) => m.name.clone(),
+                Some(Ok(m)) => m.title(),
                 _ => study_label(&self.path),
             };
             ui.label(format!("Study: {name}"))

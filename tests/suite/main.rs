@@ -41,3 +41,4 @@ mod ui_read_only;
 mod ui_scales;
 mod ui_scoreboard;
 mod ui_support;
+mod ui_titles;

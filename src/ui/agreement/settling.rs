@@ -272,10 +272,10 @@ impl SettleForm {
                         .and_then(|s| s.value)
                         .map_or(String::new(), |v| format!(" · settled {v}"));
                     let text = format!(
-                        "spread {} · levels {} · in {} rankers' top {}{}\n{} — {}",
+                        "spread {} · levels {} · in {} top {}{}\n{} — {}",
                         d.spread,
                         levels.join(" "),
-                        d.rankers_in_top_k,
+                        rankers_phrase(d.rankers_in_top_k),
                         model.review.top_k,
                         settled,
                         context_words(d),
@@ -324,8 +324,9 @@ impl SettleForm {
         ui.label(format!("Item {}: {}", d.item_id, d.item_title));
         ui.label(match d.best_rank {
             Some(r) => format!(
-                "Best rank {r}; in {} rankers' top {}.",
-                d.rankers_in_top_k, model.review.top_k
+                "Best rank {r}; in {} top {}.",
+                rankers_phrase(d.rankers_in_top_k),
+                model.review.top_k
             ),
             None => "No ranker returns this item here.".into(),
         });
@@ -430,4 +431,12 @@ fn level_text(model: &AgreementModel, v: u8) -> String {
         .iter()
         .find(|l| l.value == v)
         .map_or(v.to_string(), |l| format!("{v} {}", l.label))
+}
+
+/// "1 ranker's", "3 rankers'": the possessive that reads right for the count.
+fn rankers_phrase(n: usize) -> String {
+    match n {
+        1 => "1 ranker's".into(),
+        n => format!("{n} rankers'"),
+    }
 }

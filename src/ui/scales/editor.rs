@@ -255,6 +255,8 @@ pub struct MapEditor {
     pub scale: String,
     pub name: String,
     pub targets: Vec<u8>,
+    /// Whether the lead has edited the form yet: problems are shown only after that.
+    pub touched: bool,
 }
 
 impl MapEditor {
@@ -298,14 +300,17 @@ impl MapEditor {
                 });
             let _ = combo.response.labelled_by(label.id);
             let label = ui.label("Map name");
-            ui.add(egui::TextEdit::singleline(&mut self.name).desired_width(140.0))
+            let name = ui
+                .add(egui::TextEdit::singleline(&mut self.name).desired_width(140.0))
                 .labelled_by(label.id);
+            self.touched |= name.changed();
         });
         let entry = model.entry(&self.scale)?;
         for (v, level) in entry.scale.levels.iter().enumerate() {
             ui.horizontal(|ui| {
                 let label = ui.label(format!("{v} {} becomes", level.label));
                 let drag = ui.add(egui::DragValue::new(&mut self.targets[v]).range(0..=9));
+                self.touched |= drag.changed();
                 let _ = drag.labelled_by(label.id);
             });
         }
@@ -330,8 +335,10 @@ impl MapEditor {
         if map.targets.windows(2).any(|w| w[1] < w[0]) {
             problems.push("coarse levels must not fall as the fine level rises".into());
         }
-        for p in &problems {
-            ui.colored_label(ui.visuals().error_fg_color, format!("- {p}"));
+        if self.touched {
+            for p in &problems {
+                ui.colored_label(ui.visuals().error_fg_color, format!("- {p}"));
+            }
         }
         if ui
             .add_enabled(

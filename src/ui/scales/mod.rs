@@ -152,6 +152,9 @@ pub fn apply(path: &Path, change: Change) -> JobResult<(String, ScalesModel)> {
     Ok((message, load(path)?))
 }
 
+/// How long a "saved" note stays on the Scales screen.
+const MESSAGE_SHOWN_FOR: std::time::Duration = std::time::Duration::from_secs(8);
+
 /// The Scales screen's state between frames.
 pub struct ScalesScreen {
     pub model: Option<JobResult<ScalesModel>>,
@@ -159,6 +162,8 @@ pub struct ScalesScreen {
     writing: Task<JobResult<(String, ScalesModel)>>,
     /// The last write's outcome: Ok(what happened) or Err(why not).
     pub message: Option<JobResult<String>>,
+    /// When `message` arrived.
+    message_at: Option<std::time::Instant>,
     pub editor: Option<Editor>,
     pub map_editor: MapEditor,
     pub gold_form: gold::GoldForm,
@@ -175,6 +180,7 @@ impl Default for ScalesScreen {
             editor: None,
             map_editor: MapEditor::default(),
             gold_form: Default::default(),
+            message_at: None,
             pilot_choice: Vec::new(),
         }
     }
@@ -210,6 +216,16 @@ impl ScalesScreen {
                 }
                 Err(e) => self.message = Some(Err(e)),
             }
+            self.message_at = Some(std::time::Instant::now());
+        }
+        // A success note fades after a while so it never describes an older state; a
+        // refusal stays until the next write.
+        if matches!(self.message, Some(Ok(_)))
+            && self
+                .message_at
+                .is_some_and(|t| t.elapsed() > MESSAGE_SHOWN_FOR)
+        {
+            self.message = None;
         }
     }
 
@@ -242,6 +258,7 @@ impl ScalesScreen {
         match &self.message {
             Some(Ok(m)) => {
                 ui.colored_label(crate::ui::palette::GOOD, m);
+                ctx.request_repaint_after(MESSAGE_SHOWN_FOR);
             }
             Some(Err(e)) => {
                 ui.colored_label(ui.visuals().error_fg_color, format!("Not saved: {e}"));

@@ -1,0 +1,65 @@
+//! Small things a lead notices: a reviewer's copy is titled as a copy everywhere, and a
+//! form shows no complaint before anything was typed.
+
+use crate::ui_support::{demo_copy, harness, step_until};
+
+use egui_kittest::kittest::{NodeT, Queryable};
+use plumbline::ui::Screen;
+
+fn texts(h: &crate::ui_support::Bench) -> Vec<String> {
+    let mut out = Vec::new();
+    for node in h.root().children_recursive() {
+        let n = node.accesskit_node();
+        out.extend(n.label());
+        out.extend(n.value());
+    }
+    out
+}
+
+#[test]
+fn a_reviewer_copy_is_titled_as_a_copy_for_that_reviewer() {
+    let (dir, path) = demo_copy();
+    let copy = dir.path().join("amber-copy.plumb");
+    let study = plumbline::study::Study::open(&path).unwrap();
+    study.hand_out("rev-amber", &copy).unwrap();
+    drop(study);
+    let mut h = harness(&copy, Screen::Home);
+    step_until(&mut h, "Home", |h| {
+        h.query_all_by_label_contains("copy for rev-amber").count() > 0
+    });
+    let shown = texts(&h);
+    let title = "Fennel Hollow demo — copy for rev-amber";
+    assert!(
+        shown.iter().any(|t| t == &format!("Study: {title}")),
+        "{shown:?}"
+    );
+    assert!(
+        shown.iter().any(|t| t == title),
+        "the Home heading: {shown:?}"
+    );
+    // The lead's own study is titled plainly.
+    let mut lead = harness(&path, Screen::Home);
+    step_until(&mut lead, "Home", |h| {
+        h.query_all_by_label("Study: Fennel Hollow demo").count() > 0
+    });
+    assert!(!texts(&lead).iter().any(|t| t.contains("copy for")));
+    let status = std::process::Command::new(env!("CARGO_BIN_EXE_plumbline"))
+        .args(["status", copy.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert!(String::from_utf8_lossy(&status.stdout).starts_with(&format!("Study {title}")));
+}
+
+#[test]
+fn the_collapse_map_form_says_nothing_before_it_is_touched() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path, Screen::Scales);
+    step_until(&mut h, "the scales", |h| {
+        matches!(h.state().scales.model, Some(Ok(_)))
+    });
+    h.step();
+    assert!(
+        !texts(&h).iter().any(|t| t.contains("the map needs a name")),
+        "no complaint before anything was typed"
+    );
+}

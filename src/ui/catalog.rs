@@ -7,7 +7,7 @@ use std::sync::{Arc, Mutex};
 use super::desk::new_badge;
 use super::image_cache::{self, ImageCache};
 use super::jobs::{JobResult, Task};
-use super::study_picker::block_on;
+use super::study_picker::{Asked, NO_DIALOG, ask};
 use crate::study::Problem;
 use crate::study::Study;
 use crate::study::import::{FileReport, ImportSet, Source, import_with_progress};
@@ -154,7 +154,9 @@ pub struct Catalog {
     filtered: Vec<usize>,
     images: Option<ImageCache>,
     files: [String; 6],
-    dialogs: [Task<Option<PathBuf>>; 6],
+    dialogs: [Task<Asked<PathBuf>>; 6],
+    /// Said when no file dialog could open.
+    dialog_note: Option<String>,
     importing: ImportJob,
     progress: Progress,
     pub reports: Vec<FileReport>,
@@ -177,6 +179,7 @@ impl Default for Catalog {
             images: None,
             files: Default::default(),
             dialogs: std::array::from_fn(|_| Task::named("csv-dialog")),
+            dialog_note: None,
             importing: Task::named("catalog-import"),
             progress: Progress::default(),
             reports: Vec::new(),
@@ -291,9 +294,14 @@ impl Catalog {
 
     fn import_panel(&mut self, ui: &mut egui::Ui, path: &Path) {
         let ctx = ui.ctx().clone();
-        for k in 0..5 {
-            if let Some(Some(p)) = self.dialogs[k].poll() {
-                self.files[k] = p.display().to_string();
+        for k in 0..KINDS.len() {
+            match self.dialogs[k].poll() {
+                Some(Asked::Chosen(p)) => {
+                    self.files[k] = p.display().to_string();
+                    self.dialog_note = None;
+                }
+                Some(Asked::Unavailable) => self.dialog_note = Some(NO_DIALOG.to_string()),
+                Some(Asked::Cancelled) | None => {}
             }
         }
         if let Some(result) = self.importing.poll() {
@@ -335,12 +343,15 @@ impl Catalog {
                                     let dialog = rfd::AsyncFileDialog::new()
                                         .add_filter("CSV", &["csv"])
                                         .pick_file();
-                                    block_on(dialog).map(|h| h.path().to_path_buf())
+                                    ask(async { dialog.await.map(|h| h.path().to_path_buf()) })
                                 });
                             }
                             ui.end_row();
                         }
                     });
+                if let Some(note) = &self.dialog_note {
+                    ui.colored_label(ui.visuals().warn_fg_color, note);
+                }
                 let chosen: [Option<PathBuf>; 6] = std::array::from_fn(|k| {
                     let t = self.files[k].trim();
                     (!t.is_empty()).then(|| PathBuf::from(t))

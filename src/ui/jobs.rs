@@ -74,6 +74,13 @@ impl<T> JobOutput for Option<T> {
     }
 }
 
+/// A file dialog job that died counts as a dialog that could not open.
+impl<T> JobOutput for super::study_picker::Asked<T> {
+    fn from_failure(_: String) -> Self {
+        super::study_picker::Asked::Unavailable
+    }
+}
+
 impl JobOutput for Vec<std::path::PathBuf> {
     fn from_failure(_: String) -> Self {
         Vec::new()

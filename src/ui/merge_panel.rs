@@ -5,7 +5,7 @@
 use std::path::{Path, PathBuf};
 
 use super::jobs::{JobError, JobResult, Task};
-use super::study_picker::block_on;
+use super::study_picker::{Asked, NO_DIALOG, ask};
 use crate::study::Study;
 use crate::study::merge::{MergeOptions, MergeReport};
 
@@ -22,7 +22,9 @@ impl super::jobs::JobOutput for Vec<MergeOutcome> {
 pub struct MergePanel {
     /// Paths, one per line (typed, or filled in by the dialog).
     pub paths: String,
-    dialog: Task<Vec<PathBuf>>,
+    dialog: Task<Asked<Vec<PathBuf>>>,
+    /// Said when no file dialog could open.
+    dialog_note: Option<String>,
     previewing: Task<Vec<MergeOutcome>>,
     merging: Task<Vec<MergeOutcome>>,
     /// The last dry run (not yet confirmed).
@@ -41,6 +43,7 @@ impl Default for MergePanel {
         MergePanel {
             paths: String::new(),
             dialog: Task::named("merge-dialog"),
+            dialog_note: None,
             previewing: Task::named("merge-preview"),
             merging: Task::named("merge"),
             preview: Vec::new(),
@@ -83,7 +86,15 @@ impl MergePanel {
 
     pub fn ui(&mut self, ui: &mut egui::Ui, study: &Path) {
         let ctx = ui.ctx().clone();
-        if let Some(picked) = self.dialog.poll() {
+        if let Some(asked) = self.dialog.poll() {
+            let picked = match asked {
+                Asked::Chosen(paths) => paths,
+                Asked::Cancelled => Vec::new(),
+                Asked::Unavailable => {
+                    self.dialog_note = Some(NO_DIALOG.to_string());
+                    Vec::new()
+                }
+            };
             for p in picked {
                 if !self.paths.is_empty() && !self.paths.ends_with('\n') {
                     self.paths.push('\n');
@@ -121,9 +132,11 @@ impl MergePanel {
                             let dialog = rfd::AsyncFileDialog::new()
                                 .add_filter("Plumbline study", &["plumb"])
                                 .pick_files();
-                            block_on(dialog)
-                                .map(|hs| hs.iter().map(|h| h.path().to_path_buf()).collect())
-                                .unwrap_or_default()
+                            ask(async {
+                                dialog
+                                    .await
+                                    .map(|hs| hs.iter().map(|h| h.path().to_path_buf()).collect())
+                            })
                         });
                     }
                     let files = self.files();
@@ -156,6 +169,9 @@ impl MergePanel {
                         ctx.request_repaint_after_secs(0.1);
                     }
                 });
+                if let Some(note) = &self.dialog_note {
+                    ui.colored_label(ui.visuals().warn_fg_color, note);
+                }
                 outcome_list(ui, "Would come in", &self.preview);
                 acceptance(ui, &self.preview, &mut self.accepted);
                 outcome_list(ui, "Merged", &self.merged);

@@ -107,6 +107,35 @@ pub fn block_on<F: std::future::Future>(future: F) -> F::Output {
     }
 }
 
+/// What a native file dialog gave back.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Asked<T> {
+    /// The person chose this.
+    Chosen(T),
+    /// The dialog opened and the person closed it without choosing.
+    Cancelled,
+    /// No dialog could open (a bare X session, a desktop without a file-chooser
+    /// service): the answer came back faster than anyone can cancel.
+    Unavailable,
+}
+
+/// Faster than this, an empty answer means the dialog never opened.
+const QUICKEST_CANCEL: std::time::Duration = std::time::Duration::from_millis(300);
+
+/// What every screen says when no dialog could open.
+pub const NO_DIALOG: &str = "No file dialog could open on this desktop (no file-chooser service is running): type the path in the field instead.";
+
+/// Runs a native dialog on the job thread and tells a cancel from a dialog that could
+/// not open at all.
+pub fn ask<T>(dialog: impl std::future::Future<Output = Option<T>>) -> Asked<T> {
+    let started = std::time::Instant::now();
+    match block_on(dialog) {
+        Some(answer) => Asked::Chosen(answer),
+        None if started.elapsed() < QUICKEST_CANCEL => Asked::Unavailable,
+        None => Asked::Cancelled,
+    }
+}
+
 /// What the picker asks the workbench to do.
 pub enum PickerOutcome {
     Open(PathBuf),
@@ -117,7 +146,7 @@ pub struct StudyPicker {
     pub open: bool,
     typed: String,
     message: Option<String>,
-    dialog: Task<Option<(PathBuf, bool)>>,
+    dialog: Task<Asked<(PathBuf, bool)>>,
     checking: Task<JobResult<PathBuf>>,
 }
 
@@ -138,13 +167,9 @@ impl StudyPicker {
         let mut outcome = None;
         if let Some(result) = self.dialog.poll() {
             match result {
-                Some((path, create)) => self.check(ctx, path, create),
-                None => {
-                    self.message = Some(
-                        "No file chosen (or no file dialog on this desktop): type a path instead."
-                            .into(),
-                    )
-                }
+                Asked::Chosen((path, create)) => self.check(ctx, path, create),
+                Asked::Cancelled => self.message = Some("No file chosen.".into()),
+                Asked::Unavailable => self.message = Some(NO_DIALOG.into()),
             }
         }
         if let Some(result) = self.checking.poll() {
@@ -186,7 +211,7 @@ impl StudyPicker {
                             let dialog = rfd::AsyncFileDialog::new()
                                 .add_filter("Plumbline study", &["plumb"])
                                 .pick_file();
-                            block_on(dialog).map(|h| (h.path().to_path_buf(), false))
+                            ask(async { dialog.await.map(|h| (h.path().to_path_buf(), false)) })
                         });
                     }
                     if ui.button("Browse to create…").clicked() {
@@ -195,7 +220,7 @@ impl StudyPicker {
                                 .add_filter("Plumbline study", &["plumb"])
                                 .set_file_name("study.plumb")
                                 .save_file();
-                            block_on(dialog).map(|h| (h.path().to_path_buf(), true))
+                            ask(async { dialog.await.map(|h| (h.path().to_path_buf(), true)) })
                         });
                     }
                     if self.dialog.is_running() {
@@ -262,5 +287,16 @@ mod tests {
         // b does not exist on disk, a does.
         assert_eq!(again.last_study(), Some(a.clone()));
         assert_eq!(again.reviewer_for(&a).as_deref(), Some("rev-amber"));
+    }
+
+    #[test]
+    fn an_instant_empty_answer_means_no_dialog_and_a_slow_one_a_cancel() {
+        assert_eq!(ask(async { None::<u8> }), Asked::Unavailable);
+        assert_eq!(ask(async { Some(3u8) }), Asked::Chosen(3));
+        let slow = async {
+            std::thread::sleep(QUICKEST_CANCEL + std::time::Duration::from_millis(50));
+            None::<u8>
+        };
+        assert_eq!(ask(slow), Asked::Cancelled);
     }
 }

@@ -362,3 +362,50 @@ fn lists_from_a_file_are_scored_beside_the_study_without_importing_them() {
         "the study must not be written"
     );
 }
+
+#[test]
+fn scores_and_the_report_save_to_a_typed_path_without_a_file_dialog() {
+    let (_dir, path) = demo_copy();
+    let target = path.with_file_name("typed-scores.csv");
+    let report = path.with_file_name("typed-report.md");
+    // Tall enough that the export row at the foot of the screen is on screen.
+    let mut h = Harness::builder()
+        .with_size([1400.0, 4000.0])
+        .build_ui_state(
+            |ui, wb: &mut Workbench| wb.show(ui),
+            Workbench::new(path.to_path_buf(), Screen::Scoreboard),
+        );
+    settle(&mut h);
+    let field = "Or save to this path:";
+    for (file, button) in [
+        (&target, "Save scores CSV there"),
+        (&report, "Save report there"),
+    ] {
+        h.get_by_role_and_label(Role::TextInput, field).focus();
+        h.step();
+        h.get_by_role_and_label(Role::TextInput, field)
+            .type_text(file.to_str().unwrap());
+        h.step();
+        h.get_by_label(button).click();
+        h.step();
+        for _ in 0..50 {
+            h.step();
+            std::thread::sleep(std::time::Duration::from_millis(10));
+        }
+        assert!(
+            file.exists(),
+            "{:?} / typed {:?}",
+            h.state().scoreboard.message,
+            h.state().scoreboard.export_path
+        );
+        h.state_mut().scoreboard.export_path.clear();
+        h.step();
+    }
+    let csv = std::fs::read_to_string(&target).unwrap();
+    assert!(csv.starts_with("ranker,context_id,metric,value") || csv.contains("ndcg@10"));
+    assert!(
+        std::fs::read_to_string(&report)
+            .unwrap()
+            .starts_with("# Scoreboard report")
+    );
+}

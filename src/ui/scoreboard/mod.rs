@@ -4,17 +4,16 @@
 //! thread (see `analysis::scoreboard_view`), the same function `plumbline score` prints, so
 //! screen and terminal agree.
 
+mod export;
 mod plots;
 mod tables;
 
 use std::path::{Path, PathBuf};
 
-use super::jobs::{JobError, JobResult, Task};
-use super::study_picker::block_on;
+use super::jobs::{JobResult, Task};
 use crate::analysis::judgments::GradeSource;
 use crate::analysis::scoreboard::{ScoreSettings, Segment};
 pub use crate::analysis::scoreboard_view::*;
-use crate::analysis::{render, report};
 use crate::core::metrics::{GainKind, Unjudged};
 use crate::study::Study;
 use tables::{comparisons, coverage_warning, ranker_table, sensitivity};
@@ -63,6 +62,8 @@ pub struct ScoreboardScreen {
     pub lists_files: Vec<PathBuf>,
     /// The path typed for the next one.
     pub lists_path: String,
+    /// Where "save … there" writes (no file dialog needed).
+    pub export_path: String,
 }
 
 impl Default for ScoreboardScreen {
@@ -83,6 +84,7 @@ impl Default for ScoreboardScreen {
             export_job: Task::named("scoreboard-export"),
             lists_files: Vec::new(),
             lists_path: String::new(),
+            export_path: String::new(),
         }
     }
 }
@@ -489,51 +491,6 @@ impl ScoreboardScreen {
             if self.gap_job.is_running() {
                 ui.spinner();
             }
-        });
-    }
-
-    fn export(&mut self, ui: &mut egui::Ui, ctx: &egui::Context, model: &ScoreboardModel) {
-        ui.strong("Export");
-        ui.horizontal(|ui| {
-            let busy = self.export_job.is_running();
-            let csv = ui.add_enabled(!busy, egui::Button::new("Save scores CSV…"));
-            let md = ui.add_enabled(!busy, egui::Button::new("Save report (Markdown)…"));
-            let report_wanted = if csv.clicked() {
-                false
-            } else if md.clicked() {
-                true
-            } else {
-                return;
-            };
-            // Rendering and writing happen on the job thread with a copy of the model.
-            let board = model.board.clone();
-            let agreement = model.agreement.clone();
-            self.export_job.start(ctx, move || {
-                let (name, filter) = if report_wanted {
-                    ("report.md", ("Markdown", "md"))
-                } else {
-                    ("scores.csv", ("CSV", "csv"))
-                };
-                let dialog = rfd::AsyncFileDialog::new()
-                    .add_filter(filter.0, &[filter.1])
-                    .set_file_name(name)
-                    .save_file();
-                let Some(handle) = block_on(dialog) else {
-                    return Ok("Nothing saved.".to_string());
-                };
-                let target = handle.path().to_path_buf();
-                let text = if report_wanted {
-                    report::markdown(&board, agreement.as_ref())
-                } else {
-                    render::scoreboard_csv(&board)
-                };
-                std::fs::write(&target, text)
-                    .map(|_| format!("Saved {}.", target.display()))
-                    .map_err(|source| JobError::Write {
-                        path: target.display().to_string(),
-                        source,
-                    })
-            });
         });
     }
 }

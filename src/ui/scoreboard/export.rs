@@ -1,0 +1,99 @@
+//! The Scoreboard's export: the scores CSV or the Markdown report, through a native
+//! dialog where the desktop has one, or to a typed path where it has none.
+
+use std::path::PathBuf;
+
+use super::ScoreboardScreen;
+use crate::analysis::scoreboard_view::ScoreboardModel;
+use crate::analysis::{render, report};
+use crate::ui::jobs::JobError;
+use crate::ui::study_picker::{Asked, NO_DIALOG, ask};
+
+impl ScoreboardScreen {
+    pub(super) fn export(
+        &mut self,
+        ui: &mut egui::Ui,
+        ctx: &egui::Context,
+        model: &ScoreboardModel,
+    ) {
+        ui.strong("Export");
+        let busy = self.export_job.is_running();
+        // (report wanted, typed path or None for the dialog)
+        let mut wanted: Option<(bool, Option<PathBuf>)> = None;
+        ui.horizontal(|ui| {
+            if ui
+                .add_enabled(!busy, egui::Button::new("Save scores CSV…"))
+                .clicked()
+            {
+                wanted = Some((false, None));
+            }
+            if ui
+                .add_enabled(!busy, egui::Button::new("Save report (Markdown)…"))
+                .clicked()
+            {
+                wanted = Some((true, None));
+            }
+        });
+        ui.horizontal(|ui| {
+            let label = ui.label("Or save to this path:");
+            ui.add(
+                egui::TextEdit::singleline(&mut self.export_path)
+                    .hint_text("/path/to/scores.csv or report.md")
+                    .desired_width(320.0),
+            )
+            .labelled_by(label.id);
+            let typed = self.export_path.trim();
+            let ready = !typed.is_empty() && !busy;
+            if ui
+                .add_enabled(ready, egui::Button::new("Save scores CSV there"))
+                .clicked()
+            {
+                wanted = Some((false, Some(PathBuf::from(typed))));
+            }
+            if ui
+                .add_enabled(ready, egui::Button::new("Save report there"))
+                .clicked()
+            {
+                wanted = Some((true, Some(PathBuf::from(typed))));
+            }
+        });
+        let Some((report_wanted, typed)) = wanted else {
+            return;
+        };
+        // Rendering and writing happen on the job thread with a copy of the model.
+        let board = model.board.clone();
+        let agreement = model.agreement.clone();
+        self.export_job.start(ctx, move || {
+            let target = match typed {
+                Some(path) => path,
+                None => {
+                    let (name, filter) = if report_wanted {
+                        ("report.md", ("Markdown", "md"))
+                    } else {
+                        ("scores.csv", ("CSV", "csv"))
+                    };
+                    let dialog = rfd::AsyncFileDialog::new()
+                        .add_filter(filter.0, &[filter.1])
+                        .set_file_name(name)
+                        .save_file();
+                    match ask(dialog) {
+                        Asked::Chosen(handle) => handle.path().to_path_buf(),
+                        Asked::Cancelled => return Ok("Nothing saved: no file chosen.".into()),
+                        Asked::Unavailable => return Ok(NO_DIALOG.into()),
+                    }
+                }
+            };
+            let text = if report_wanted {
+                report::markdown(&board, agreement.as_ref())
+            } else {
+                render::scoreboard_csv(&board)
+            };
+            std::fs::write(&target, text)
+                .map(|_| format!("Saved {}.", target.display()))
+                .map_err(|source| JobError::Write {
+                    path: target.display().to_string(),
+                    source,
+                })
+        });
+    }
+}

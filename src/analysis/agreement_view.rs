@@ -42,6 +42,8 @@ pub struct AgreementModel {
     pub training_reviewers: Vec<String>,
     /// Whether machine judges' grades count in the panel.
     pub machines_in_panel: bool,
+    /// Every settle event of the scale, oldest first (settlements, undos, batches).
+    pub settle_history: Vec<crate::study::settle::SettleRecord>,
 }
 
 impl AgreementModel {
@@ -129,6 +131,12 @@ fn build_in(
     let top_k = snapshot.pool_depth;
     let report = agreement::with_defaults(&snapshot, scale, collapse);
     let review = panel_review::build(&snapshot, scale, &grades, &settled, &gold, collapse, top_k);
+    let settle_history = if pending.is_empty() {
+        study.settle_history(&scale_name)?
+    } else {
+        // Blind rule: a reviewer with pending pairs sees no settled levels.
+        Vec::new()
+    };
     Ok(Some(AgreementModel {
         request: AgreementRequest {
             scale: Some(scale_name),
@@ -144,5 +152,6 @@ fn build_in(
         read_only: study.is_read_only(),
         training_reviewers: study.settings()?.training_reviewers,
         machines_in_panel: snapshot.machines_in_panel,
+        settle_history,
     }))
 }

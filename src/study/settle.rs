@@ -29,6 +29,15 @@ pub struct SettleRecord {
     pub reason: String,
 }
 
+/// What one bulk settling wrote.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SettledBatch {
+    /// Pairs settled.
+    pub pairs: usize,
+    /// The batch's time, shared by its rows; what `undo_batch` takes back.
+    pub batch: String,
+}
+
 /// A reviewer's current grade with what the desk recorded beside it.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct GradeDetail {
@@ -162,21 +171,48 @@ impl Study {
         rule: SettleRule,
         settled_by: &str,
     ) -> Result<usize> {
+        Ok(self
+            .settle_pairs_by_rule(scale, rule, settled_by, None)?
+            .pairs)
+    }
+
+    /// Settles by `rule` the disagreeing, unsettled pairs of `scale` — only those in
+    /// `only` when given (the pairs a filtered list shows) — in one transaction, as one
+    /// batch that [`Study::undo_batch`] can take back in one step. Machine judges' grades
+    /// count only when the study counts them in the panel.
+    pub fn settle_pairs_by_rule(
+        &mut self,
+        scale: &str,
+        rule: SettleRule,
+        settled_by: &str,
+        only: Option<&HashSet<PairId>>,
+    ) -> Result<SettledBatch> {
         self.check_writable_settler(settled_by)?;
         let settled: HashSet<PairId> = self
             .settled_in_force(scale)?
             .into_iter()
             .map(|s| (s.context_id, s.item_id))
             .collect();
+        let machines: HashSet<String> = if self.settings()?.machines_in_panel {
+            HashSet::new()
+        } else {
+            self.conn()
+                .prepare("SELECT reviewer FROM reviewers WHERE kind = 'machine'")?
+                .query_map([], |r| r.get(0))?
+                .collect::<std::result::Result<_, _>>()?
+        };
         let mut levels: HashMap<PairId, Vec<u8>> = HashMap::new();
         for g in self.grade_details(scale)? {
-            if let Some(v) = g.value {
+            if let Some(v) = g.value
+                && !machines.contains(&g.reviewer)
+            {
                 levels.entry((g.context_id, g.item_id)).or_default().push(v);
             }
         }
         let mut todo: Vec<(PairId, u8)> = levels
             .into_iter()
             .filter(|(pair, l)| spread(l) > 0 && !settled.contains(pair))
+            .filter(|(pair, _)| only.is_none_or(|o| o.contains(pair)))
             .filter_map(|(pair, l)| rule.apply(&l).map(|v| (pair, v)))
             .collect();
         todo.sort();
@@ -196,7 +232,39 @@ impl Study {
             insert_event(&tx, scale, &record)?;
         }
         tx.commit()?;
-        Ok(todo.len())
+        Ok(SettledBatch {
+            pairs: todo.len(),
+            batch: at,
+        })
+    }
+
+    /// Takes back a bulk batch in one step: every pair whose settlement in force is from
+    /// the batch (settled at `batch`) gets an undo row (the history keeps both).
+    /// Returns how many pairs were undone; pairs settled again since are left alone.
+    pub fn undo_batch(&mut self, scale: &str, batch: &str, settled_by: &str) -> Result<usize> {
+        self.check_writable_settler(settled_by)?;
+        let pairs: Vec<PairId> = self
+            .settled_in_force(scale)?
+            .into_iter()
+            .filter(|s| s.settled_at == batch && s.reason.starts_with("bulk rule:"))
+            .map(|s| (s.context_id, s.item_id))
+            .collect();
+        let at = time::now();
+        let tx = self.begin_write()?;
+        for pair in &pairs {
+            let record = SettleRecord {
+                context_id: pair.0.clone(),
+                item_id: pair.1.clone(),
+                value: None,
+                method: UNDONE.into(),
+                settled_by: settled_by.into(),
+                settled_at: at.clone(),
+                reason: format!("batch of {batch} undone"),
+            };
+            insert_event(&tx, scale, &record)?;
+        }
+        tx.commit()?;
+        Ok(pairs.len())
     }
 
     /// The settlements in force on a scale (latest row per pair, undone ones left out).

@@ -189,7 +189,11 @@ fn settling_by_hand_then_by_the_median_rule_reaches_the_panel_scores() {
     let shown_row = model(&h).review.disagreements[0].settled.clone();
     assert_eq!(shown_row.and_then(|s| s.value), Some(hand));
 
-    h.get_by_label("Settle the rest by median").click();
+    h.get_by_label("Settle the shown pairs by median").click();
+    h.step();
+    let unsettled = model(&h).review.disagreements.len() - 1;
+    h.get_by_label(&format!("Yes, settle {unsettled} pairs"))
+        .click();
     h.step();
     wait_for_model(&mut h);
     let study = Study::open(&path).unwrap();
@@ -353,4 +357,89 @@ fn level_use_on_screen_is_what_view_agreement_prints() {
         rows[0]["compared"].as_u64().unwrap() + 1
     );
     assert!(h.query_by_label(&wrong).is_none());
+}
+
+#[test]
+fn a_bulk_rule_settles_only_the_shown_pairs_after_asking_and_undoes_in_one_step() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(Workbench::new(path.clone(), Screen::Agreement));
+    wait_for_model(&mut h);
+    h.get_by_label_contains("Disagreements (").click();
+    h.step();
+    type_into(&mut h, "Who settles", "lead-juniper");
+    // Narrow the list to one context's pairs.
+    let context = model(&h).review.disagreements[0].context_id.clone();
+    type_into(&mut h, "Context contains", &context);
+    let shown: Vec<(String, String)> = model(&h)
+        .review
+        .disagreements
+        .iter()
+        .filter(|d| {
+            d.context_id
+                .to_lowercase()
+                .contains(&context.to_lowercase())
+        })
+        .map(|d| (d.context_id.clone(), d.item_id.clone()))
+        .collect();
+    let total = model(&h).review.disagreements.len();
+    assert!(!shown.is_empty() && shown.len() < total);
+    h.get_by_label("Settle the shown pairs by strictest")
+        .click();
+    h.step();
+    // Nothing is written before the confirmation.
+    let study = Study::open(&path).unwrap();
+    let scale = model(&h).scale.name.clone();
+    assert!(study.settled_in_force(&scale).unwrap().is_empty());
+    h.get_by_label(&format!("Yes, settle {} pairs", shown.len()))
+        .click();
+    h.step();
+    wait_for_model(&mut h);
+    let in_force = study.settled_in_force(&scale).unwrap();
+    assert_eq!(in_force.len(), shown.len(), "exactly the pairs shown");
+    for s in &in_force {
+        assert!(shown.contains(&(s.context_id.clone(), s.item_id.clone())));
+        assert_eq!(s.method, "strictest");
+    }
+    // The pair detail shows its settlement history.
+    let (c, i) = shown[0].clone();
+    h.get_by_label(&format!("Open pair {c} / {i}")).click();
+    h.step();
+    h.step();
+    assert!(h.query_by_label("Settlement history").is_some());
+    // One step takes the whole batch back; the history keeps both rows.
+    h.get_by_label(&format!("Undo the last batch ({} pairs)", shown.len()))
+        .click();
+    h.step();
+    wait_for_model(&mut h);
+    assert!(study.settled_in_force(&scale).unwrap().is_empty());
+    assert_eq!(study.settle_history(&scale).unwrap().len(), 2 * shown.len());
+}
+
+#[test]
+fn a_lead_signed_in_as_a_reviewer_cannot_settle_pairs_they_graded() {
+    let (_dir, path) = demo_copy();
+    let mut wb = Workbench::new(path.clone(), Screen::Agreement);
+    wb.reviewer = Some("rev-amber".into());
+    let mut h = harness(wb);
+    wait_for_model(&mut h);
+    assert!(!model(&h).viewer_is_grading(), "the demo's queues are done");
+    h.get_by_label_contains("Disagreements (").click();
+    h.step();
+    let mine = model(&h)
+        .review
+        .disagreements
+        .iter()
+        .find(|d| d.grades.iter().any(|g| g.reviewer == "rev-amber"))
+        .unwrap()
+        .clone();
+    h.get_by_label(&format!("Open pair {} / {}", mine.context_id, mine.item_id))
+        .click();
+    h.step();
+    h.step();
+    assert!(
+        h.query_by_label_contains("rev-amber graded this pair")
+            .is_some(),
+        "the lead is told why"
+    );
+    assert!(h.query_by_label("Record settled level").is_none());
 }

@@ -22,7 +22,20 @@ pub enum SettleAction {
         pair: (String, String),
         reason: String,
     },
-    Rule(SettleRule),
+    /// A rule over exactly these pairs (the ones the filtered list shows).
+    Rule {
+        rule: SettleRule,
+        pairs: Vec<(String, String)>,
+    },
+    /// Takes back the bulk batch settled at this time.
+    UndoBatch(String),
+}
+
+/// What a write did: the line to show, and the batch a rule wrote (for its undo).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Written {
+    pub message: String,
+    pub batch: Option<(String, usize)>,
 }
 
 /// Writes one action as `settled_by`; returns the line to show afterwards.
@@ -31,8 +44,12 @@ pub fn write(
     scale: &str,
     settled_by: &str,
     action: SettleAction,
-) -> JobResult<String> {
+) -> JobResult<Written> {
     let mut study = Study::open(path)?;
+    let said = |message: String| Written {
+        message,
+        batch: None,
+    };
     match action {
         SettleAction::ByHand {
             pair,
@@ -40,15 +57,35 @@ pub fn write(
             reason,
         } => {
             study.settle_pair(scale, &pair, value, settled_by, &reason)?;
-            Ok(format!("{} / {} settled at level {value}.", pair.0, pair.1))
+            Ok(said(format!(
+                "{} / {} settled at level {value}.",
+                pair.0, pair.1
+            )))
         }
         SettleAction::Undo { pair, reason } => {
             study.undo_settlement(scale, &pair, settled_by, &reason)?;
-            Ok(format!("Settlement of {} / {} undone.", pair.0, pair.1))
+            Ok(said(format!(
+                "Settlement of {} / {} undone.",
+                pair.0, pair.1
+            )))
         }
-        SettleAction::Rule(rule) => {
-            let n = study.settle_by_rule(scale, rule, settled_by)?;
-            Ok(format!("{n} pairs settled by the {} rule.", rule.method()))
+        SettleAction::Rule { rule, pairs } => {
+            let only: std::collections::HashSet<(String, String)> = pairs.into_iter().collect();
+            let done = study.settle_pairs_by_rule(scale, rule, settled_by, Some(&only))?;
+            Ok(Written {
+                message: format!(
+                    "{} pairs settled by the {} rule, as one batch.",
+                    done.pairs,
+                    rule.method()
+                ),
+                batch: (done.pairs > 0).then_some((done.batch, done.pairs)),
+            })
+        }
+        SettleAction::UndoBatch(batch) => {
+            let n = study.undo_batch(scale, &batch, settled_by)?;
+            Ok(said(format!(
+                "Batch undone: {n} settlements taken back (the history keeps them)."
+            )))
         }
     }
 }
@@ -63,9 +100,13 @@ pub struct SettleForm {
     pub reason: String,
     /// Who settles when nobody is signed in.
     pub settler: String,
-    writing: Task<JobResult<String>>,
+    writing: Task<JobResult<Written>>,
     /// The last write's outcome: what happened, or why it did not.
     pub message: Option<JobResult<String>>,
+    /// A rule waiting for the lead to confirm it on the shown pairs.
+    pub confirm: Option<SettleRule>,
+    /// The last bulk batch (its time and size), which one button takes back.
+    pub last_batch: Option<(String, usize)>,
 }
 
 impl Default for SettleForm {
@@ -80,6 +121,8 @@ impl Default for SettleForm {
             settler: String::new(),
             writing: Task::named("settle-write"),
             message: None,
+            confirm: None,
+            last_batch: None,
         }
     }
 }
@@ -94,11 +137,14 @@ impl SettleForm {
     pub fn poll_write(&mut self) -> bool {
         match self.writing.poll() {
             Some(result) => {
-                if result.is_ok() {
+                if let Ok(w) = &result {
                     self.reason.clear();
                     self.level = None;
+                    if w.batch.is_some() || w.message.starts_with("Batch undone") {
+                        self.last_batch = w.batch.clone();
+                    }
                 }
-                self.message = Some(result);
+                self.message = Some(result.map(|w| w.message));
                 true
             }
             None => false,
@@ -182,21 +228,89 @@ impl SettleForm {
                         .labelled_by(label.id);
                 }
                 ui.separator();
-                ui.label("The rest, in one step:");
+            });
+            // Bulk rules act on exactly the pairs the list shows, without a settled
+            // grade and without the settler's own grade, after a confirmation.
+            let shown: Vec<(String, String)> = self
+                .visible(model)
+                .into_iter()
+                .filter(|d| d.settled.is_none())
+                .filter(|d| !d.grades.iter().any(|g| g.reviewer == who))
+                .map(|d| (d.context_id.clone(), d.item_id.clone()))
+                .collect();
+            let own = self
+                .visible(model)
+                .into_iter()
+                .filter(|d| d.settled.is_none() && d.grades.iter().any(|g| g.reviewer == who))
+                .count();
+            ui.horizontal_wrapped(|ui| {
+                ui.label(format!("The {} unsettled pairs shown, in one step:", shown.len()));
                 for rule in SettleRule::ALL {
-                    let button = egui::Button::new(format!("Settle the rest by {}", rule.method()));
+                    let button = egui::Button::new(format!("Settle the shown pairs by {}", rule.method()));
                     if ui
-                        .add_enabled(can_settle && !who.is_empty(), button)
+                        .add_enabled(can_settle && !who.is_empty() && !shown.is_empty(), button)
                         .on_hover_text(format!(
-                            "Every disagreeing pair without a settled grade gets the {}. Undo per pair.",
+                            "Each pair the list shows without a settled grade gets the {}; asks first, and the batch can be undone in one step.",
                             rule.explain()
                         ))
                         .clicked()
                     {
-                        self.start(ui.ctx(), path, model, who.clone(), SettleAction::Rule(rule));
+                        self.confirm = Some(rule);
                     }
                 }
             });
+            if own > 0 {
+                ui.colored_label(
+                    crate::ui::palette::CAUTION,
+                    format!("{own} shown pairs carry {who}'s own grade and are left out: another lead should settle them."),
+                );
+            }
+            if let Some(rule) = self.confirm {
+                ui.horizontal(|ui| {
+                    ui.colored_label(
+                        crate::ui::palette::CAUTION,
+                        format!(
+                            "Settle these {} pairs by {} ({})?",
+                            shown.len(),
+                            rule.method(),
+                            rule.explain()
+                        ),
+                    );
+                    if ui
+                        .add_enabled(
+                            can_settle && !shown.is_empty(),
+                            egui::Button::new(format!("Yes, settle {} pairs", shown.len())),
+                        )
+                        .clicked()
+                    {
+                        self.confirm = None;
+                        let action = SettleAction::Rule {
+                            rule,
+                            pairs: shown.clone(),
+                        };
+                        self.start(ui.ctx(), path, model, who.clone(), action);
+                    }
+                    if ui.button("Cancel").clicked() {
+                        self.confirm = None;
+                    }
+                });
+            }
+            if let Some((batch, n)) = self.last_batch.clone()
+                && ui
+                    .add_enabled(
+                        can_settle && !who.is_empty(),
+                        egui::Button::new(format!("Undo the last batch ({n} pairs)")),
+                    )
+                    .clicked()
+            {
+                self.start(
+                    ui.ctx(),
+                    path,
+                    model,
+                    who.clone(),
+                    SettleAction::UndoBatch(batch),
+                );
+            }
         }
         if self.writing.is_running() {
             ui.horizontal(|ui| {
@@ -365,7 +479,39 @@ impl SettleForm {
                 }
             ));
         }
+        let history: Vec<_> = model
+            .settle_history
+            .iter()
+            .filter(|r| r.context_id == open.0 && r.item_id == open.1)
+            .collect();
+        if !history.is_empty() {
+            ui.strong("Settlement history");
+            for r in history {
+                ui.label(format!(
+                    "{} · {} · {} by {}{}",
+                    r.settled_at,
+                    r.value.map_or("undone".into(), |v| format!(
+                        "level {}",
+                        level_text(model, v)
+                    )),
+                    r.method,
+                    r.settled_by,
+                    if r.reason.is_empty() {
+                        String::new()
+                    } else {
+                        format!(": {}", r.reason)
+                    }
+                ));
+            }
+        }
         if !can_settle {
+            return;
+        }
+        if d.grades.iter().any(|g| g.reviewer == who) {
+            ui.colored_label(
+                crate::ui::palette::CAUTION,
+                format!("{who} graded this pair: a settlement should come from someone who did not, so it is off here."),
+            );
             return;
         }
         ui.add_space(6.0);

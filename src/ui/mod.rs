@@ -8,6 +8,7 @@ pub mod desk;
 pub mod home;
 pub mod image_cache;
 pub mod jobs;
+pub mod key_help;
 pub mod merge_panel;
 pub mod palette;
 pub mod scales;

@@ -43,6 +43,8 @@ pub struct Workbench {
     sign_in: SignIn,
     picker: StudyPicker,
     title: Option<String>,
+    /// Whether the keyboard help (`?` / F1) is open.
+    pub key_help_open: bool,
     shown_screen: Option<Screen>,
 }
 
@@ -81,6 +83,7 @@ impl Workbench {
             sign_in: SignIn::default(),
             picker: StudyPicker::default(),
             title: None,
+            key_help_open: false,
             shown_screen: None,
         }
     }
@@ -180,6 +183,7 @@ impl Workbench {
     pub fn show(&mut self, ui: &mut egui::Ui) {
         let ctx = ui.ctx().clone();
         self.shortcuts(&ctx);
+        super::key_help::show(&ctx, self.screen, &mut self.key_help_open);
         self.collect_jobs(&ctx);
         if let Some(PickerOutcome::Open(path)) = self.picker.ui(&ctx, &self.prefs) {
             self.switch_study(path);

@@ -63,3 +63,31 @@ fn the_collapse_map_form_says_nothing_before_it_is_touched() {
         "no complaint before anything was typed"
     );
 }
+
+#[test]
+fn question_mark_or_f1_lists_every_key_of_the_screen() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path, Screen::Desk);
+    let ctx = h.ctx.clone();
+    h.state_mut().sign_in(&ctx, "rev-amber");
+    h.step();
+    h.key_press(egui::Key::F1);
+    h.step();
+    assert!(h.query_by_label("Keys on this screen").is_some());
+    for key in ["Backspace or Ctrl+Z", "S or Right arrow", "C", "Ctrl+O"] {
+        assert!(h.query_by_label(key).is_some(), "{key} is listed");
+    }
+    h.key_press(egui::Key::F1);
+    h.step();
+    assert!(
+        h.query_by_label("Keys on this screen").is_none(),
+        "F1 closes it"
+    );
+    // Home lists the keys that work everywhere, not the desk's.
+    let mut home = harness(&path, Screen::Home);
+    home.step();
+    home.key_press(egui::Key::Questionmark);
+    home.step();
+    assert!(home.query_by_label("Keys on this screen").is_some());
+    assert!(home.query_by_label("Backspace or Ctrl+Z").is_none());
+}

@@ -409,3 +409,32 @@ fn scores_and_the_report_save_to_a_typed_path_without_a_file_dialog() {
             .starts_with("# Scoreboard report")
     );
 }
+
+#[test]
+fn every_curve_in_the_legend_carries_its_rankers_colour() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path);
+    settle(&mut h);
+    let model = h.state().scoreboard.model.clone().unwrap();
+    let items = plumbline::ui::scoreboard::plots::curve_items(&model);
+    assert_eq!(items.len(), 3 * model.curves.len());
+    let mut seen = std::collections::HashSet::new();
+    for (r, (name, _)) in model.curves.iter().enumerate() {
+        // The first item of each name (the one the legend takes its swatch from) is the
+        // line, in the ranker's own colour.
+        let first = items
+            .iter()
+            .find(|i| match i {
+                plumbline::ui::scoreboard::plots::CurveItem::Line { name: n, .. }
+                | plumbline::ui::scoreboard::plots::CurveItem::Band { name: n, .. } => n == name,
+            })
+            .unwrap();
+        match first {
+            plumbline::ui::scoreboard::plots::CurveItem::Line { colour, .. } => {
+                assert_eq!(*colour, plumbline::ui::palette::series(r));
+                assert!(seen.insert(*colour), "each ranker has its own colour");
+            }
+            other => panic!("{name}: the legend would take a band's faint colour: {other:?}"),
+        }
+    }
+}

@@ -5,7 +5,7 @@
 //! screen and terminal agree.
 
 mod export;
-mod plots;
+pub mod plots;
 mod tables;
 
 use std::path::{Path, PathBuf};

@@ -2,13 +2,57 @@
 //! interval bands, sorted per-context differences against the baseline, and a histogram
 //! of per-context NDCG.
 
-use egui_plot::{Bar, BarChart, Corner, FilledArea, Legend, Line, Plot, PlotPoints};
+use egui_plot::{
+    Bar, BarChart, ColorConflictHandling, Corner, FilledArea, Legend, Line, Plot, PlotPoints,
+};
 
 use crate::analysis::scoreboard_view::{Differences, ScoreboardModel};
 
 /// The colour of ranker `r` (board order), the same in every plot and legend.
 pub fn colour(r: usize) -> egui::Color32 {
     crate::ui::palette::series(r)
+}
+
+/// One item of the NDCG@k plot, in drawing order.
+#[derive(Debug, Clone, PartialEq)]
+pub enum CurveItem {
+    Line {
+        name: String,
+        colour: egui::Color32,
+        points: Vec<[f64; 2]>,
+    },
+    Band {
+        name: String,
+        colour: egui::Color32,
+        xs: Vec<f64>,
+        lows: Vec<f64>,
+        highs: Vec<f64>,
+    },
+}
+
+/// The NDCG@k plot's items. The legend takes each name's colour from its first item
+/// (`ColorConflictHandling::PickFirst`), so every ranker's line comes first (its swatch
+/// is the line's colour, not the faint band's), then its band, then the line again on
+/// top of the band.
+pub fn curve_items(model: &ScoreboardModel) -> Vec<CurveItem> {
+    let mut items = Vec::new();
+    for (r, (name, points)) in model.curves.iter().enumerate() {
+        let line = CurveItem::Line {
+            name: name.clone(),
+            colour: colour(r),
+            points: points.iter().map(|c| [c.k as f64, c.mean]).collect(),
+        };
+        items.push(line.clone());
+        items.push(CurveItem::Band {
+            name: name.clone(),
+            colour: colour(r).gamma_multiply(0.25),
+            xs: points.iter().map(|c| c.k as f64).collect(),
+            lows: points.iter().map(|c| c.low).collect(),
+            highs: points.iter().map(|c| c.high).collect(),
+        });
+        items.push(line);
+    }
+    items
 }
 
 pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate: Option<&str>) {
@@ -22,22 +66,37 @@ pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate
             Plot::new("sb_curve")
                 .width(width)
                 .height(height)
-                .legend(Legend::default().position(Corner::RightBottom))
+                // A name's band and line differ in colour; egui_plot's default then
+                // greys the legend swatch, so the first item's (the line's) colour wins.
+                .legend(
+                    Legend::default()
+                        .position(Corner::RightBottom)
+                        .color_conflict_handling(ColorConflictHandling::PickFirst),
+                )
                 .include_y(1.0)
                 .x_axis_label("k")
                 .allow_scroll(false)
                 .show(ui, |p| {
-                    for (r, (name, points)) in model.curves.iter().enumerate() {
-                        let xs: Vec<f64> = points.iter().map(|c| c.k as f64).collect();
-                        let lows: Vec<f64> = points.iter().map(|c| c.low).collect();
-                        let highs: Vec<f64> = points.iter().map(|c| c.high).collect();
-                        p.add(
-                            FilledArea::new(name.clone(), &xs, &lows, &highs)
-                                .fill_color(colour(r).gamma_multiply(0.25)),
-                        );
-                        let line: PlotPoints =
-                            points.iter().map(|c| [c.k as f64, c.mean]).collect();
-                        p.line(Line::new(name.clone(), line).color(colour(r)).width(2.0));
+                    for item in curve_items(model) {
+                        match item {
+                            CurveItem::Line {
+                                name,
+                                colour,
+                                points,
+                            } => {
+                                let line: PlotPoints = points.into_iter().collect();
+                                p.line(Line::new(name, line).color(colour).width(2.0));
+                            }
+                            CurveItem::Band {
+                                name,
+                                colour,
+                                xs,
+                                lows,
+                                highs,
+                            } => {
+                                p.add(FilledArea::new(name, &xs, &lows, &highs).fill_color(colour))
+                            }
+                        }
                     }
                 });
         });

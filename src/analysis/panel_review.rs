@@ -284,9 +284,7 @@ fn disagreements(
         }
         out.push(Disagreement {
             context_id: context_id.to_string(),
-            context_text: c
-                .map(|&c| snapshot.contexts[c].text.clone())
-                .unwrap_or_default(),
+            context_text: c.map(|&c| context_words(snapshot, c)).unwrap_or_default(),
             item_id: item_id.to_string(),
             item_title: i
                 .map(|&i| snapshot.items[i].title.clone())
@@ -318,4 +316,27 @@ fn disagreements(
 /// before the first timed grade). The desk shows it; reviewer quality reads it too.
 pub fn grades_per_hour(grades: u64, seconds: f64) -> Option<f64> {
     (grades > 0 && seconds > 0.0).then(|| grades as f64 * 3600.0 / seconds)
+}
+
+/// A context as a person reads it: its text, or for an anchor context without text the
+/// anchor item's title ("more like Reed Trail Tent (i2)").
+pub fn context_words(snapshot: &Snapshot, c: usize) -> String {
+    let info = &snapshot.contexts[c];
+    if !info.text.is_empty() {
+        return info.text.clone();
+    }
+    match &info.anchor_item {
+        Some(anchor) => {
+            let title = snapshot
+                .items
+                .binary_search_by(|i| i.id.as_str().cmp(anchor))
+                .ok()
+                .map(|i| snapshot.items[i].title.clone());
+            match title {
+                Some(t) => format!("more like {t} ({anchor})"),
+                None => format!("more like {anchor}"),
+            }
+        }
+        None => String::new(),
+    }
 }

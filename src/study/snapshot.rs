@@ -20,6 +20,8 @@ pub struct ContextInfo {
     pub kind: String,
     pub text: String,
     pub segment: String,
+    /// For an anchor context ("more like this"): the anchor item's id.
+    pub anchor_item: Option<String>,
 }
 
 /// A reviewer's current grade of one pair on one scale; `value` None = can't judge.
@@ -171,13 +173,16 @@ impl Study {
             })?
             .collect::<std::result::Result<_, _>>()?;
         let contexts: Vec<ContextInfo> = conn
-            .prepare("SELECT context_id, kind, text, segment FROM contexts ORDER BY context_id")?
+            .prepare(
+                "SELECT context_id, kind, text, segment, anchor_item_id FROM contexts ORDER BY context_id",
+            )?
             .query_map([], |r| {
                 Ok(ContextInfo {
                     id: r.get(0)?,
                     kind: r.get(1)?,
                     text: r.get(2)?,
                     segment: r.get(3)?,
+                    anchor_item: r.get(4)?,
                 })
             })?
             .collect::<std::result::Result<_, _>>()?;

@@ -28,6 +28,7 @@ fn synthetic() -> (Snapshot, Vec<u8>) {
         .collect();
     let contexts = (0..CONTEXTS)
         .map(|c| ContextInfo {
+            anchor_item: None,
             id: format!("c{c:05}"),
             kind: "query".into(),
             text: String::new(),

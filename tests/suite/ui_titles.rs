@@ -91,3 +91,37 @@ fn question_mark_or_f1_lists_every_key_of_the_screen() {
     assert!(home.query_by_label("Keys on this screen").is_some());
     assert!(home.query_by_label("Backspace or Ctrl+Z").is_none());
 }
+
+#[test]
+fn an_anchor_context_is_named_by_its_anchor_items_title() {
+    let (_dir, path) = demo_copy();
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_plumbline"))
+        .args(["view", "agreement", path.to_str().unwrap()])
+        .output()
+        .unwrap();
+    let view: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let study = plumbline::study::Study::open(&path).unwrap();
+    let snapshot = study.snapshot().unwrap();
+    let anchored = view["review"]["disagreements"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|d| d["context_id"].as_str().unwrap().starts_with('a'))
+        .expect("the demo has disagreements on anchor contexts");
+    let context = snapshot
+        .contexts
+        .iter()
+        .find(|c| anchored["context_id"] == c.id.as_str())
+        .unwrap();
+    let anchor = context.anchor_item.clone().unwrap();
+    let title = &snapshot
+        .items
+        .iter()
+        .find(|i| i.id == anchor)
+        .unwrap()
+        .title;
+    assert_eq!(
+        anchored["context_text"],
+        format!("more like {title} ({anchor})")
+    );
+}

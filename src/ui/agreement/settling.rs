@@ -564,7 +564,9 @@ impl SettleForm {
 
 fn context_words(d: &Disagreement) -> String {
     if d.context_text.is_empty() {
-        format!("more like {}", d.context_id)
+        d.context_id.clone()
+    } else if d.context_text.starts_with("more like ") {
+        d.context_text.clone()
     } else {
         format!("“{}”", d.context_text)
     }

@@ -5,7 +5,7 @@ use std::collections::{HashMap, HashSet};
 use rusqlite::{Transaction, params};
 
 use super::{
-    Fields, FileProgress, FileReport, GRADES, Source, content_uid, id_set, input_error, parse,
+    Fields, FileProgress, FileReport, GRADES, PairRefs, Source, content_uid, input_error, parse,
     report,
 };
 use crate::study::csv_input::ProblemLog;
@@ -18,16 +18,7 @@ pub(super) fn import_grades(
 ) -> Result<FileReport> {
     let table = parse(src, &GRADES)?;
     progress.total(table.rows.len() as u64);
-    let contexts = id_set(tx, "SELECT context_id FROM contexts")?;
-    let items = id_set(tx, "SELECT item_id FROM items")?;
-    let mut scale_sizes: HashMap<String, i64> = HashMap::new();
-    {
-        let mut stmt = tx.prepare("SELECT scale, COUNT(*) FROM levels GROUP BY scale")?;
-        for row in stmt.query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, i64>(1)?)))? {
-            let (s, n) = row?;
-            scale_sizes.insert(s, n);
-        }
-    }
+    let refs = PairRefs::load(tx)?;
     // A reviewer is a person or a machine for good: the study's word, else the file's
     // first row for them.
     let mut kinds: HashMap<String, (&'static str, u64)> = HashMap::new();
@@ -61,19 +52,7 @@ pub(super) fn import_grades(
         ) else {
             continue;
         };
-        if !contexts.contains(context) {
-            log.push(f.problem("context_id", format!("unknown context \"{context}\"")));
-            continue;
-        }
-        if !items.contains(item) {
-            log.push(f.problem("item_id", format!("unknown item \"{item}\"")));
-            continue;
-        }
-        let Some(&levels) = scale_sizes.get(scale) else {
-            log.push(f.problem(
-                "scale",
-                format!("unknown scale \"{scale}\"; import it in scales.csv first"),
-            ));
+        let Some(levels) = refs.check(&f, context, item, scale, &mut log) else {
             continue;
         };
         let value_text = f.text("value").trim();

@@ -387,6 +387,58 @@ fn report(src: &Source, kind: &'static str) -> FileReport {
     }
 }
 
+/// The contexts, items and scales (with their level counts) a graded pair may name,
+/// read once per file; grades and gold pairs check every row against them alike.
+struct PairRefs {
+    contexts: HashSet<String>,
+    items: HashSet<String>,
+    scale_sizes: std::collections::HashMap<String, i64>,
+}
+
+impl PairRefs {
+    fn load(tx: &Transaction) -> Result<PairRefs> {
+        let mut scale_sizes = std::collections::HashMap::new();
+        let mut stmt = tx.prepare("SELECT scale, COUNT(*) FROM levels GROUP BY scale")?;
+        for row in stmt.query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, i64>(1)?)))? {
+            let (s, n) = row?;
+            scale_sizes.insert(s, n);
+        }
+        Ok(PairRefs {
+            contexts: id_set(tx, "SELECT context_id FROM contexts")?,
+            items: id_set(tx, "SELECT item_id FROM items")?,
+            scale_sizes,
+        })
+    }
+
+    /// The scale's number of levels when the row's context, item and scale all exist;
+    /// otherwise the first unknown one goes to `log` with its column.
+    fn check(
+        &self,
+        f: &Fields,
+        context: &str,
+        item: &str,
+        scale: &str,
+        log: &mut ProblemLog,
+    ) -> Option<i64> {
+        if !self.contexts.contains(context) {
+            log.push(f.problem("context_id", format!("unknown context \"{context}\"")));
+            return None;
+        }
+        if !self.items.contains(item) {
+            log.push(f.problem("item_id", format!("unknown item \"{item}\"")));
+            return None;
+        }
+        let Some(&levels) = self.scale_sizes.get(scale) else {
+            log.push(f.problem(
+                "scale",
+                format!("unknown scale \"{scale}\"; import it in scales.csv first"),
+            ));
+            return None;
+        };
+        Some(levels)
+    }
+}
+
 fn id_set(tx: &Transaction, sql: &str) -> Result<HashSet<String>> {
     let mut stmt = tx.prepare(sql)?;
     let ids = stmt

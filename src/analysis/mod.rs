@@ -5,6 +5,7 @@
 
 pub mod agreement;
 pub mod agreement_view;
+pub mod colours;
 pub mod defaults;
 pub mod gaps;
 pub mod home;
@@ -13,6 +14,7 @@ pub mod panel_review;
 pub mod pool_bias;
 pub mod render;
 pub mod report;
+pub mod report_pictures;
 pub mod reviewer_quality;
 pub mod scoreboard;
 pub mod scoreboard_view;

@@ -1,12 +1,15 @@
 //! The Markdown report: settings, rankers with intervals, comparisons against the
-//! baseline, an agreement summary and the cautions. Plain Markdown with pipe
+//! baseline, an agreement summary and the cautions, with SVG pictures beside it. Plain Markdown with pipe
 //! tables and no HTML, so it reads the same on code-hosting sites and in a terminal.
 
 use std::fmt::Write;
+use std::path::{Path, PathBuf};
 
 use super::agreement::AgreementReport;
 use super::render::{num, p_value};
+use super::report_pictures::{Picture, PictureError, Place};
 use super::scoreboard::{OFFLINE_CAUTION, Scoreboard};
+use super::scoreboard_view::CurvePoint;
 use crate::core::metrics::GainKind;
 
 /// A table cell: pipes and line breaks would break the table.
@@ -111,9 +114,66 @@ pub fn report_metric_keys(ks: &[usize]) -> Vec<String> {
     keys
 }
 
+/// A report ready to write: the Markdown and the SVG pictures it links.
+#[derive(Debug, Clone)]
+pub struct ReportFiles {
+    /// The Markdown text.
+    pub markdown: String,
+    /// The pictures, written beside the Markdown file under their own names.
+    pub pictures: Vec<Picture>,
+}
+
+/// The report and its pictures for a Markdown file at `path` (pictures are named after
+/// its stem: `report.md` links `report-ndcg-curves.svg`).
+pub fn files(
+    path: &Path,
+    board: &Scoreboard,
+    curves: &[(String, Vec<CurvePoint>)],
+    agreement: Option<&AgreementReport>,
+) -> Result<ReportFiles, PictureError> {
+    let stem = path
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "report".into());
+    let pictures = super::report_pictures::pictures(&stem, board, curves, agreement)?;
+    Ok(ReportFiles {
+        markdown: markdown(board, agreement, &pictures),
+        pictures,
+    })
+}
+
+impl ReportFiles {
+    /// Writes the pictures beside `path`, then the Markdown at `path`; returns every file
+    /// written, the Markdown first.
+    pub fn write(&self, path: &Path) -> std::io::Result<Vec<PathBuf>> {
+        let folder = path.parent().unwrap_or(Path::new(""));
+        let mut written = vec![path.to_path_buf()];
+        for p in &self.pictures {
+            let target = folder.join(&p.file_name);
+            std::fs::write(&target, &p.svg)?;
+            written.push(target);
+        }
+        std::fs::write(path, &self.markdown)?;
+        Ok(written)
+    }
+}
+
+/// Links the pictures that belong at `place`.
+fn link_pictures(out: &mut String, pictures: &[Picture], place: &Place) {
+    for p in pictures.iter().filter(|p| p.place == *place) {
+        // Brackets in a ranker's name would end the alt text early.
+        let alt = p.title.replace(['[', ']'], "");
+        let _ = writeln!(out, "![{alt}]({})\n", p.file_name);
+    }
+}
+
 /// Renders the report. `agreement` is left out (with a note) when the scale has too few
-/// reviewers to measure it.
-pub fn markdown(board: &Scoreboard, agreement: Option<&AgreementReport>) -> String {
+/// reviewers to measure it; `pictures` are linked where they belong.
+pub fn markdown(
+    board: &Scoreboard,
+    agreement: Option<&AgreementReport>,
+    pictures: &[Picture],
+) -> String {
     let mut out = String::new();
     let _ = writeln!(out, "# Scoreboard report: {}\n", board.study);
     let _ = writeln!(out, "> **Caution.** {OFFLINE_CAUTION}\n");
@@ -136,6 +196,8 @@ pub fn markdown(board: &Scoreboard, agreement: Option<&AgreementReport>) -> Stri
         .map(|r| {
             std::iter::once(r.ranker.clone())
                 .chain(keys.iter().map(|key| match r.metrics.get(key) {
+                    // A mean without data is a dash alone, never NaN or "– [–, –]".
+                    Some(m) if !m.mean.is_finite() => "–".into(),
                     Some(m) if key.starts_with("judged") => format!("{:.0} %", m.mean * 100.0),
                     Some(m) => format!("{} [{}, {}]", num(m.mean), num(m.ci_low), num(m.ci_high)),
                     None => "–".into(),
@@ -144,6 +206,11 @@ pub fn markdown(board: &Scoreboard, agreement: Option<&AgreementReport>) -> Stri
         })
         .collect();
     table(&mut out, &header, &rows);
+    if pictures.iter().any(|p| p.place == Place::Curves) {
+        link_pictures(&mut out, pictures, &Place::Curves);
+    } else {
+        out.push_str("No NDCG@k picture: no context has a relevant item yet.\n\n");
+    }
 
     out.push_str("## Comparisons against the baseline\n\n");
     if board.comparisons.is_empty() {
@@ -181,6 +248,9 @@ pub fn markdown(board: &Scoreboard, agreement: Option<&AgreementReport>) -> Stri
             })
             .collect();
         table(&mut out, &header, &rows);
+        for c in board.rankers.iter() {
+            link_pictures(&mut out, pictures, &Place::Differences(c.ranker.clone()));
+        }
         out.push_str("Contexts needed: for 80 % power at two-sided α = 0.05, by the normal approximation with the observed mean and SD of the differences.\n\n");
         let _ = writeln!(out, "> {OFFLINE_CAUTION}\n");
     }
@@ -259,6 +329,7 @@ pub fn markdown(board: &Scoreboard, agreement: Option<&AgreementReport>) -> Stri
             );
             let _ = writeln!(out, "- **Gwet's AC1 (panel):** {}", num(a.ac1));
             let _ = writeln!(out, "- **Bands:** {}\n", a.band_source);
+            link_pictures(&mut out, pictures, &Place::Agreement);
             for c in &a.cautions {
                 let _ = writeln!(out, "- Caution: {c}");
             }

@@ -145,19 +145,13 @@ pub fn order_of(means: &[f64]) -> Vec<usize> {
     order
 }
 
-/// Builds the model. Heavy (several scoreboards): the screen runs it on a job thread.
-pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<ScoreboardModel, ScoreError> {
-    let mut settings = requested;
-    let board = scoreboard::build(snapshot, &settings)?;
-    // The baseline as resolved by the one rule (`scoreboard::resolve_baseline`).
-    settings.baseline = board.settings.baseline.clone();
-    let scale = snapshot
-        .scale_index(&board.scale)
-        .ok_or_else(|| ScoreError::UnknownScale(board.scale.clone()))?;
-    settings.scale = Some(board.scale.clone());
-
-    // NDCG at every k from 1 to 20: one more build, with few randomization resamples
-    // because only the rankers' intervals are drawn.
+/// NDCG at every k from 1 to `CURVE_MAX_K` per ranker (board order), with the bootstrap
+/// interval: one more build, with few randomization resamples because only the rankers'
+/// intervals are drawn. The screen's plot and the report's picture both come from here.
+pub fn curves(
+    snapshot: &Snapshot,
+    settings: &ScoreSettings,
+) -> Result<Vec<(String, Vec<CurvePoint>)>, ScoreError> {
     let curve_board = scoreboard::build(
         snapshot,
         &ScoreSettings {
@@ -166,7 +160,7 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
             ..settings.clone()
         },
     )?;
-    let curves = curve_board
+    Ok(curve_board
         .rankers
         .iter()
         .map(|r| {
@@ -183,7 +177,21 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
                 .collect();
             (r.ranker.clone(), points)
         })
-        .collect();
+        .collect())
+}
+
+/// Builds the model. Heavy (several scoreboards): the screen runs it on a job thread.
+pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<ScoreboardModel, ScoreError> {
+    let mut settings = requested;
+    let board = scoreboard::build(snapshot, &settings)?;
+    // The baseline as resolved by the one rule (`scoreboard::resolve_baseline`).
+    settings.baseline = board.settings.baseline.clone();
+    let scale = snapshot
+        .scale_index(&board.scale)
+        .ok_or_else(|| ScoreError::UnknownScale(board.scale.clone()))?;
+    settings.scale = Some(board.scale.clone());
+
+    let curves = curves(snapshot, &settings)?;
 
     // Reviewer sensitivity: means only, so few resamples.
     let quick = |grades: GradeSource| {

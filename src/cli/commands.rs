@@ -211,11 +211,18 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                     let agreement = snapshot
                         .scale_index(&board.scale)
                         .map(|s| agreement::with_defaults(&snapshot, s, None));
-                    write(
-                        &path,
-                        crate::analysis::report::markdown(&board, agreement.as_ref()),
-                        "report",
-                    )?;
+                    let curves =
+                        crate::analysis::scoreboard_view::curves(&snapshot, &board.settings)
+                            .map_err(|e| Failure::input(e.to_string()))?;
+                    let files =
+                        crate::analysis::report::files(&path, &board, &curves, agreement.as_ref())
+                            .map_err(|e| Failure::other(e.to_string()))?;
+                    let written = files
+                        .write(&path)
+                        .map_err(|e| Failure::other(format!("{}: {e}", path.display())))?;
+                    for file in written {
+                        eprintln!("{}: written", file.display());
+                    }
                 }
             }
             Ok(())

@@ -3,34 +3,30 @@
 
 use egui::Color32;
 
+use crate::analysis::colours as rgb;
+
+const fn from(c: [u8; 3]) -> Color32 {
+    Color32::from_rgb(c[0], c[1], c[2])
+}
+
 /// Good news: saved, agreement, a candidate better than the baseline.
-pub const GOOD: Color32 = Color32::from_rgb(0x3c, 0x9a, 0x5f);
+pub const GOOD: Color32 = from(rgb::GOOD);
 /// A caution that needs reading (blind rule, read-only, small samples).
 pub const CAUTION: Color32 = Color32::from_rgb(0xc0, 0x7a, 0x10);
 /// A candidate worse than the baseline.
-pub const WORSE: Color32 = Color32::from_rgb(0xc0, 0x50, 0x40);
+pub const WORSE: Color32 = from(rgb::WORSE);
 /// Off-diagonal confusion cells (reviewers chose different levels).
 pub const DISAGREE: Color32 = Color32::from_rgb(0x3a, 0x6e, 0xa8);
 /// The "new item" badge on cards and in the catalog.
 pub const NEW_BADGE: Color32 = Color32::from_rgb(0x2f, 0x7d, 0x5b);
 /// The kappa scale from poor through fair to good.
-pub const KAPPA_LOW: Color32 = Color32::from_rgb(0xc8, 0x4b, 0x3c);
+pub const KAPPA_LOW: Color32 = from(rgb::KAPPA_LOW);
 /// The middle of the kappa scale.
-pub const KAPPA_MID: Color32 = Color32::from_rgb(0xd9, 0xa4, 0x2b);
+pub const KAPPA_MID: Color32 = from(rgb::KAPPA_MID);
 
-/// Distinct colours per series (rankers, scales), readable on light and dark backgrounds.
-const SERIES: [Color32; 6] = [
-    Color32::from_rgb(0x4c, 0x78, 0xa8),
-    Color32::from_rgb(0xe4, 0x7f, 0x2b),
-    Color32::from_rgb(0x3c, 0x9a, 0x5f),
-    Color32::from_rgb(0xb0, 0x4a, 0x8f),
-    Color32::from_rgb(0x8c, 0x6d, 0x3f),
-    Color32::from_rgb(0x5f, 0x5f, 0x9e),
-];
-
-/// The colour of series number `n` (repeats after six).
+/// The colour of series number `n` (repeats after six; see `analysis::colours`).
 pub fn series(n: usize) -> Color32 {
-    SERIES[n % SERIES.len()]
+    from(rgb::series(n))
 }
 
 /// A level's `#rrggbb` colour (surrounding spaces allowed); `None` for anything else.

@@ -126,3 +126,157 @@ fn exported_scores_and_report_match_the_score_command() {
         }
     }
 }
+
+fn count(svg: &str, needle: &str) -> usize {
+    svg.matches(needle).count()
+}
+
+/// The report's pictures are SVG files beside it, linked by name, and each one draws
+/// what the JSON says: a line per ranker, one bar per context coloured by the sign of
+/// the difference (as many green bars as wins, red as losses), a heatmap cell per
+/// reviewer pair with its linear-weighted kappa.
+#[test]
+fn report_pictures_are_written_beside_it_linked_and_match_the_json() {
+    let dir = tempfile::tempdir().unwrap();
+    let study = dir.path().join("demo.plumb");
+    plumbline::demo::build_demo_study(&study).unwrap();
+    let s = study.to_str().unwrap();
+    let folder = dir.path().join("weekly");
+    std::fs::create_dir(&folder).unwrap();
+    let md_path = folder.join("week-49.md");
+    plumbline(&["export", s, "--report", md_path.to_str().unwrap()]);
+    let report = std::fs::read_to_string(&md_path).unwrap();
+
+    // Every picture link names a file beside the report; there is at least one per kind.
+    let links: Vec<&str> = report
+        .lines()
+        .filter(|l| l.starts_with("!["))
+        .map(|l| &l[l.find("](").unwrap() + 2..l.len() - 1])
+        .collect();
+    assert!(links.len() >= 3, "{links:?}");
+    let svg_of = |name: &str| {
+        let text = std::fs::read_to_string(folder.join(name))
+            .unwrap_or_else(|e| panic!("{name} linked but not written: {e}"));
+        assert!(text.trim_start().starts_with("<svg") && text.trim_end().ends_with("</svg>"));
+        text
+    };
+    for link in &links {
+        svg_of(link);
+    }
+    let json: serde_json::Value =
+        serde_json::from_slice(&plumbline(&["score", s, "--format", "json"]).stdout).unwrap();
+
+    // Curves: one line (polyline) per ranker, each named in the legend.
+    let curves = svg_of("week-49-ndcg-curves.svg");
+    let rankers = json["rankers"].as_array().unwrap();
+    for r in rankers {
+        assert!(curves.contains(&format!("\n{}\n</text>", r["ranker"].as_str().unwrap())));
+    }
+    assert!(
+        count(
+            &curves,
+            "<polyline fill=\"none\" opacity=\"1\" stroke=\"#4C78A8\" stroke-width=\"2\""
+        ) >= 1
+    );
+
+    // Differences at the focus cut-off (NDCG@10 for 5, 10, 20): bars by sign.
+    let mut checked = 0;
+    for c in json["comparisons"].as_array().unwrap() {
+        if c["metric"] != "ndcg@10" {
+            continue;
+        }
+        let ranker = c["ranker"].as_str().unwrap();
+        let link = links
+            .iter()
+            .find(|l| l.contains("-differences-") && l.ends_with(&format!("-{ranker}.svg")))
+            .unwrap_or_else(|| panic!("no differences picture for {ranker}: {links:?}"));
+        let svg = svg_of(link);
+        let bars = |fill: &str| {
+            count(
+                &svg,
+                &format!("opacity=\"1\" fill=\"{fill}\" stroke=\"none\""),
+            )
+        };
+        assert_eq!(
+            bars("#3C9A5F") as u64,
+            c["wins"].as_u64().unwrap(),
+            "{ranker} wins"
+        );
+        assert_eq!(
+            bars("#C05040") as u64,
+            c["losses"].as_u64().unwrap(),
+            "{ranker} losses"
+        );
+        checked += 1;
+    }
+    assert!(checked >= 1);
+
+    // Agreement heatmap: every pair's linear-weighted kappa and n, twice (both halves).
+    let agree: serde_json::Value =
+        serde_json::from_slice(&plumbline(&["agree", s, "--format", "json"]).stdout).unwrap();
+    let heatmap = svg_of("week-49-agreement.svg");
+    for p in agree["pairs"].as_array().unwrap() {
+        let cell = format!(
+            "{:.2} (n {})",
+            p["kappa_linear"].as_f64().unwrap(),
+            p["n"].as_u64().unwrap()
+        );
+        assert_eq!(count(&heatmap, &cell), 2, "{cell} in the heatmap");
+    }
+}
+
+/// A study with one ranker and no grades draws no empty picture: the report links none
+/// and says in words why there is nothing to show.
+#[test]
+fn a_report_without_data_links_no_picture() {
+    let dir = tempfile::tempdir().unwrap();
+    let study = dir.path().join("empty.plumb");
+    let s = study.to_str().unwrap();
+    plumbline(&["new", s]);
+    let catalog = dir.path().join("items.csv");
+    std::fs::write(&catalog, "item_id,title\ni1,Rope\ni2,Tarp\n").unwrap();
+    let contexts = dir.path().join("contexts.csv");
+    std::fs::write(&contexts, "context_id,kind,text\nq1,query,rope\n").unwrap();
+    let scales = dir.path().join("scales.csv");
+    std::fs::write(&scales, "scale,value,label\nbin,0,no\nbin,1,yes\n").unwrap();
+    let rankings = dir.path().join("rankings.csv");
+    std::fs::write(
+        &rankings,
+        "ranker,context_id,rank,item_id\nonly,q1,1,i1\nonly,q1,2,i2\n",
+    )
+    .unwrap();
+    plumbline(&[
+        "import",
+        s,
+        "--items",
+        catalog.to_str().unwrap(),
+        "--contexts",
+        contexts.to_str().unwrap(),
+        "--rankings",
+        rankings.to_str().unwrap(),
+        "--scales",
+        scales.to_str().unwrap(),
+    ]);
+    let md_path = dir.path().join("report.md");
+    plumbline(&["export", s, "--report", md_path.to_str().unwrap()]);
+    let report = std::fs::read_to_string(&md_path).unwrap();
+    assert!(!report.contains("!["), "{report}");
+    let svgs: Vec<_> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .filter(|e| {
+            e.as_ref()
+                .unwrap()
+                .path()
+                .extension()
+                .is_some_and(|x| x == "svg")
+        })
+        .collect();
+    assert!(svgs.is_empty());
+    assert!(report.contains("No comparisons: the study has a single ranker."));
+    assert!(report.contains("No NDCG@k picture: no context has a relevant item yet."));
+    // Item 7 of the lead's list: no NaN or inf in a report without data.
+    assert!(
+        !report.contains("NaN") && !report.contains("inf"),
+        "{report}"
+    );
+}

@@ -63,6 +63,7 @@ impl ScoreboardScreen {
         // Rendering and writing happen on the job thread with a copy of the model.
         let board = model.board.clone();
         let agreement = model.agreement.clone();
+        let curves = model.curves.clone();
         self.export_job.start(ctx, move || {
             let target = match typed {
                 Some(path) => path,
@@ -83,17 +84,24 @@ impl ScoreboardScreen {
                     }
                 }
             };
-            let text = if report_wanted {
-                report::markdown(&board, agreement.as_ref())
-            } else {
-                render::scoreboard_csv(&board)
+            let write_error = |source| JobError::Write {
+                path: target.display().to_string(),
+                source,
             };
-            std::fs::write(&target, text)
-                .map(|_| format!("Saved {}.", target.display()))
-                .map_err(|source| JobError::Write {
-                    path: target.display().to_string(),
-                    source,
-                })
+            if report_wanted {
+                let files = report::files(&target, &board, &curves, agreement.as_ref())
+                    .map_err(|e| write_error(std::io::Error::other(e)))?;
+                let written = files.write(&target).map_err(write_error)?;
+                Ok(format!(
+                    "Saved {} and {} pictures beside it.",
+                    target.display(),
+                    written.len() - 1
+                ))
+            } else {
+                std::fs::write(&target, render::scoreboard_csv(&board))
+                    .map(|_| format!("Saved {}.", target.display()))
+                    .map_err(write_error)
+            }
         });
     }
 }

@@ -363,24 +363,29 @@ pub fn show(ui: &mut egui::Ui, picture: &Picture, side: f32, alt: &str) -> egui:
             let (rect, response) = ui.allocate_exact_size(size, egui::Sense::hover());
             ui.painter()
                 .rect_filled(rect, 4.0, ui.visuals().extreme_bg_color);
-            let font = if side >= 120.0 {
-                egui::TextStyle::Body
+            // A thumbnail has no room for the reason: it says "No image" and tells why on
+            // hover. Either way the text is clipped to the picture's own square.
+            let (text, font) = if side >= 120.0 {
+                (format!("No image\n{why}"), egui::TextStyle::Body)
             } else {
-                egui::TextStyle::Small
+                ("No image".to_string(), egui::TextStyle::Small)
             };
             let galley = ui.painter().layout(
-                format!("No image\n{why}"),
+                text,
                 font.resolve(ui.style()),
                 ui.visuals().weak_text_color(),
                 rect.width() - 8.0,
             );
-            ui.painter().galley(
+            ui.painter_at(rect).galley(
                 rect.center() - galley.size() / 2.0,
                 galley,
                 egui::Color32::GRAY,
             );
             let label = format!("no image: {why}");
             response.widget_info(|| egui::WidgetInfo::labeled(egui::Role::Image, true, &label));
+            if side < 120.0 {
+                return response.on_hover_text(format!("No image: {why}"));
+            }
             response
         }
     }

@@ -23,6 +23,10 @@ pub const AGREEMENT_BOOTSTRAP: usize = 1000;
 /// Bootstrap resamples behind each piloted scale's figures in the scale trial.
 pub const TRIAL_BOOTSTRAP: usize = 2000;
 
+/// Pairs per reviewer and scale the Scales screen proposes for a pilot, before the lead
+/// changes the number; the Scale trial then says how wide the pilot's intervals came out.
+pub const PILOT_PAIRS: usize = 50;
+
 /// judged@k below this share of the top k earns a coverage caution.
 pub const COVERAGE_CAUTION: f64 = 0.9;
 

@@ -29,7 +29,30 @@ pub struct NewGrade {
     pub note: String,
 }
 
+/// Where the grade and settle histories stand. Both only grow, so a different mark means
+/// grades or settled grades arrived (from this program or another) since it was read.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct GradesMark {
+    last_grade: i64,
+    last_settle: i64,
+}
+
 impl Study {
+    /// The grades' mark now; two primary-key lookups, cheap enough to ask every second.
+    pub fn grades_mark(&self) -> Result<GradesMark> {
+        Ok(self.conn().query_row(
+            "SELECT (SELECT COALESCE(MAX(id), 0) FROM grade_events),
+                    (SELECT COALESCE(MAX(id), 0) FROM settle_events)",
+            [],
+            |r| {
+                Ok(GradesMark {
+                    last_grade: r.get(0)?,
+                    last_settle: r.get(1)?,
+                })
+            },
+        )?)
+    }
+
     /// Adds a reviewer (idempotent).
     pub fn add_reviewer(&self, reviewer: &str) -> Result<()> {
         if reviewer.trim().is_empty() {

@@ -11,6 +11,7 @@ pub mod import;
 pub mod merge;
 mod open_files;
 pub mod outside_lists;
+pub mod pilot;
 mod problems;
 pub mod queues;
 pub mod scales;

@@ -322,6 +322,42 @@ impl Study {
         Ok(rows)
     }
 
+    /// The cards of the named items (unknown ids are left out), for screens that show a
+    /// few items without reading the whole catalog.
+    pub fn item_cards_of<'a>(
+        &self,
+        ids: impl IntoIterator<Item = &'a str>,
+    ) -> Result<std::collections::BTreeMap<String, ItemCard>> {
+        let mut stmt = self.conn().prepare_cached(
+            "SELECT item_id, title, category, description, price, image, is_new, attributes
+             FROM items WHERE item_id = ?1",
+        )?;
+        let mut out = std::collections::BTreeMap::new();
+        for id in ids {
+            if out.contains_key(id) {
+                continue;
+            }
+            let mut rows = stmt.query([id])?;
+            if let Some(r) = rows.next()? {
+                let attributes: String = r.get(7)?;
+                out.insert(
+                    id.to_string(),
+                    ItemCard {
+                        id: r.get(0)?,
+                        title: r.get(1)?,
+                        category: r.get(2)?,
+                        description: r.get(3)?,
+                        price: r.get(4)?,
+                        image: r.get(5)?,
+                        is_new: r.get(6)?,
+                        attributes: parse_attributes(&attributes),
+                    },
+                );
+            }
+        }
+        Ok(out)
+    }
+
     /// Every context, ordered by id.
     pub fn context_cards(&self) -> Result<Vec<ContextCard>> {
         let mut stmt = self.conn().prepare(
@@ -393,7 +429,7 @@ fn mix_gold(
 }
 
 /// FNV-1a, to derive per-scale and per-reviewer seeds from the study seed.
-fn text_hash(text: &str) -> u64 {
+pub(crate) fn text_hash(text: &str) -> u64 {
     text.bytes().fold(0xcbf2_9ce4_8422_2325, |h, b| {
         (h ^ b as u64).wrapping_mul(0x0100_0000_01b3)
     })

@@ -1,25 +1,20 @@
-//! Designing scales in a study: create, edit wording, version, choose the active one,
-//! and the pilot that grades the same pairs under several scales.
+//! Designing scales in a study: create, edit wording, version and choose the active one
+//! (the pilot that grades the same pairs under several scales is in `pilot`).
 //!
 //! Nothing already graded is ever rewritten. Once a scale has grades, a change of
 //! meaning (adding, removing or renumbering levels) is saved as a new scale version
 //! ("fit4" → "fit4 v2"); wording (labels, rubric), keys, colours and gains may still be
 //! edited in place because no stored grade refers to them.
 
-use std::collections::HashSet;
-
 use rusqlite::{OptionalExtension, params};
 
-use super::queues::PairId;
 use super::{Result, Study, StudyError};
-use crate::core::pooling::shuffle;
 use crate::core::scale::Scale;
-use crate::core::stats::Rng;
 
 /// Setting naming the scale the grading desk grades on.
 pub use super::settings::keys::ACTIVE_SCALE;
 /// Setting holding the pilot's scales as a JSON list, in block order.
-pub const PILOT_SCALES: &str = "pilot_scales";
+pub use super::settings::keys::PILOT_SCALES;
 
 /// What saving an edited scale did.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -201,127 +196,6 @@ impl Study {
         }
         self.set_setting(ACTIVE_SCALE, scale)
     }
-
-    /// The pilot's scales in block order (empty when no pilot runs).
-    pub fn pilot_scales(&self) -> Result<Vec<String>> {
-        Ok(self
-            .setting(PILOT_SCALES)?
-            .and_then(|s| serde_json::from_str(&s).ok())
-            .unwrap_or_default())
-    }
-
-    /// Starts a pilot over two or more scales: from now on every reviewer grades the
-    /// same pairs under each scale, one scale at a time (see [`Study::pilot_block`]).
-    pub fn start_pilot(&self, scales: &[String]) -> Result<()> {
-        let known = self.scale_names()?;
-        let distinct: HashSet<&String> = scales.iter().collect();
-        if distinct.len() < 2 || distinct.len() != scales.len() {
-            return Err(StudyError::input(
-                "a pilot needs two or more different scales",
-            ));
-        }
-        if let Some(s) = scales.iter().find(|s| !known.contains(s)) {
-            return Err(StudyError::input(format!("unknown scale \"{s}\"")));
-        }
-        let json = serde_json::to_string(scales).unwrap_or_default();
-        self.set_setting(PILOT_SCALES, &json)
-    }
-
-    /// Ends the pilot; queues and grades stay as they are.
-    pub fn end_pilot(&self) -> Result<()> {
-        self.conn()
-            .execute("DELETE FROM settings WHERE key = ?1", [PILOT_SCALES])?;
-        Ok(())
-    }
-
-    /// The pilot scale `reviewer` should grade on now: the first, in this reviewer's
-    /// block order, whose queue still has open pairs. Block order rotates with the
-    /// reviewer's place on the panel so carry-over does not always run the same way.
-    /// Also makes sure the reviewer's pilot queues hold the same pairs on every scale.
-    /// None when no pilot runs or every block is done.
-    pub fn pilot_block(&mut self, reviewer: &str) -> Result<Option<String>> {
-        let scales = self.pilot_scales()?;
-        if scales.is_empty() {
-            return Ok(None);
-        }
-        self.ensure_pilot_queues(reviewer, &scales)?;
-        let panel = self.panel()?;
-        let place = panel.iter().position(|r| r == reviewer).unwrap_or(0);
-        let mut order = scales;
-        let shift = place % order.len();
-        order.rotate_left(shift);
-        for scale in order {
-            let queue = self.queue(reviewer, &scale)?;
-            let marks = self.reviewer_marks(reviewer, &scale)?;
-            if queue.iter().any(|p| !marks.contains_key(p)) {
-                return Ok(Some(scale));
-            }
-        }
-        Ok(None)
-    }
-
-    /// The pilot's pair set is each reviewer's queue on the pilot's first scale (made
-    /// for the whole panel at once, as `ensure_queue` does). Every other pilot scale gets
-    /// the same pairs for every reviewer, each once, in its own shuffled order, so the
-    /// pool stays covered and `ensure_queue` adds nothing there later. Pairs already
-    /// queued on a scale before the pilot stay where they are.
-    fn ensure_pilot_queues(&mut self, reviewer: &str, scales: &[String]) -> Result<()> {
-        self.ensure_queue(reviewer, &scales[0])?;
-        if self.is_read_only() {
-            return Ok(());
-        }
-        let seed = self.queue_seed()?;
-        let panel = self.panel()?;
-        let tx = self.begin_write()?;
-        for member in &panel {
-            let pairs = queue_in(&tx, member, &scales[0])?;
-            for (n, scale) in scales.iter().enumerate().skip(1) {
-                let stored = queue_in(&tx, member, scale)?;
-                let have: HashSet<&PairId> = stored.iter().collect();
-                let mut seen = HashSet::new();
-                let mut missing: Vec<PairId> = pairs
-                    .iter()
-                    .filter(|p| !have.contains(p) && seen.insert(*p))
-                    .cloned()
-                    .collect();
-                if missing.is_empty() {
-                    continue;
-                }
-                shuffle(&mut missing, &mut Rng::new(seed ^ (n as u64 + 1)));
-                let mut insert = tx.prepare(
-                    "INSERT INTO queue_entries(reviewer, scale, position, context_id, item_id)
-                     VALUES (?1, ?2, ?3, ?4, ?5)",
-                )?;
-                for (k, (c, i)) in missing.iter().enumerate() {
-                    let pos = (stored.len() + k) as i64;
-                    insert.execute(params![member, scale, pos, c, i])?;
-                }
-            }
-        }
-        tx.commit()?;
-        Ok(())
-    }
-
-    fn panel(&self) -> Result<Vec<String>> {
-        let mut stmt = self
-            .conn()
-            .prepare("SELECT reviewer FROM reviewers ORDER BY reviewer")?;
-        let panel = stmt
-            .query_map([], |r| r.get(0))?
-            .collect::<std::result::Result<_, _>>()?;
-        Ok(panel)
-    }
-}
-
-fn queue_in(tx: &rusqlite::Transaction, reviewer: &str, scale: &str) -> Result<Vec<PairId>> {
-    let mut stmt = tx.prepare(
-        "SELECT context_id, item_id FROM queue_entries
-         WHERE reviewer = ?1 AND scale = ?2 ORDER BY position",
-    )?;
-    let rows = stmt
-        .query_map([reviewer, scale], |r| Ok((r.get(0)?, r.get(1)?)))?
-        .collect::<std::result::Result<_, _>>()?;
-    Ok(rows)
 }
 
 fn insert_levels(tx: &rusqlite::Transaction, scale: &Scale) -> Result<()> {

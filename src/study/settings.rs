@@ -36,6 +36,13 @@ pub mod keys {
     /// Reviewers in training, comma separated: after grading a gold pair they see its
     /// known level and rationale.
     pub const TRAINING_REVIEWERS: &str = "training_reviewers";
+    /// The running pilot's scales as a JSON list, in block order.
+    pub const PILOT_SCALES: &str = "pilot_scales";
+    /// The running pilot's pairs as a JSON list of `[context_id, item_id]`, when it was
+    /// started with a number of pairs (absent: each reviewer's queue on the first scale).
+    pub const PILOT_PAIRS: &str = "pilot_pairs";
+    /// The reviewers who grade the running pilot as a JSON list (absent: the panel).
+    pub const PILOT_REVIEWERS: &str = "pilot_reviewers";
 }
 
 /// Pool depth k when the study names none (common practice: 10, the depth most

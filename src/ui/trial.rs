@@ -1,7 +1,9 @@
 //! Scale trial: one row per piloted scale and per saved collapse map, a plot of agreement
 //! against time per grade, the recommendation and its cautions. The numbers come from
 //! `analysis::trial::build` with the same settings as `plumbline trial`, computed on a
-//! job thread.
+//! job thread. While the screen is shown it asks every few seconds whether grades
+//! arrived (pilot grades from the desk, another workstation or a merge) and recomputes
+//! when they did.
 
 use std::path::Path;
 
@@ -11,10 +13,22 @@ use super::jobs::{JobResult, Task};
 use crate::analysis::render::{fixed, percent_spaced as percent};
 use crate::analysis::trial::{self, Trial, TrialRow};
 use crate::study::Study;
+use crate::study::grades::GradesMark;
+
+/// Seconds between two looks at whether grades arrived, while the screen is shown.
+const WATCH_EVERY: f64 = 2.0;
 
 /// The same trial as `plumbline trial` (`trial::of_study`); runs on a job thread.
 pub fn load(path: &Path) -> JobResult<Trial> {
     Ok(trial::of_study(&Study::open(path)?)?)
+}
+
+/// The trial with where the grades stood before it was computed (so grades that arrive
+/// meanwhile still cause one more recomputation).
+fn load_marked(path: &Path) -> JobResult<(GradesMark, Trial)> {
+    let study = Study::open(path)?;
+    let mark = study.grades_mark()?;
+    Ok((mark, trial::of_study(&study)?))
 }
 
 /// The row's name: the scale, and the collapse map when there is one.
@@ -38,7 +52,12 @@ fn intervals_overlap(rows: &[TrialRow]) -> bool {
 /// The screen's state: the last trial and the job computing the next.
 pub struct TrialScreen {
     pub model: Option<JobResult<Trial>>,
-    loading: Task<JobResult<Trial>>,
+    loading: Task<JobResult<(GradesMark, Trial)>>,
+    /// The grades' mark the shown trial was computed at.
+    computed_at: Option<GradesMark>,
+    watching: Task<JobResult<GradesMark>>,
+    /// egui time of the last look at the grades' mark.
+    looked_at: Option<f64>,
 }
 
 impl Default for TrialScreen {
@@ -46,6 +65,9 @@ impl Default for TrialScreen {
         TrialScreen {
             model: None,
             loading: Task::named("trial-load"),
+            computed_at: None,
+            watching: Task::named("trial-watch"),
+            looked_at: None,
         }
     }
 }
@@ -54,12 +76,33 @@ impl TrialScreen {
     /// Recomputes in the background; the old table stays until the new one arrives.
     pub fn reload(&mut self, ctx: &egui::Context, path: &Path) {
         let p = path.to_path_buf();
-        self.loading.start(ctx, move || load(&p));
+        self.loading.start(ctx, move || load_marked(&p));
     }
 
     /// Whether a recomputation is in flight.
     pub fn is_loading(&self) -> bool {
         self.loading.is_running()
+    }
+
+    /// Recomputes when the grades moved on since the shown trial was computed; looks
+    /// every `WATCH_EVERY` seconds, only while the screen is drawn and idle.
+    fn watch(&mut self, ctx: &egui::Context, path: &Path) {
+        // A look that failed changes nothing: the next one, or Recompute, tries again.
+        if let Some(Ok(mark)) = self.watching.poll()
+            && self.computed_at.is_some_and(|m| m != mark)
+            && !self.loading.is_running()
+        {
+            self.reload(ctx, path);
+        }
+        let now = ctx.input(|i| i.time);
+        let due = self.looked_at.is_none_or(|t| now - t >= WATCH_EVERY);
+        if due && !self.loading.is_running() && !self.watching.is_running() {
+            self.looked_at = Some(now);
+            let p = path.to_path_buf();
+            self.watching
+                .start(ctx, move || Ok(Study::open(&p)?.grades_mark()?));
+        }
+        ctx.request_repaint_after_secs(WATCH_EVERY as f32);
     }
 
     /// Draws the screen from the last trial.
@@ -68,8 +111,12 @@ impl TrialScreen {
             self.reload(ui.ctx(), path);
         }
         if let Some(result) = self.loading.poll() {
-            self.model = Some(result);
+            self.model = Some(result.map(|(mark, trial)| {
+                self.computed_at = Some(mark);
+                trial
+            }));
         }
+        self.watch(ui.ctx(), path);
         ui.horizontal(|ui| {
             ui.heading("Scale trial");
             if self.loading.is_running() {
@@ -176,12 +223,12 @@ fn table(ui: &mut egui::Ui, rows: &[TrialRow]) {
                     "Kendall's tau-b of this order against the finest scale's",
                 ),
                 (
-                    "Disc. power",
-                    "Share of ranker pairs separated at Holm-adjusted p < 0.05 (Sakai 2006)",
+                    "Discriminative power",
+                    "Share of ranker pairs separated at Holm-adjusted p < 0.05 (Sakai 2006, SIGIR)",
                 ),
                 (
-                    "Alpha/rev-min",
-                    "Alpha per reviewer-minute spent on one pair",
+                    "Alpha per reviewer-minute",
+                    "Ordinal Krippendorff's alpha divided by the median reviewer-minutes one pair costs (Krippendorff 2004 for alpha; the ratio is common practice)",
                 ),
             ] {
                 ui.strong(head).on_hover_text(meaning);

@@ -335,5 +335,10 @@ fn a_pilot_started_on_the_scales_screen_sets_the_desk_on_the_reviewers_block() {
             )
         })
         .collect();
-    assert_eq!(shown, study.queue("rev-birch", &block).unwrap());
+    // The form's proposal was kept: that many pilot pairs, at the head of the queue.
+    assert_eq!(shown.len(), plumbline::analysis::defaults::PILOT_PAIRS);
+    assert_eq!(
+        shown,
+        study.queue("rev-birch", &block).unwrap()[..shown.len()]
+    );
 }

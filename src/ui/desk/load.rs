@@ -21,6 +21,7 @@ pub fn load(path: &Path, reviewer: &str, scale: Option<String>) -> JobResult<(De
             "This study has no scale yet: import scales.csv on the Catalog screen.".into(),
         ));
     }
+    let mut pilot = None;
     let scale_index = match &scale {
         Some(name) => {
             let i = snapshot
@@ -31,16 +32,25 @@ pub fn load(path: &Path, reviewer: &str, scale: Option<String>) -> JobResult<(De
             }
             i
         }
-        // During a pilot the reviewer works through one scale's block after another.
-        None => match study.pilot_block(reviewer).ok().flatten() {
-            Some(name) => snapshot
-                .scale_index(&name)
-                .unwrap_or_else(|| snapshot.active_scale_index()),
+        // During a pilot the reviewer works through one scale's block after another, and
+        // the desk holds only the block's pairs.
+        None => match study.pilot_position(reviewer)? {
+            Some(block) => match snapshot.scale_index(&block.scale) {
+                Some(i) => {
+                    pilot = Some(block);
+                    i
+                }
+                None => snapshot.active_scale_index(),
+            },
             None => snapshot.active_scale_index(),
         },
     };
     let scale = snapshot.scales[scale_index].clone();
-    let pairs = study.ensure_queue(reviewer, &scale.name)?;
+    let pilot_block = pilot.as_ref().map(|b| (b.number, b.blocks));
+    let pairs = match pilot {
+        Some(block) => block.pairs,
+        None => study.ensure_queue(reviewer, &scale.name)?,
+    };
     let marks_by_pair = study.reviewer_marks(reviewer, &scale.name)?;
     let items = study.item_cards()?;
     let contexts = study.context_cards()?;
@@ -99,6 +109,7 @@ pub fn load(path: &Path, reviewer: &str, scale: Option<String>) -> JobResult<(De
             past_grades,
             past_seconds,
             training_gold,
+            pilot_block,
         },
         study,
     ))

@@ -57,6 +57,8 @@ pub struct Desk {
     level_keys: HashMap<egui::Key, u8>,
     /// A scale the reviewer picked; the workbench reloads the desk with it.
     pub pending_scale: Option<String>,
+    /// The reviewer asked for their next pilot block; the workbench reloads the desk.
+    pub pending_reload: bool,
 }
 
 impl Default for Desk {
@@ -71,6 +73,7 @@ impl Default for Desk {
             images: ImageCache::new(None, 64),
             level_keys: HashMap::new(),
             pending_scale: None,
+            pending_reload: false,
         }
     }
 }
@@ -223,8 +226,13 @@ impl Desk {
         }
         let Some(position) = self.current() else {
             ui.add_space(24.0);
-            ui.heading("Queue complete");
-            ui.label("Every pair in your queue on this scale has a grade. Thank you!");
+            match self.data().and_then(|d| d.pilot_block) {
+                Some((n, of)) => self.pilot_block_done(ui, n, of),
+                None => {
+                    ui.heading("Queue complete");
+                    ui.label("Every pair in your queue on this scale has a grade. Thank you!");
+                }
+            }
             ui.label("Undo (Ctrl+Z) brings back the last pair you graded in this session.");
             let undo = egui::Button::new("Undo last grade").shortcut_text("Ctrl+Z");
             let can_undo = self
@@ -249,6 +257,30 @@ impl Desk {
         self.prefetch(&ctx, position);
         // Keep counting visible time for the pace even when nothing else repaints.
         ctx.request_repaint_after_secs(1.0);
+    }
+
+    /// The end of a pilot block: on to the next block, or back to the active scale.
+    fn pilot_block_done(&mut self, ui: &mut egui::Ui, n: usize, of: usize) {
+        let saved = !self.has_unsaved();
+        if n < of {
+            ui.heading(format!("Pilot block {n} of {of} done"));
+            ui.label("The next block has the same pairs on another scale: read its levels before you start.");
+            if ui
+                .add_enabled(saved, egui::Button::new("Go on to the next pilot block"))
+                .clicked()
+            {
+                self.pending_reload = true;
+            }
+        } else {
+            ui.heading("Pilot complete");
+            ui.label("Every pair of every pilot block has a grade. Thank you!");
+            if ui
+                .add_enabled(saved, egui::Button::new("Back to the active scale"))
+                .clicked()
+            {
+                self.pending_reload = true;
+            }
+        }
     }
 
     /// For a reviewer in training: the gold pair just graded, its known level and why.
@@ -367,6 +399,15 @@ impl Desk {
                     .text(text),
             );
         });
+        if let Some((n, of)) = data.pilot_block {
+            ui.label(
+                egui::RichText::new(format!(
+                    "Pilot block {n} of {of} · {total} pairs on {}",
+                    data.scale.name
+                ))
+                .strong(),
+            );
+        }
         if let Some(name) = chosen {
             self.pending_scale = Some(name);
         }

@@ -35,6 +35,9 @@ pub struct DeskData {
     /// Only for a reviewer in training: gold pairs by (context, item) with their known
     /// level and rationale, shown after the reviewer grades one.
     pub training_gold: HashMap<(u32, u32), (u8, String)>,
+    /// During a pilot: (this block's number from 1, how many blocks); the queue is then
+    /// the block's pairs only.
+    pub pilot_block: Option<(usize, usize)>,
 }
 
 /// What a reviewer in training sees after grading a gold pair.
@@ -387,6 +390,7 @@ mod tests {
             past_grades: 0,
             past_seconds: 0.0,
             training_gold: HashMap::new(),
+            pilot_block: None,
         })
     }
 

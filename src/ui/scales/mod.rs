@@ -7,10 +7,12 @@ use std::path::Path;
 use super::jobs::{JobResult, Task};
 pub mod editor;
 pub mod gold;
+pub mod pilot;
 
 use crate::core::agreement::CollapseMap;
 use crate::core::scale::{self, Scale};
 use crate::study::Study;
+use crate::study::pilot::PilotStatus;
 use crate::study::scales::Saved;
 use editor::{Editor, MapEditor};
 
@@ -28,6 +30,12 @@ pub struct ScalesModel {
     /// The scale the desk grades on (setting, else the busiest scale).
     pub active: Option<String>,
     pub pilot: Vec<String>,
+    /// The running pilot's reviewers and their shares (None when no pilot runs).
+    pub pilot_status: Option<PilotStatus>,
+    /// The people on the panel, who may grade a pilot.
+    pub people: Vec<String>,
+    /// Pool pairs a pilot can use (the pool without gold pairs).
+    pub pilot_room: usize,
     pub maps: Vec<(String, CollapseMap)>,
     /// Gold pairs of every scale: (scale, context, item, known level, rationale).
     pub gold: Vec<(String, String, String, u8, String)>,
@@ -63,6 +71,9 @@ pub fn load(path: &Path) -> JobResult<ScalesModel> {
         scales,
         active,
         pilot: study.pilot_scales()?,
+        pilot_status: study.pilot_status()?,
+        people: study.people()?,
+        pilot_room: study.pilot_room()?,
         maps: study.collapse_maps()?,
         gold,
         read_only: study.is_read_only(),
@@ -81,7 +92,13 @@ pub enum Change {
         scale: String,
         map: CollapseMap,
     },
-    StartPilot(Vec<String>),
+    /// A pilot over `scales` (block order): each of `reviewers` grades the same
+    /// `pairs` pairs on every scale.
+    StartPilot {
+        scales: Vec<String>,
+        pairs: usize,
+        reviewers: Vec<String>,
+    },
     EndPilot,
     SaveGold {
         scale: String,
@@ -118,11 +135,16 @@ pub fn apply(path: &Path, change: Change) -> JobResult<(String, ScalesModel)> {
             study.save_collapse_map(&scale, &map)?;
             format!("Collapse map \"{}\" saved for \"{scale}\".", map.name)
         }
-        Change::StartPilot(scales) => {
-            study.start_pilot(&scales)?;
+        Change::StartPilot {
+            scales,
+            pairs,
+            reviewers,
+        } => {
+            study.start_pilot_for(&scales, pairs, &reviewers)?;
             format!(
-                "Pilot started: each reviewer grades the same pairs on {}, one scale at a time.",
-                scales.join(", ")
+                "Pilot started: {} each grade the same {pairs} pairs on {}, one scale's block at a time.",
+                reviewers.join(", "),
+                scales.join(", then ")
             )
         }
         Change::EndPilot => {
@@ -167,7 +189,7 @@ pub struct ScalesScreen {
     pub editor: Option<Editor>,
     pub map_editor: MapEditor,
     pub gold_form: gold::GoldForm,
-    pilot_choice: Vec<String>,
+    pub pilot_form: pilot::PilotForm,
 }
 
 impl Default for ScalesScreen {
@@ -181,7 +203,7 @@ impl Default for ScalesScreen {
             map_editor: MapEditor::default(),
             gold_form: Default::default(),
             message_at: None,
-            pilot_choice: Vec::new(),
+            pilot_form: Default::default(),
         }
     }
 }
@@ -279,7 +301,9 @@ impl ScalesScreen {
                     ui.set_width(330.0);
                     self.list(ui, &model, &mut change);
                     ui.add_space(12.0);
-                    self.pilot(ui, &model, &mut change);
+                    if let Some(c) = self.pilot_form.ui(ui, &model, self.writing.is_running()) {
+                        change = Some(c);
+                    }
                 });
                 ui.separator();
                 ui.vertical(|ui| {
@@ -378,42 +402,5 @@ impl ScalesScreen {
                 }
             }
         });
-    }
-
-    fn pilot(&mut self, ui: &mut egui::Ui, model: &ScalesModel, change: &mut Option<Change>) {
-        ui.strong("Pilot");
-        ui.label(
-            "Reviewers grade the same pairs under each chosen scale, one scale's block \
-             after another (the block order rotates between reviewers), each pair once \
-             per scale. Compare the results on the Scale trial screen.",
-        );
-        if !model.pilot.is_empty() {
-            ui.label(format!("Running: {}", model.pilot.join(", then ")));
-            if ui
-                .add_enabled(!model.read_only, egui::Button::new("End pilot"))
-                .clicked()
-            {
-                *change = Some(Change::EndPilot);
-            }
-            return;
-        }
-        for entry in &model.scales {
-            let name = entry.scale.name.clone();
-            let mut on = self.pilot_choice.contains(&name);
-            if ui.checkbox(&mut on, format!("Pilot with {name}")).changed() {
-                if on {
-                    self.pilot_choice.push(name);
-                } else {
-                    self.pilot_choice.retain(|n| *n != name);
-                }
-            }
-        }
-        let enough = self.pilot_choice.len() >= 2;
-        let start = ui
-            .add_enabled(enough && !model.read_only, egui::Button::new("Start pilot"))
-            .on_disabled_hover_text("Choose two or more scales");
-        if start.clicked() {
-            *change = Some(Change::StartPilot(self.pilot_choice.clone()));
-        }
     }
 }

@@ -44,6 +44,16 @@ pub struct AgreementModel {
     pub machines_in_panel: bool,
     /// Every settle event of the scale, oldest first (settlements, undos, batches).
     pub settle_history: Vec<crate::study::settle::SettleRecord>,
+    /// The cards of every item in the disagreements and of every anchor item, so the
+    /// pair detail can show pictures and descriptions (not part of the view golden).
+    #[serde(skip)]
+    pub items: std::collections::BTreeMap<String, crate::study::queues::ItemCard>,
+    /// Each anchor context's anchor item id.
+    #[serde(skip)]
+    pub anchors: std::collections::BTreeMap<String, String>,
+    /// Where item pictures are found (None: the study names no catalog folder).
+    #[serde(skip)]
+    pub catalog_dir: Option<std::path::PathBuf>,
 }
 
 impl AgreementModel {
@@ -137,6 +147,23 @@ fn build_in(
         // Blind rule: a reviewer with pending pairs sees no settled levels.
         Vec::new()
     };
+    let anchors: std::collections::BTreeMap<String, String> = snapshot
+        .contexts
+        .iter()
+        .filter_map(|c| Some((c.id.clone(), c.anchor_item.clone()?)))
+        .collect();
+    let items = study.item_cards_of(
+        review
+            .disagreements
+            .iter()
+            .map(|d| d.item_id.as_str())
+            .chain(
+                review
+                    .disagreements
+                    .iter()
+                    .filter_map(|d| anchors.get(&d.context_id).map(String::as_str)),
+            ),
+    )?;
     Ok(Some(AgreementModel {
         request: AgreementRequest {
             scale: Some(scale_name),
@@ -153,5 +180,8 @@ fn build_in(
         training_reviewers: study.settings()?.training_reviewers,
         machines_in_panel: snapshot.machines_in_panel,
         settle_history,
+        items,
+        anchors,
+        catalog_dir: study.catalog_dir()?,
     }))
 }

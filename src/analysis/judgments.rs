@@ -3,7 +3,7 @@
 use crate::study::snapshot::Snapshot;
 
 /// Which grades scoring uses.
-#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 #[serde(rename_all = "lowercase")]
 pub enum GradeSource {
     /// Settled grade where one exists, else the lower median of the reviewers' levels.
@@ -33,7 +33,7 @@ impl GradeSource {
 }
 
 /// How the panel's levels of one pair become one level when nobody settled it.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum PanelRule {
     /// The middle level; on an even panel the lower of the two middle ones ([1, 3] → 1).

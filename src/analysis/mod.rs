@@ -5,6 +5,7 @@
 
 pub mod agreement;
 pub mod agreement_view;
+pub mod catalog_view;
 pub mod colours;
 pub mod defaults;
 pub mod gaps;

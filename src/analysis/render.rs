@@ -141,18 +141,9 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
     if !board.comparisons.is_empty() {
         out.push_str("\nPaired comparisons against the baseline (diff = candidate − baseline):\n");
         let mut rows = vec![
-            [
-                "ranker",
-                "metric",
-                "diff [95% CI]",
-                "p rand",
-                "p t",
-                "p Holm",
-                "W/T/L",
-                "contexts needed",
-            ]
-            .map(String::from)
-            .to_vec(),
+            super::scoreboard_view::COMPARISON_COLUMNS
+                .map(|(title, _)| title.to_string())
+                .to_vec(),
         ];
         for c in &board.comparisons {
             rows.push(vec![

@@ -15,7 +15,7 @@ use crate::study::outside_lists::FileLists;
 use crate::study::snapshot::Snapshot;
 
 /// Everything that decides the numbers; printed beside them in every export.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, serde::Deserialize)]
 pub struct ScoreSettings {
     /// Name of the scale to score; None = the scale with the most grades.
     pub scale: Option<String>,

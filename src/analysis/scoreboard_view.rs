@@ -180,6 +180,71 @@ pub fn curves(
         .collect())
 }
 
+/// The cautions sorted for reading: those about no ranker in particular (the offline
+/// caution first), then each ranker's own, in board order. A caution belongs to the
+/// ranker whose name it starts with (the longest such name, so `bm25-v2` is not taken
+/// for `bm25`).
+pub fn cautions_by_ranker(board: &Scoreboard) -> (Vec<String>, Vec<(String, Vec<String>)>) {
+    let mut general = Vec::new();
+    let mut own: Vec<(String, Vec<String>)> = board
+        .rankers
+        .iter()
+        .map(|r| (r.ranker.clone(), Vec::new()))
+        .collect();
+    for caution in &board.cautions {
+        let owner = own
+            .iter()
+            .enumerate()
+            .filter(|(_, (name, _))| {
+                caution
+                    .strip_prefix(name.as_str())
+                    .is_some_and(|rest| rest.starts_with([' ', '\'', ':', ',']))
+            })
+            .max_by_key(|(_, (name, _))| name.len())
+            .map(|(i, _)| i);
+        match owner {
+            Some(i) => own[i].1.push(caution.clone()),
+            None => general.push(caution.clone()),
+        }
+    }
+    own.retain(|(_, list)| !list.is_empty());
+    (general, own)
+}
+
+/// The comparison table's columns on screen and in the text output: each title in the
+/// report's words, with the method and its source for a tooltip.
+pub const COMPARISON_COLUMNS: [(&str, &str); 8] = [
+    (
+        "candidate vs baseline",
+        "Each candidate against the baseline chosen in the settings",
+    ),
+    ("metric", "The metric and cut-off compared"),
+    (
+        "difference [95 % CI]",
+        "Mean of the per-context differences (candidate − baseline) with a 95 % percentile bootstrap interval over contexts (Efron & Tibshirani 1993, ch. 13)",
+    ),
+    (
+        "p (randomization)",
+        "Two-sided paired randomization (sign-flip) test of a mean difference of 0 over contexts (Smucker, Allan & Carterette 2007, CIKM)",
+    ),
+    (
+        "p (paired t)",
+        "Two-sided paired Student's t-test on the per-context differences (Student 1908; compared with the randomization test by Smucker et al. 2007)",
+    ),
+    (
+        "p (Holm)",
+        "The randomization p-value after Holm's step-down correction across the candidates on this metric (Holm 1979, Scand. J. Statist. 6)",
+    ),
+    (
+        "wins / ties / losses",
+        "Contexts where the candidate scores above / level with (within 1e-9) / below the baseline",
+    ),
+    (
+        "contexts needed",
+        "Contexts for 80 % power at two-sided α = 0.05, by the normal approximation with the observed mean and SD of the differences (common practice)",
+    ),
+];
+
 /// Builds the model. Heavy (several scoreboards): the screen runs it on a job thread.
 pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<ScoreboardModel, ScoreError> {
     let mut settings = requested;

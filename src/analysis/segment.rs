@@ -1,9 +1,9 @@
 //! Which items carry gain and which contexts count: one setting of every score.
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// Which items carry gain, and which contexts count.
-#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
 pub enum Segment {
     /// Every item carries gain and every context counts.
     All,

@@ -80,6 +80,11 @@ fn pictogram(cat: usize, noun: usize) -> &'static [Shape] {
         (10, _) => &[Rect(30, 20, 56, 66, Main), Poly(&[(30, 58), (72, 58), (84, 68), (84, 74), (30, 74)], Main),
             Rect(28, 74, 86, 81, Sole), Rect(46, 28, 56, 31, Light), Rect(46, 36, 56, 39, Light),
             Rect(46, 44, 56, 47, Light), Rect(46, 52, 56, 55, Light)],
+        // Camp furniture's hammock: a sling hung between two posts, not a chair.
+        (11, 3) => &[Oval(48, 44, 32, 20, Main), Oval(48, 38, 30, 16, Back), Rect(14, 0, 82, 44, Back),
+            Rect(8, 18, 14, 86, Dark), Rect(82, 18, 88, 86, Dark),
+            Bar((14, 28), (18, 45), 2, Dark), Bar((82, 28), (78, 45), 2, Dark),
+            Rect(4, 86, 92, 89, Shadow)],
         (_, 1) => &[Rect(14, 40, 82, 47, Main), Bar((28, 50), (62, 84), 4, Dark), Bar((62, 50), (28, 84), 4, Dark)],
         _ => &[Poly(&[(58, 16), (68, 16), (62, 50), (52, 50)], Main), Rect(24, 44, 64, 52, Main),
             Bar((28, 50), (62, 84), 4, Dark), Bar((62, 50), (28, 84), 4, Dark)],

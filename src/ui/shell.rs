@@ -12,7 +12,7 @@ use super::jobs::{JobResult, Task};
 use super::scales::ScalesScreen;
 use super::scoreboard::{ScoreboardAction, ScoreboardScreen};
 use super::sign_in::SignIn;
-use super::study_picker::{PickerOutcome, Prefs, StudyPicker};
+use super::study_picker::{PickerOutcome, Prefs, ScoreboardChoices, StudyPicker};
 use super::trial::TrialScreen;
 
 /// The screens that exist, in rail order, with their shortcut digit.
@@ -67,6 +67,11 @@ impl Workbench {
         };
         prefs.remember_study(&path);
         let reviewer = prefs.reviewer_for(&path);
+        let mut scoreboard = ScoreboardScreen::default();
+        if let Some(choices) = prefs.scoreboard_for(&path) {
+            scoreboard.wanted = choices.settings;
+            scoreboard.focus_k = choices.focus_k;
+        }
         Workbench {
             path,
             screen,
@@ -77,7 +82,7 @@ impl Workbench {
             catalog: Catalog::default(),
             desk: Desk::default(),
             agreement: AgreementScreen::default(),
-            scoreboard: ScoreboardScreen::default(),
+            scoreboard,
             scales: ScalesScreen::default(),
             trial: TrialScreen::default(),
             sign_in: SignIn::default(),
@@ -90,10 +95,16 @@ impl Workbench {
 
     /// Signs a reviewer in (as picking a name does) and starts loading their queue.
     pub fn sign_in(&mut self, ctx: &egui::Context, reviewer: &str) {
+        self.sign_in_on(ctx, reviewer, None);
+    }
+
+    /// Signs a reviewer in and loads their queue on `scale` (None: their pilot block,
+    /// else the active scale).
+    pub fn sign_in_on(&mut self, ctx: &egui::Context, reviewer: &str, scale: Option<String>) {
         self.reviewer = Some(reviewer.to_string());
         self.prefs.remember_reviewer(&self.path.clone(), reviewer);
         self.desk = Desk::default();
-        self.desk.start_loading(ctx, &self.path, reviewer, None);
+        self.desk.start_loading(ctx, &self.path, reviewer, scale);
     }
 
     fn switch_study(&mut self, path: PathBuf) {
@@ -138,6 +149,11 @@ impl Workbench {
             && let Some(r) = self.reviewer.clone()
         {
             self.desk.start_loading(ctx, &self.path, &r, Some(scale));
+        }
+        if std::mem::take(&mut self.desk.pending_reload)
+            && let Some(r) = self.reviewer.clone()
+        {
+            self.desk.start_loading(ctx, &self.path, &r, None);
         }
         if self.shown_screen != Some(self.screen) {
             // Entering a screen refreshes what it shows (grades may have changed): the one
@@ -205,16 +221,25 @@ impl Workbench {
                 }
             });
         egui::CentralPanel::default_margins().show(ui, |ui| match self.screen {
-            Screen::Catalog => self.catalog.ui(ui, &self.path),
+            Screen::Catalog => self.catalog.ui(ui, &self.path, self.reviewer.as_deref()),
             Screen::Desk => self.desk_screen(ui),
             Screen::Agreement => self.agreement.ui(ui, &self.path, self.reviewer.as_deref()),
             Screen::Scoreboard => {
                 let signed_in = self.reviewer.clone();
                 let action = self.scoreboard.ui(ui, &self.path, signed_in.as_deref());
-                if let Some(ScoreboardAction::OpenDesk(r)) = action
+                // The choices are kept per study, so reopening it shows the same scores.
+                self.prefs.remember_scoreboard(
+                    &self.path,
+                    &ScoreboardChoices {
+                        settings: self.scoreboard.wanted.clone(),
+                        focus_k: self.scoreboard.focus_k,
+                    },
+                );
+                if let Some(ScoreboardAction::OpenDesk { reviewer, scale }) = action
                     && !self.desk.has_unsaved()
                 {
-                    self.sign_in(&ui.ctx().clone(), &r);
+                    // The gaps lead the reviewer's queue on the scale they were queued for.
+                    self.sign_in_on(&ui.ctx().clone(), &reviewer, Some(scale));
                     self.screen = Screen::Desk;
                 }
             }

@@ -4,6 +4,7 @@
 use std::path::{Path, PathBuf};
 
 use super::jobs::{JobResult, Task};
+use crate::analysis::scoreboard::ScoreSettings;
 use crate::study::Study;
 
 const RECENT_LIMIT: usize = 10;
@@ -17,9 +18,43 @@ pub struct Prefs {
     /// The last reviewer signed in, per study path.
     #[serde(default)]
     pub reviewers: Vec<(PathBuf, String)>,
+    /// The Scoreboard's choices (scale, cut-offs, gain, grades, unjudged, baseline,
+    /// segment, focus cut-off), per study path.
+    #[serde(default)]
+    pub scoreboard: Vec<(PathBuf, ScoreboardChoices)>,
     /// Where these prefs are saved; None = not saved (tests).
     #[serde(skip)]
     pub file: Option<PathBuf>,
+}
+
+/// What the Scoreboard's controls were set to when a study was last open.
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct ScoreboardChoices {
+    /// The settings the controls chose.
+    pub settings: ScoreSettings,
+    /// The cut-off the plots and sensitivity use.
+    pub focus_k: usize,
+}
+
+impl ScoreboardChoices {
+    /// Only what the controls choose is taken from the prefs file; resample counts and
+    /// the seed stay the study-wide defaults whatever the file says.
+    fn restored(&self) -> ScoreboardChoices {
+        let s = &self.settings;
+        ScoreboardChoices {
+            settings: ScoreSettings {
+                scale: s.scale.clone(),
+                ks: s.ks.clone(),
+                gain: s.gain,
+                grades: s.grades.clone(),
+                unjudged: s.unjudged,
+                baseline: s.baseline.clone(),
+                segment: s.segment.clone(),
+                ..ScoreSettings::default()
+            },
+            focus_k: self.focus_k,
+        }
+    }
 }
 
 impl Prefs {
@@ -75,6 +110,31 @@ impl Prefs {
             .iter()
             .find(|(p, _)| p == &study)
             .map(|(_, r)| r.clone())
+    }
+
+    /// Keeps the Scoreboard's choices for `study` (saved only when they changed).
+    pub fn remember_scoreboard(&mut self, study: &Path, choices: &ScoreboardChoices) {
+        let study = std::path::absolute(study).unwrap_or_else(|_| study.to_path_buf());
+        if self
+            .scoreboard
+            .iter()
+            .any(|(p, c)| p == &study && c == choices)
+        {
+            return;
+        }
+        self.scoreboard.retain(|(p, _)| p != &study);
+        self.scoreboard.push((study, choices.clone()));
+        self.scoreboard.truncate(RECENT_LIMIT * 5);
+        self.save();
+    }
+
+    /// The Scoreboard's choices when `study` was last open.
+    pub fn scoreboard_for(&self, study: &Path) -> Option<ScoreboardChoices> {
+        let study = std::path::absolute(study).unwrap_or_else(|_| study.to_path_buf());
+        self.scoreboard
+            .iter()
+            .find(|(p, _)| p == &study)
+            .map(|(_, c)| c.restored())
     }
 
     /// The most recent study that still exists.

@@ -4,6 +4,7 @@
 #![allow(clippy::unwrap_used)]
 
 mod architecture;
+mod catalog_view;
 mod cli;
 mod cli_conventions;
 mod common;
@@ -18,6 +19,7 @@ mod import_limits;
 mod merge;
 mod migration;
 mod panel_review;
+mod pilot;
 mod properties;
 mod published_examples;
 mod rankings_file;
@@ -36,9 +38,12 @@ mod ui_desk_saving;
 mod ui_home;
 mod ui_merge;
 mod ui_no_nan;
+mod ui_pair_detail;
+mod ui_pilot;
 mod ui_quality;
 mod ui_read_only;
 mod ui_scales;
 mod ui_scoreboard;
+mod ui_scoreboard_layout;
 mod ui_support;
 mod ui_titles;

@@ -349,7 +349,12 @@ fn lists_from_a_file_are_scored_beside_the_study_without_importing_them() {
             .iter()
             .any(|t| t.contains("Is the pool fair to a newcomer?"))
     );
-    // Reversed, its top 10 is what the pool judged least: the screen says so.
+    // Reversed, its top 10 is what the pool judged least: the screen says so, in the
+    // ranker's own folded group of cautions.
+    h.get_by_label_contains("next-week: ").click();
+    h.step();
+    h.step();
+    let texts = all_texts(&h);
     assert!(
         texts
             .iter()

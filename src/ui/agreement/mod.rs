@@ -5,6 +5,7 @@
 use std::path::{Path, PathBuf};
 
 use super::jobs::{JobError, JobResult, Task};
+mod pair_items;
 mod quality;
 pub mod settling;
 

@@ -107,6 +107,7 @@ pub struct SettleForm {
     pub confirm: Option<SettleRule>,
     /// The last bulk batch (its time and size), which one button takes back.
     pub last_batch: Option<(String, usize)>,
+    pictures: super::pair_items::PairPictures,
 }
 
 impl Default for SettleForm {
@@ -123,6 +124,7 @@ impl Default for SettleForm {
             message: None,
             confirm: None,
             last_batch: None,
+            pictures: Default::default(),
         }
     }
 }
@@ -435,7 +437,7 @@ impl SettleForm {
             return;
         };
         ui.strong(format!("Context {}: {}", d.context_id, context_words(d)));
-        ui.label(format!("Item {}: {}", d.item_id, d.item_title));
+        self.pictures.show(ui, model, &d.context_id, &d.item_id);
         ui.label(match d.best_rank {
             Some(r) => format!(
                 "Best rank {r}; in {} top {}.",

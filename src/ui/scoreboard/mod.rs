@@ -20,12 +20,13 @@ use tables::{comparisons, coverage_warning, ranker_table, sensitivity};
 
 /// What the screen asks the workbench to do.
 pub enum ScoreboardAction {
-    /// Open the Grading desk for this reviewer (their gap pairs now come first).
-    OpenDesk(String),
+    /// Open the Grading desk for this reviewer on this scale (their gap pairs, queued on
+    /// that scale, now come first).
+    OpenDesk { reviewer: String, scale: String },
 }
 
-/// Queues the gaps for a reviewer: (reviewer, pairs queued, pairs new to their queue).
-type GapJob = Task<JobResult<(String, usize, usize)>>;
+/// Queues the gaps for a reviewer: (reviewer, scale, pairs queued, pairs new to their queue).
+type GapJob = Task<JobResult<(String, String, usize, usize)>>;
 
 /// Reads the study and builds the model for `settings`; runs on a job thread.
 pub fn load(
@@ -153,11 +154,11 @@ impl ScoreboardScreen {
         }
         if let Some(result) = self.gap_job.poll() {
             match result {
-                Ok((reviewer, queued, added)) => {
+                Ok((reviewer, scale, queued, added)) => {
                     self.message = Some(format!(
                         "{queued} unjudged pairs now lead {reviewer}'s queue ({added} of them new to it)."
                     ));
-                    return Some(ScoreboardAction::OpenDesk(reviewer));
+                    return Some(ScoreboardAction::OpenDesk { reviewer, scale });
                 }
                 Err(e) => self.message = Some(format!("The gaps were not queued: {e}")),
             }
@@ -307,7 +308,7 @@ impl ScoreboardScreen {
             let ks: Vec<String> = self.wanted.ks.iter().map(usize::to_string).collect();
             if let Some(f) = pick(
                 ui,
-                "Focus k (plots, sensitivity)",
+                "Cut-off for plots and sensitivity",
                 "sb_focus",
                 &focus,
                 &ks,
@@ -485,7 +486,7 @@ impl ScoreboardScreen {
                 self.gap_job.start(ctx, move || {
                     let mut study = Study::open(&p)?;
                     let added = study.queue_gaps_first(&reviewer, &scale, &pairs)?;
-                    Ok((reviewer, pairs.len(), added))
+                    Ok((reviewer, scale, pairs.len(), added))
                 });
             }
             if self.gap_job.is_running() {
@@ -510,7 +511,25 @@ fn pick(
         .iter()
         .find(|o| o.as_str() == current)
         .map_or(current.to_string(), &shown);
+    // As wide as the longest choice, so the controls after it do not shift sideways
+    // when the choice changes.
+    let font = egui::TextStyle::Button.resolve(ui.style());
+    let widest = options
+        .iter()
+        .map(|o| {
+            ui.fonts_mut(|f| f.layout_no_wrap(shown(o), font.clone(), egui::Color32::WHITE))
+                .size()
+                .x
+        })
+        .fold(0.0f32, f32::max);
     let combo = egui::ComboBox::from_id_salt(id)
+        .width(
+            widest
+                + ui.spacing().icon_width
+                + ui.spacing().item_spacing.x
+                + 2.0 * ui.spacing().button_padding.x
+                + 2.0,
+        )
         .selected_text(current_text)
         .show_ui(ui, |ui| {
             for option in options {

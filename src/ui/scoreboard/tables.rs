@@ -4,7 +4,8 @@ use crate::analysis::defaults::COVERAGE_CAUTION;
 use crate::analysis::render::{fixed, percent_spaced as percent};
 use crate::analysis::scoreboard::{OFFLINE_CAUTION, Scoreboard};
 use crate::analysis::scoreboard_view::{
-    ScoreboardModel, cell_text, column_title, difference_text, order_of, p_text, table_keys,
+    COMPARISON_COLUMNS, ScoreboardModel, cautions_by_ranker, cell_text, column_title,
+    difference_text, order_of, p_text, table_keys,
 };
 
 pub fn coverage_warning(ui: &mut egui::Ui, board: &Scoreboard) {
@@ -29,41 +30,62 @@ pub fn coverage_warning(ui: &mut egui::Ui, board: &Scoreboard) {
     }
 }
 
+/// The rankers table. With many cut-offs one row would run off the right edge, so the
+/// table then splits in two (NDCG first, then the other metrics and judged@k), each
+/// with the ranker names; a horizontal scroll bar remains for very narrow windows.
 pub fn ranker_table(ui: &mut egui::Ui, board: &Scoreboard, focus: usize) {
     let keys = table_keys(&board.settings.ks, focus);
+    // Rough widths of an "0.000 [0.000, 0.000]" cell and a "100 %" cell, in points.
+    let width_of = |keys: &[String]| {
+        110.0
+            + keys
+                .iter()
+                .map(|k| if k.starts_with("judged") { 80.0 } else { 150.0 })
+                .sum::<f32>()
+    };
+    let parts: Vec<Vec<String>> = if width_of(&keys) > ui.available_width() {
+        let (ndcg, rest): (Vec<String>, Vec<String>) =
+            keys.into_iter().partition(|k| k.starts_with("ndcg"));
+        vec![ndcg, rest]
+    } else {
+        vec![keys]
+    };
     egui::ScrollArea::horizontal()
         .id_salt("sb_table_scroll")
         .show(ui, |ui| {
-            egui::Grid::new("sb_rankers")
-                .striped(true)
-                .spacing([14.0, 4.0])
-                .show(ui, |ui| {
-                    ui.strong("ranker");
-                    for key in &keys {
-                        ui.strong(column_title(key));
-                    }
-                    ui.end_row();
-                    for r in &board.rankers {
-                        ui.label(&r.ranker);
-                        for key in &keys {
-                            match r.metrics.get(key) {
-                                Some(m)
-                                    if key.starts_with("judged") && m.mean < COVERAGE_CAUTION =>
-                                {
-                                    ui.colored_label(ui.visuals().warn_fg_color, cell_text(key, m));
-                                }
-                                Some(m) => {
-                                    ui.label(cell_text(key, m));
-                                }
-                                None => {
-                                    ui.label("–");
-                                }
-                            }
-                        }
-                        ui.end_row();
-                    }
-                });
+            for (n, keys) in parts.iter().enumerate() {
+                egui::Grid::new(("sb_rankers", n))
+                    .striped(true)
+                    .spacing([14.0, 4.0])
+                    .show(ui, |ui| ranker_rows(ui, board, keys));
+                ui.add_space(6.0);
+            }
         });
+}
+
+fn ranker_rows(ui: &mut egui::Ui, board: &Scoreboard, keys: &[String]) {
+    ui.strong("ranker");
+    for key in keys {
+        ui.strong(column_title(key));
+    }
+    ui.end_row();
+    for r in &board.rankers {
+        ui.label(&r.ranker);
+        for key in keys {
+            match r.metrics.get(key) {
+                Some(m) if key.starts_with("judged") && m.mean < COVERAGE_CAUTION => {
+                    ui.colored_label(ui.visuals().warn_fg_color, cell_text(key, m));
+                }
+                Some(m) => {
+                    ui.label(cell_text(key, m));
+                }
+                None => {
+                    ui.label("–");
+                }
+            }
+        }
+        ui.end_row();
+    }
 }
 
 pub fn comparisons(ui: &mut egui::Ui, board: &Scoreboard) {
@@ -76,17 +98,8 @@ pub fn comparisons(ui: &mut egui::Ui, board: &Scoreboard) {
             .striped(true)
             .spacing([12.0, 4.0])
             .show(ui, |ui| {
-                for title in [
-                    "candidate vs baseline",
-                    "metric",
-                    "difference [95 % CI]",
-                    "p randomization",
-                    "p t",
-                    "p Holm",
-                    "W / T / L",
-                    "contexts needed",
-                ] {
-                    ui.strong(title);
+                for (title, method) in COMPARISON_COLUMNS {
+                    ui.strong(title).on_hover_text(method);
                 }
                 ui.end_row();
                 for c in &board.comparisons {
@@ -103,7 +116,7 @@ pub fn comparisons(ui: &mut egui::Ui, board: &Scoreboard) {
                     ui.label(p_text(c.p_holm));
                     ui.label(format!("{} / {} / {}", c.wins, c.ties, c.losses));
                     ui.label(c.contexts_needed.map_or("–".into(), |n| n.to_string()))
-                        .on_hover_text("Contexts for 80 % power at two-sided α = 0.05 (normal approximation with the observed differences).");
+                        .on_hover_text(COMPARISON_COLUMNS[7].1);
                     ui.end_row();
                 }
             });
@@ -111,8 +124,10 @@ pub fn comparisons(ui: &mut egui::Ui, board: &Scoreboard) {
     });
 }
 
-/// The cautions that stand beside every comparison.
+/// The cautions that stand beside every comparison: the general ones in full, then one
+/// folded group per ranker, so a small study's many cautions do not bury the table.
 fn caution_box(ui: &mut egui::Ui, board: &Scoreboard) {
+    let (general, per_ranker) = cautions_by_ranker(board);
     egui::Frame::group(ui.style())
         .fill(ui.visuals().faint_bg_color)
         .show(ui, |ui| {
@@ -120,12 +135,22 @@ fn caution_box(ui: &mut egui::Ui, board: &Scoreboard) {
                 ui.set_max_width(ui.available_width().clamp(240.0, 380.0));
                 ui.strong("Before acting on these numbers");
                 ui.label(OFFLINE_CAUTION);
-                for c in board
-                    .cautions
-                    .iter()
-                    .filter(|c| c.as_str() != OFFLINE_CAUTION)
-                {
+                for c in general.iter().filter(|c| c.as_str() != OFFLINE_CAUTION) {
                     ui.colored_label(ui.visuals().warn_fg_color, c);
+                }
+                for (ranker, list) in &per_ranker {
+                    let n = list.len();
+                    let title = format!("{ranker}: {n} caution{}", if n == 1 { "" } else { "s" });
+                    egui::CollapsingHeader::new(
+                        egui::RichText::new(title).color(ui.visuals().warn_fg_color),
+                    )
+                    .id_salt(("sb_cautions", ranker))
+                    .default_open(per_ranker.len() == 1)
+                    .show(ui, |ui| {
+                        for c in list {
+                            ui.label(c);
+                        }
+                    });
                 }
             });
         });

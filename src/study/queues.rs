@@ -10,7 +10,7 @@
 
 use std::collections::{HashMap, HashSet};
 
-use rusqlite::params;
+use rusqlite::{OptionalExtension, params};
 
 use super::{Result, Study, StudyError};
 use crate::core::pooling::{assign_queues, depth_pool, shuffle};
@@ -300,24 +300,11 @@ impl Study {
 
     /// Every item with all it shows, ordered by id.
     pub fn item_cards(&self) -> Result<Vec<ItemCard>> {
-        let mut stmt = self.conn().prepare(
-            "SELECT item_id, title, category, description, price, image, is_new, attributes
-             FROM items ORDER BY item_id",
-        )?;
+        let mut stmt = self.conn().prepare(&format!(
+            "SELECT {ITEM_CARD_COLUMNS} FROM items ORDER BY item_id"
+        ))?;
         let rows = stmt
-            .query_map([], |r| {
-                let attributes: String = r.get(7)?;
-                Ok(ItemCard {
-                    id: r.get(0)?,
-                    title: r.get(1)?,
-                    category: r.get(2)?,
-                    description: r.get(3)?,
-                    price: r.get(4)?,
-                    image: r.get(5)?,
-                    is_new: r.get(6)?,
-                    attributes: parse_attributes(&attributes),
-                })
-            })?
+            .query_map([], item_card)?
             .collect::<std::result::Result<_, _>>()?;
         Ok(rows)
     }
@@ -328,31 +315,16 @@ impl Study {
         &self,
         ids: impl IntoIterator<Item = &'a str>,
     ) -> Result<std::collections::BTreeMap<String, ItemCard>> {
-        let mut stmt = self.conn().prepare_cached(
-            "SELECT item_id, title, category, description, price, image, is_new, attributes
-             FROM items WHERE item_id = ?1",
-        )?;
+        let mut stmt = self.conn().prepare_cached(&format!(
+            "SELECT {ITEM_CARD_COLUMNS} FROM items WHERE item_id = ?1"
+        ))?;
         let mut out = std::collections::BTreeMap::new();
         for id in ids {
             if out.contains_key(id) {
                 continue;
             }
-            let mut rows = stmt.query([id])?;
-            if let Some(r) = rows.next()? {
-                let attributes: String = r.get(7)?;
-                out.insert(
-                    id.to_string(),
-                    ItemCard {
-                        id: r.get(0)?,
-                        title: r.get(1)?,
-                        category: r.get(2)?,
-                        description: r.get(3)?,
-                        price: r.get(4)?,
-                        image: r.get(5)?,
-                        is_new: r.get(6)?,
-                        attributes: parse_attributes(&attributes),
-                    },
-                );
+            if let Some(card) = stmt.query_row([id], item_card).optional()? {
+                out.insert(id.to_string(), card);
             }
         }
         Ok(out)
@@ -432,6 +404,25 @@ fn mix_gold(
 pub(crate) fn text_hash(text: &str) -> u64 {
     text.bytes().fold(0xcbf2_9ce4_8422_2325, |h, b| {
         (h ^ b as u64).wrapping_mul(0x0100_0000_01b3)
+    })
+}
+
+/// The columns `item_card` reads, in its order.
+const ITEM_CARD_COLUMNS: &str =
+    "item_id, title, category, description, price, image, is_new, attributes";
+
+/// One row of `ITEM_CARD_COLUMNS` as a card.
+fn item_card(r: &rusqlite::Row) -> rusqlite::Result<ItemCard> {
+    let attributes: String = r.get(7)?;
+    Ok(ItemCard {
+        id: r.get(0)?,
+        title: r.get(1)?,
+        category: r.get(2)?,
+        description: r.get(3)?,
+        price: r.get(4)?,
+        image: r.get(5)?,
+        is_new: r.get(6)?,
+        attributes: parse_attributes(&attributes),
     })
 }
 

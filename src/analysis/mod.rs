@@ -11,6 +11,7 @@ pub mod defaults;
 pub mod gaps;
 pub mod home;
 pub mod judgments;
+pub mod own_progress;
 pub mod panel_review;
 pub mod pool_bias;
 pub mod render;

@@ -2,12 +2,17 @@
 
 use super::Screen;
 
-/// The keys that work everywhere.
+/// The rail's shortcuts for the lead (nobody signed in).
+const LEAD_RAIL: (&str, &str) = (
+    "Ctrl+1 … Ctrl+7",
+    "go to Home, Catalog, Scales, Grading desk, Agreement, Scoreboard, Scale trial",
+);
+
+/// The rail's shortcuts while a reviewer is signed in.
+const REVIEWER_RAIL: (&str, &str) = ("Ctrl+1 … Ctrl+3", "go to Grading desk, My progress, Rubric");
+
+/// The keys that work everywhere besides the rail's.
 const EVERYWHERE: &[(&str, &str)] = &[
-    (
-        "Ctrl+1 … Ctrl+7",
-        "go to Home, Catalog, Scales, Grading desk, Agreement, Scoreboard, Scale trial",
-    ),
     ("Ctrl+O", "open or create another study"),
     ("? or F1", "show or hide this list"),
     ("Tab / Shift+Tab", "move between fields and buttons"),
@@ -31,17 +36,27 @@ const DESK: &[(&str, &str)] = &[
     ("N", "write a note on this card"),
 ];
 
-/// Every key of `screen`: its own first, then those that work everywhere.
-pub fn keys_for(screen: Screen) -> Vec<(&'static str, &'static str)> {
+/// Every key of `screen`: its own first, then the rail's (which depend on whether a
+/// reviewer is signed in), then those that work everywhere.
+pub fn keys_for(screen: Screen, reviewer_signed_in: bool) -> Vec<(&'static str, &'static str)> {
     let own: &[(&str, &str)] = match screen {
         Screen::Desk => DESK,
         _ => &[],
     };
-    own.iter().chain(EVERYWHERE).copied().collect()
+    let rail = if reviewer_signed_in {
+        REVIEWER_RAIL
+    } else {
+        LEAD_RAIL
+    };
+    own.iter()
+        .copied()
+        .chain(std::iter::once(rail))
+        .chain(EVERYWHERE.iter().copied())
+        .collect()
 }
 
 /// Toggles the window on `?` or F1 (not while a text field takes the keys) and draws it.
-pub fn show(ctx: &egui::Context, screen: Screen, open: &mut bool) {
+pub fn show(ctx: &egui::Context, screen: Screen, reviewer_signed_in: bool, open: &mut bool) {
     let typing = ctx.egui_wants_keyboard_input();
     let pressed = ctx.input_mut(|i| {
         i.consume_key(egui::Modifiers::NONE, egui::Key::F1)
@@ -58,7 +73,7 @@ pub fn show(ctx: &egui::Context, screen: Screen, open: &mut bool) {
         .resizable(false)
         .show(ctx, |ui| {
             egui::Grid::new("key_help").striped(true).show(ui, |ui| {
-                for (keys, what) in keys_for(screen) {
+                for (keys, what) in keys_for(screen, reviewer_signed_in) {
                     ui.strong(keys);
                     ui.label(what);
                     ui.end_row();

@@ -10,6 +10,7 @@ pub mod image_cache;
 pub mod jobs;
 pub mod key_help;
 pub mod merge_panel;
+pub mod own_view;
 pub mod palette;
 pub mod scales;
 pub mod scoreboard;
@@ -36,6 +37,10 @@ pub enum Screen {
     Agreement,
     Scoreboard,
     Trial,
+    /// A signed-in reviewer's own progress.
+    Progress,
+    /// Every scale's levels, read only (for a signed-in reviewer).
+    Rubric,
 }
 
 /// Why the window did not open.

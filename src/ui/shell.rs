@@ -9,14 +9,18 @@ use super::catalog::Catalog;
 use super::desk::{Desk, SaveState};
 use super::home::{self, HomeModel};
 use super::jobs::{JobResult, Task};
+use super::own_view::OwnView;
 use super::scales::ScalesScreen;
 use super::scoreboard::{ScoreboardAction, ScoreboardScreen};
 use super::sign_in::SignIn;
 use super::study_picker::{PickerOutcome, Prefs, ScoreboardChoices, StudyPicker};
 use super::trial::TrialScreen;
 
-/// The screens that exist, in rail order, with their shortcut digit.
-const SCREENS: [(Screen, &str, egui::Key, &str); 7] = [
+/// One rail entry: the screen, its name, its shortcut key and how the shortcut reads.
+type RailEntry = (Screen, &'static str, egui::Key, &'static str);
+
+/// The lead's screens, in rail order, with their shortcut digit.
+const LEAD_RAIL: [RailEntry; 7] = [
     (Screen::Home, "Home", egui::Key::Num1, "Ctrl+1"),
     (Screen::Catalog, "Catalog", egui::Key::Num2, "Ctrl+2"),
     (Screen::Scales, "Scales", egui::Key::Num3, "Ctrl+3"),
@@ -25,6 +29,24 @@ const SCREENS: [(Screen, &str, egui::Key, &str); 7] = [
     (Screen::Scoreboard, "Scoreboard", egui::Key::Num6, "Ctrl+6"),
     (Screen::Trial, "Scale trial", egui::Key::Num7, "Ctrl+7"),
 ];
+
+/// A signed-in reviewer's screens: the desk, their own progress and the rubric. Nothing
+/// else is drawn while a reviewer is signed in (a guard against seeing gold levels,
+/// rankers or other reviewers' grades by accident on a shared machine).
+const REVIEWER_RAIL: [RailEntry; 3] = [
+    (Screen::Desk, "Grading desk", egui::Key::Num1, "Ctrl+1"),
+    (Screen::Progress, "My progress", egui::Key::Num2, "Ctrl+2"),
+    (Screen::Rubric, "Rubric", egui::Key::Num3, "Ctrl+3"),
+];
+
+/// The rail for a window with (`true`) or without a reviewer signed in.
+pub fn rail(reviewer_signed_in: bool) -> &'static [RailEntry] {
+    if reviewer_signed_in {
+        &REVIEWER_RAIL
+    } else {
+        &LEAD_RAIL
+    }
+}
 
 /// The workbench application state.
 pub struct Workbench {
@@ -40,6 +62,8 @@ pub struct Workbench {
     pub scoreboard: ScoreboardScreen,
     pub scales: ScalesScreen,
     pub trial: TrialScreen,
+    /// The signed-in reviewer's own progress and rubric.
+    pub own: OwnView,
     sign_in: SignIn,
     picker: StudyPicker,
     title: Option<String>,
@@ -54,7 +78,8 @@ impl Workbench {
         Workbench::with_prefs(path, screen, Prefs::default())
     }
 
-    /// A workbench that keeps recent studies and the last reviewer in `prefs`.
+    /// A workbench that keeps recent studies and the Scoreboard's choices in `prefs`.
+    /// It opens signed out: the lead's screens, until a reviewer signs in.
     pub fn with_prefs(path: PathBuf, screen: Screen, mut prefs: Prefs) -> Workbench {
         let screen = match screen {
             Screen::Catalog
@@ -66,7 +91,6 @@ impl Workbench {
             _ => Screen::Home,
         };
         prefs.remember_study(&path);
-        let reviewer = prefs.reviewer_for(&path);
         let mut scoreboard = ScoreboardScreen::default();
         if let Some(choices) = prefs.scoreboard_for(&path) {
             scoreboard.wanted = choices.settings;
@@ -75,7 +99,7 @@ impl Workbench {
         Workbench {
             path,
             screen,
-            reviewer,
+            reviewer: None,
             prefs,
             home: None,
             home_loading: Task::named("home-load"),
@@ -85,6 +109,7 @@ impl Workbench {
             scoreboard,
             scales: ScalesScreen::default(),
             trial: TrialScreen::default(),
+            own: OwnView::default(),
             sign_in: SignIn::default(),
             picker: StudyPicker::default(),
             title: None,
@@ -102,9 +127,36 @@ impl Workbench {
     /// else the active scale).
     pub fn sign_in_on(&mut self, ctx: &egui::Context, reviewer: &str, scale: Option<String>) {
         self.reviewer = Some(reviewer.to_string());
-        self.prefs.remember_reviewer(&self.path.clone(), reviewer);
         self.desk = Desk::default();
+        self.own = OwnView::default();
         self.desk.start_loading(ctx, &self.path, reviewer, scale);
+        self.screen = Screen::Desk;
+        self.shown_screen = Some(Screen::Desk);
+    }
+
+    /// Signs the reviewer out (not while a grade waits to be saved): the lead's screens
+    /// come back, on Home. Returns whether it happened.
+    pub fn sign_out(&mut self) -> bool {
+        if self.desk.has_unsaved() {
+            return false;
+        }
+        self.reviewer = None;
+        self.desk = Desk::default();
+        self.own = OwnView::default();
+        self.sign_in.reset();
+        self.screen = Screen::Home;
+        true
+    }
+
+    /// The screen to draw: `screen` when the rail of the current role has it, else the
+    /// rail's first (a reviewer never reaches a lead's screen, by key, link or field).
+    pub fn allowed_screen(&self) -> Screen {
+        let rail = rail(self.reviewer.is_some());
+        if rail.iter().any(|(s, ..)| *s == self.screen) {
+            self.screen
+        } else {
+            rail[0].0
+        }
     }
 
     fn switch_study(&mut self, path: PathBuf) {
@@ -173,6 +225,12 @@ impl Workbench {
             if self.screen == Screen::Trial && !self.trial.is_loading() {
                 self.trial.reload(ctx, &self.path);
             }
+            if matches!(self.screen, Screen::Progress | Screen::Rubric)
+                && let Some(r) = self.reviewer.clone()
+                && !self.own.is_loading()
+            {
+                self.own.reload(ctx, &self.path, &r);
+            }
             if self.screen == Screen::Desk
                 && let Some(r) = self.reviewer.clone()
                 && !self.desk.is_loading()
@@ -185,7 +243,7 @@ impl Workbench {
     }
 
     fn shortcuts(&mut self, ctx: &egui::Context) {
-        for (screen, _, key, _) in SCREENS {
+        for &(screen, _, key, _) in rail(self.reviewer.is_some()) {
             if ctx.input_mut(|i| i.consume_key(egui::Modifiers::COMMAND, key)) {
                 self.screen = screen;
             }
@@ -199,7 +257,9 @@ impl Workbench {
     pub fn show(&mut self, ui: &mut egui::Ui) {
         let ctx = ui.ctx().clone();
         self.shortcuts(&ctx);
-        super::key_help::show(&ctx, self.screen, &mut self.key_help_open);
+        self.screen = self.allowed_screen();
+        let signed_in = self.reviewer.is_some();
+        super::key_help::show(&ctx, self.screen, signed_in, &mut self.key_help_open);
         self.collect_jobs(&ctx);
         if let Some(PickerOutcome::Open(path)) = self.picker.ui(&ctx, &self.prefs) {
             self.switch_study(path);
@@ -211,7 +271,7 @@ impl Workbench {
             .exact_size(170.0)
             .show(ui, |ui| {
                 ui.add_space(8.0);
-                for (screen, label, _, keys) in SCREENS {
+                for &(screen, label, _, keys) in rail(signed_in) {
                     let button = egui::Button::selectable(self.screen == screen, label)
                         .shortcut_text(keys)
                         .min_size(egui::vec2(156.0, 30.0));
@@ -245,6 +305,14 @@ impl Workbench {
             }
             Screen::Scales => self.scales.ui(ui, &self.path),
             Screen::Trial => self.trial.ui(ui, &self.path),
+            Screen::Progress => {
+                let scale = self.desk.data().map(|d| d.scale.name.clone());
+                self.own.progress_ui(ui, scale.as_deref());
+            }
+            Screen::Rubric => {
+                let scale = self.desk.data().map(|d| d.scale.name.clone());
+                self.own.rubric_ui(ui, scale.as_deref());
+            }
             _ => match &self.home {
                 None => {
                     ui.horizontal(|ui| {
@@ -298,15 +366,28 @@ impl Workbench {
             match self.reviewer.clone() {
                 Some(r) => {
                     ui.label(format!("Signed in: {r}"));
-                    if ui.button("Switch reviewer").clicked() && !self.desk.has_unsaved() {
-                        self.reviewer = None;
-                        self.desk = Desk::default();
-                        self.sign_in.reset();
-                        self.screen = Screen::Desk;
+                    let saved = !self.desk.has_unsaved();
+                    if ui
+                        .add_enabled(saved, egui::Button::new("Sign out"))
+                        .on_hover_text(
+                            "Back to the lead's screens; the desk and your own progress \
+                             only while you are signed in",
+                        )
+                        .on_disabled_hover_text("A grade is still being saved")
+                        .clicked()
+                    {
+                        self.sign_out();
                     }
                 }
                 None => {
-                    if ui.button("Sign in").clicked() {
+                    ui.label("Lead (nobody signed in)");
+                    if ui
+                        .button("Sign in")
+                        .on_hover_text(
+                            "A reviewer sees only the desk, their progress and the rubric",
+                        )
+                        .clicked()
+                    {
                         self.screen = Screen::Desk;
                     }
                 }

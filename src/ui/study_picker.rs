@@ -15,9 +15,6 @@ pub struct Prefs {
     /// Most recent first.
     #[serde(default)]
     pub recent: Vec<PathBuf>,
-    /// The last reviewer signed in, per study path.
-    #[serde(default)]
-    pub reviewers: Vec<(PathBuf, String)>,
     /// The Scoreboard's choices (scale, cut-offs, gain, grades, unjudged, baseline,
     /// segment, focus cut-off), per study path.
     #[serde(default)]
@@ -95,21 +92,6 @@ impl Prefs {
         self.recent.insert(0, path);
         self.recent.truncate(RECENT_LIMIT);
         self.save();
-    }
-
-    pub fn remember_reviewer(&mut self, study: &Path, reviewer: &str) {
-        let study = std::path::absolute(study).unwrap_or_else(|_| study.to_path_buf());
-        self.reviewers.retain(|(p, _)| p != &study);
-        self.reviewers.push((study, reviewer.to_string()));
-        self.save();
-    }
-
-    pub fn reviewer_for(&self, study: &Path) -> Option<String> {
-        let study = std::path::absolute(study).unwrap_or_else(|_| study.to_path_buf());
-        self.reviewers
-            .iter()
-            .find(|(p, _)| p == &study)
-            .map(|(_, r)| r.clone())
     }
 
     /// Keeps the Scoreboard's choices for `study` (saved only when they changed).
@@ -341,12 +323,10 @@ mod tests {
         prefs.remember_study(&a);
         prefs.remember_study(&b);
         prefs.remember_study(&a);
-        prefs.remember_reviewer(&a, "rev-amber");
         let again = Prefs::load(Some(file));
         assert_eq!(again.recent, vec![a.clone(), b]);
         // b does not exist on disk, a does.
         assert_eq!(again.last_study(), Some(a.clone()));
-        assert_eq!(again.reviewer_for(&a).as_deref(), Some("rev-amber"));
     }
 
     #[test]

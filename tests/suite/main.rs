@@ -42,6 +42,7 @@ mod ui_pair_detail;
 mod ui_pilot;
 mod ui_quality;
 mod ui_read_only;
+mod ui_roles;
 mod ui_scales;
 mod ui_scoreboard;
 mod ui_scoreboard_layout;

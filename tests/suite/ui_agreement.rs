@@ -281,18 +281,26 @@ fn the_blind_rule_hides_other_grades_from_a_reviewer_with_pending_pairs() {
         "the check needs a pending pair that is a disagreement"
     );
 
-    let mut wb = Workbench::new(path.clone(), Screen::Agreement);
-    wb.reviewer = Some("rev-dune".into());
-    let mut h = harness(wb);
-    wait_for_model(&mut h);
-    let m = model(&h);
+    // The workbench never draws Agreement for a signed-in reviewer; the blind rule is what
+    // `plumbline view agreement --viewer` computes, from the same view model.
+    let study = Study::open(&path).unwrap();
+    let m = plumbline::analysis::agreement_view::build(
+        &study,
+        plumbline::analysis::agreement_view::AgreementRequest {
+            viewer: Some("rev-dune".into()),
+            ..Default::default()
+        },
+    )
+    .unwrap()
+    .unwrap();
+    let m = &m;
+    assert!(m.viewer_is_grading());
     assert_eq!(m.hidden_pairs, pending.len());
     for d in &m.review.disagreements {
         assert!(!pending.contains(&(d.context_id.clone(), d.item_id.clone())));
     }
     // The coefficients leave the hidden pairs out too: the engine on a snapshot without
     // them gives the same numbers.
-    let study = Study::open(&path).unwrap();
     let mut snapshot = study.snapshot().unwrap();
     let scale = snapshot.scale_index(&scale_name).unwrap();
     let ids: Vec<(String, String)> = snapshot
@@ -314,16 +322,6 @@ fn the_blind_rule_hides_other_grades_from_a_reviewer_with_pending_pairs() {
         engine.fleiss_kappa.to_bits()
     );
     assert!(m.report.units < model(&open).report.units);
-    // No settling while grading.
-    h.get_by_label_contains("Disagreements (").click();
-    h.step();
-    h.step();
-    assert!(
-        h.query_by_label_contains("Settling is for after grading")
-            .is_some()
-    );
-    assert!(h.query_by_label("Settle the rest by median").is_none());
-    assert!(h.query_by_label("Record settled level").is_none());
 }
 
 /// Promise: what the Agreement screen shows below the coefficients (how each reviewer
@@ -416,30 +414,21 @@ fn a_bulk_rule_settles_only_the_shown_pairs_after_asking_and_undoes_in_one_step(
 }
 
 #[test]
-fn a_lead_signed_in_as_a_reviewer_cannot_settle_pairs_they_graded() {
+fn signing_in_on_the_agreement_screen_leaves_it_for_the_desk() {
     let (_dir, path) = demo_copy();
-    let mut wb = Workbench::new(path.clone(), Screen::Agreement);
-    wb.reviewer = Some("rev-amber".into());
-    let mut h = harness(wb);
+    let mut h = harness(Workbench::new(path.clone(), Screen::Agreement));
     wait_for_model(&mut h);
-    assert!(!model(&h).viewer_is_grading(), "the demo's queues are done");
-    h.get_by_label_contains("Disagreements (").click();
-    h.step();
-    let mine = model(&h)
-        .review
-        .disagreements
-        .iter()
-        .find(|d| d.grades.iter().any(|g| g.reviewer == "rev-amber"))
-        .unwrap()
-        .clone();
-    h.get_by_label(&format!("Open pair {} / {}", mine.context_id, mine.item_id))
-        .click();
+    assert!(h.query_by_label_contains("Disagreements (").is_some());
+    let ctx = h.ctx.clone();
+    h.state_mut().sign_in(&ctx, "rev-amber");
     h.step();
     h.step();
-    assert!(
-        h.query_by_label_contains("rev-amber graded this pair")
-            .is_some(),
-        "the lead is told why"
-    );
+    assert_eq!(h.state().allowed_screen(), Screen::Desk);
+    assert!(h.query_by_label_contains("Disagreements (").is_none());
     assert!(h.query_by_label("Record settled level").is_none());
+    // Even asked for by name, the Agreement screen is not drawn while signed in.
+    h.state_mut().screen = Screen::Agreement;
+    h.step();
+    h.step();
+    assert!(h.query_by_label_contains("Disagreements (").is_none());
 }

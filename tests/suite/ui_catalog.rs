@@ -369,13 +369,13 @@ fn a_reviewer_never_sees_the_context_view() {
         "the lead sees it"
     );
 
-    // Signed in on the desk, the same window is the reviewer's.
+    // Signed in on the desk, the same window is the reviewer's: no Catalog at all.
     h.state_mut().screen = Screen::Desk;
     crate::ui_desk::sign_in(&mut h, "rev-amber");
     h.state_mut().screen = Screen::Catalog;
     h.step();
     h.step();
-    assert!(h.query_by_label_contains("Items (240)").is_some());
+    assert!(h.query_by_label_contains("Items (240)").is_none());
     assert!(h.query_by_label("Context lists").is_none());
     assert!(h.query_by_label_contains(" rank 1: ").is_none());
 

@@ -300,7 +300,7 @@ fn images_outside_the_catalog_folder_or_missing_show_why() {
     )
     .unwrap();
     // Leaving and re-entering the desk reloads its data; the same pair is still next.
-    h.state_mut().screen = Screen::Home;
+    h.state_mut().screen = Screen::Progress;
     h.step();
     h.state_mut().screen = Screen::Desk;
     h.step();

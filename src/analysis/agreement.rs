@@ -23,9 +23,10 @@ pub struct ReviewerPair {
     pub kappa: f64,
     /// Large-sample standard error of `kappa` (Fleiss, Cohen & Everitt 1969, eq. 13).
     pub kappa_se: f64,
-    /// Lower end of the 95 % normal interval, `kappa − Z_975 · kappa_se` (Z_975 ≈ 1.96).
+    /// Lower end of the 95 % normal interval, `kappa − Z_975 · kappa_se` (Z_975 ≈ 1.96),
+    /// never below −1 (kappa's own range).
     pub kappa_ci_low: f64,
-    /// Upper end of the 95 % normal interval, `kappa + Z_975 · kappa_se`.
+    /// Upper end of the 95 % normal interval, `kappa + Z_975 · kappa_se`, never above 1.
     pub kappa_ci_high: f64,
     /// Cohen's weighted kappa with linear weights |i − j| (Cohen 1968).
     pub kappa_linear: f64,
@@ -38,8 +39,11 @@ pub struct ReviewerPair {
     /// Agreement expected by chance from each reviewer's own level shares, p_e, in 0..1.
     pub chance_agreement: f64,
     /// Landis & Koch (1977) verbal band of `kappa` ("slight" … "almost perfect", "poor"
-    /// below 0, "undefined" for NaN).
+    /// below 0, "undefined" for NaN); [`TOO_FEW`] when the pair is `thin`.
     pub band: &'static str,
+    /// Fewer shared grades than `defaults::kappa_min_shared` asks for the scale: the
+    /// kappa carries a caution instead of a band and its interval is not to be trusted.
+    pub thin: bool,
     /// Prevalence and bias indices and PABAK (Byrt, Bishop & Carlin 1993) of the table.
     pub prevalence: PrevalenceBias,
     /// Row = reviewer_a's level, column = reviewer_b's level.
@@ -158,6 +162,9 @@ pub fn unit_table(snapshot: &Snapshot, scale: usize) -> UnitTable {
     }
 }
 
+/// The band word of a pair with too few shared grades for a Landis & Koch word.
+pub const TOO_FEW: &str = "too few shared grades";
+
 /// The source and bands behind every verbal kappa band, as shown beside the figures.
 pub const LANDIS_KOCH: &str = "Landis & Koch (1977), Biometrics 33: 0–0.20 slight, 0.21–0.40 fair, 0.41–0.60 moderate, 0.61–0.80 substantial, 0.81–1 almost perfect. Bands are conventions, not tests.";
 
@@ -209,20 +216,27 @@ pub fn build(
                 .filter(|(x, y)| x.is_some() && y.is_some())
                 .map(|(x, y)| vec![*x, *y])
                 .collect();
+            let thin = n < super::defaults::kappa_min_shared(levels);
             pairs.push(ReviewerPair {
                 reviewer_a: snapshot.reviewers[table.reviewers[a] as usize].clone(),
                 reviewer_b: snapshot.reviewers[table.reviewers[b] as usize].clone(),
                 n,
                 kappa,
                 kappa_se: se,
-                kappa_ci_low: kappa - Z_975 * se,
-                kappa_ci_high: kappa + Z_975 * se,
+                // Clamp keeps a NaN kappa NaN; the interval never leaves [−1, 1].
+                kappa_ci_low: (kappa - Z_975 * se).clamp(-1.0, 1.0),
+                kappa_ci_high: (kappa + Z_975 * se).clamp(-1.0, 1.0),
                 kappa_linear: agreement::cohen_kappa(&confusion, Weights::Linear),
                 kappa_quadratic: agreement::cohen_kappa(&confusion, Weights::Quadratic),
                 ac1: agreement::gwet_ac1(levels, &both),
                 observed_agreement: po,
                 chance_agreement: pe,
-                band: agreement::landis_koch_band(kappa),
+                band: if thin {
+                    TOO_FEW
+                } else {
+                    agreement::landis_koch_band(kappa)
+                },
+                thin,
                 prevalence: agreement::prevalence_bias(&confusion),
                 confusion: (0..levels)
                     .map(|i| (0..levels).map(|j| confusion.get(i, j)).collect())
@@ -252,6 +266,13 @@ pub fn build(
         cautions.push(format!(
             "Level {level} holds {:.0} % of grades: kappa can be low even when reviewers mostly agree (Feinstein & Cicchetti 1990); read AC1 and the observed agreement beside it.",
             100.0 * *count as f64 / total as f64
+        ));
+    }
+    let min_shared = super::defaults::kappa_min_shared(levels);
+    for p in pairs.iter().filter(|p| p.thin) {
+        cautions.push(format!(
+            "{} and {} share only {} grades, fewer than {min_shared} (2 × {levels}² for {levels} levels, Cicchetti & Fleiss 1977): their kappa gets no Landis & Koch word and its interval is not to be trusted.",
+            p.reviewer_a, p.reviewer_b, p.n
         ));
     }
     if alpha_n < 50 {

@@ -33,6 +33,25 @@ pub const COVERAGE_CAUTION: f64 = 0.9;
 /// Fewer contexts with a relevant item than this earns a "wide intervals" caution.
 pub const FEW_CONTEXTS: usize = 30;
 
+/// Shared grades per cell of a q × q agreement table a reviewer pair needs before its
+/// kappa gets a Landis & Koch word: at least 2·q² shared grades for q levels (32 on a
+/// four-level scale, 8 on a binary one). Cicchetti & Fleiss (1977), Applied
+/// Psychological Measurement 1(2), found the large-sample variance of (weighted) kappa
+/// usable from about 2q² graded subjects (from memory; the rule of thumb is repeated in
+/// Fleiss, Levin & Paik 2003, ch. 18). Below it the pair's kappa carries a caution.
+pub const KAPPA_GRADES_PER_CELL: u64 = 2;
+
+/// The fewest shared grades a reviewer pair needs on a scale of `levels` levels before its
+/// kappa is read against the Landis & Koch bands (see [`KAPPA_GRADES_PER_CELL`]).
+pub fn kappa_min_shared(levels: usize) -> u64 {
+    KAPPA_GRADES_PER_CELL * (levels * levels) as u64
+}
+
+/// Grades a reviewer must have given on a scale before the desk states a pace in grades
+/// per hour: with fewer, one slow or quick card moves the figure by a large share
+/// (common practice: ten or more timings before quoting a rate).
+pub const PACE_MIN_GRADES: u64 = 10;
+
 /// The cut-off the single-k columns (precision, ERR) and the screen's focus use: 10 when
 /// it is scored, else the first cut-off asked for.
 pub fn focus_k(ks: &[usize]) -> usize {
@@ -52,5 +71,12 @@ mod tests {
         assert_eq!(focus_k(&[5, 10, 20]), 10);
         assert_eq!(focus_k(&[3, 20]), 3);
         assert_eq!(focus_k(&[]), 10);
+    }
+
+    #[test]
+    fn kappa_needs_two_q_squared_shared_grades() {
+        // Cicchetti & Fleiss (1977): 2q² subjects for q categories (from memory).
+        assert_eq!(kappa_min_shared(4), 32);
+        assert_eq!(kappa_min_shared(2), 8);
     }
 }

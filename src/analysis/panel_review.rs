@@ -312,10 +312,11 @@ fn disagreements(
     out
 }
 
-/// A reviewer's pace: grades per hour over the time recorded on the cards (`None`
-/// before the first timed grade). The desk shows it; reviewer quality reads it too.
+/// A reviewer's pace: grades per hour over the time recorded on the cards; `None` until
+/// it rests on [`super::defaults::PACE_MIN_GRADES`] timed grades (the desk shows it).
 pub fn grades_per_hour(grades: u64, seconds: f64) -> Option<f64> {
-    (grades > 0 && seconds > 0.0).then(|| grades as f64 * 3600.0 / seconds)
+    (grades >= super::defaults::PACE_MIN_GRADES && seconds > 0.0)
+        .then(|| grades as f64 * 3600.0 / seconds)
 }
 
 /// A context as a person reads it: its text, or for an anchor context without text the

@@ -224,6 +224,144 @@ fn kappa_fill(k: f64) -> RGBColor {
     }
 }
 
+/// A thin cell's fill: the kappa colour faded three quarters of the way to white.
+fn faded(c: RGBColor) -> RGBColor {
+    let m = |x: u8| (x as f64 + (255.0 - x as f64) * 0.65).round() as u8;
+    RGBColor(m(c.0), m(c.1), m(c.2))
+}
+
+/// Diagonal hatching over the cell whose lower left corner is (x, y) and side `side`.
+fn hatch(x: f64, y: f64, side: f64) -> Vec<PathElement<(f64, f64)>> {
+    let style = ShapeStyle::from(&RGBColor(0x77, 0x77, 0x77)).stroke_width(1);
+    (1..10)
+        .map(|k| {
+            let d = 2.0 * side * k as f64 / 10.0;
+            let (from, to) = if d <= side {
+                ((x + d, y), (x, y + d))
+            } else {
+                ((x + side, y + d - side), (x + d - side, y + side))
+            };
+            PathElement::new(vec![from, to], style)
+        })
+        .collect()
+}
+
+type HeatChart<'a, 'b> = ChartContext<
+    'a,
+    SVGBackend<'b>,
+    Cartesian2d<plotters::coord::types::RangedCoordf64, plotters::coord::types::RangedCoordf64>,
+>;
+
+/// One off-diagonal cell: coloured by kappa, faded and hatched with its n when thin.
+fn heat_cell(
+    chart: &mut HeatChart,
+    (x, y): (f64, f64),
+    pair: Option<&super::agreement::ReviewerPair>,
+) -> Result<(), String> {
+    let e = |e: DrawingAreaErrorKind<_>| e.to_string();
+    let centred = TextStyle::from((FONT, 13).into_font()).pos(Pos::new(HPos::Center, VPos::Center));
+    let (x0, y0, side) = (x + 0.03, y + 0.03, 0.94);
+    let (fill, lines) = match pair {
+        Some(p) if p.kappa_linear.is_finite() && p.thin => (
+            faded(kappa_fill(p.kappa_linear)),
+            vec![
+                format!("{:.2}", p.kappa_linear),
+                format!("n {}: too few", p.n),
+            ],
+        ),
+        Some(p) if p.kappa_linear.is_finite() => (
+            kappa_fill(p.kappa_linear),
+            vec![format!("{:.2} (n {})", p.kappa_linear, p.n)],
+        ),
+        _ => (kappa_fill(f64::NAN), vec!["–".into()]),
+    };
+    chart
+        .draw_series(std::iter::once(Rectangle::new(
+            [(x0, y0), (x0 + side, y0 + side)],
+            fill.filled(),
+        )))
+        .map_err(e)?;
+    if pair.is_some_and(|p| p.thin) {
+        chart.draw_series(hatch(x0, y0, side)).map_err(e)?;
+    }
+    let step = 0.16;
+    let top = 0.5 + step * (lines.len() as f64 - 1.0) / 2.0;
+    for (k, line) in lines.into_iter().enumerate() {
+        let at = (x + 0.5, y + top - step * k as f64);
+        chart
+            .draw_series(std::iter::once(Text::new(line, at, centred.clone())))
+            .map_err(e)?;
+    }
+    Ok(())
+}
+
+/// The colour scale (kappa 1 at the top, 0 or below at the bottom) and what a hatched
+/// cell means, right of the grid starting at pixel (`left`, `top`).
+fn heat_legend(
+    root: &DrawingArea<SVGBackend, plotters::coord::Shift>,
+    (left, top): (i32, i32),
+    min_shared: u64,
+    levels: usize,
+) -> Result<(), String> {
+    let e = |e: DrawingAreaErrorKind<_>| e.to_string();
+    let text = TextStyle::from((FONT, 12).into_font()).pos(Pos::new(HPos::Left, VPos::Center));
+    let (steps, height, width) = (20, 160, 18);
+    for k in 0..steps {
+        let kappa = 1.0 - k as f64 / (steps - 1) as f64;
+        let y = top + k * height / steps;
+        root.draw(&Rectangle::new(
+            [(left, y), (left + width, y + height / steps + 1)],
+            kappa_fill(kappa).filled(),
+        ))
+        .map_err(e)?;
+    }
+    for (label, at) in [
+        ("1 (perfect)", 0),
+        ("0.5", height / 2),
+        ("0 or below", height),
+    ] {
+        root.draw(&Text::new(
+            label,
+            (left + width + 6, top + at),
+            text.clone(),
+        ))
+        .map_err(e)?;
+    }
+    let swatch = top + height + 30;
+    root.draw(&Rectangle::new(
+        [(left, swatch), (left + width, swatch + width)],
+        faded(kappa_fill(0.5)).filled(),
+    ))
+    .map_err(e)?;
+    for k in 1..5 {
+        let d = k * width / 5;
+        let style = ShapeStyle::from(&RGBColor(0x77, 0x77, 0x77)).stroke_width(1);
+        root.draw(&PathElement::new(
+            vec![(left + d, swatch + width), (left, swatch + width - d)],
+            style,
+        ))
+        .map_err(e)?;
+        root.draw(&PathElement::new(
+            vec![(left + width, swatch + width - d), (left + d, swatch)],
+            style,
+        ))
+        .map_err(e)?;
+    }
+    for (k, line) in [
+        format!("hatched: fewer than {min_shared}"),
+        format!("shared grades (2 × {levels}²,"),
+        "Cicchetti & Fleiss 1977)".to_string(),
+    ]
+    .into_iter()
+    .enumerate()
+    {
+        let y = swatch + width / 2 + 15 * k as i32;
+        root.draw(&Text::new(line, (left + width + 6, y), text.clone()))
+            .map_err(e)?;
+    }
+    Ok(())
+}
+
 fn agreement_svg(file_name: &str, report: &AgreementReport) -> Result<String, PictureError> {
     let names = &report.reviewer_names;
     let n = names.len().max(1) as f64;
@@ -240,7 +378,10 @@ fn agreement_svg(file_name: &str, report: &AgreementReport) -> Result<String, Pi
             )
             .margin(12)
             .margin_left(110)
+            .margin_right(210)
             .margin_top(20)
+            // Room for the column names between the caption and the grid.
+            .set_label_area_size(LabelAreaPosition::Top, 26)
             .build_cartesian_2d(0f64..n, 0f64..n)
             .map_err(e)?;
         let centred =
@@ -250,33 +391,20 @@ fn agreement_svg(file_name: &str, report: &AgreementReport) -> Result<String, Pi
         for (i, a) in names.iter().enumerate() {
             for (j, b) in names.iter().enumerate() {
                 let (x, y) = (j as f64, n - 1.0 - i as f64);
+                if i == j {
+                    chart
+                        .draw_series(std::iter::once(Rectangle::new(
+                            [(x + 0.03, y + 0.03), (x + 0.97, y + 0.97)],
+                            RGBColor(0xee, 0xee, 0xee).filled(),
+                        )))
+                        .map_err(e)?;
+                    continue;
+                }
                 let pair = report.pairs.iter().find(|p| {
                     (p.reviewer_a == *a && p.reviewer_b == *b)
                         || (p.reviewer_a == *b && p.reviewer_b == *a)
                 });
-                let (fill, text) = match pair {
-                    _ if i == j => (RGBColor(0xee, 0xee, 0xee), String::new()),
-                    Some(p) if p.kappa_linear.is_finite() => (
-                        kappa_fill(p.kappa_linear),
-                        format!("{:.2} (n {})", p.kappa_linear, p.n),
-                    ),
-                    _ => (kappa_fill(f64::NAN), "–".into()),
-                };
-                chart
-                    .draw_series(std::iter::once(Rectangle::new(
-                        [(x + 0.03, y + 0.03), (x + 0.97, y + 0.97)],
-                        fill.filled(),
-                    )))
-                    .map_err(e)?;
-                if !text.is_empty() {
-                    chart
-                        .draw_series(std::iter::once(Text::new(
-                            text,
-                            (x + 0.5, y + 0.5),
-                            centred.clone(),
-                        )))
-                        .map_err(e)?;
-                }
+                heat_cell(&mut chart, (x, y), pair)?;
             }
             // Row names left of the grid, column names above it.
             let (px, py) = chart.backend_coord(&(0.0, n - 0.5 - i as f64));
@@ -286,7 +414,9 @@ fn agreement_svg(file_name: &str, report: &AgreementReport) -> Result<String, Pi
             root.draw(&Text::new(a.clone(), (cx, cy - 10), centred.clone()))
                 .map_err(e)?;
         }
-        Ok(())
+        let (gx, gy) = chart.backend_coord(&(n, n));
+        let min_shared = super::defaults::kappa_min_shared(report.levels);
+        heat_legend(root, (gx + 24, gy), min_shared, report.levels)
     })
 }
 

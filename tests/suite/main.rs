@@ -47,4 +47,5 @@ mod ui_scales;
 mod ui_scoreboard;
 mod ui_scoreboard_layout;
 mod ui_support;
+mod ui_thin_kappa;
 mod ui_titles;

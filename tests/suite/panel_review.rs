@@ -99,3 +99,15 @@ fn level_use_gold_accuracy_drift_and_disagreement_order() {
     assert_eq!(review.disagreements[0].panel_level, 2);
     assert_eq!(review.disagreements[1].panel_level, 0);
 }
+
+#[test]
+fn the_pace_waits_until_it_rests_on_enough_grades() {
+    use plumbline::analysis::defaults::PACE_MIN_GRADES;
+    use plumbline::analysis::panel_review::grades_per_hour;
+    // One grade in 5.9 s would read as "610 grades per hour"; it says nothing instead.
+    assert_eq!(grades_per_hour(1, 5.9), None);
+    assert_eq!(grades_per_hour(PACE_MIN_GRADES - 1, 60.0), None);
+    // 12 grades in 72 s: 12 × 3600 / 72 = 600 per hour (arithmetic, common practice).
+    assert_eq!(PACE_MIN_GRADES, 10);
+    assert_eq!(grades_per_hour(12, 72.0), Some(600.0));
+}

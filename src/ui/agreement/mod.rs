@@ -285,6 +285,17 @@ impl AgreementScreen {
                     ui.end_row();
                 }
             });
+        ui.weak("Colour: red at kappa 0 or below, amber at 0.5, green at 1.");
+        if report.pairs.iter().any(|p| p.thin) {
+            let min = crate::analysis::defaults::kappa_min_shared(report.levels);
+            ui.colored_label(
+                super::palette::CAUTION,
+                format!(
+                    "Faded, outlined cells: fewer than {min} shared grades (2 × {}² for {} levels, Cicchetti & Fleiss 1977), too few for a Landis & Koch word.",
+                    report.levels, report.levels
+                ),
+            );
+        }
     }
 }
 
@@ -313,7 +324,22 @@ fn kappa_cell(
 ) -> egui::Response {
     let (rect, response) = ui.allocate_exact_size(egui::vec2(92.0, 34.0), egui::Sense::click());
     let fill = kappa_colour(p.kappa_linear);
+    // A pair with too few shared grades is drawn faded, with its n, so it is not read
+    // as firmly as the others.
+    let (fill, ink, text) = if p.thin {
+        let faded = ui.visuals().extreme_bg_color.lerp_to_gamma(fill, 0.35);
+        let text = format!("{:.2} · n {}", p.kappa_linear, p.n);
+        (faded, ui.visuals().text_color(), text)
+    } else {
+        let text = format!("{:.2}", p.kappa_linear);
+        (fill, egui::Color32::WHITE, text)
+    };
     ui.painter().rect_filled(rect, 4.0, fill);
+    if p.thin {
+        let stroke = egui::Stroke::new(1.0, super::palette::CAUTION);
+        ui.painter()
+            .rect_stroke(rect, 4.0, stroke, egui::StrokeKind::Inside);
+    }
     if chosen || response.hovered() {
         let stroke = egui::Stroke::new(2.0, ui.visuals().strong_text_color());
         ui.painter()
@@ -322,14 +348,29 @@ fn kappa_cell(
     ui.painter().text(
         rect.center(),
         egui::Align2::CENTER_CENTER,
-        format!("{:.2}", p.kappa_linear),
-        egui::FontId::proportional(15.0),
-        egui::Color32::WHITE,
+        text,
+        egui::FontId::proportional(if p.thin { 13.0 } else { 15.0 }),
+        ink,
     );
-    let label = format!("Reviewers {a} and {b}");
+    let label = if p.thin {
+        format!(
+            "Reviewers {a} and {b}: only {} shared grades, too few for a band",
+            p.n
+        )
+    } else {
+        format!("Reviewers {a} and {b}")
+    };
     response.widget_info(|| egui::WidgetInfo::labeled(egui::Role::Button, true, &label));
+    let weighted_band = if p.thin {
+        "none: too few shared grades for a Landis & Koch word".to_string()
+    } else {
+        format!(
+            "{} (Landis & Koch 1977)",
+            crate::core::agreement::landis_koch_band(p.kappa_linear)
+        )
+    };
     response.on_hover_text(format!(
-        "{} and {}: {} pairs graded by both\nweighted kappa (linear) {}, quadratic {}\nkappa {}, 95 % CI {} to {} ({})\nAC1 {}; observed agreement {}, chance {}\nband of the weighted value: {} (Landis & Koch 1977)",
+        "{} and {}: {} pairs graded by both\nweighted kappa (linear) {}, quadratic {}\nkappa {}, 95 % CI {} to {} ({})\nAC1 {}; observed agreement {}, chance {}\nband of the weighted value: {}",
         p.reviewer_a,
         p.reviewer_b,
         p.n,
@@ -342,7 +383,7 @@ fn kappa_cell(
         fixed(p.ac1, 3),
         percent(p.observed_agreement),
         percent(p.chance_agreement),
-        crate::core::agreement::landis_koch_band(p.kappa_linear)
+        weighted_band
     ))
 }
 
@@ -386,7 +427,11 @@ fn heatmap(ui: &mut egui::Ui, model: &AgreementModel, selected: Option<&(String,
         .show(ui, |ui| {
             ui.label("");
             for j in 0..p.confusion.len() {
-                ui.weak(format!("{j}")).on_hover_text(level_name(j));
+                ui.add_sized(
+                    [58.0, 18.0],
+                    egui::Label::new(egui::RichText::new(level_name(j)).weak()).truncate(),
+                )
+                .on_hover_text(level_name(j));
             }
             ui.end_row();
             for (i, row) in p.confusion.iter().enumerate() {

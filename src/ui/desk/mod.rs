@@ -389,9 +389,15 @@ impl Desk {
             } else {
                 done as f32 / total as f32
             };
-            let pace_text = pace.map_or("pace: not yet known".to_string(), |p| {
-                format!("{p:.0} grades per hour")
-            });
+            let pace_text = pace.map_or_else(
+                || {
+                    format!(
+                        "pace: shown after {} timed grades",
+                        crate::analysis::defaults::PACE_MIN_GRADES
+                    )
+                },
+                |p| format!("{p:.0} grades per hour"),
+            );
             let text = format!("{done} / {total} graded · {pace_text}");
             ui.add(
                 egui::ProgressBar::new(fraction)

@@ -205,7 +205,9 @@ pub fn sensitivity(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize) {
                     "–".into()
                 });
                 let order = order_text(&model.board, means);
-                if *same {
+                if row.contexts_scored == 0 || !means.iter().any(|m| m.is_finite()) {
+                    ui.weak("no order: no context scored on this reviewer's grades");
+                } else if *same {
                     ui.label(format!("{order} (same)"));
                 } else {
                     ui.colored_label(ui.visuals().warn_fg_color, format!("{order} (changed)"));

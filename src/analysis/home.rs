@@ -32,6 +32,19 @@ pub struct ReviewerProgress {
     pub queue: Option<(u64, u64)>,
 }
 
+/// A running pilot as Home mentions it.
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
+pub struct PilotSummary {
+    /// The pilot's scales (each reviewer grades them in their own rotated order).
+    pub scales: Vec<String>,
+    /// Reviewers grading it.
+    pub reviewers: usize,
+    /// Pilot grades given, over every reviewer and block.
+    pub graded: usize,
+    /// Pilot grades asked for: each reviewer's pilot pairs on every pilot scale.
+    pub needed: usize,
+}
+
 /// Everything Home shows (and `plumbline status` prints).
 #[derive(Debug, Clone, Default, Serialize)]
 pub struct HomeModel {
@@ -53,6 +66,9 @@ pub struct HomeModel {
     pub reviewers: Vec<ReviewerProgress>,
     /// Whether the study is open read-only.
     pub read_only: bool,
+    /// The running pilot, when one runs (absent otherwise).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub pilot: Option<PilotSummary>,
     /// In a reviewer's copy: whom it was handed out to (absent for a lead's study).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub copy_for: Option<String>,
@@ -78,6 +94,16 @@ pub fn of_study(study: &Study) -> Result<HomeModel, StudyError> {
             None => Vec::new(),
         };
         let mut model = build(&snapshot, &queues, study.counts()?, study.is_read_only());
+        model.pilot = study.pilot_status()?.map(|status| PilotSummary {
+            reviewers: status.shares.len(),
+            graded: status.shares.iter().map(|s| s.graded).sum(),
+            needed: status
+                .shares
+                .iter()
+                .map(|s| s.pairs * status.scales.len())
+                .sum(),
+            scales: status.scales,
+        });
         model.copy_for = study
             .setting(crate::study::settings::keys::HANDED_OUT_TO)?
             .filter(|r| !r.is_empty());
@@ -129,10 +155,13 @@ pub fn text(model: &HomeModel) -> String {
                 None => "no queue yet".to_string(),
             };
             out.push_str(&format!(
-                "  {:<16} {} grades, {queue}\n",
+                "  {:<16} {} pairs graded, {queue}\n",
                 r.reviewer, r.grades
             ));
         }
+    }
+    if let Some(p) = &model.pilot {
+        out.push_str(&format!("\n{}\n", pilot_line(p)));
     }
     out.push_str(&format!("\nNext: {}\n", next_step(model)));
     out
@@ -212,8 +241,20 @@ pub fn build(
         coverage,
         reviewers,
         read_only,
+        pilot: None,
         copy_for: None,
     }
+}
+
+/// The running pilot in one sentence.
+pub fn pilot_line(p: &PilotSummary) -> String {
+    format!(
+        "Pilot running on {} ({} reviewers, each in their own block order): {} of {} pilot grades given.",
+        p.scales.join(" and "),
+        p.reviewers,
+        p.graded,
+        p.needed
+    )
 }
 
 /// What to do next, in one sentence, from what the study holds.
@@ -225,6 +266,11 @@ pub fn next_step(model: &HomeModel) -> String {
         "Import the rankers' lists on the Catalog screen: rankings.csv.".into()
     } else if c.scales == 0 {
         "Define a graded scale: import scales.csv on the Catalog screen.".into()
+    } else if let Some(p) = model.pilot.as_ref().filter(|p| p.graded < p.needed) {
+        format!(
+            "Finish the pilot on the Grading desk ({} pilot grades to go), then compare the scales on the Scale trial.",
+            p.needed - p.graded
+        )
     } else if let Some(r) = model
         .reviewers
         .iter()

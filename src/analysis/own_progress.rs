@@ -43,7 +43,7 @@ impl OwnScale {
 /// The reviewer's part of a running pilot.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct OwnPilot {
-    /// The pilot's scales.
+    /// The pilot's scales in the order this reviewer grades them.
     pub scales: Vec<String>,
     /// Pilot pairs on each scale.
     pub pairs_per_scale: usize,
@@ -91,10 +91,15 @@ pub fn of_study(study: &Study, reviewer: &str) -> Result<OwnProgress, StudyError
                 scale: name,
             });
         }
+        let order = study
+            .pilot_orders()?
+            .into_iter()
+            .find(|(r, _)| r == reviewer)
+            .map(|(_, order)| order);
         let pilot = study.pilot_status()?.and_then(|status| {
             let share = status.shares.into_iter().find(|s| s.reviewer == reviewer)?;
             Some(OwnPilot {
-                scales: status.scales,
+                scales: order.unwrap_or(status.scales),
                 pairs_per_scale: share.pairs,
                 graded: share.graded,
             })

@@ -271,9 +271,7 @@ impl Study {
             }
         };
         let blocks = scales.len();
-        let mut order = scales;
-        order.rotate_left(place % blocks);
-        for (n, scale) in order.into_iter().enumerate() {
+        for (n, scale) in block_order(scales, place).into_iter().enumerate() {
             let block = if pairs.is_empty() {
                 self.queue(reviewer, &scale)?
             } else {
@@ -290,6 +288,25 @@ impl Study {
             }
         }
         Ok(None)
+    }
+
+    /// Each pilot reviewer with their block order (the scales in the order they grade
+    /// them, as [`Study::pilot_position`] walks them); empty when no pilot runs. Reads only.
+    pub fn pilot_orders(&self) -> Result<Vec<(String, Vec<String>)>> {
+        let scales = self.pilot_scales()?;
+        if scales.is_empty() {
+            return Ok(Vec::new());
+        }
+        let reviewers: Vec<String> = if self.pilot_pairs()?.is_empty() {
+            self.panel()?
+        } else {
+            self.json_setting(keys::PILOT_REVIEWERS)?
+        };
+        Ok(reviewers
+            .into_iter()
+            .enumerate()
+            .map(|(place, r)| (r, block_order(scales.clone(), place)))
+            .collect())
     }
 
     /// Who grades the running pilot and how far each is; None when no pilot runs.
@@ -411,4 +428,12 @@ fn queue_in(tx: &rusqlite::Transaction, reviewer: &str, scale: &str) -> Result<V
         .query_map([reviewer, scale], |r| Ok((r.get(0)?, r.get(1)?)))?
         .collect::<std::result::Result<_, _>>()?;
     Ok(rows)
+}
+
+/// The scales in the order the reviewer at `place` grades them: rotated by the place, so
+/// carry-over from one scale to the next does not always run the same way.
+fn block_order(mut scales: Vec<String>, place: usize) -> Vec<String> {
+    let blocks = scales.len().max(1);
+    scales.rotate_left(place % blocks);
+    scales
 }

@@ -96,6 +96,19 @@ impl Study {
         Ok(n as u64)
     }
 
+    /// (grades in force, pairs they cover) on `scale`: every reviewer's current grade or
+    /// can't-judge per pair, the figure Home's "Grades in force" sums over all scales.
+    pub fn grades_in_force(&self, scale: &str) -> Result<(u64, u64)> {
+        let (grades, pairs): (i64, i64) = self.conn().query_row(
+            "SELECT COUNT(*), (SELECT COUNT(*) FROM
+                 (SELECT DISTINCT context_id, item_id FROM current_grades WHERE scale = ?1))
+             FROM current_grades WHERE scale = ?1",
+            [scale],
+            |r| Ok((r.get(0)?, r.get(1)?)),
+        )?;
+        Ok((grades as u64, pairs as u64))
+    }
+
     /// Adds a new scale; refuses an invalid one or a name already in use.
     pub fn create_scale(&mut self, scale: &Scale) -> Result<()> {
         refuse_problems(scale)?;

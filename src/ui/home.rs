@@ -26,6 +26,20 @@ fn fraction_bar(ui: &mut egui::Ui, done: usize, total: usize, width: f32) {
     );
 }
 
+/// A reviewer's queue: "queue 197 of 347 (57 %)", so it is not read as all they graded.
+fn queue_bar(ui: &mut egui::Ui, done: usize, total: usize, width: f32) {
+    let f = if total == 0 {
+        0.0
+    } else {
+        done as f32 / total as f32
+    };
+    ui.add(
+        egui::ProgressBar::new(f)
+            .desired_width(width)
+            .text(format!("queue {done} of {total} ({:.0} %)", f * 100.0)),
+    );
+}
+
 pub fn ui(ui: &mut egui::Ui, model: &HomeModel) {
     egui::ScrollArea::vertical()
         .auto_shrink([false, false])
@@ -43,6 +57,10 @@ fn body(ui: &mut egui::Ui, model: &HomeModel) {
     ui.add_space(8.0);
     ui.strong("Next");
     ui.label(next_step(model));
+    if let Some(p) = &model.pilot {
+        ui.add_space(6.0);
+        ui.label(home::pilot_line(p));
+    }
     ui.add_space(12.0);
     ui.columns(2, |cols| {
         let ui = &mut cols[0];
@@ -92,11 +110,14 @@ fn body(ui: &mut egui::Ui, model: &HomeModel) {
             .show(ui, |ui| {
                 for r in &model.reviewers {
                     ui.label(&r.reviewer);
-                    ui.label(format!("{} grades", r.grades));
+                    let outside = r.grades.saturating_sub(r.queue.map_or(0, |q| q.0 as usize));
+                    ui.label(format!("{} pairs graded", r.grades)).on_hover_text(format!(
+                        "Pairs {} graded on {scale}, in the queue or not; {outside} of them lie \
+                         outside the queue (a pilot block, an import, a gap)",
+                        r.reviewer
+                    ));
                     match r.queue {
-                        Some((done, total)) => {
-                            fraction_bar(ui, done as usize, total as usize, 200.0)
-                        }
+                        Some((done, total)) => queue_bar(ui, done as usize, total as usize, 220.0),
                         None => {
                             ui.weak("no queue yet (made at sign-in)");
                         }

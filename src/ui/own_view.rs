@@ -77,9 +77,9 @@ impl OwnView {
             let total = p.pairs_per_scale * p.scales.len();
             ui.strong("Pilot");
             ui.label(format!(
-                "A pilot is running on {}: your {} pilot pairs are graded once on each \
-                 scale, one block after another. Done: {} of {} grades.",
-                p.scales.join(" and "),
+                "A pilot is running; your blocks, in order: {}. Your {} pilot pairs are \
+                 graded once on each scale. Done: {} of {} grades.",
+                p.scales.join(", then "),
                 p.pairs_per_scale,
                 p.graded,
                 total

@@ -14,6 +14,7 @@ use crate::analysis::render::{fixed, percent_spaced as percent};
 use crate::analysis::trial::{self, Trial, TrialRow};
 use crate::study::Study;
 use crate::study::grades::GradesMark;
+use crate::study::pilot::PilotStatus;
 
 /// Seconds between two looks at whether grades arrived, while the screen is shown.
 const WATCH_EVERY: f64 = 2.0;
@@ -25,11 +26,15 @@ pub fn load(path: &Path) -> JobResult<Trial> {
 
 /// The trial with where the grades stood before it was computed (so grades that arrive
 /// meanwhile still cause one more recomputation).
-fn load_marked(path: &Path) -> JobResult<(GradesMark, Trial)> {
+fn load_marked(path: &Path) -> JobResult<Loaded> {
     let study = Study::open(path)?;
     let mark = study.grades_mark()?;
-    Ok((mark, trial::of_study(&study)?))
+    let pilot = study.pilot_status()?;
+    Ok((mark, trial::of_study(&study)?, pilot))
 }
+
+/// A computed trial with the grades' mark it was computed at and the running pilot.
+type Loaded = (GradesMark, Trial, Option<PilotStatus>);
 
 /// The row's name: the scale, and the collapse map when there is one.
 pub fn row_name(row: &TrialRow) -> String {
@@ -52,7 +57,9 @@ fn intervals_overlap(rows: &[TrialRow]) -> bool {
 /// The screen's state: the last trial and the job computing the next.
 pub struct TrialScreen {
     pub model: Option<JobResult<Trial>>,
-    loading: Task<JobResult<(GradesMark, Trial)>>,
+    loading: Task<JobResult<Loaded>>,
+    /// The running pilot when the trial was computed (None: no pilot runs).
+    pub pilot: Option<PilotStatus>,
     /// The grades' mark the shown trial was computed at.
     computed_at: Option<GradesMark>,
     watching: Task<JobResult<GradesMark>>,
@@ -65,6 +72,7 @@ impl Default for TrialScreen {
         TrialScreen {
             model: None,
             loading: Task::named("trial-load"),
+            pilot: None,
             computed_at: None,
             watching: Task::named("trial-watch"),
             looked_at: None,
@@ -111,8 +119,9 @@ impl TrialScreen {
             self.reload(ui.ctx(), path);
         }
         if let Some(result) = self.loading.poll() {
-            self.model = Some(result.map(|(mark, trial)| {
+            self.model = Some(result.map(|(mark, trial, pilot)| {
                 self.computed_at = Some(mark);
+                self.pilot = pilot;
                 trial
             }));
         }
@@ -132,9 +141,60 @@ impl TrialScreen {
                 ui.colored_label(ui.visuals().error_fg_color, e.to_string());
             }
             Some(Ok(t)) => {
-                egui::ScrollArea::vertical().show(ui, |ui| show(ui, t));
+                let pilot = self.pilot.as_ref();
+                egui::ScrollArea::vertical().show(ui, |ui| {
+                    pilot_progress(ui, pilot);
+                    show(ui, t)
+                });
             }
         }
+    }
+}
+
+/// A running pilot's progress: the trial's rows grow as its grades arrive.
+fn pilot_progress(ui: &mut egui::Ui, pilot: Option<&PilotStatus>) {
+    let Some(p) = pilot else { return };
+    let needed: usize = p.shares.iter().map(|s| s.pairs * p.scales.len()).sum();
+    let graded: usize = p.shares.iter().map(|s| s.graded).sum();
+    ui.group(|ui| {
+        ui.strong(format!(
+            "Pilot running on {}: {graded} of {needed} pilot grades given",
+            p.scales.join(" and ")
+        ));
+        for share in &p.shares {
+            let total = share.pairs * p.scales.len();
+            let f = if total == 0 {
+                0.0
+            } else {
+                share.graded as f32 / total as f32
+            };
+            ui.horizontal(|ui| {
+                ui.label(&share.reviewer);
+                ui.add(
+                    egui::ProgressBar::new(f)
+                        .desired_width(220.0)
+                        .text(format!("{} of {total} pilot grades", share.graded)),
+                );
+            });
+        }
+    });
+    ui.add_space(6.0);
+}
+
+/// A quadratic kappa, or why there is none.
+fn kappa_or_reason(r: &TrialRow) -> (String, &'static str) {
+    if r.kappa_quadratic_mean.is_finite() {
+        (fixed(r.kappa_quadratic_mean, 3), "")
+    } else if r.reviewers < 2 {
+        (
+            "– (one reviewer)".into(),
+            "Kappa compares two reviewers; only one graded these pairs on this scale.",
+        )
+    } else {
+        (
+            "– (undefined)".into(),
+            "No two reviewers share a graded pair here, or every shared grade is the same level (chance agreement is then 1 and kappa is undefined).",
+        )
     }
 }
 
@@ -188,6 +248,12 @@ fn show(ui: &mut egui::Ui, t: &Trial) {
 }
 
 fn table(ui: &mut egui::Ui, rows: &[TrialRow]) {
+    // The rows come finest scale first; tau-b compares every order with that one's.
+    let finest = rows.first().map_or(String::new(), row_name);
+    let tau_head = format!("Tau-b vs {finest}");
+    let tau_meaning = format!(
+        "Kendall's tau-b of this row's ranker order against the order on {finest}, the scale with the most levels (1: the same order)"
+    );
     egui::Grid::new("trial_table")
         .striped(true)
         .spacing([10.0, 4.0])
@@ -218,10 +284,7 @@ fn table(ui: &mut egui::Ui, rows: &[TrialRow]) {
                     "Rankers by NDCG@10",
                     "Ranker order by mean NDCG@10 on these pairs",
                 ),
-                (
-                    "Tau-b",
-                    "Kendall's tau-b of this order against the finest scale's",
-                ),
+                (tau_head.as_str(), tau_meaning.as_str()),
                 (
                     "Discriminative power",
                     "Share of ranker pairs separated at Holm-adjusted p < 0.05 (Sakai 2006, SIGIR)",
@@ -244,7 +307,11 @@ fn table(ui: &mut egui::Ui, rows: &[TrialRow]) {
                     r.alpha_ci_low,
                     r.alpha_ci_high,
                 ));
-                ui.label(fixed(r.kappa_quadratic_mean, 3));
+                let (kappa, why) = kappa_or_reason(r);
+                let shown = ui.label(kappa);
+                if !why.is_empty() {
+                    shown.on_hover_text(why);
+                }
                 ui.label(fixed(r.ac1_mean, 3));
                 ui.label(format!(
                     "{} ({})",

@@ -54,3 +54,43 @@ fn home_shows_the_figures_status_prints() {
     );
     assert_eq!(h.query_all_by_label(&wrong).count(), 0);
 }
+
+/// A reviewer's row says what each number counts: the pairs graded on the scale, and
+/// the queue's progress as "queue done of total" (not a second "grades" count).
+#[test]
+fn a_reviewers_row_names_pairs_graded_and_the_queue_apart() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path, Screen::Home);
+    // Signing in makes rev-amber's queue; signing out brings Home back.
+    let ctx = h.ctx.clone();
+    h.state_mut().sign_in(&ctx, "rev-amber");
+    step_until(&mut h, "the desk", |h| h.state().desk.data().is_some());
+    assert!(h.state_mut().sign_out());
+    h.state_mut().home = None;
+    step_until(&mut h, "Home", |h| matches!(h.state().home, Some(Ok(_))));
+    h.step();
+    // Counted by SQL straight from the file, on the active scale fit4.
+    let conn = rusqlite::Connection::open(&path).unwrap();
+    let one = |sql: &str| -> i64 { conn.query_row(sql, [], |r| r.get(0)).unwrap() };
+    let graded =
+        one("SELECT COUNT(*) FROM current_grades WHERE reviewer = 'rev-amber' AND scale = 'fit4'");
+    let total =
+        one("SELECT COUNT(*) FROM queue_entries WHERE reviewer = 'rev-amber' AND scale = 'fit4'");
+    let done = one(
+        "SELECT COUNT(*) FROM queue_entries q JOIN current_grades c ON c.reviewer = q.reviewer
+         AND c.scale = q.scale AND c.context_id = q.context_id AND c.item_id = q.item_id
+         WHERE q.reviewer = 'rev-amber' AND q.scale = 'fit4'",
+    );
+    assert!(
+        total > 0 && graded > done,
+        "the check needs grades outside the queue"
+    );
+    assert!(
+        h.query_all_by_label(&format!("{graded} pairs graded"))
+            .count()
+            >= 1
+    );
+    let percent = (100.0 * done as f64 / total as f64).round();
+    let queue = format!("queue {done} of {total} ({percent:.0} %)");
+    assert!(h.query_by_label(&queue).is_some(), "{queue} not on Home");
+}

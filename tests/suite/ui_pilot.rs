@@ -80,6 +80,41 @@ fn the_pilot_form_asks_pairs_and_reviewers_and_gives_each_chosen_one_that_many_p
     let (_dir, path) = demo_copy();
     let mut h = harness(&path, Screen::Scales);
     step_until_within(&mut h, "the scales", 30, scales_loaded);
+    // Counts say what they count, with the numbers Home and `status` use: the pool as
+    // `status --format json` gives it, its gold pairs and fit4's grades in force by SQL.
+    let status = std::process::Command::new(env!("CARGO_BIN_EXE_plumbline"))
+        .args(["status", "--format", "json"])
+        .arg(&path)
+        .output()
+        .unwrap();
+    let status: serde_json::Value = serde_json::from_slice(&status.stdout).unwrap();
+    let pool = status["pool_size"].as_u64().unwrap();
+    let conn = rusqlite::Connection::open(&path).unwrap();
+    let one =
+        |sql: &str| -> u64 { conn.query_row(sql, [], |r| r.get::<_, i64>(0)).unwrap() as u64 };
+    let depth = status["depth"].as_u64().unwrap();
+    let gold_in_pool = one(&format!(
+        "SELECT COUNT(*) FROM (SELECT DISTINCT g.context_id, g.item_id FROM gold_pairs g
+         WHERE EXISTS (SELECT 1 FROM ranked_items r WHERE r.context_id = g.context_id
+                       AND r.item_id = g.item_id AND r.rank <= {depth}))"
+    ));
+    assert!(gold_in_pool > 0, "the demo mixes gold pairs into the pool");
+    let room = pool - gold_in_pool;
+    assert!(shows(
+        &h,
+        &format!(
+            "of {room} pool pairs that are not gold pairs (the pool has {pool}; its {gold_in_pool} gold pairs"
+        )
+    ));
+    let in_force = one("SELECT COUNT(*) FROM current_grades WHERE scale = 'fit4'");
+    let pairs = one(
+        "SELECT COUNT(*) FROM (SELECT DISTINCT context_id, item_id FROM current_grades
+         WHERE scale = 'fit4')",
+    );
+    assert!(shows(
+        &h,
+        &format!("{in_force} grades in force on {pairs} pairs")
+    ));
     h.get_by_label("Pilot with fit4").click();
     h.step();
     h.get_by_label("Pilot with useful2").click();
@@ -119,6 +154,17 @@ fn the_pilot_form_asks_pairs_and_reviewers_and_gives_each_chosen_one_that_many_p
             .is_ok_and(|m| m.starts_with("Pilot started")),
         "{message:?}"
     );
+    // Each reviewer's block order is named as the desk gives it: the order rotates with
+    // the reviewer's place among the chosen ones (study::pilot's rule), so rev-birch,
+    // second, starts on the second scale.
+    let text = message.as_ref().unwrap();
+    assert!(text.contains("rev-amber: fit4, then useful2"), "{text}");
+    assert!(text.contains("rev-birch: useful2, then fit4"), "{text}");
+    let mut store = Study::open(&path).unwrap();
+    assert_eq!(
+        store.pilot_block("rev-birch").unwrap().as_deref(),
+        Some("useful2")
+    );
     // After starting: each reviewer's share and progress.
     assert!(shows(&h, "rev-amber: 12 pairs × 2 scales · 0 of 24 graded"));
     assert!(shows(&h, "rev-birch: 12 pairs × 2 scales · 0 of 24 graded"));
@@ -144,6 +190,28 @@ fn the_pilot_form_asks_pairs_and_reviewers_and_gives_each_chosen_one_that_many_p
     assert_eq!(study.pilot_block("rev-cedar").unwrap(), None);
     let pilot: HashSet<_> = study.pilot_pairs().unwrap().into_iter().collect();
     assert_eq!(pilot, heads[0]);
+
+    // Home and the Scale trial mention the running pilot: 12 pairs × 2 scales × 2
+    // reviewers = 48 pilot grades, none given yet.
+    h.key_press_modifiers(Modifiers::COMMAND, Key::Num1);
+    step_until(&mut h, "Home's pilot line", |h| {
+        shows(h, "Pilot running on fit4 and useful2 (2 reviewers")
+    });
+    assert!(shows(&h, "0 of 48 pilot grades given"));
+    assert!(shows(
+        &h,
+        "Finish the pilot on the Grading desk (48 pilot grades to go)"
+    ));
+    h.key_press_modifiers(Modifiers::COMMAND, Key::Num7);
+    step_until_within(&mut h, "the trial's pilot progress", 60, |h| {
+        shows(
+            h,
+            "Pilot running on fit4 and useful2: 0 of 48 pilot grades given",
+        )
+    });
+    assert!(shows(&h, "0 of 24 pilot grades"));
+    // Tau-b says what it compares with: fit4 has the most levels (4 against 2).
+    assert!(h.query_by_label("Tau-b vs fit4").is_some());
 }
 
 #[test]

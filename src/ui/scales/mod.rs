@@ -20,7 +20,10 @@ use editor::{Editor, MapEditor};
 #[derive(Debug, Clone)]
 pub struct ScaleEntry {
     pub scale: Scale,
+    /// Grade history rows of the scale (undos included): whether editing it makes a version.
     pub grades: u64,
+    /// (grades in force, pairs they cover), as Home counts grades in force.
+    pub in_force: (u64, u64),
 }
 
 /// Everything the Scales screen shows, read on a job thread.
@@ -36,6 +39,8 @@ pub struct ScalesModel {
     pub people: Vec<String>,
     /// Pool pairs a pilot can use (the pool without gold pairs).
     pub pilot_room: usize,
+    /// Pairs in the pool, gold pairs included (Home's "Whole pool").
+    pub pool_size: usize,
     pub maps: Vec<(String, CollapseMap)>,
     /// Gold pairs of every scale: (scale, context, item, known level, rationale).
     pub gold: Vec<(String, String, String, u8, String)>,
@@ -57,6 +62,7 @@ pub fn load(path: &Path) -> JobResult<ScalesModel> {
         scales.push(ScaleEntry {
             scale: s.clone(),
             grades: study.grade_count(&s.name)?,
+            in_force: study.grades_in_force(&s.name)?,
         });
     }
     let mut gold = Vec::new();
@@ -74,6 +80,7 @@ pub fn load(path: &Path) -> JobResult<ScalesModel> {
         pilot_status: study.pilot_status()?,
         people: study.people()?,
         pilot_room: study.pilot_room()?,
+        pool_size: study.pool()?.len(),
         maps: study.collapse_maps()?,
         gold,
         read_only: study.is_read_only(),
@@ -141,10 +148,15 @@ pub fn apply(path: &Path, change: Change) -> JobResult<(String, ScalesModel)> {
             reviewers,
         } => {
             study.start_pilot_for(&scales, pairs, &reviewers)?;
+            // Each reviewer's own block order, as the desk will give it.
+            let orders: Vec<String> = study
+                .pilot_orders()?
+                .into_iter()
+                .map(|(r, order)| format!("{r}: {}", order.join(", then ")))
+                .collect();
             format!(
-                "Pilot started: {} each grade the same {pairs} pairs on {}, one scale's block at a time.",
-                reviewers.join(", "),
-                scales.join(", then ")
+                "Pilot started: the same {pairs} pairs on each scale, one block at a time, in each reviewer's order ({}).",
+                orders.join("; ")
             )
         }
         Change::EndPilot => {
@@ -359,9 +371,10 @@ impl ScalesScreen {
                         }
                     });
                     ui.label(format!(
-                        "{} levels · {} grades · {}",
+                        "{} levels · {} grades in force on {} pairs · {}",
                         entry.scale.levels.len(),
-                        entry.grades,
+                        entry.in_force.0,
+                        entry.in_force.1,
                         entry
                             .scale
                             .levels

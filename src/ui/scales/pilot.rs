@@ -69,7 +69,12 @@ impl PilotForm {
             let label = ui.label("Pairs per reviewer and scale");
             ui.add(egui::TextEdit::singleline(text).desired_width(56.0))
                 .labelled_by(label.id);
-            ui.weak(format!("of {room} in the pool"));
+            let gold = model.pool_size.saturating_sub(room);
+            ui.weak(format!(
+                "of {room} pool pairs that are not gold pairs (the pool has {}; its {gold} gold \
+                 pairs stay out of a pilot)",
+                model.pool_size
+            ));
         });
         let pairs = match text.trim().parse::<usize>() {
             Err(_) => Err("Type the number of pairs as a whole number.".to_string()),

@@ -15,11 +15,13 @@ if [ -z "${DISPLAY:-}" ]; then
 fi
 export HOME="$work/home" LIBGL_ALWAYS_SOFTWARE=1
 mkdir -p "$HOME/.config/plumbline"
-# The desk opens signed in as a demo reviewer who still has pairs to grade.
-printf '{"recent":[],"reviewers":[["%s","%s"]]}' "$work/demo.plumb" "${REVIEWER:-rev-cedar}" \
-    > "$HOME/.config/plumbline/workbench.json"
+# Every screen but the desk is the lead's (signed out); the desk opens signed in as a
+# demo reviewer who still has pairs to grade.
 for screen in home catalog scales desk agreement scoreboard trial; do
-    "$BIN" open "$work/demo.plumb" --screen "$screen" >/dev/null 2>&1 &
+    signed_in=""
+    [ "$screen" = desk ] && signed_in="--reviewer ${REVIEWER:-rev-cedar}"
+    # shellcheck disable=SC2086
+    "$BIN" open "$work/demo.plumb" --screen "$screen" $signed_in >/dev/null 2>&1 &
     pid=$!
     sleep "${WAIT:-12}"
     id=$(xdotool search --onlyvisible --name "Plumbline" | head -n 1)

@@ -10,10 +10,20 @@ use crate::study::import::{self, ImportSet, Source};
 
 pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
     match command {
-        None => Ok(crate::ui::run_workbench(None, crate::ui::Screen::Home)?),
-        Some(Command::Open { study, screen }) => {
-            Ok(crate::ui::run_workbench(Some(study), screen.into())?)
-        }
+        None => Ok(crate::ui::run_workbench(
+            None,
+            crate::ui::Screen::Home,
+            None,
+        )?),
+        Some(Command::Open {
+            study,
+            screen,
+            reviewer,
+        }) => Ok(crate::ui::run_workbench(
+            Some(study),
+            screen.into(),
+            reviewer,
+        )?),
         Some(Command::New { study }) => {
             Study::create(&study)?;
             println!("{}", study.display());

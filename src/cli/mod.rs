@@ -127,6 +127,10 @@ pub enum Command {
         study: PathBuf,
         #[arg(long, value_enum, default_value = "home")]
         screen: ScreenName,
+        /// Sign this reviewer in at once (the window then shows only the desk, their
+        /// progress and the rubric); without it the study opens signed out.
+        #[arg(long)]
+        reviewer: Option<String>,
     },
     /// Create a new, empty study file.
     New { study: PathBuf },

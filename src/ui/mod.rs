@@ -72,8 +72,12 @@ impl WorkbenchError {
 }
 
 /// Opens the window on a study (else the last study, else the demo study) and runs
-/// until closed.
-pub fn run_workbench(study: Option<PathBuf>, screen: Screen) -> Result<(), WorkbenchError> {
+/// until closed; signed out, unless `reviewer` is named to be signed in at once.
+pub fn run_workbench(
+    study: Option<PathBuf>,
+    screen: Screen,
+    reviewer: Option<String>,
+) -> Result<(), WorkbenchError> {
     let prefs = Prefs::load(Prefs::default_file());
     let path = match study.or_else(|| prefs.last_study()) {
         Some(p) => p,
@@ -95,7 +99,11 @@ pub fn run_workbench(study: Option<PathBuf>, screen: Screen) -> Result<(), Workb
     eframe::run_native(
         "Plumbline",
         options,
-        Box::new(move |_cc| Ok(Box::new(Workbench::with_prefs(path, screen, prefs)))),
+        Box::new(move |_cc| {
+            let mut workbench = Workbench::with_prefs(path, screen, prefs);
+            workbench.sign_in_at_start = reviewer;
+            Ok(Box::new(workbench))
+        }),
     )
     .map_err(|e| WorkbenchError::Window(e.to_string()))
 }

@@ -69,6 +69,8 @@ pub struct Workbench {
     title: Option<String>,
     /// Whether the keyboard help (`?` / F1) is open.
     pub key_help_open: bool,
+    /// A reviewer to sign in on the first frame (`plumbline open --reviewer`).
+    pub sign_in_at_start: Option<String>,
     shown_screen: Option<Screen>,
 }
 
@@ -114,6 +116,7 @@ impl Workbench {
             picker: StudyPicker::default(),
             title: None,
             key_help_open: false,
+            sign_in_at_start: None,
             shown_screen: None,
         }
     }
@@ -256,6 +259,9 @@ impl Workbench {
     /// Draws one frame into `ui` (used by eframe and by headless tests alike).
     pub fn show(&mut self, ui: &mut egui::Ui) {
         let ctx = ui.ctx().clone();
+        if let Some(reviewer) = self.sign_in_at_start.take() {
+            self.sign_in(&ctx, &reviewer);
+        }
         self.shortcuts(&ctx);
         self.screen = self.allowed_screen();
         let signed_in = self.reviewer.is_some();

@@ -179,3 +179,65 @@ fn scoreboard_choices_come_back_when_the_study_is_reopened() {
     let h = harness_with(&other, Prefs::load(Some(prefs_file)));
     assert_eq!(h.state().scoreboard.wanted.ks, vec![5, 10, 20]);
 }
+
+/// The plots' legends sit under the plots, never on them, and the axes carry ticks a
+/// value can be read from: NDCG every 0.2 (labelled) from 0 to 1, k every 5.
+#[test]
+fn legends_sit_under_the_plots_and_axes_have_readable_ticks() {
+    use plumbline::ui::scoreboard::plots::{K_STEPS, NDCG_STEPS, count_steps, marks};
+    let (_dir, path) = crate::ui_support::demo_copy();
+    let mut h = crate::ui_support::harness(&path, plumbline::ui::Screen::Scoreboard);
+    h.set_size(egui::vec2(1360.0, 2400.0));
+    crate::ui_support::step_until_within(&mut h, "the plots", 60, |h| {
+        h.query_by_label_contains("NDCG@k for k = 1…20").is_some()
+    });
+    h.step();
+    let heading = h.get_by_label_contains("NDCG@k for k = 1…20").rect();
+    let names: Vec<String> = h
+        .state()
+        .scoreboard
+        .model
+        .as_ref()
+        .unwrap()
+        .board
+        .rankers
+        .iter()
+        .map(|r| r.ranker.clone())
+        .collect();
+    for name in &names {
+        let entries: Vec<egui::Rect> = h
+            .query_all_by_label(&format!("Legend: {name}"))
+            .map(|n| n.rect())
+            .collect();
+        assert_eq!(
+            entries.len(),
+            2,
+            "{name}: one under the curves, one under the histogram"
+        );
+        for rect in entries {
+            // The plots are 230 px tall and start under their heading.
+            assert!(
+                rect.top() >= heading.bottom() + 230.0,
+                "{name}: {rect:?} lies on a plot"
+            );
+        }
+    }
+    // Ticks over the bounds the plots show (a margin around 0…1): NDCG every 0.2 is 230 px /
+    // 1.1 × 0.2 ≈ 42 px apart and k every 5 is at least 220 px / 20 × 5 = 55 px apart,
+    // both above the 18 px at which the plots label a tick (arithmetic).
+    let at = |steps: [f64; 3], step: f64, bounds| -> Vec<f64> {
+        marks(steps, bounds)
+            .into_iter()
+            .filter(|m| m.step_size >= step)
+            .map(|m| (m.value * 100.0).round() / 100.0)
+            .collect()
+    };
+    assert_eq!(
+        at(NDCG_STEPS, 0.2, (-0.05, 1.05)),
+        [0.0, 0.2, 0.4, 0.6, 0.8, 1.0]
+    );
+    assert_eq!(at(K_STEPS, 5.0, (0.5, 20.5)), [5.0, 10.0, 15.0, 20.0]);
+    // Counts: labels on a 1-2-5 step about a fifth of the tallest bar.
+    assert_eq!(count_steps(25.0), [1.0, 5.0, 25.0]);
+    assert_eq!(count_steps(3.0), [1.0, 1.0, 5.0]);
+}

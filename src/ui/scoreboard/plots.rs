@@ -3,7 +3,8 @@
 //! of per-context NDCG.
 
 use egui_plot::{
-    Bar, BarChart, ColorConflictHandling, Corner, FilledArea, Legend, Line, Plot, PlotPoints,
+    AxisHints, Bar, BarChart, FilledArea, GridInput, GridMark, Line, Plot, PlotPoints,
+    uniform_grid_spacer,
 };
 
 use crate::analysis::scoreboard_view::{Differences, ScoreboardModel};
@@ -30,10 +31,8 @@ pub enum CurveItem {
     },
 }
 
-/// The NDCG@k plot's items. The legend takes each name's colour from its first item
-/// (`ColorConflictHandling::PickFirst`), so every ranker's line comes first (its swatch
-/// is the line's colour, not the faint band's), then its band, then the line again on
-/// top of the band.
+/// The NDCG@k plot's items: every ranker's line first (in the ranker's colour, the one
+/// the legend row shows), then its band, then the line again on top of the band.
 pub fn curve_items(model: &ScoreboardModel) -> Vec<CurveItem> {
     let mut items = Vec::new();
     for (r, (name, points)) in model.curves.iter().enumerate() {
@@ -55,6 +54,57 @@ pub fn curve_items(model: &ScoreboardModel) -> Vec<CurveItem> {
     items
 }
 
+/// Grid steps of an NDCG axis (values 0…1): lines every 0.05 and 0.1, labels every 0.2,
+/// so a value can be read to about ±0.05 (common practice: five to ten labelled ticks).
+pub const NDCG_STEPS: [f64; 3] = [0.05, 0.1, 0.2];
+
+/// Grid steps of the cut-off axis k = 1…20: a line at every k, labels every 5.
+pub const K_STEPS: [f64; 3] = [1.0, 5.0, 10.0];
+
+/// Grid marks of `steps` over `bounds` (what the plots draw), for tests and the plots.
+pub fn marks(steps: [f64; 3], bounds: (f64, f64)) -> Vec<GridMark> {
+    uniform_grid_spacer(move |_| steps)(GridInput {
+        bounds,
+        base_step_size: steps[0],
+    })
+}
+
+/// Grid steps of a count axis from 0 to `top`: labels about five apart on a 1-2-5 step
+/// (so a count can be read without guessing), lines at a fifth of that.
+pub fn count_steps(top: f64) -> [f64; 3] {
+    let rough = (top / 5.0).max(1.0);
+    let power = 10f64.powf(rough.log10().floor());
+    let step = [1.0, 2.0, 5.0, 10.0]
+        .into_iter()
+        .map(|m| m * power)
+        .find(|s| *s >= rough)
+        .unwrap_or(10.0 * power);
+    [(step / 5.0).max(1.0), step, step * 5.0]
+}
+
+/// Tick labels close enough for the steps above: labels from 18 px apart.
+fn axis<'a>(hints: AxisHints<'a>, label: String) -> AxisHints<'a> {
+    hints.label(label).label_spacing(18.0..=30.0)
+}
+
+/// A row of colour swatches with the rankers' names, drawn under a plot (never on it,
+/// so it hides no data). Each entry's accessible label is "Legend: NAME".
+pub fn legend_row(ui: &mut egui::Ui, names: &[String], extra: Option<&str>) {
+    ui.horizontal_wrapped(|ui| {
+        for (r, name) in names.iter().enumerate() {
+            let (rect, response) =
+                ui.allocate_exact_size(egui::vec2(22.0, 10.0), egui::Sense::hover());
+            ui.painter().rect_filled(rect, 2.0, colour(r));
+            let label = format!("Legend: {name}");
+            response.widget_info(|| egui::WidgetInfo::labeled(egui::Role::Label, true, &label));
+            ui.label(name);
+        }
+        if let Some(text) = extra {
+            ui.weak(text);
+        }
+    });
+}
+
 pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate: Option<&str>) {
     let key = format!("ndcg@{focus}");
     let width = ((ui.available_width() - 24.0) / 3.0).max(220.0);
@@ -66,15 +116,13 @@ pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate
             Plot::new("sb_curve")
                 .width(width)
                 .height(height)
-                // A name's band and line differ in colour; egui_plot's default then
-                // greys the legend swatch, so the first item's (the line's) colour wins.
-                .legend(
-                    Legend::default()
-                        .position(Corner::RightBottom)
-                        .color_conflict_handling(ColorConflictHandling::PickFirst),
-                )
+                .include_y(0.0)
                 .include_y(1.0)
-                .x_axis_label("k")
+                .include_x(1.0)
+                .x_grid_spacer(uniform_grid_spacer(|_| K_STEPS))
+                .y_grid_spacer(uniform_grid_spacer(|_| NDCG_STEPS))
+                .custom_x_axes(vec![axis(AxisHints::new_x(), "k".into())])
+                .custom_y_axes(vec![axis(AxisHints::new_y(), "NDCG@k".into())])
                 .allow_scroll(false)
                 .show(ui, |p| {
                     for item in curve_items(model) {
@@ -99,6 +147,8 @@ pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate
                         }
                     }
                 });
+            let names: Vec<String> = model.curves.iter().map(|(n, _)| n.clone()).collect();
+            legend_row(ui, &names, Some("shaded: 95 % CI"));
         });
         ui.vertical(|ui| {
             ui.set_width(width);
@@ -146,8 +196,11 @@ pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate
             Plot::new("sb_histogram")
                 .width(width)
                 .height(height)
-                .legend(Legend::default().position(Corner::LeftTop))
-                .x_axis_label(format!("NDCG@{focus}"))
+                .include_y(0.0)
+                .x_grid_spacer(uniform_grid_spacer(|_| NDCG_STEPS))
+                .custom_x_axes(vec![axis(AxisHints::new_x(), format!("NDCG@{focus}"))])
+                .y_grid_spacer(uniform_grid_spacer(|input| count_steps(input.bounds.1)))
+                .custom_y_axes(vec![axis(AxisHints::new_y(), "contexts".into())])
                 .allow_scroll(false)
                 .show(ui, |p| {
                     let none = Vec::new();
@@ -165,6 +218,13 @@ pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate
                         p.bar_chart(BarChart::new(ranker.ranker.clone(), bars).color(colour(r)));
                     }
                 });
+            let names: Vec<String> = model
+                .board
+                .rankers
+                .iter()
+                .map(|r| r.ranker.clone())
+                .collect();
+            legend_row(ui, &names, None);
         });
     });
 }

@@ -180,7 +180,8 @@ fn draw_capacity(cat: usize, rng: &mut Rng, tags: &mut Vec<&'static str>) -> (St
                 -4.. => "3season",
                 _ => "winter",
             });
-            (format!("{t} C"), t.to_string())
+            // A comfort temperature rating, read as such wherever it shows.
+            (format!("{t} °C comfort"), t.to_string())
         }
     }
 }
@@ -222,7 +223,12 @@ fn describe(
         } else {
             let cap = cat
                 .cap_verb
-                .replace("{}", capacity.trim_end_matches(" person"));
+                .replace(
+                    "{}",
+                    capacity
+                        .trim_end_matches(" person")
+                        .trim_end_matches(" comfort"),
+                );
             text += &format!(" {cap} and weighs {weight_g} g.");
         }
     }

@@ -221,14 +221,12 @@ fn describe(
         if capacity.is_empty() {
             text += &format!(" Weighs {weight_g} g, with {}.", rng.pick(&EXTRAS));
         } else {
-            let cap = cat
-                .cap_verb
-                .replace(
-                    "{}",
-                    capacity
-                        .trim_end_matches(" person")
-                        .trim_end_matches(" comfort"),
-                );
+            let cap = cat.cap_verb.replace(
+                "{}",
+                capacity
+                    .trim_end_matches(" person")
+                    .trim_end_matches(" comfort"),
+            );
             text += &format!(" {cap} and weighs {weight_g} g.");
         }
     }

@@ -117,6 +117,23 @@ fn grading_ten_pairs_by_keyboard_is_saved_row_by_row() {
         h.query_by_label_contains(&shown).is_some(),
         "progress should read {shown}"
     );
+    // The desk says which grade the undo removed (the tenth: level 9 % 4 = 1), naming
+    // the item by its title as the file holds it.
+    let title: String = rusqlite::Connection::open(&path)
+        .unwrap()
+        .query_row(
+            "SELECT title FROM items WHERE item_id = ?1",
+            [&undone.1],
+            |r| r.get(0),
+        )
+        .unwrap();
+    let node = h.get_by_label_contains("Undone: your grade 1 (");
+    let text = format!(
+        "{}{}",
+        node.accesskit_node().label().unwrap_or_default(),
+        node.accesskit_node().value().unwrap_or_default()
+    );
+    assert!(text.contains(&format!("for {title} on ")), "{text}");
 
     // Mark it can't judge: C opens the reasons, I picks "image missing".
     press(&mut h, Key::C);

@@ -215,6 +215,9 @@ impl Desk {
         self.run_presses();
         self.header(ui);
         ui.separator();
+        if let Some(notice) = self.state.as_ref().and_then(DeskState::undo_notice) {
+            ui.colored_label(super::palette::CAUTION, notice);
+        }
         self.gold_feedback(ui);
         if self.data().is_some_and(|d| d.queue.is_empty()) {
             ui.add_space(24.0);

@@ -133,6 +133,9 @@ pub struct DeskState {
     pub session_seconds: f64,
     /// Feedback on the gold pair just graded (training only), until the next grade.
     pub feedback: Option<GoldFeedback>,
+    /// The grade the last undo removed: (queue position, the mark it had), until the
+    /// next grade is saved.
+    pub undone: Option<(usize, Mark)>,
     next_ticket: u64,
 }
 
@@ -155,6 +158,7 @@ impl DeskState {
             session_grades: 0,
             session_seconds: 0.0,
             feedback: None,
+            undone: None,
             next_ticket: 1,
         }
     }
@@ -304,7 +308,8 @@ impl DeskState {
         let position = flight.position;
         match &flight.grade.action {
             GradeAction::Undo => {
-                self.data.marks[position] = None;
+                let removed = self.data.marks[position].take().flatten();
+                self.undone = Some((position, removed));
                 self.current = Some(position);
             }
             action => {
@@ -313,6 +318,7 @@ impl DeskState {
                     _ => None,
                 };
                 self.data.marks[position] = Some(given);
+                self.undone = None;
                 self.feedback =
                     self.data
                         .training_gold
@@ -353,6 +359,27 @@ impl DeskState {
             self.current = Some(p);
             self.reset_card();
         }
+    }
+
+    /// What the last undo removed, in words: the level (or can't judge), the context
+    /// and the item, so the reviewer knows which grade is gone.
+    pub fn undo_notice(&self) -> Option<String> {
+        let (position, removed) = self.undone?;
+        let (c, i) = self.data.queue[position];
+        let context = &self.data.contexts[c as usize];
+        let what = if context.text.is_empty() {
+            context.id.clone()
+        } else {
+            format!("“{}”", context.text)
+        };
+        let item = &self.data.items[i as usize].title;
+        let grade = match removed {
+            Some(v) => format!("your grade {v} ({})", self.data.scale.label(v)),
+            None => "your can't-judge mark".to_string(),
+        };
+        Some(format!(
+            "Undone: {grade} for {item} on {what}. The pair is back on the desk to grade again."
+        ))
     }
 
     fn undo(&mut self) -> Option<(u64, NewGrade)> {
@@ -512,5 +539,17 @@ mod tests {
         assert_eq!(written, vec![("i0".into(), Some(2)), ("i0".into(), None)]);
         assert_eq!(s.current, Some(0));
         assert_eq!(s.data.marks[0], None);
+        // The desk says which grade went: level 2 of the preset four-level scale.
+        s.data.items[0].title = "Reed Trail Tent".into();
+        let label = s.data.scale.label(2).to_string();
+        assert_eq!(
+            s.undo_notice().unwrap(),
+            format!(
+                "Undone: your grade 2 ({label}) for Reed Trail Tent on c. The pair is back on the desk to grade again."
+            )
+        );
+        s.push(key(1));
+        drain(&mut s);
+        assert_eq!(s.undo_notice(), None, "a new grade clears the notice");
     }
 }

@@ -241,3 +241,31 @@ fn legends_sit_under_the_plots_and_axes_have_readable_ticks() {
     assert_eq!(count_steps(25.0), [1.0, 5.0, 25.0]);
     assert_eq!(count_steps(3.0), [1.0, 1.0, 5.0]);
 }
+
+/// A segment label spelled like a context kind ("anchor") is offered apart from the kind.
+#[test]
+fn a_segment_label_named_like_a_kind_is_told_apart() {
+    let (_dir, path) = demo_copy();
+    let conn = rusqlite::Connection::open(&path).unwrap();
+    conn.execute(
+        "UPDATE contexts SET segment = 'anchor'
+         WHERE context_id = (SELECT MIN(context_id) FROM contexts WHERE kind = 'query')",
+        [],
+    )
+    .unwrap();
+    drop(conn);
+    let mut h = harness_with(&path, Prefs::default());
+    settle(&mut h);
+    h.get_by_role_and_label(Role::ComboBox, "Segment").click();
+    h.step();
+    h.step();
+    assert!(
+        h.query_by_label("Segment: anchor contexts (kind)")
+            .is_some()
+    );
+    assert!(
+        h.query_by_label("Segment: label “anchor” (segment column)")
+            .is_some()
+    );
+    assert!(h.query_by_label("Segment: segment anchor").is_none());
+}

@@ -269,9 +269,14 @@ impl ScoreboardScreen {
                     "all" => "all contexts".into(),
                     "new" => "new items carry gain".into(),
                     "established" => "established items carry gain".into(),
-                    "query" => "query contexts".into(),
-                    "anchor" => "anchor contexts".into(),
-                    other => other.replace("segment:", "segment "),
+                    "query" => "query contexts (kind)".into(),
+                    "anchor" => "anchor contexts (kind)".into(),
+                    // A label from contexts.csv's segment column, never taken for a kind
+                    // even when it is spelled like one.
+                    other => match other.strip_prefix("segment:") {
+                        Some(label) => format!("label “{label}” (segment column)"),
+                        None => other.to_string(),
+                    },
                 },
             ) {
                 self.wanted.segment = Segment::parse(&s);

@@ -426,3 +426,31 @@ fn a_new_empty_study_opens_with_the_import_panel() {
             .is_none()
     );
 }
+
+/// Where no file dialog can open (no file-chooser service, as on a bare test machine), the
+/// note says so right under the button that asked, not below the whole form.
+#[test]
+fn no_file_dialog_is_said_beside_the_button() {
+    let (_dir, path) = ui_support::demo_copy();
+    let mut h = tall(&path);
+    step_until(&mut h, "the items table", |h| {
+        h.query_by_label_contains("Items (240)").is_some()
+    });
+    h.get_by_label("Import CSV files").click();
+    h.step();
+    h.step();
+    let button = h.get_by_label("Choose rankings.csv…").rect();
+    h.get_by_label("Choose rankings.csv…").click();
+    step_until(&mut h, "the no-dialog note", |h| {
+        h.query_by_label_contains("No file dialog could open")
+            .is_some()
+    });
+    let note = h.get_by_label_contains("No file dialog could open").rect();
+    assert!(
+        note.top() >= button.bottom() - 1.0 && note.top() <= button.bottom() + 12.0,
+        "the note {note:?} sits right under its button {button:?}"
+    );
+    // The next button down moved below the note.
+    let next = h.get_by_label("Choose scales.csv…").rect();
+    assert!(next.top() >= note.bottom());
+}

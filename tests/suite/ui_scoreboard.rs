@@ -400,7 +400,7 @@ fn scores_and_the_report_save_to_a_typed_path_without_a_file_dialog() {
         assert!(
             file.exists(),
             "{:?} / typed {:?}",
-            h.state().scoreboard.message,
+            h.state().scoreboard.export_note,
             h.state().scoreboard.export_path
         );
         h.state_mut().scoreboard.export_path.clear();

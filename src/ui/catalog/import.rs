@@ -84,7 +84,7 @@ impl Catalog {
                     self.files[k] = p.display().to_string();
                     self.dialog_note = None;
                 }
-                Some(Asked::Unavailable) => self.dialog_note = Some(NO_DIALOG.to_string()),
+                Some(Asked::Unavailable) => self.dialog_note = Some((k, NO_DIALOG.to_string())),
                 Some(Asked::Cancelled) | None => {}
             }
         }
@@ -108,9 +108,6 @@ impl Catalog {
         }
         panel.show(ui, |ui| {
             self.path_fields(ui, &ctx);
-            if let Some(note) = &self.dialog_note {
-                ui.colored_label(ui.visuals().warn_fg_color, note);
-            }
             let chosen: [Option<PathBuf>; 6] = std::array::from_fn(|k| {
                 let t = self.files[k].trim();
                 (!t.is_empty()).then(|| PathBuf::from(t))
@@ -186,6 +183,10 @@ impl Catalog {
                     });
                 }
             });
+            // Right under the button that asked, not below the form.
+            if let Some((_, note)) = self.dialog_note.as_ref().filter(|(row, _)| *row == k) {
+                ui.colored_label(ui.visuals().warn_fg_color, note);
+            }
         }
     }
 

@@ -149,8 +149,9 @@ pub struct Catalog {
     view: Option<ContextView>,
     files: [String; 6],
     dialogs: [Task<Asked<PathBuf>>; 6],
-    /// Said when no file dialog could open.
-    dialog_note: Option<String>,
+    /// Said when no file dialog could open, beside the row (file kind) whose button
+    /// asked for it.
+    dialog_note: Option<(usize, String)>,
     /// Set when a new, empty study arrives: the import panel opens on the next frame.
     open_import: bool,
     importing: import::ImportJob,

@@ -33,6 +33,10 @@ impl ScoreboardScreen {
             {
                 wanted = Some((true, None));
             }
+            // What the last export did (or why no dialog opened), beside its buttons.
+            if let Some(note) = &self.export_note {
+                ui.label(note);
+            }
         });
         ui.horizontal(|ui| {
             let label = ui.label("Or save to this path:");

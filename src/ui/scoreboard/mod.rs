@@ -58,6 +58,8 @@ pub struct ScoreboardScreen {
     pub gap_reviewer: Option<String>,
     gap_job: GapJob,
     pub message: Option<String>,
+    /// What the last export did, shown beside the export buttons.
+    pub export_note: Option<String>,
     export_job: Task<JobResult<String>>,
     /// Rankings files scored beside the study's lists (nothing imported).
     pub lists_files: Vec<PathBuf>,
@@ -82,6 +84,7 @@ impl Default for ScoreboardScreen {
             gap_reviewer: None,
             gap_job: Task::named("gap-queue"),
             message: None,
+            export_note: None,
             export_job: Task::named("scoreboard-export"),
             lists_files: Vec::new(),
             lists_path: String::new(),
@@ -150,7 +153,7 @@ impl ScoreboardScreen {
 
     fn collect_side_jobs(&mut self) -> Option<ScoreboardAction> {
         if let Some(result) = self.export_job.poll() {
-            self.message = Some(result.unwrap_or_else(|e| e.to_string()));
+            self.export_note = Some(result.unwrap_or_else(|e| e.to_string()));
         }
         if let Some(result) = self.gap_job.poll() {
             match result {

@@ -8,6 +8,7 @@ mod catalog_view;
 mod cli;
 mod cli_conventions;
 mod common;
+mod contrast;
 mod demo;
 mod engines;
 mod export;

@@ -23,7 +23,8 @@ impl Desk {
             if context.kind == "anchor" {
                 left.label(egui::RichText::new("Shoppers viewing this item").strong());
                 if !context.text.is_empty() {
-                    left.label(&context.text);
+                    let ink = crate::ui::palette::reading_text(left.visuals());
+                    left.label(egui::RichText::new(&context.text).color(ink));
                 }
                 match anchor {
                     Some(a) => {
@@ -46,7 +47,12 @@ impl Desk {
             } else {
                 left.label(egui::RichText::new("Shoppers searching for").strong());
                 left.add_space(6.0);
-                left.label(egui::RichText::new(format!("“{}”", context.text)).size(26.0));
+                let ink = crate::ui::palette::reading_text(left.visuals());
+                left.label(
+                    egui::RichText::new(format!("“{}”", context.text))
+                        .size(26.0)
+                        .color(ink),
+                );
                 if !context.segment.is_empty() {
                     left.weak(format!("segment: {}", context.segment));
                 }
@@ -249,7 +255,8 @@ impl Desk {
 /// Title, new badge, price, category, description and attributes of an item.
 pub(super) fn item_facts(ui: &mut egui::Ui, item: &ItemCard, role: &str) {
     ui.horizontal_wrapped(|ui| {
-        ui.label(egui::RichText::new(&item.title).heading());
+        let ink = crate::ui::palette::reading_text(ui.visuals());
+        ui.label(egui::RichText::new(&item.title).heading().color(ink));
         if item.is_new {
             new_badge(ui);
         }

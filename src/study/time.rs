@@ -130,9 +130,37 @@ pub fn normalise(text: &str) -> Option<String> {
     parse_rfc3339(text).map(format_millis)
 }
 
+/// A stored time as a reader reads it, in `zone`: "16 Nov 2026, 10:14". A text that is
+/// not RFC 3339 is shown as it is.
+pub fn readable_in(text: &str, zone: &jiff::tz::TimeZone) -> String {
+    match parse_rfc3339(text).and_then(|ms| jiff::Timestamp::from_millisecond(ms).ok()) {
+        Some(t) => t
+            .to_zoned(zone.clone())
+            .strftime("%-d %b %Y, %H:%M")
+            .to_string(),
+        None => text.to_string(),
+    }
+}
+
+/// A stored time in the machine's own time zone (UTC where none is set).
+pub fn readable_local(text: &str) -> String {
+    readable_in(text, &jiff::tz::TimeZone::system())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn stored_times_read_in_the_readers_zone() {
+        // 09:14 UTC is 10:14 one hour east and 04:14 five hours west (arithmetic).
+        let east = jiff::tz::TimeZone::fixed(jiff::tz::offset(1));
+        let west = jiff::tz::TimeZone::fixed(jiff::tz::offset(-5));
+        let t = "2026-11-16T09:14:03.000Z";
+        assert_eq!(readable_in(t, &east), "16 Nov 2026, 10:14");
+        assert_eq!(readable_in(t, &west), "16 Nov 2026, 04:14");
+        assert_eq!(readable_in("not a time", &east), "not a time");
+    }
 
     #[test]
     fn round_trips_and_offsets() {

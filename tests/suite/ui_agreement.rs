@@ -404,6 +404,21 @@ fn a_bulk_rule_settles_only_the_shown_pairs_after_asking_and_undoes_in_one_step(
     h.step();
     h.step();
     assert!(h.query_by_label("Settlement history").is_some());
+    // Its time reads in local form ("16 Nov 2026, 10:14"), not as the stored RFC 3339.
+    let stored = &in_force
+        .iter()
+        .find(|s| (&s.context_id, &s.item_id) == (&c, &i))
+        .unwrap()
+        .settled_at;
+    assert!(
+        h.query_by_label_contains(stored).is_none(),
+        "raw {stored} on screen"
+    );
+    let year = &stored[..4];
+    assert!(
+        h.query_all_by_label_contains(&format!(" {year}, ")).count() >= 1,
+        "a readable date of {year}"
+    );
     // One step takes the whole batch back; the history keeps both rows.
     h.get_by_label(&format!("Undo the last batch ({} pairs)", shown.len()))
         .click();

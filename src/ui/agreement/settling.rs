@@ -473,7 +473,7 @@ impl SettleForm {
                 s.value.map_or("—".into(), |v| level_text(model, v)),
                 s.settled_by,
                 s.method,
-                s.settled_at,
+                crate::study::time::readable_local(&s.settled_at),
                 if s.reason.is_empty() {
                     String::new()
                 } else {
@@ -491,7 +491,7 @@ impl SettleForm {
             for r in history {
                 ui.label(format!(
                     "{} · {} · {} by {}{}",
-                    r.settled_at,
+                    crate::study::time::readable_local(&r.settled_at),
                     r.value.map_or("undone".into(), |v| format!(
                         "level {}",
                         level_text(model, v)

@@ -209,9 +209,7 @@ fn show(ui: &mut egui::Ui, t: &Trial) {
         ui.label(&t.recommendation);
     });
     ui.add_space(6.0);
-    egui::ScrollArea::horizontal()
-        .id_salt("trial_table_scroll")
-        .show(ui, |ui| table(ui, &t.scales));
+    table(ui, &t.scales);
     ui.add_space(8.0);
     ui.strong("Agreement against time per grade");
     plot(ui, &t.scales);
@@ -247,56 +245,48 @@ fn show(ui: &mut egui::Ui, t: &Trial) {
     }
 }
 
+/// Column heads with their meanings (on hover).
+fn heads(ui: &mut egui::Ui, heads: &[(&str, &str)]) {
+    for (head, meaning) in heads {
+        ui.strong(*head).on_hover_text(*meaning);
+    }
+    ui.end_row();
+}
+
+/// The trial as two tables one above the other (agreement and effort; what each scale
+/// does to the rankers), so every column reads at 1100 px without scrolling sideways.
 fn table(ui: &mut egui::Ui, rows: &[TrialRow]) {
-    // The rows come finest scale first; tau-b compares every order with that one's.
-    let finest = rows.first().map_or(String::new(), row_name);
-    let tau_head = format!("Tau-b vs {finest}");
-    let tau_meaning = format!(
-        "Kendall's tau-b of this row's ranker order against the order on {finest}, the scale with the most levels (1: the same order)"
-    );
+    ui.strong("Agreement and effort");
     egui::Grid::new("trial_table")
         .striped(true)
         .spacing([10.0, 4.0])
         .show(ui, |ui| {
-            for (head, meaning) in [
-                (
-                    "Scale",
-                    "The scale, with the collapse map applied in brackets",
-                ),
-                ("Levels", "Number of levels"),
-                ("Pairs", "Common pairs this row is computed on"),
-                ("Reviewers", "Reviewers with grades on these pairs"),
-                (
-                    "Alpha ordinal [95% CI]",
-                    "Krippendorff's alpha (ordinal) with a bootstrap interval",
-                ),
-                (
-                    "Kappa quad.",
-                    "Mean quadratic weighted Cohen's kappa over reviewer pairs",
-                ),
-                ("AC1", "Mean Gwet's AC1 over reviewer pairs"),
-                (
-                    "Median s (IQR)",
-                    "Median and interquartile range of seconds per grade",
-                ),
-                ("Can't judge", "Share of grades marked can't judge"),
-                (
-                    "Rankers by NDCG@10",
-                    "Ranker order by mean NDCG@10 on these pairs",
-                ),
-                (tau_head.as_str(), tau_meaning.as_str()),
-                (
-                    "Discriminative power",
-                    "Share of ranker pairs separated at Holm-adjusted p < 0.05 (Sakai 2006, SIGIR)",
-                ),
-                (
-                    "Alpha per reviewer-minute",
-                    "Ordinal Krippendorff's alpha divided by the median reviewer-minutes one pair costs (Krippendorff 2004 for alpha; the ratio is common practice)",
-                ),
-            ] {
-                ui.strong(head).on_hover_text(meaning);
-            }
-            ui.end_row();
+            heads(
+                ui,
+                &[
+                    (
+                        "Scale",
+                        "The scale, with the collapse map applied in brackets",
+                    ),
+                    ("Levels", "Number of levels"),
+                    ("Pairs", "Common pairs this row is computed on"),
+                    ("Reviewers", "Reviewers with grades on these pairs"),
+                    (
+                        "Alpha ordinal [95% CI]",
+                        "Krippendorff's alpha (ordinal) with a bootstrap interval",
+                    ),
+                    (
+                        "Kappa quad.",
+                        "Mean quadratic weighted Cohen's kappa over reviewer pairs",
+                    ),
+                    ("AC1", "Mean Gwet's AC1 over reviewer pairs"),
+                    (
+                        "Median s (IQR)",
+                        "Median and interquartile range of seconds per grade",
+                    ),
+                    ("Can't judge", "Share of grades marked can't judge"),
+                ],
+            );
             for r in rows {
                 ui.label(row_name(r));
                 ui.label(r.levels.to_string());
@@ -319,6 +309,48 @@ fn table(ui: &mut egui::Ui, rows: &[TrialRow]) {
                     fixed(r.iqr_seconds, 1)
                 ));
                 ui.label(percent(r.cant_judge_rate));
+                ui.end_row();
+            }
+        });
+    ui.add_space(6.0);
+    rankers_table(ui, rows);
+}
+
+/// What each scale does to the rankers: their order, its agreement with the finest
+/// scale's, how many ranker pairs it separates, alpha per reviewer-minute.
+fn rankers_table(ui: &mut egui::Ui, rows: &[TrialRow]) {
+    // The rows come finest scale first; tau-b compares every order with that one's.
+    let finest = rows.first().map_or(String::new(), row_name);
+    let tau_head = format!("Tau-b vs {finest}");
+    let tau_meaning = format!(
+        "Kendall's tau-b of this row's ranker order against the order on {finest}, the scale with the most levels (1: the same order)"
+    );
+    ui.strong("What each scale does to the rankers");
+    egui::Grid::new("trial_rankers")
+        .striped(true)
+        .spacing([10.0, 4.0])
+        .show(ui, |ui| {
+            heads(
+                ui,
+                &[
+                    ("Scale", "The scale, with the collapse map applied in brackets"),
+                    (
+                        "Rankers by NDCG@10",
+                        "Ranker order by mean NDCG@10 on these pairs",
+                    ),
+                    (tau_head.as_str(), tau_meaning.as_str()),
+                    (
+                        "Discriminative power",
+                        "Share of ranker pairs separated at Holm-adjusted p < 0.05 (Sakai 2006, SIGIR)",
+                    ),
+                    (
+                        "Alpha per reviewer-minute",
+                        "Ordinal Krippendorff's alpha divided by the median reviewer-minutes one pair costs (Krippendorff 2004 for alpha; the ratio is common practice)",
+                    ),
+                ],
+            );
+            for r in rows {
+                ui.label(row_name(r));
                 ui.label(r.ranker_order.join(" > "));
                 ui.label(fixed(r.kendall_tau, 3));
                 ui.label(percent(r.discriminative_power));

@@ -38,6 +38,7 @@ mod ui_desk;
 mod ui_desk_saving;
 mod ui_home;
 mod ui_merge;
+mod ui_narrow;
 mod ui_no_nan;
 mod ui_pair_detail;
 mod ui_pilot;

@@ -245,7 +245,7 @@ impl Catalog {
         if !lead_view && self.table == Table::Lists {
             self.table = Table::Items;
         }
-        self.tabs(ui, lead_view, signed_in.is_some());
+        self.tabs(ui, lead_view);
         let Some(Ok(model)) = &self.model else { return };
         match self.table {
             Table::Items => {
@@ -277,10 +277,9 @@ impl Catalog {
     }
 
     /// The table tabs, the search field and its match count.
-    fn tabs(&mut self, ui: &mut egui::Ui, lead_view: bool, reviewer_signed_in: bool) {
+    fn tabs(&mut self, ui: &mut egui::Ui, lead_view: bool) {
         let Some(Ok(model)) = &self.model else { return };
         let counts = (model.items.len(), model.contexts.len(), model.rankers.len());
-        let copy = model.copy_for.is_some();
         ui.horizontal(|ui| {
             ui.selectable_value(
                 &mut self.table,
@@ -303,10 +302,6 @@ impl Catalog {
                         "One context's ranked lists, ranker by ranker, with the panel grade \
                          and each reviewer's grade of every listed item",
                     );
-            } else if reviewer_signed_in && !copy {
-                ui.weak(
-                    "Context lists with grades: lead only, hidden while a reviewer is signed in",
-                );
             }
             if matches!(self.table, Table::Items | Table::Contexts) {
                 ui.separator();
@@ -317,7 +312,8 @@ impl Catalog {
                             Table::Contexts => "id, kind, text, segment, anchor item…",
                             _ => "id, title, category, description, attributes…",
                         })
-                        .desired_width(320.0),
+                        // Room left for the match count at 1100 px.
+                        .desired_width((ui.available_width() - 200.0).clamp(140.0, 320.0)),
                 )
                 .labelled_by(label.id);
             }

@@ -34,7 +34,7 @@ impl GoldForm {
         }
         egui::Grid::new("gold_pairs").striped(true).show(ui, |ui| {
             if !pairs.is_empty() {
-                for title in ["Context", "Item", "Known level", "Rationale", ""] {
+                for title in ["Context", "Item", "Known level", "", "Rationale"] {
                     ui.strong(title);
                 }
                 ui.end_row();
@@ -47,7 +47,6 @@ impl GoldForm {
                         .get(*value as usize)
                         .map_or(value.to_string(), |l| format!("{value} {}", l.label)),
                 );
-                ui.label(rationale);
                 ui.horizontal(|ui| {
                     if ui.button(format!("Edit {context} {item}")).clicked() {
                         *self = GoldForm {
@@ -72,6 +71,10 @@ impl GoldForm {
                         });
                     }
                 });
+                // Last and cut to the room left, so the buttons before it always show;
+                // the whole rationale on hover and in the form.
+                ui.add(egui::Label::new(rationale.as_str()).truncate())
+                    .on_hover_text(rationale.as_str());
                 ui.end_row();
             }
         });

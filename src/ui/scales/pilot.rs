@@ -69,13 +69,20 @@ impl PilotForm {
             let label = ui.label("Pairs per reviewer and scale");
             ui.add(egui::TextEdit::singleline(text).desired_width(56.0))
                 .labelled_by(label.id);
-            let gold = model.pool_size.saturating_sub(room);
-            ui.weak(format!(
-                "of {room} pool pairs that are not gold pairs (the pool has {}; its {gold} gold \
-                 pairs stay out of a pilot)",
-                model.pool_size
-            ));
         });
+        // On its own line, so it wraps in the column instead of widening it.
+        let gold = model.pool_size.saturating_sub(room);
+        ui.add(
+            egui::Label::new(
+                egui::RichText::new(format!(
+                    "of {room} pool pairs that are not gold pairs (the pool has {}; its {gold} \
+                     gold pairs stay out of a pilot)",
+                    model.pool_size
+                ))
+                .weak(),
+            )
+            .wrap(),
+        );
         let pairs = match text.trim().parse::<usize>() {
             Err(_) => Err("Type the number of pairs as a whole number.".to_string()),
             Ok(0) => Err("A pilot needs at least one pair.".to_string()),

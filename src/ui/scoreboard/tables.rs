@@ -93,7 +93,10 @@ pub fn comparisons(ui: &mut egui::Ui, board: &Scoreboard) {
         ui.weak("One ranker only: nothing to compare.");
         return;
     }
-    ui.horizontal_top(|ui| {
+    // Beside the table where the window has room for both (the table is about 860 px
+    // wide, the cautions at least 240), else under it: never squeezed to "Before ac…".
+    let beside = ui.available_width() >= 1140.0;
+    let table = |ui: &mut egui::Ui| {
         egui::Grid::new("sb_comparisons")
             .striped(true)
             .spacing([12.0, 4.0])
@@ -120,8 +123,17 @@ pub fn comparisons(ui: &mut egui::Ui, board: &Scoreboard) {
                     ui.end_row();
                 }
             });
+    };
+    if beside {
+        ui.horizontal_top(|ui| {
+            table(ui);
+            caution_box(ui, board);
+        });
+    } else {
+        table(ui);
+        ui.add_space(6.0);
         caution_box(ui, board);
-    });
+    }
 }
 
 /// The cautions that stand beside every comparison: the general ones in full, then one

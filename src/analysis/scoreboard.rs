@@ -443,6 +443,7 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
             let name = &snapshot.rankers[r];
             let wins = d.iter().filter(|x| **x > 1e-9).count();
             let losses = d.iter().filter(|x| **x < -1e-9).count();
+            let all_finite = d.iter().all(|x| x.is_finite());
             Comparison {
                 ranker: name.clone(),
                 baseline: baseline_name.unwrap_or_default().to_string(),
@@ -452,8 +453,8 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
                 ci_low: ci.low,
                 ci_high: ci.high,
                 // No paired context, no test: a p-value without data would read as "no
-                // difference found".
-                p_randomization: if d.is_empty() {
+                // difference found"; nor on a difference that is not a finite number.
+                p_randomization: if d.is_empty() || !all_finite {
                     f64::NAN
                 } else {
                     stats::randomization_test(
@@ -462,7 +463,11 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
                         seed_for(settings.seed, &["randomization", name, &keys[m]]),
                     )
                 },
-                p_t: stats::paired_t_test(d).p,
+                p_t: if all_finite {
+                    stats::paired_t_test(d).p
+                } else {
+                    f64::NAN
+                },
                 p_holm: f64::NAN,
                 wins,
                 ties: d.len() - wins - losses,

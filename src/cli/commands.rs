@@ -5,8 +5,9 @@ use std::path::{Path, PathBuf};
 
 use super::{Command, Failure, Format};
 use crate::analysis::{agreement, render, scoreboard, trial};
-use crate::study::Study;
+use crate::core::text::printable;
 use crate::study::import::{self, ImportSet, Source};
+use crate::study::{Study, file_guard};
 
 pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
     match command {
@@ -62,7 +63,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             let board = scoreboard::build(&snapshot, &settings)
                 .map_err(|e| Failure::input(e.to_string()))?;
             print(match format {
-                Format::Text => render::scoreboard_text(&board),
+                Format::Text => printable(&render::scoreboard_text(&board)).into_owned(),
                 Format::Csv => render::scoreboard_csv(&board),
                 Format::Json => render::scoreboard_json(&board),
             })
@@ -109,7 +110,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
         Some(Command::Status { study, format }) => {
             let model = crate::analysis::home::of_study(&open(&study)?)?;
             print(match format {
-                Format::Text => crate::analysis::home::text(&model),
+                Format::Text => printable(&crate::analysis::home::text(&model)).into_owned(),
                 Format::Json => {
                     let mut json = serde_json::to_string_pretty(&model)
                         .map_err(|e| Failure::other(e.to_string()))?;
@@ -122,7 +123,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                     csv.write_record(["ranker", "graded", "pairs"])
                         .map_err(io)?;
                     for c in &model.coverage {
-                        let ranker = crate::study::export::neutralise(&c.ranker);
+                        let ranker = crate::study::export::neutralise_cell(&c.ranker);
                         csv.write_record([&*ranker, &c.graded.to_string(), &c.pairs.to_string()])
                             .map_err(io)?;
                     }
@@ -149,7 +150,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             };
             let report = agreement::with_defaults(&snapshot, scale_index, None);
             print(match format {
-                Format::Text => render::agreement_text(&report),
+                Format::Text => printable(&render::agreement_text(&report)).into_owned(),
                 Format::Csv => render::agreement_csv(&report),
                 Format::Json => render::agreement_json(&report),
             })
@@ -157,7 +158,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
         Some(Command::Trial { study, format }) => {
             let trial = trial::of_study(&open(&study)?)?;
             print(match format {
-                Format::Text => render::trial_text(&trial),
+                Format::Text => printable(&render::trial_text(&trial)).into_owned(),
                 Format::Csv => render::trial_csv(&trial),
                 Format::Json => render::trial_json(&trial),
             })
@@ -188,9 +189,11 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                 ));
             }
             if let Some(path) = grades {
-                let mut file = std::fs::File::create(&path)
-                    .map_err(|e| Failure::other(format!("{}: {e}", path.display())))?;
-                let rows = study_file.export_grades(&mut file)?;
+                let mut rows = 0;
+                file_guard::write_atomically(&path, |out| {
+                    rows = study_file.export_grades(out)?;
+                    Ok(())
+                })?;
                 eprintln!("{}: {rows} grades written", path.display());
             }
             if scores.is_some() || report.is_some() {
@@ -199,8 +202,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                 let board = scoreboard::build(&snapshot, &settings)
                     .map_err(|e| Failure::input(e.to_string()))?;
                 let write = |path: &Path, text: String, what: &str| {
-                    std::fs::write(path, text)
-                        .map_err(|e| Failure::other(format!("{}: {e}", path.display())))?;
+                    file_guard::write_atomically(path, |out| Ok(out.write_all(text.as_bytes())?))?;
                     eprintln!("{}: {what} written", path.display());
                     Ok::<(), Failure>(())
                 };
@@ -217,9 +219,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                     let files =
                         crate::analysis::report::files(&path, &board, &curves, agreement.as_ref())
                             .map_err(|e| Failure::other(e.to_string()))?;
-                    let written = files
-                        .write(&path)
-                        .map_err(|e| Failure::other(format!("{}: {e}", path.display())))?;
+                    let written = files.write(&path)?;
                     for file in written {
                         eprintln!("{}: written", file.display());
                     }

@@ -309,7 +309,7 @@ pub fn run() -> ExitCode {
     match commands::dispatch(cli.command) {
         Ok(()) => ExitCode::SUCCESS,
         Err(f) => {
-            eprintln!("plumbline: {}", f.message);
+            eprintln!("plumbline: {}", crate::core::text::printable(&f.message));
             ExitCode::from(f.code)
         }
     }

@@ -12,3 +12,4 @@ pub mod pooling;
 pub mod scale;
 pub mod settle_rules;
 pub mod stats;
+pub mod text;

@@ -7,7 +7,7 @@ use std::collections::HashSet;
 use rusqlite::params;
 
 use super::queues::PairId;
-use super::{Result, Study, StudyError};
+use super::{Result, Study};
 
 impl Study {
     /// Makes `pairs` (in their order) the first pairs of `reviewer`'s queue on `scale`,
@@ -21,7 +21,7 @@ impl Study {
         pairs: &[PairId],
     ) -> Result<usize> {
         if self.is_read_only() {
-            return Err(StudyError::ReadOnly);
+            return Err(self.read_only_error());
         }
         self.add_reviewer(reviewer)?;
         let before = self.ensure_queue(reviewer, scale)?;

@@ -121,7 +121,7 @@ impl Study {
         if self.is_read_only() {
             let queue = self.queue(reviewer, scale)?;
             if queue.is_empty() {
-                return Err(StudyError::ReadOnly);
+                return Err(self.read_only_error());
             }
             return Ok(queue);
         }

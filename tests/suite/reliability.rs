@@ -167,7 +167,7 @@ fn a_read_only_study_opens_read_only() {
     assert!(study.is_read_only());
     assert_eq!(study.snapshot().unwrap().rankers.len(), 2);
     let err = study.record_grade(&a_grade()).unwrap_err();
-    assert!(matches!(err, StudyError::ReadOnly), "{err}");
+    assert!(matches!(err, StudyError::ReadOnly(_)), "{err}");
 }
 
 #[test]

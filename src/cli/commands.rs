@@ -412,6 +412,8 @@ struct ProgressLine {
     started: std::time::Instant,
     terminal: bool,
     shown: bool,
+    /// The file being written, when its first rows were reported, and how many.
+    writing: Option<(String, std::time::Instant, u64)>,
 }
 
 impl ProgressLine {
@@ -421,6 +423,24 @@ impl ProgressLine {
             started: std::time::Instant::now(),
             terminal: std::io::stderr().is_terminal(),
             shown: false,
+            writing: None,
+        }
+    }
+
+    /// Rows per second of the file being written and the seconds left at that rate.
+    fn rate(&mut self, step: &import::ImportStep) -> Option<(f64, f64)> {
+        let now = std::time::Instant::now();
+        match &self.writing {
+            Some((file, since, first)) if *file == step.file => {
+                let seconds = now.duration_since(*since).as_secs_f64();
+                let rate = (step.rows_done - first) as f64 / seconds;
+                (seconds > 0.2 && rate > 0.0)
+                    .then(|| (rate, (step.rows_total - step.rows_done) as f64 / rate))
+            }
+            _ => {
+                self.writing = Some((step.file.clone(), now, step.rows_done));
+                None
+            }
         }
     }
 
@@ -432,11 +452,16 @@ impl ProgressLine {
         let rows = match (step.rows_total, step.rows_done) {
             (0, _) => "reading".to_string(),
             (total, 0) => format!("checked {total} rows, writing"),
-            (total, done) => format!("{done} of {total} rows written"),
+            (total, done) => match self.rate(step) {
+                Some((rate, left)) => format!(
+                    "{done} of {total} rows written, {rate:.0} rows/s, about {left:.0} s left"
+                ),
+                None => format!("{done} of {total} rows written"),
+            },
         };
         eprint!(
             "\r\x1b[2Kimporting {} (file {} of {}): {rows} · {elapsed:.0} s",
-            step.file,
+            printable(&step.file),
             step.files_done + 1,
             step.files_total
         );

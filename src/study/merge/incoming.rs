@@ -327,8 +327,33 @@ fn grade_row(row: &[Value], here: &Definitions, problems: &mut Problems) -> Opti
     if !row_problems(&at, &uid, &text, problems) {
         return None;
     }
-    let levels = here.levels.get(&scale).map_or(0, Vec::len) as i64;
-    let value = match (&row[6], action.as_str()) {
+    let (value, seconds) = grade_numbers(row, &action, &scale, here, &at, problems)?;
+    Some(GradeRow {
+        uid,
+        reviewer,
+        context,
+        item,
+        scale,
+        action,
+        value,
+        reason,
+        seconds,
+        graded_at,
+        note,
+    })
+}
+
+/// A grade event's level and seconds, checked against the scale here.
+fn grade_numbers(
+    row: &[Value],
+    action: &str,
+    scale: &str,
+    here: &Definitions,
+    at: &str,
+    problems: &mut Problems,
+) -> Option<(Option<i64>, Option<f64>)> {
+    let levels = here.levels.get(scale).map_or(0, Vec::len) as i64;
+    let value = match (&row[6], action) {
         (Value::Null, "cant_judge" | "undo") => None,
         (Value::Integer(v), "grade") if (0..levels.max(1)).contains(v) => Some(*v),
         (Value::Integer(v), "grade") if levels > 0 => {
@@ -357,19 +382,7 @@ fn grade_row(row: &[Value], here: &Definitions, problems: &mut Problems) -> Opti
             }
         },
     };
-    Some(GradeRow {
-        uid,
-        reviewer,
-        context,
-        item,
-        scale,
-        action,
-        value,
-        reason,
-        seconds,
-        graded_at,
-        note,
-    })
+    Some((value, seconds))
 }
 
 /// Reads one settled grade of a copy, or says what is wrong with it.

@@ -200,104 +200,111 @@ impl Study {
         if let Some(r) = &handed_out_to {
             allowed.insert(r);
         }
-        let mut waiting: BTreeMap<&str, (u64, u64)> = BTreeMap::new();
-        for (name, n) in &summary.grades_by {
-            if !allowed.contains(name.as_str()) {
-                waiting.entry(name).or_default().0 += n;
-            }
-        }
         // Settling is the lead's work: a settled grade comes in only when its settler is
         // accepted by name, even if it is the reviewer the copy went to.
-        let accepted: HashSet<&str> = options.accept.iter().map(String::as_str).collect();
-        for (name, n) in &summary.settled_by {
-            if !accepted.contains(name.as_str()) {
-                waiting.entry(name).or_default().1 += n;
-            }
-        }
-        let needs_acceptance: Vec<NameCount> = waiting
-            .into_iter()
-            .map(|(name, (grades, settled))| NameCount {
-                name: name.to_string(),
-                grades,
-                settled,
-            })
-            .collect();
-        let file = other.display().to_string();
-        if commit && !needs_acceptance.is_empty() {
-            return Ok(MergeReport {
-                file,
-                grades_added: 0,
-                settled_added: 0,
-                reviewers_added: 0,
-                handed_out_to,
-                needs_acceptance,
-            });
+        let settlers: HashSet<&str> = options.accept.iter().map(String::as_str).collect();
+        let mut report = MergeReport {
+            file: other.display().to_string(),
+            grades_added: 0,
+            settled_added: 0,
+            reviewers_added: 0,
+            needs_acceptance: needs_acceptance(&summary, &allowed, &settlers),
+            handed_out_to: handed_out_to.clone(),
+        };
+        if commit && !report.needs_acceptance.is_empty() {
+            return Ok(report);
         }
         copy.allow_time_for(summary.events);
         let tx = self.begin_write()?;
-        let mut reviewers_added = 0;
-        let mut grades_added = 0;
-        let mut settled_added = 0;
-        {
-            let mut add_reviewer =
-                tx.prepare("INSERT OR IGNORE INTO reviewers(reviewer) VALUES (?1)")?;
-            let mut add_grade = tx.prepare(
-                "INSERT OR IGNORE INTO grade_events(uid, reviewer, context_id, item_id, scale, action, value, reason, seconds, graded_at, note)
-                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11)",
-            )?;
-            let mut add_settlement = tx.prepare(
-                "INSERT OR IGNORE INTO settle_events(uid, context_id, item_id, scale, value, method, settled_by, settled_at, reason)
-                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)",
-            )?;
-            each_grade(&copy, &here, |g| {
-                if allowed.contains(g.reviewer.as_str()) {
-                    reviewers_added += add_reviewer.execute([&g.reviewer])? as u64;
-                    grades_added += add_grade.execute(params![
-                        g.uid,
-                        g.reviewer,
-                        g.context,
-                        g.item,
-                        g.scale,
-                        g.action,
-                        g.value,
-                        g.reason,
-                        g.seconds,
-                        g.graded_at,
-                        g.note
-                    ])? as u64;
-                }
-                Ok(())
-            })?;
-            each_settlement(&copy, &here, |s| {
-                if accepted.contains(s.settled_by.as_str()) {
-                    settled_added += add_settlement.execute(params![
-                        s.uid,
-                        s.context,
-                        s.item,
-                        s.scale,
-                        s.value,
-                        s.method,
-                        s.settled_by,
-                        s.settled_at,
-                        s.reason
-                    ])? as u64;
-                }
-                Ok(())
-            })?;
-        }
+        write_events(&tx, &copy, &here, (&allowed, &settlers), &mut report)?;
         drop(copy);
         if commit {
             tx.commit()?;
         } else {
             tx.rollback()?;
         }
-        Ok(MergeReport {
-            file,
-            grades_added,
-            settled_added,
-            reviewers_added,
-            handed_out_to,
-            needs_acceptance,
-        })
+        Ok(report)
     }
+}
+
+/// The names whose events need the lead's yes, with how many of each kind.
+fn needs_acceptance(
+    summary: &CopySummary,
+    allowed: &HashSet<&str>,
+    settlers: &HashSet<&str>,
+) -> Vec<NameCount> {
+    let mut waiting: BTreeMap<&str, (u64, u64)> = BTreeMap::new();
+    for (name, n) in &summary.grades_by {
+        if !allowed.contains(name.as_str()) {
+            waiting.entry(name).or_default().0 += n;
+        }
+    }
+    for (name, n) in &summary.settled_by {
+        if !settlers.contains(name.as_str()) {
+            waiting.entry(name).or_default().1 += n;
+        }
+    }
+    waiting
+        .into_iter()
+        .map(|(name, (grades, settled))| NameCount {
+            name: name.to_string(),
+            grades,
+            settled,
+        })
+        .collect()
+}
+
+/// Streams the copy's events of allowed reviewers and accepted settlers into the
+/// study's transaction, counting what was new in `report`.
+fn write_events(
+    tx: &rusqlite::Transaction,
+    copy: &untrusted::CheckedCopy,
+    here: &incoming::Definitions,
+    (allowed, settlers): (&HashSet<&str>, &HashSet<&str>),
+    report: &mut MergeReport,
+) -> Result<()> {
+    let mut add_reviewer = tx.prepare("INSERT OR IGNORE INTO reviewers(reviewer) VALUES (?1)")?;
+    let mut add_grade = tx.prepare(
+        "INSERT OR IGNORE INTO grade_events(uid, reviewer, context_id, item_id, scale, action, value, reason, seconds, graded_at, note)
+         VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11)",
+    )?;
+    let mut add_settlement = tx.prepare(
+        "INSERT OR IGNORE INTO settle_events(uid, context_id, item_id, scale, value, method, settled_by, settled_at, reason)
+         VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)",
+    )?;
+    each_grade(copy, here, |g| {
+        if allowed.contains(g.reviewer.as_str()) {
+            report.reviewers_added += add_reviewer.execute([&g.reviewer])? as u64;
+            report.grades_added += add_grade.execute(params![
+                g.uid,
+                g.reviewer,
+                g.context,
+                g.item,
+                g.scale,
+                g.action,
+                g.value,
+                g.reason,
+                g.seconds,
+                g.graded_at,
+                g.note
+            ])? as u64;
+        }
+        Ok(())
+    })?;
+    each_settlement(copy, here, |s| {
+        if settlers.contains(s.settled_by.as_str()) {
+            report.settled_added += add_settlement.execute(params![
+                s.uid,
+                s.context,
+                s.item,
+                s.scale,
+                s.value,
+                s.method,
+                s.settled_by,
+                s.settled_at,
+                s.reason
+            ])? as u64;
+        }
+        Ok(())
+    })
 }

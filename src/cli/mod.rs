@@ -32,10 +32,10 @@ pub struct ScoreOptions {
     /// Cut-offs, comma separated.
     #[arg(long, value_delimiter = ',', default_values_t = crate::analysis::defaults::CUTOFFS)]
     pub k: Vec<usize>,
-    #[arg(long, default_value = "exponential", value_parser = ["exponential", "linear"])]
-    pub gain: String,
-    #[arg(long, default_value = "zero", value_parser = ["zero", "condense"])]
-    pub unjudged: String,
+    #[arg(long, value_enum, default_value_t = GainChoice::Exponential)]
+    pub gain: GainChoice,
+    #[arg(long, value_enum, default_value_t = UnjudgedChoice::Zero)]
+    pub unjudged: UnjudgedChoice,
     #[arg(long)]
     pub baseline: Option<String>,
     /// all, new, established, query, anchor, or a context segment label
@@ -43,8 +43,8 @@ pub struct ScoreOptions {
     #[arg(long, default_value = "all")]
     pub segment: String,
     /// How an unsettled pair's panel levels become one level.
-    #[arg(long = "panel-grade", default_value = "lower-median", value_parser = ["lower-median", "upper-median", "mean-rounded"])]
-    pub panel_grade: String,
+    #[arg(long = "panel-grade", value_enum, default_value_t = PanelGradeChoice::LowerMedian)]
+    pub panel_grade: PanelGradeChoice,
     #[arg(long, default_value_t = crate::analysis::defaults::SCORE_BOOTSTRAP)]
     pub bootstrap: usize,
     #[arg(long, default_value_t = crate::analysis::defaults::SCORE_RANDOMIZATION)]
@@ -59,19 +59,58 @@ impl ScoreOptions {
         crate::analysis::scoreboard::ScoreSettings {
             scale: self.scale.clone(),
             ks: self.k.clone(),
-            gain: GainKind::parse(&self.gain).unwrap_or(GainKind::Exponential),
+            gain: match self.gain {
+                GainChoice::Exponential => GainKind::Exponential,
+                GainChoice::Linear => GainKind::Linear,
+            },
             grades: GradeSource::parse(grades),
-            unjudged: Unjudged::parse(&self.unjudged).unwrap_or(Unjudged::Zero),
+            unjudged: match self.unjudged {
+                UnjudgedChoice::Zero => Unjudged::Zero,
+                UnjudgedChoice::Condense => Unjudged::Condense,
+            },
             // None: the study's stored baseline, else the first ranker (one rule,
             // `scoreboard::resolve_baseline`).
             baseline: self.baseline.clone(),
             segment: crate::analysis::scoreboard::Segment::parse(&self.segment),
-            panel_grade: PanelRule::parse(&self.panel_grade).unwrap_or_default(),
+            panel_grade: match self.panel_grade {
+                PanelGradeChoice::LowerMedian => PanelRule::LowerMedian,
+                PanelGradeChoice::UpperMedian => PanelRule::UpperMedian,
+                PanelGradeChoice::MeanRounded => PanelRule::MeanRounded,
+            },
             bootstrap_resamples: self.bootstrap,
             randomization_resamples: self.randomization,
             ..Default::default()
         }
     }
+}
+
+/// `--gain`: how a level becomes a gain (a scale's own gains win over it).
+#[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
+pub enum GainChoice {
+    /// 2^v − 1 (Burges et al. 2005).
+    Exponential,
+    /// v itself (Järvelin & Kekäläinen 2002).
+    Linear,
+}
+
+/// `--unjudged`: what an unjudged item in a ranked list counts as.
+#[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
+pub enum UnjudgedChoice {
+    /// Gain 0.
+    Zero,
+    /// Removed before cutting at k (Sakai 2007).
+    Condense,
+}
+
+/// `--panel-grade`: how an unsettled pair's panel levels become one level.
+#[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
+pub enum PanelGradeChoice {
+    /// The lower of the two middle levels on a tie ([1, 3] → 1).
+    LowerMedian,
+    /// The upper of the two middle levels on a tie ([1, 3] → 3).
+    UpperMedian,
+    /// The mean rounded to the nearest level, halves up ([1, 2] → 2).
+    MeanRounded,
 }
 
 /// The command line's default for `--wait`: long, because giving up loses the work.

@@ -20,6 +20,7 @@ mod merge;
 mod migration;
 mod panel_review;
 mod pilot;
+mod ppi_estimates;
 mod properties;
 mod published_examples;
 mod rankings_file;

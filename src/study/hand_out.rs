@@ -101,7 +101,7 @@ fn new_copy_secret() -> String {
 /// Leaves in the copy at `path` only what its reviewer may hold: their own grades and
 /// queue, no settled grades, no other hand-out's secret, no gold pair's known level or
 /// rationale (their queue still holds the gold pairs as pairs; accuracy against gold is
-/// computed at home after merge), and this hand-out's own secret.
+/// computed at home after merge), no human-sample draws, and this hand-out's own secret.
 fn keep_only_own(path: &Path, reviewer: &str, secret: &str, pictures: &str) -> Result<()> {
     let mut copy = Study::open(path)?;
     let tx = copy.begin_write()?;
@@ -115,6 +115,9 @@ fn keep_only_own(path: &Path, reviewer: &str, secret: &str, pictures: &str) -> R
     }
     tx.execute("DELETE FROM settle_events", [])?;
     tx.execute("DELETE FROM gold_pairs", [])?;
+    // Which contexts are in the human sample is the lead's to know: a reviewer who knew
+    // might grade them differently.
+    tx.execute("DELETE FROM sample_draws", [])?;
     tx.execute(
         "DELETE FROM settings WHERE substr(key, 1, length(?1)) = ?1",
         params![keys::HAND_OUT_PREFIX],

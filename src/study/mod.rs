@@ -16,6 +16,7 @@ pub mod pilot;
 mod problems;
 pub mod queues;
 pub mod row_rules;
+pub mod sample;
 pub mod scales;
 pub mod schema;
 pub mod settings;

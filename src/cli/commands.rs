@@ -54,6 +54,40 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             grades,
             rankings,
             format,
+            machine: Some(machine),
+            target_width,
+        }) => super::sample::score_with_machine(
+            &open(&study)?,
+            &options.settings(&grades),
+            &rankings,
+            format,
+            crate::analysis::estimates::EstimateRequest {
+                machine,
+                target_width,
+            },
+        ),
+        Some(Command::Sample {
+            study,
+            contexts,
+            seed,
+            reviewer,
+            scale,
+        }) => super::sample::sample(
+            &mut open(&study)?,
+            crate::study::sample::DrawRequest {
+                contexts,
+                seed,
+                reviewers: reviewer,
+                scale,
+            },
+        ),
+        Some(Command::Score {
+            study,
+            options,
+            grades,
+            rankings,
+            format,
+            ..
         }) => {
             let mut snapshot = open(&study)?.snapshot()?;
             for file in &rankings {
@@ -280,7 +314,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
     }
 }
 
-fn print(text: String) -> Result<(), Failure> {
+pub(super) fn print(text: String) -> Result<(), Failure> {
     let mut out = std::io::stdout().lock();
     // A closed pipe (e.g. `| head`) is not a failure of ours.
     let _ = out.write_all(text.as_bytes());
@@ -302,7 +336,7 @@ pub fn write_wait() -> std::time::Duration {
         .unwrap_or(std::time::Duration::from_secs(super::DEFAULT_WAIT_SECONDS))
 }
 
-fn open(path: &Path) -> Result<Study, Failure> {
+pub(super) fn open(path: &Path) -> Result<Study, Failure> {
     if !path.exists() {
         return Err(Failure::input(format!("{}: no such study", path.display())));
     }

@@ -2,6 +2,7 @@
 //! the terminal and the screens agree.
 
 mod commands;
+mod sample;
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -206,6 +207,32 @@ pub enum Command {
         rankings: Vec<PathBuf>,
         #[arg(long, value_enum, default_value = "text")]
         format: Format,
+        /// Also estimate every metric for the whole study from this machine judge's
+        /// grades corrected by the human sample (prediction-powered inference).
+        #[arg(long, value_name = "NAME")]
+        machine: Option<String>,
+        /// With --machine: how many more sample contexts would bring each interval's
+        /// half-width to W.
+        #[arg(long = "target-width", value_name = "W", requires = "machine")]
+        target_width: Option<f64>,
+    },
+    /// Draw more contexts uniformly at random into the human sample, record the draw, and
+    /// put their pool pairs that no person has graded at the front of people's queues.
+    Sample {
+        study: PathBuf,
+        /// How many more contexts to draw (what is left when fewer are).
+        #[arg(long)]
+        contexts: usize,
+        /// The random seed (recorded with the draw); taken from the clock when absent.
+        #[arg(long)]
+        seed: Option<u64>,
+        /// A person whose queue gets the pairs first; repeat for several. Without it the
+        /// pairs go first in the queues the study assigned them to.
+        #[arg(long = "reviewer", value_name = "NAME")]
+        reviewer: Vec<String>,
+        /// The scale the queues are on (default: the study's active scale).
+        #[arg(long)]
+        scale: Option<String>,
     },
     /// What the study holds, how far the pool is graded and what to do next (Home's figures).
     Status {

@@ -14,6 +14,7 @@ mod export;
 mod fuzz_import;
 mod gaps;
 mod golden;
+mod human_sample;
 mod import;
 mod import_limits;
 mod merge;

@@ -10,11 +10,12 @@ use super::scoreboard_view::{difference_text, with_interval};
 
 fn needed_text(f: &EstimateFigures) -> String {
     match (f.humans_needed, &f.humans_needed_reason) {
+        (Some(0), _) => "0 (met)".into(),
         (Some(m), _) => match f.humans_needed_reviewer_hours {
             Some(h) => format!("{m} (about {} reviewer-hours)", fixed(h, 1)),
             None => m.to_string(),
         },
-        (None, Some(why)) => format!("none reaches it: {why}"),
+        (None, Some(why)) => format!("none: {why}"),
         (None, None) => "–".into(),
     }
 }

@@ -208,7 +208,7 @@ pub fn humans_needed(est: &PpiEstimate, width: f64) -> HumansNeeded {
         "every context is already in the human sample".into()
     } else {
         format!(
-            "even with {} more sample contexts (all but one of the rest) the half-width stays above {width}",
+            "even {} more (all but one of the rest) leave it wider than ±{width}",
             big_n - 1
         )
     })

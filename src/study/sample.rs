@@ -178,6 +178,12 @@ impl Study {
             .map(|i| left[i].clone())
             .collect();
         let pairs = self.pairs_to_queue(&drawn, &scale)?;
+        // Queues are made or touched only when there is something to grade.
+        let reviewers = if pairs.is_empty() {
+            Vec::new()
+        } else {
+            reviewers
+        };
         let mut before: Vec<Vec<PairId>> = Vec::with_capacity(reviewers.len());
         for r in &reviewers {
             self.add_reviewer(r)?;

@@ -19,6 +19,7 @@ pub mod per_context;
 pub mod pool_bias;
 pub mod render;
 pub mod report;
+pub mod report_estimates;
 pub mod report_pictures;
 pub mod reviewer_quality;
 pub mod scoreboard;

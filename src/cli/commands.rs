@@ -203,6 +203,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             scores,
             report,
             options,
+            machine,
         }) => {
             let study_file = open(&study)?;
             // `--grades` names the grades file, or (as for `score`) whose grades count.
@@ -250,9 +251,22 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                     let curves =
                         crate::analysis::scoreboard_view::curves(&snapshot, &board.settings)
                             .map_err(|e| Failure::input(e.to_string()))?;
-                    let files =
+                    let mut files =
                         crate::analysis::report::files(&path, &board, &curves, agreement.as_ref())
                             .map_err(|e| Failure::other(e.to_string()))?;
+                    if let Some(machine) = machine {
+                        let request = crate::analysis::estimates::EstimateRequest {
+                            machine,
+                            target_width: None,
+                        };
+                        super::sample::add_estimates(
+                            &mut files,
+                            &study_file,
+                            (&snapshot, &board),
+                            &path,
+                            request,
+                        )?;
+                    }
                     let written = files.write(&path)?;
                     for file in written {
                         eprintln!("{}: written", file.display());

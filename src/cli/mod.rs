@@ -282,6 +282,10 @@ pub enum Command {
         /// The settings of the scores and the report, as for `score`.
         #[command(flatten)]
         options: ScoreOptions,
+        /// With --report: add a section on the estimates from this machine judge corrected
+        /// by the human sample, with a picture of the three intervals per ranker.
+        #[arg(long, value_name = "NAME", requires = "report")]
+        machine: Option<String>,
     },
     /// Bring in grades and settled grades from studies graded elsewhere.
     Merge {

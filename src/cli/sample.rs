@@ -73,3 +73,23 @@ pub fn score_with_machine(
         Format::Json => estimates_text::json(&est, &board),
     })
 }
+
+/// Adds the estimates section and its picture to a report about to be written at
+/// `path` (`export --report … --machine NAME`).
+pub fn add_estimates(
+    files: &mut crate::analysis::report::ReportFiles,
+    study: &Study,
+    (snapshot, board): (&crate::study::snapshot::Snapshot, &scoreboard::Scoreboard),
+    path: &std::path::Path,
+    request: EstimateRequest,
+) -> Result<(), Failure> {
+    let draws = study.sample_draws()?;
+    let est = estimates::build(snapshot, board, &draws, &request)
+        .map_err(|e| Failure::input(e.to_string()))?;
+    let stem = path
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "report".into());
+    crate::analysis::report_estimates::add_to(files, &stem, board, &est)
+        .map_err(|e| Failure::other(e.to_string()))
+}

@@ -342,3 +342,54 @@ fn sample_draws_record_order_and_queue_the_ungraded_pairs_first() {
         "nothing is left",
     );
 }
+
+/// `export --report … --machine NAME`: the report's estimates section shows the same
+/// figures as `score --machine --format json` at the focus cut-off, and links its
+/// picture of the three intervals, written beside the report.
+#[test]
+fn the_report_shows_the_estimates_of_score_machine() {
+    let fixture = Fixture::new();
+    let study = study(&fixture);
+    let s = study.to_str().unwrap();
+    run(args!["sample", s, "--contexts", "12", "--seed", "2"]);
+    let report = fixture.path("r.md");
+    let r = report.to_str().unwrap();
+    run(args!["export", s, "--report", r, "--machine", "judge-q"]);
+    let text = std::fs::read_to_string(&report).unwrap();
+    let section = &text[text
+        .find("## Estimates from the machine judge judge-q")
+        .unwrap()..];
+    assert!(section.contains("](r-estimates.svg)"), "{section}");
+    let svg = std::fs::read_to_string(fixture.path("r-estimates.svg")).unwrap();
+    assert!(svg.contains("<svg"));
+    let json: Value = serde_json::from_str(&run(args![
+        "score",
+        s,
+        "--machine",
+        "judge-q",
+        "--format",
+        "json"
+    ]))
+    .unwrap();
+    for e in json["estimates"].as_array().unwrap() {
+        if e["metric"] != "ndcg@10" {
+            continue;
+        }
+        let f = |k: &str| format!("{:.3}", e[k].as_f64().unwrap());
+        let row = format!(
+            "| {} | {} [{}, {}] | {} [{}, {}] | {} | {} |",
+            e["ranker"].as_str().unwrap(),
+            f("estimate"),
+            f("ci_low"),
+            f("ci_high"),
+            f("human_only_mean"),
+            f("human_only_ci_low"),
+            f("human_only_ci_high"),
+            f("machine_only_mean"),
+            f("lambda")
+        );
+        assert!(section.contains(&row), "{row} not in {section}");
+    }
+    let out = plumbline(args!["export", s, "--scores", r, "--machine", "judge-q"]);
+    assert_eq!(out.status.code(), Some(2), "--machine needs --report");
+}

@@ -10,6 +10,7 @@ pub mod colours;
 pub mod defaults;
 pub mod estimates;
 pub mod estimates_text;
+pub mod estimates_view;
 pub mod gaps;
 pub mod home;
 pub mod human_sample;

@@ -40,6 +40,7 @@ mod ui_agreement;
 mod ui_catalog;
 mod ui_desk;
 mod ui_desk_saving;
+mod ui_estimates;
 mod ui_home;
 mod ui_merge;
 mod ui_no_nan;

@@ -153,8 +153,9 @@ fn sets(snapshot: &Snapshot, board: &Scoreboard, draws: &[SampleDraw], scale: us
     let (labelled, pending): (Vec<usize>, Vec<usize>) = drawn
         .iter()
         .partition(|&&c| human_sample::is_complete(snapshot, &graded, c));
+    let in_l: std::collections::HashSet<usize> = labelled.iter().copied().collect();
     let unlabelled = (0..snapshot.contexts.len())
-        .filter(|&c| in_population(c) && !labelled.contains(&c))
+        .filter(|&c| in_population(c) && !in_l.contains(&c))
         .collect();
     Sets {
         labelled,
@@ -303,31 +304,43 @@ pub fn build(
         .as_deref()
         .and_then(|b| snapshot.ranker_index(b))
     {
-        for (r, per_metric) in values.iter().enumerate().filter(|(r, _)| *r != b) {
-            for (m, key) in keys
-                .iter()
-                .enumerate()
-                .filter(|(_, k)| k.starts_with("ndcg@"))
-            {
-                let diff = |a: &[f64], z: &[f64]| -> Vec<f64> {
-                    a.iter().zip(z).map(|(x, y)| x - y).collect()
-                };
-                let (y, yl, yu) = &per_metric[m];
-                let (by, byl, byu) = &values[b][m];
-                if let Some((d, figures)) = figures(&diff(y, by), &diff(yl, byl), &diff(yu, byu)) {
-                    out.estimate_comparisons.push(EstimateComparison {
-                        ranker: snapshot.rankers[r].clone(),
-                        baseline: snapshot.rankers[b].clone(),
-                        metric: key.clone(),
-                        diff: d,
-                        figures,
-                    });
-                }
-            }
-        }
+        out.estimate_comparisons = comparisons(snapshot, &values, &keys, b, &figures);
     }
     out.estimate_cautions = cautions(snapshot, board, &sets, &out, &request.machine);
     Ok(out)
+}
+
+/// Every other ranker against the baseline `b` on every `ndcg@k`, from the per-context
+/// differences of Y and of Ŷ.
+fn comparisons(
+    snapshot: &Snapshot,
+    values: &Values,
+    keys: &[String],
+    b: usize,
+    figures: &dyn Fn(&[f64], &[f64], &[f64]) -> Option<(f64, EstimateFigures)>,
+) -> Vec<EstimateComparison> {
+    let diff = |a: &[f64], z: &[f64]| -> Vec<f64> { a.iter().zip(z).map(|(x, y)| x - y).collect() };
+    let mut out = Vec::new();
+    for (r, per_metric) in values.iter().enumerate().filter(|(r, _)| *r != b) {
+        for (m, key) in keys
+            .iter()
+            .enumerate()
+            .filter(|(_, k)| k.starts_with("ndcg@"))
+        {
+            let (y, yl, yu) = &per_metric[m];
+            let (by, byl, byu) = &values[b][m];
+            if let Some((d, figures)) = figures(&diff(y, by), &diff(yl, byl), &diff(yu, byu)) {
+                out.push(EstimateComparison {
+                    ranker: snapshot.rankers[r].clone(),
+                    baseline: snapshot.rankers[b].clone(),
+                    metric: key.clone(),
+                    diff: d,
+                    figures,
+                });
+            }
+        }
+    }
+    out
 }
 
 /// Reviewer-hours one more sample context costs: the mean number of pool pairs per
@@ -441,10 +454,42 @@ fn cautions(
     {
         c.push(format!("Cut-offs above the pool depth {} (from @{k}) reach items people were not asked to grade; they count by the unjudged rule, so treat those estimates with care.", snapshot.pool_depth));
     }
+    let (graded, pool) = machine_coverage(snapshot, board, sets, machine);
+    if graded < pool {
+        c.push(format!("The machine judge {machine} graded {graded} of the {pool} pool pairs of these contexts; the rest count by the unjudged rule in its values."));
+    }
     if snapshot.machines_in_panel {
         c.push("The study counts machine judges in the panel grade, so the people's values Y include machine grades; turn that off for a clean correction.".into());
     }
     c
+}
+
+/// (pool pairs the machine judge graded, pool pairs) over L ∪ U on the scored scale.
+fn machine_coverage(
+    snapshot: &Snapshot,
+    board: &Scoreboard,
+    sets: &Sets,
+    machine: &str,
+) -> (usize, usize) {
+    let (Some(m), Some(scale)) = (
+        snapshot.reviewer_index(machine),
+        snapshot.scale_index(&board.scale),
+    ) else {
+        return (0, 0);
+    };
+    let graded: std::collections::HashSet<(u32, u32)> = snapshot
+        .grades_of(m)
+        .filter(|g| g.scale as usize == scale)
+        .map(|g| (g.context, g.item))
+        .collect();
+    let mut counts = (0, 0);
+    for &c in sets.labelled.iter().chain(&sets.unlabelled) {
+        for i in human_sample::pool_items(snapshot, c) {
+            counts.1 += 1;
+            counts.0 += usize::from(graded.contains(&(c as u32, i)));
+        }
+    }
+    counts
 }
 
 /// How contexts without a relevant item count in estimates.

@@ -393,3 +393,41 @@ fn the_report_shows_the_estimates_of_score_machine() {
     let out = plumbline(args!["export", s, "--scores", r, "--machine", "judge-q"]);
     assert_eq!(out.status.code(), Some(2), "--machine needs --report");
 }
+
+/// Lists from a file bring pairs the machine judge never graded: a caution says how many
+/// of the pool pairs it graded (common practice: say what the figures rest on).
+#[test]
+fn a_machine_judge_that_missed_pairs_earns_a_caution() {
+    let fixture = Fixture::new();
+    let study = study(&fixture);
+    let s = study.to_str().unwrap();
+    run(args!["sample", s, "--contexts", "12", "--seed", "6"]);
+    let full: Value = serde_json::from_str(&run(args![
+        "score",
+        s,
+        "--machine",
+        "judge-q",
+        "--format",
+        "json"
+    ]))
+    .unwrap();
+    let said = |v: &Value| {
+        v["estimate_cautions"].as_array().unwrap().iter().any(|c| {
+            c.as_str().unwrap().contains("graded") && c.as_str().unwrap().contains("pool pairs")
+        })
+    };
+    assert!(!said(&full), "judge-q graded every pool pair");
+    let extra = catalog("candidate.csv");
+    let more: Value = serde_json::from_str(&run(args![
+        "score",
+        s,
+        "--machine",
+        "judge-q",
+        "--rankings",
+        &extra,
+        "--format",
+        "json"
+    ]))
+    .unwrap();
+    assert!(said(&more), "{}", more["estimate_cautions"]);
+}

@@ -274,6 +274,38 @@ fn bad_machine_judges_are_refused_with_the_study_unchanged() {
         "machine judge",
     );
     refused(&study, args!["sample", s, "--contexts", "0"], "at least 1");
+    // A scale the machine judge never graded (common practice: nothing to correct).
+    let scales = fixture.write("two.csv", "scale,value,label\ntwo,0,no\ntwo,1,yes\n");
+    run(args!["import", s, "--scales", scales.to_str().unwrap()]);
+    refused(
+        &study,
+        args!["score", s, "--machine", "judge-q", "--scale", "two"],
+        "graded no pair on scale two",
+    );
+}
+
+/// Fewer than 2 complete sample contexts: no estimate, the reason said, exit 0.
+#[test]
+fn one_drawn_context_gives_no_estimate_and_says_why() {
+    let fixture = Fixture::new();
+    let study = study(&fixture);
+    let s = study.to_str().unwrap();
+    run(args!["sample", s, "--contexts", "1", "--seed", "8"]);
+    let v: Value = serde_json::from_str(&run(args![
+        "score",
+        s,
+        "--machine",
+        "judge-q",
+        "--format",
+        "json"
+    ]))
+    .unwrap();
+    assert_eq!(v["estimates"].as_array().unwrap().len(), 0);
+    assert_eq!(v["estimate_comparisons"].as_array().unwrap().len(), 0);
+    let why = v["estimate_reason"].as_str().unwrap();
+    assert!(why.contains("an estimate needs at least 2"), "{why}");
+    let text = run(args!["score", s, "--machine", "judge-q"]);
+    assert!(text.contains("No estimate:"), "{text}");
 }
 
 /// Draws are uniform without replacement and recorded in order with each run's seed;

@@ -310,6 +310,9 @@ pub fn build(
     Ok(out)
 }
 
+/// An estimate and its figures from (Y over L, Ŷ over L, Ŷ over U), if one can be made.
+type FiguresOf<'a> = dyn Fn(&[f64], &[f64], &[f64]) -> Option<(f64, EstimateFigures)> + 'a;
+
 /// Every other ranker against the baseline `b` on every `ndcg@k`, from the per-context
 /// differences of Y and of Ŷ.
 fn comparisons(
@@ -317,7 +320,7 @@ fn comparisons(
     values: &Values,
     keys: &[String],
     b: usize,
-    figures: &dyn Fn(&[f64], &[f64], &[f64]) -> Option<(f64, EstimateFigures)>,
+    figures: &FiguresOf<'_>,
 ) -> Vec<EstimateComparison> {
     let diff = |a: &[f64], z: &[f64]| -> Vec<f64> { a.iter().zip(z).map(|(x, y)| x - y).collect() };
     let mut out = Vec::new();

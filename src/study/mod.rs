@@ -125,6 +125,18 @@ pub struct Study {
     _registration: open_files::Registration,
 }
 
+impl Drop for Study {
+    /// Closes the connection while no other thread of this process opens one (see
+    /// `open_files::while_locked`); an in-memory connection, which touches no file,
+    /// takes its place for the rest of the drop.
+    fn drop(&mut self) {
+        if let Ok(placeholder) = Connection::open_in_memory() {
+            let conn = std::mem::replace(&mut self.conn, placeholder);
+            open_files::while_locked(|| drop(conn));
+        }
+    }
+}
+
 const SQLITE_MAGIC: &[u8; 16] = b"SQLite format 3\0";
 
 impl Study {

@@ -68,6 +68,17 @@ fn add(map: &mut Option<Table>, key: FileKey, path: &Path) -> Registration {
     Registration { key }
 }
 
+/// Runs `close` with the table locked. Opening and closing connections to one file are
+/// thereby never interleaved in this process: SQLite 3.51.1's unix VFS takes its global
+/// mutex and then a file's inode mutex when it opens the file (`findReusableFd`), but
+/// the inode mutex and then the global mutex when a closing connection takes its last
+/// exclusive lock (`unixLock` → `unixIsSharingShmNode`), and two job threads doing
+/// both at once on one study deadlocked the workbench.
+pub fn while_locked<T>(close: impl FnOnce() -> T) -> T {
+    let _guard = table();
+    close()
+}
+
 /// Registers a file that a connection has just created.
 pub fn register(path: &Path) -> Result<Registration> {
     let key = key_of(path)?;

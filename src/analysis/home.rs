@@ -72,6 +72,10 @@ pub struct HomeModel {
     /// In a reviewer's copy: whom it was handed out to (absent for a lead's study).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub copy_for: Option<String>,
+    /// The human sample on the active scale, once `plumbline sample` has drawn one
+    /// (absent before).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub sample: Option<super::human_sample::SampleStatus>,
 }
 
 impl HomeModel {
@@ -107,6 +111,11 @@ pub fn of_study(study: &Study) -> Result<HomeModel, StudyError> {
         model.copy_for = study
             .setting(crate::study::settings::keys::HANDED_OUT_TO)?
             .filter(|r| !r.is_empty());
+        let draws = study.sample_draws()?;
+        if !draws.is_empty() && !snapshot.scales.is_empty() {
+            let scale = snapshot.active_scale_index();
+            model.sample = Some(super::human_sample::status(&snapshot, &draws, scale));
+        }
         Ok(model)
     })
 }
@@ -146,6 +155,12 @@ pub fn text(model: &HomeModel) -> String {
                 cov.graded,
                 cov.pairs,
                 percent(cov.graded, cov.pairs)
+            ));
+        }
+        if let Some(sample) = &model.sample {
+            out.push_str(&format!(
+                "\n{}\n",
+                super::human_sample::status_line(sample, scale)
             ));
         }
         out.push_str(&format!("\nReviewers on {scale}\n"));
@@ -243,6 +258,7 @@ pub fn build(
         read_only,
         pilot: None,
         copy_for: None,
+        sample: None,
     }
 }
 

@@ -6,6 +6,20 @@ use super::agreement::AgreementReport;
 use super::scoreboard::Scoreboard;
 use super::trial::Trial;
 
+/// Writes one CSV row with every text cell a spreadsheet would run as a formula
+/// neutralised (a ranker or context named `=2+3`); numbers are written as they are.
+fn write_guarded<W: std::io::Write, I, T>(w: &mut csv::Writer<W>, cells: I)
+where
+    I: IntoIterator<Item = T>,
+    T: AsRef<str>,
+{
+    let row: Vec<String> = cells
+        .into_iter()
+        .map(|c| crate::study::export::neutralise_cell(c.as_ref()).into_owned())
+        .collect();
+    let _ = w.write_record(&row);
+}
+
 /// Three decimals, or a dash for a value that is not defined.
 pub(super) fn num(x: f64) -> String {
     if x.is_finite() {
@@ -220,17 +234,20 @@ pub fn rankings_files_text(board: &Scoreboard) -> String {
 /// Tidy CSV: one row per ranker × context × metric, plus the settings used.
 pub fn scoreboard_csv(board: &Scoreboard) -> String {
     let mut w = csv::Writer::from_writer(Vec::new());
-    let _ = w.write_record([
-        "ranker",
-        "context_id",
-        "metric",
-        "value",
-        "scale",
-        "grades",
-        "gain",
-        "unjudged",
-        "segment",
-    ]);
+    write_guarded(
+        &mut w,
+        [
+            "ranker",
+            "context_id",
+            "metric",
+            "value",
+            "scale",
+            "grades",
+            "gain",
+            "unjudged",
+            "segment",
+        ],
+    );
     let s = &board.settings;
     let gain = format!("{:?}", s.gain).to_lowercase();
     let unjudged = format!("{:?}", s.unjudged).to_lowercase();
@@ -239,17 +256,20 @@ pub fn scoreboard_csv(board: &Scoreboard) -> String {
     for r in &board.rankers {
         for c in &r.per_context {
             for (metric, value) in &c.values {
-                let _ = w.write_record([
-                    r.ranker.as_str(),
-                    c.context_id.as_str(),
-                    metric.as_str(),
-                    &value.to_string(),
-                    &board.scale,
-                    &grades,
-                    &gain,
-                    &unjudged,
-                    &segment,
-                ]);
+                write_guarded(
+                    &mut w,
+                    [
+                        r.ranker.as_str(),
+                        c.context_id.as_str(),
+                        metric.as_str(),
+                        &value.to_string(),
+                        &board.scale,
+                        &grades,
+                        &gain,
+                        &unjudged,
+                        &segment,
+                    ],
+                );
             }
         }
     }
@@ -343,14 +363,17 @@ pub fn agreement_text(report: &AgreementReport) -> String {
 /// Tidy CSV: one row per reviewer pair and coefficient, then the panel coefficients.
 pub fn agreement_csv(report: &AgreementReport) -> String {
     let mut w = csv::Writer::from_writer(Vec::new());
-    let _ = w.write_record([
-        "scope",
-        "reviewer_a",
-        "reviewer_b",
-        "coefficient",
-        "value",
-        "n",
-    ]);
+    write_guarded(
+        &mut w,
+        [
+            "scope",
+            "reviewer_a",
+            "reviewer_b",
+            "coefficient",
+            "value",
+            "n",
+        ],
+    );
     for p in &report.pairs {
         for (name, value) in [
             ("kappa", p.kappa),
@@ -359,14 +382,17 @@ pub fn agreement_csv(report: &AgreementReport) -> String {
             ("kappa_quadratic", p.kappa_quadratic),
             ("ac1", p.ac1),
         ] {
-            let _ = w.write_record([
-                "pair",
-                &p.reviewer_a,
-                &p.reviewer_b,
-                name,
-                &value.to_string(),
-                &p.n.to_string(),
-            ]);
+            write_guarded(
+                &mut w,
+                [
+                    "pair",
+                    &p.reviewer_a,
+                    &p.reviewer_b,
+                    name,
+                    &value.to_string(),
+                    &p.n.to_string(),
+                ],
+            );
         }
     }
     for (name, value, n) in [
@@ -381,7 +407,10 @@ pub fn agreement_csv(report: &AgreementReport) -> String {
         ("alpha_interval", report.alpha_interval, report.alpha_n),
         ("ac1", report.ac1, report.units),
     ] {
-        let _ = w.write_record(["panel", "", "", name, &value.to_string(), &n.to_string()]);
+        write_guarded(
+            &mut w,
+            ["panel", "", "", name, &value.to_string(), &n.to_string()],
+        );
     }
     String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
 }
@@ -452,7 +481,7 @@ pub fn trial_text(trial: &Trial) -> String {
 /// Tidy CSV: one row per trial row and measure.
 pub fn trial_csv(trial: &Trial) -> String {
     let mut w = csv::Writer::from_writer(Vec::new());
-    let _ = w.write_record(["scale", "collapse", "measure", "value"]);
+    write_guarded(&mut w, ["scale", "collapse", "measure", "value"]);
     for r in &trial.scales {
         let collapse = r.collapse.clone().unwrap_or_default();
         for (name, value) in [
@@ -468,7 +497,10 @@ pub fn trial_csv(trial: &Trial) -> String {
             ("discriminative_power", r.discriminative_power),
             ("alpha_per_reviewer_minute", r.alpha_per_reviewer_minute),
         ] {
-            let _ = w.write_record([r.scale.as_str(), &collapse, name, &value.to_string()]);
+            write_guarded(
+                &mut w,
+                [r.scale.as_str(), &collapse, name, &value.to_string()],
+            );
         }
     }
     String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()

@@ -145,15 +145,30 @@ pub fn files(
 impl ReportFiles {
     /// Writes the pictures beside `path`, then the Markdown at `path`; returns every file
     /// written, the Markdown first.
-    pub fn write(&self, path: &Path) -> std::io::Result<Vec<PathBuf>> {
+    /// Each file goes through a temporary file renamed into place, and none may be a
+    /// study (`study::file_guard`).
+    pub fn write(&self, path: &Path) -> crate::study::Result<Vec<PathBuf>> {
+        use crate::study::file_guard::{check_output, write_atomically};
         let folder = path.parent().unwrap_or(Path::new(""));
-        let mut written = vec![path.to_path_buf()];
-        for p in &self.pictures {
-            let target = folder.join(&p.file_name);
-            std::fs::write(&target, &p.svg)?;
-            written.push(target);
+        let targets: Vec<PathBuf> = self
+            .pictures
+            .iter()
+            .map(|p| folder.join(&p.file_name))
+            .collect();
+        check_output(path)?;
+        for target in &targets {
+            check_output(target)?;
         }
-        std::fs::write(path, &self.markdown)?;
+        for (p, target) in self.pictures.iter().zip(&targets) {
+            write_atomically(target, |w| {
+                Ok(std::io::Write::write_all(w, p.svg.as_bytes())?)
+            })?;
+        }
+        write_atomically(path, |w| {
+            Ok(std::io::Write::write_all(w, self.markdown.as_bytes())?)
+        })?;
+        let mut written = vec![path.to_path_buf()];
+        written.extend(targets);
         Ok(written)
     }
 }

@@ -20,6 +20,8 @@ pub enum Place {
     Differences(String),
     /// Under the reviewer agreement figures.
     Agreement,
+    /// In the section on estimates from a machine judge.
+    Estimates,
 }
 
 /// One SVG file of the report.
@@ -41,6 +43,16 @@ pub struct Picture {
 pub struct PictureError {
     file_name: String,
     message: String,
+}
+
+impl PictureError {
+    /// A drawing failure of the picture `file_name`.
+    pub fn new(file_name: &str, message: String) -> PictureError {
+        PictureError {
+            file_name: file_name.into(),
+            message,
+        }
+    }
 }
 
 const SIZE: (u32, u32) = (720, 420);

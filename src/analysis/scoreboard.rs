@@ -7,9 +7,10 @@ use serde::Serialize;
 
 use super::defaults;
 use super::judgments::{self, GradeSource};
+use super::per_context;
 use super::pool_bias::{self, PoolBias};
 pub use super::segment::Segment;
-use crate::core::metrics::{self, AtK, GainKind, JudgedList, ListSettings, Unjudged};
+use crate::core::metrics::{GainKind, Unjudged};
 use crate::core::stats;
 use crate::study::outside_lists::FileLists;
 use crate::study::snapshot::Snapshot;
@@ -252,48 +253,14 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
     }
     let (baseline, baseline_note) = resolve_baseline(snapshot, settings.baseline.as_deref())?;
     let scale = &snapshot.scales[scale_index];
-    let list_settings = ListSettings {
-        gains: metrics::gain_table(scale.levels.len(), &scale.gains(), settings.gain),
-        max_level: scale.max_level(),
-        relevant_from: settings.relevant_from,
-        unjudged: settings.unjudged,
-    };
-    let mut judged = judgments::resolve_with(
-        snapshot,
-        scale_index,
-        &settings.grades,
-        settings.panel_grade,
-    );
-    // Segments by item: items outside the segment stay judged but carry no gain.
-    let carries_gain = |item: u32| -> bool {
-        let is_new = snapshot.items[item as usize].is_new;
-        match settings.segment {
-            Segment::New => is_new,
-            Segment::Established => !is_new,
-            _ => true,
-        }
-    };
-    for list in &mut judged {
-        for (item, level) in list.iter_mut() {
-            if !carries_gain(*item) {
-                *level = 0;
-            }
-        }
-    }
-    let context_included = |c: usize| -> bool {
-        let info = &snapshot.contexts[c];
-        match &settings.segment {
-            Segment::Kind(kind) => info.kind == *kind,
-            Segment::ContextSegment(s) => info.segment == *s,
-            _ => true,
-        }
-    };
+    let list_settings = per_context::list_settings(snapshot, scale_index, settings);
+    let judged = per_context::judgments(snapshot, scale_index, settings, &settings.grades);
     let mut scored_contexts: Vec<usize> = Vec::new();
     let mut without_relevant = 0usize;
     let mut without_grades = 0usize;
     let mut ideal: Vec<Vec<f64>> = vec![Vec::new(); snapshot.contexts.len()];
     for c in 0..snapshot.contexts.len() {
-        if !context_included(c) {
+        if !per_context::context_included(snapshot, &settings.segment, c) {
             continue;
         }
         let has_any_list = snapshot.lists.iter().any(|l| !l[c].is_empty());
@@ -308,48 +275,25 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
             without_relevant += 1;
             continue;
         }
-        let mut gains: Vec<f64> = judged[c]
-            .iter()
-            .map(|(_, level)| list_settings.gains[*level as usize])
-            .collect();
-        gains.sort_by(|a, b| b.total_cmp(a));
-        ideal[c] = gains;
+        ideal[c] = per_context::ideal_gains(&judged[c], &list_settings);
         scored_contexts.push(c);
     }
     let keys = metric_keys(&settings.ks);
     // values[ranker][metric key index][scored context index]
-    let mut values: Vec<Vec<Vec<f64>>> = Vec::with_capacity(snapshot.rankers.len());
-    let mut levels_buf: Vec<Option<u8>> = Vec::new();
-    let mut scratch = Vec::new();
-    let mut at_k: Vec<AtK> = Vec::new();
-    for lists in &snapshot.lists {
-        let mut per_metric = vec![Vec::with_capacity(scored_contexts.len()); keys.len()];
-        for &c in &scored_contexts {
-            levels_buf.clear();
-            levels_buf.extend(
-                lists[c]
-                    .iter()
-                    .map(|item| judgments::level_of(&judged[c], *item)),
-            );
-            let list = JudgedList {
-                levels: &levels_buf,
-                ideal_gains: &ideal[c],
-                has_relevant: true,
-            };
-            let rr =
-                metrics::score_list(&list, &list_settings, &settings.ks, &mut scratch, &mut at_k);
-            for (ki, m) in at_k.iter().enumerate() {
-                let base = ki * 5;
-                per_metric[base].push(m.ndcg.unwrap_or(0.0));
-                per_metric[base + 1].push(m.dcg);
-                per_metric[base + 2].push(m.precision);
-                per_metric[base + 3].push(m.err);
-                per_metric[base + 4].push(m.judged);
-            }
-            per_metric[keys.len() - 1].push(rr);
-        }
-        values.push(per_metric);
-    }
+    let values: Vec<Vec<Vec<f64>>> = snapshot
+        .lists
+        .iter()
+        .map(|lists| {
+            per_context::ranker_values(
+                lists,
+                &judged,
+                &ideal,
+                &list_settings,
+                &settings.ks,
+                &scored_contexts,
+            )
+        })
+        .collect();
 
     let baseline_name = baseline.map(|b| snapshot.rankers[b].as_str());
     let comparison_jobs: Vec<(usize, usize)> = match baseline {
@@ -443,6 +387,7 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
             let name = &snapshot.rankers[r];
             let wins = d.iter().filter(|x| **x > 1e-9).count();
             let losses = d.iter().filter(|x| **x < -1e-9).count();
+            let all_finite = d.iter().all(|x| x.is_finite());
             Comparison {
                 ranker: name.clone(),
                 baseline: baseline_name.unwrap_or_default().to_string(),
@@ -452,8 +397,8 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
                 ci_low: ci.low,
                 ci_high: ci.high,
                 // No paired context, no test: a p-value without data would read as "no
-                // difference found".
-                p_randomization: if d.is_empty() {
+                // difference found"; nor on a difference that is not a finite number.
+                p_randomization: if d.is_empty() || !all_finite {
                     f64::NAN
                 } else {
                     stats::randomization_test(
@@ -462,7 +407,11 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
                         seed_for(settings.seed, &["randomization", name, &keys[m]]),
                     )
                 },
-                p_t: stats::paired_t_test(d).p,
+                p_t: if all_finite {
+                    stats::paired_t_test(d).p
+                } else {
+                    f64::NAN
+                },
                 p_holm: f64::NAN,
                 wins,
                 ties: d.len() - wins - losses,

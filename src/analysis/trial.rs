@@ -86,10 +86,14 @@ fn restricted(
     let mut copy = snapshot.clone();
     copy.grades
         .retain(|g| g.scale as usize == scale && common.contains(&(g.context, g.item)));
+    // Machine judges' grades follow the same restriction and collapse map, so their
+    // levels stay within the (coarse) scale.
+    copy.machine_grades
+        .retain(|g| g.scale as usize == scale && common.contains(&(g.context, g.item)));
     copy.settled
         .retain(|s| s.scale as usize == scale && common.contains(&(s.context, s.item)));
     if let Some(map) = map {
-        for g in &mut copy.grades {
+        for g in copy.grades.iter_mut().chain(copy.machine_grades.iter_mut()) {
             g.value = map.apply(g.value);
         }
         for s in &mut copy.settled {

@@ -5,8 +5,9 @@ use std::path::{Path, PathBuf};
 
 use super::{Command, Failure, Format};
 use crate::analysis::{agreement, render, scoreboard, trial};
-use crate::study::Study;
+use crate::core::text::printable;
 use crate::study::import::{self, ImportSet, Source};
+use crate::study::{Study, file_guard};
 
 pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
     match command {
@@ -63,6 +64,40 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             grades,
             rankings,
             format,
+            machine: Some(machine),
+            target_width,
+        }) => super::sample::score_with_machine(
+            &open(&study)?,
+            &options.settings(&grades),
+            &rankings,
+            format,
+            crate::analysis::estimates::EstimateRequest {
+                machine,
+                target_width,
+            },
+        ),
+        Some(Command::Sample {
+            study,
+            contexts,
+            seed,
+            reviewer,
+            scale,
+        }) => super::sample::sample(
+            &mut open(&study)?,
+            crate::study::sample::DrawRequest {
+                contexts,
+                seed,
+                reviewers: reviewer,
+                scale,
+            },
+        ),
+        Some(Command::Score {
+            study,
+            options,
+            grades,
+            rankings,
+            format,
+            ..
         }) => {
             let mut snapshot = open(&study)?.snapshot()?;
             for file in &rankings {
@@ -72,7 +107,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             let board = scoreboard::build(&snapshot, &settings)
                 .map_err(|e| Failure::input(e.to_string()))?;
             print(match format {
-                Format::Text => render::scoreboard_text(&board),
+                Format::Text => printable(&render::scoreboard_text(&board)).into_owned(),
                 Format::Csv => render::scoreboard_csv(&board),
                 Format::Json => render::scoreboard_json(&board),
             })
@@ -119,7 +154,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
         Some(Command::Status { study, format }) => {
             let model = crate::analysis::home::of_study(&open(&study)?)?;
             print(match format {
-                Format::Text => crate::analysis::home::text(&model),
+                Format::Text => printable(&crate::analysis::home::text(&model)).into_owned(),
                 Format::Json => {
                     let mut json = serde_json::to_string_pretty(&model)
                         .map_err(|e| Failure::other(e.to_string()))?;
@@ -132,7 +167,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                     csv.write_record(["ranker", "graded", "pairs"])
                         .map_err(io)?;
                     for c in &model.coverage {
-                        let ranker = crate::study::export::neutralise(&c.ranker);
+                        let ranker = crate::study::export::neutralise_cell(&c.ranker);
                         csv.write_record([&*ranker, &c.graded.to_string(), &c.pairs.to_string()])
                             .map_err(io)?;
                     }
@@ -159,7 +194,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             };
             let report = agreement::with_defaults(&snapshot, scale_index, None);
             print(match format {
-                Format::Text => render::agreement_text(&report),
+                Format::Text => printable(&render::agreement_text(&report)).into_owned(),
                 Format::Csv => render::agreement_csv(&report),
                 Format::Json => render::agreement_json(&report),
             })
@@ -167,7 +202,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
         Some(Command::Trial { study, format }) => {
             let trial = trial::of_study(&open(&study)?)?;
             print(match format {
-                Format::Text => render::trial_text(&trial),
+                Format::Text => printable(&render::trial_text(&trial)).into_owned(),
                 Format::Csv => render::trial_csv(&trial),
                 Format::Json => render::trial_json(&trial),
             })
@@ -178,6 +213,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
             scores,
             report,
             options,
+            machine,
         }) => {
             let study_file = open(&study)?;
             // `--grades` names the grades file, or (as for `score`) whose grades count.
@@ -198,9 +234,11 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                 ));
             }
             if let Some(path) = grades {
-                let mut file = std::fs::File::create(&path)
-                    .map_err(|e| Failure::other(format!("{}: {e}", path.display())))?;
-                let rows = study_file.export_grades(&mut file)?;
+                let mut rows = 0;
+                file_guard::write_atomically(&path, |out| {
+                    rows = study_file.export_grades(out)?;
+                    Ok(())
+                })?;
                 eprintln!("{}: {rows} grades written", path.display());
             }
             if scores.is_some() || report.is_some() {
@@ -209,8 +247,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                 let board = scoreboard::build(&snapshot, &settings)
                     .map_err(|e| Failure::input(e.to_string()))?;
                 let write = |path: &Path, text: String, what: &str| {
-                    std::fs::write(path, text)
-                        .map_err(|e| Failure::other(format!("{}: {e}", path.display())))?;
+                    file_guard::write_atomically(path, |out| Ok(out.write_all(text.as_bytes())?))?;
                     eprintln!("{}: {what} written", path.display());
                     Ok::<(), Failure>(())
                 };
@@ -224,12 +261,23 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
                     let curves =
                         crate::analysis::scoreboard_view::curves(&snapshot, &board.settings)
                             .map_err(|e| Failure::input(e.to_string()))?;
-                    let files =
+                    let mut files =
                         crate::analysis::report::files(&path, &board, &curves, agreement.as_ref())
                             .map_err(|e| Failure::other(e.to_string()))?;
-                    let written = files
-                        .write(&path)
-                        .map_err(|e| Failure::other(format!("{}: {e}", path.display())))?;
+                    if let Some(machine) = machine {
+                        let request = crate::analysis::estimates::EstimateRequest {
+                            machine,
+                            target_width: None,
+                        };
+                        super::sample::add_estimates(
+                            &mut files,
+                            &study_file,
+                            (&snapshot, &board),
+                            &path,
+                            request,
+                        )?;
+                    }
+                    let written = files.write(&path)?;
                     for file in written {
                         eprintln!("{}: written", file.display());
                     }
@@ -290,7 +338,7 @@ pub fn dispatch(command: Option<Command>) -> Result<(), Failure> {
     }
 }
 
-fn print(text: String) -> Result<(), Failure> {
+pub(super) fn print(text: String) -> Result<(), Failure> {
     let mut out = std::io::stdout().lock();
     // A closed pipe (e.g. `| head`) is not a failure of ours.
     let _ = out.write_all(text.as_bytes());
@@ -312,7 +360,7 @@ pub fn write_wait() -> std::time::Duration {
         .unwrap_or(std::time::Duration::from_secs(super::DEFAULT_WAIT_SECONDS))
 }
 
-fn open(path: &Path) -> Result<Study, Failure> {
+pub(super) fn open(path: &Path) -> Result<Study, Failure> {
     if !path.exists() {
         return Err(Failure::input(format!("{}: no such study", path.display())));
     }
@@ -422,6 +470,8 @@ struct ProgressLine {
     started: std::time::Instant,
     terminal: bool,
     shown: bool,
+    /// The file being written, when its first rows were reported, and how many.
+    writing: Option<(String, std::time::Instant, u64)>,
 }
 
 impl ProgressLine {
@@ -431,6 +481,24 @@ impl ProgressLine {
             started: std::time::Instant::now(),
             terminal: std::io::stderr().is_terminal(),
             shown: false,
+            writing: None,
+        }
+    }
+
+    /// Rows per second of the file being written and the seconds left at that rate.
+    fn rate(&mut self, step: &import::ImportStep) -> Option<(f64, f64)> {
+        let now = std::time::Instant::now();
+        match &self.writing {
+            Some((file, since, first)) if *file == step.file => {
+                let seconds = now.duration_since(*since).as_secs_f64();
+                let rate = (step.rows_done - first) as f64 / seconds;
+                (seconds > 0.2 && rate > 0.0)
+                    .then(|| (rate, (step.rows_total - step.rows_done) as f64 / rate))
+            }
+            _ => {
+                self.writing = Some((step.file.clone(), now, step.rows_done));
+                None
+            }
         }
     }
 
@@ -442,11 +510,16 @@ impl ProgressLine {
         let rows = match (step.rows_total, step.rows_done) {
             (0, _) => "reading".to_string(),
             (total, 0) => format!("checked {total} rows, writing"),
-            (total, done) => format!("{done} of {total} rows written"),
+            (total, done) => match self.rate(step) {
+                Some((rate, left)) => format!(
+                    "{done} of {total} rows written, {rate:.0} rows/s, about {left:.0} s left"
+                ),
+                None => format!("{done} of {total} rows written"),
+            },
         };
         eprint!(
             "\r\x1b[2Kimporting {} (file {} of {}): {rows} · {elapsed:.0} s",
-            step.file,
+            printable(&step.file),
             step.files_done + 1,
             step.files_total
         );

@@ -2,6 +2,7 @@
 //! the terminal and the screens agree.
 
 mod commands;
+mod sample;
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -32,10 +33,10 @@ pub struct ScoreOptions {
     /// Cut-offs, comma separated.
     #[arg(long, value_delimiter = ',', default_values_t = crate::analysis::defaults::CUTOFFS)]
     pub k: Vec<usize>,
-    #[arg(long, default_value = "exponential", value_parser = ["exponential", "linear"])]
-    pub gain: String,
-    #[arg(long, default_value = "zero", value_parser = ["zero", "condense"])]
-    pub unjudged: String,
+    #[arg(long, value_enum, default_value_t = GainChoice::Exponential)]
+    pub gain: GainChoice,
+    #[arg(long, value_enum, default_value_t = UnjudgedChoice::Zero)]
+    pub unjudged: UnjudgedChoice,
     #[arg(long)]
     pub baseline: Option<String>,
     /// all, new, established, query, anchor, or a context segment label
@@ -43,8 +44,8 @@ pub struct ScoreOptions {
     #[arg(long, default_value = "all")]
     pub segment: String,
     /// How an unsettled pair's panel levels become one level.
-    #[arg(long = "panel-grade", default_value = "lower-median", value_parser = ["lower-median", "upper-median", "mean-rounded"])]
-    pub panel_grade: String,
+    #[arg(long = "panel-grade", value_enum, default_value_t = PanelGradeChoice::LowerMedian)]
+    pub panel_grade: PanelGradeChoice,
     #[arg(long, default_value_t = crate::analysis::defaults::SCORE_BOOTSTRAP)]
     pub bootstrap: usize,
     #[arg(long, default_value_t = crate::analysis::defaults::SCORE_RANDOMIZATION)]
@@ -59,19 +60,58 @@ impl ScoreOptions {
         crate::analysis::scoreboard::ScoreSettings {
             scale: self.scale.clone(),
             ks: self.k.clone(),
-            gain: GainKind::parse(&self.gain).unwrap_or(GainKind::Exponential),
+            gain: match self.gain {
+                GainChoice::Exponential => GainKind::Exponential,
+                GainChoice::Linear => GainKind::Linear,
+            },
             grades: GradeSource::parse(grades),
-            unjudged: Unjudged::parse(&self.unjudged).unwrap_or(Unjudged::Zero),
+            unjudged: match self.unjudged {
+                UnjudgedChoice::Zero => Unjudged::Zero,
+                UnjudgedChoice::Condense => Unjudged::Condense,
+            },
             // None: the study's stored baseline, else the first ranker (one rule,
             // `scoreboard::resolve_baseline`).
             baseline: self.baseline.clone(),
             segment: crate::analysis::scoreboard::Segment::parse(&self.segment),
-            panel_grade: PanelRule::parse(&self.panel_grade).unwrap_or_default(),
+            panel_grade: match self.panel_grade {
+                PanelGradeChoice::LowerMedian => PanelRule::LowerMedian,
+                PanelGradeChoice::UpperMedian => PanelRule::UpperMedian,
+                PanelGradeChoice::MeanRounded => PanelRule::MeanRounded,
+            },
             bootstrap_resamples: self.bootstrap,
             randomization_resamples: self.randomization,
             ..Default::default()
         }
     }
+}
+
+/// `--gain`: how a level becomes a gain (a scale's own gains win over it).
+#[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
+pub enum GainChoice {
+    /// 2^v − 1 (Burges et al. 2005).
+    Exponential,
+    /// v itself (Järvelin & Kekäläinen 2002).
+    Linear,
+}
+
+/// `--unjudged`: what an unjudged item in a ranked list counts as.
+#[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
+pub enum UnjudgedChoice {
+    /// Gain 0.
+    Zero,
+    /// Removed before cutting at k (Sakai 2007).
+    Condense,
+}
+
+/// `--panel-grade`: how an unsettled pair's panel levels become one level.
+#[derive(Clone, Copy, Debug, ValueEnum, PartialEq, Eq)]
+pub enum PanelGradeChoice {
+    /// The lower of the two middle levels on a tie ([1, 3] → 1).
+    LowerMedian,
+    /// The upper of the two middle levels on a tie ([1, 3] → 3).
+    UpperMedian,
+    /// The mean rounded to the nearest level, halves up ([1, 2] → 2).
+    MeanRounded,
 }
 
 /// The command line's default for `--wait`: long, because giving up loses the work.
@@ -171,6 +211,32 @@ pub enum Command {
         rankings: Vec<PathBuf>,
         #[arg(long, value_enum, default_value = "text")]
         format: Format,
+        /// Also estimate every metric for the whole study from this machine judge's
+        /// grades corrected by the human sample (prediction-powered inference).
+        #[arg(long, value_name = "NAME")]
+        machine: Option<String>,
+        /// With --machine: how many more sample contexts would bring each interval's
+        /// half-width to W.
+        #[arg(long = "target-width", value_name = "W", requires = "machine")]
+        target_width: Option<f64>,
+    },
+    /// Draw more contexts uniformly at random into the human sample, record the draw, and
+    /// put their pool pairs that no person has graded at the front of people's queues.
+    Sample {
+        study: PathBuf,
+        /// How many more contexts to draw (what is left when fewer are).
+        #[arg(long)]
+        contexts: usize,
+        /// The random seed (recorded with the draw); taken from the clock when absent.
+        #[arg(long)]
+        seed: Option<u64>,
+        /// A person whose queue gets the pairs first; repeat for several. Without it the
+        /// pairs go first in the queues the study assigned them to.
+        #[arg(long = "reviewer", value_name = "NAME")]
+        reviewer: Vec<String>,
+        /// The scale the queues are on (default: the study's active scale).
+        #[arg(long)]
+        scale: Option<String>,
     },
     /// What the study holds, how far the pool is graded and what to do next (Home's figures).
     Status {
@@ -220,6 +286,10 @@ pub enum Command {
         /// The settings of the scores and the report, as for `score`.
         #[command(flatten)]
         options: ScoreOptions,
+        /// With --report: add a section on the estimates from this machine judge corrected
+        /// by the human sample, with a picture of the three intervals per ranker.
+        #[arg(long, value_name = "NAME", requires = "report")]
+        machine: Option<String>,
     },
     /// Bring in grades and settled grades from studies graded elsewhere.
     Merge {
@@ -313,7 +383,7 @@ pub fn run() -> ExitCode {
     match commands::dispatch(cli.command) {
         Ok(()) => ExitCode::SUCCESS,
         Err(f) => {
-            eprintln!("plumbline: {}", f.message);
+            eprintln!("plumbline: {}", crate::core::text::printable(&f.message));
             ExitCode::from(f.code)
         }
     }

@@ -9,6 +9,8 @@ pub mod fast_hash;
 pub mod gaps;
 pub mod metrics;
 pub mod pooling;
+pub mod ppi;
 pub mod scale;
 pub mod settle_rules;
 pub mod stats;
+pub mod text;

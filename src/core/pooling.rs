@@ -35,6 +35,23 @@ pub fn shuffle<T>(items: &mut [T], rng: &mut Rng) {
     }
 }
 
+/// `k` of the indices `0..population` drawn uniformly at random without replacement, in
+/// draw order (the first `k` steps of the Fisher–Yates shuffle, Knuth, TAOCP vol. 2,
+/// Algorithm 3.4.2P); `k` above `population` draws them all. Each index is the `i`-th
+/// draw with probability 1 / (population − i + 1) among those left, so every subset of
+/// size `k` is equally likely.
+pub fn draw_without_replacement(population: usize, k: usize, seed: u64) -> Vec<usize> {
+    let mut rng = Rng::new(seed);
+    let mut order: Vec<usize> = (0..population).collect();
+    let k = k.min(population);
+    for i in 0..k {
+        let j = i + rng.below(population - i);
+        order.swap(i, j);
+    }
+    order.truncate(k);
+    order
+}
+
 /// Splits `pair_count` pairs among `reviewers`: a share `overlap` goes to everyone (for
 /// agreement), the rest round-robin. Each queue is shuffled so order says nothing of rank.
 /// Returns pair indices per reviewer; the same seed gives the same queues.

@@ -32,6 +32,27 @@ pub fn is_desk_key(key: &str) -> bool {
     DESK_KEYS.iter().any(|k| k.eq_ignore_ascii_case(key))
 }
 
+/// The largest gain a level may carry. DCG sums gains over a list and the statistics
+/// square differences of such sums; at 1e12 a list of a million items squared stays
+/// far inside f64's range (1e308), while every exponential gain of a 32-level scale
+/// (2^31 − 1) fits.
+pub const MAX_GAIN: f64 = 1e12;
+
+/// Why a level's gain cannot be used, or None when it can.
+pub fn gain_problem(gain: f64) -> Option<String> {
+    if !gain.is_finite() {
+        Some("gain must be a finite number".into())
+    } else if gain < 0.0 {
+        Some("gain must not be negative".into())
+    } else if gain > MAX_GAIN {
+        Some(format!(
+            "gain {gain} is above the largest usable gain {MAX_GAIN:e}: sums and squares of such gains would overflow; scale the gains down (NDCG does not change when every gain is multiplied by one factor)"
+        ))
+    } else {
+        None
+    }
+}
+
 /// True when gains given for consecutive levels fall somewhere as the level rises.
 pub fn gains_fall(gains: &[Option<f64>]) -> bool {
     let given: Vec<f64> = gains.iter().flatten().copied().collect();
@@ -127,8 +148,8 @@ impl Scale {
         if gains_fall(&self.gains()) {
             problems.push("gains must not decrease as the level rises".to_string());
         }
-        if gains.iter().any(|g| !g.is_finite() || *g < 0.0) {
-            problems.push("gains must be finite and not negative".to_string());
+        if let Some(problem) = gains.iter().find_map(|g| gain_problem(*g)) {
+            problems.push(problem);
         }
         problems
     }

@@ -435,6 +435,13 @@ pub fn holm(p_values: &[f64]) -> Vec<f64> {
     adjusted
 }
 
+/// Orders two numbers the way the written tie rules read them: equal values are equal,
+/// `-0` and `0` included (IEEE 754 compares them equal; `f64::total_cmp` does not).
+/// NaN, which no figure here should be, sorts after every number.
+pub fn value_order(a: f64, b: f64) -> std::cmp::Ordering {
+    (a + 0.0).total_cmp(&(b + 0.0))
+}
+
 /// Kendall's tau-b between two paired score vectors (Kendall 1945), ties allowed.
 /// Returns NaN when either vector is constant.
 pub fn kendall_tau_b(x: &[f64], y: &[f64]) -> f64 {
@@ -444,8 +451,8 @@ pub fn kendall_tau_b(x: &[f64], y: &[f64]) -> f64 {
     let (mut tied_x, mut tied_y) = (0i64, 0i64);
     for i in 0..n {
         for j in (i + 1)..n {
-            let dx = x[i].total_cmp(&x[j]) as i64;
-            let dy = y[i].total_cmp(&y[j]) as i64;
+            let dx = value_order(x[i], x[j]) as i64;
+            let dy = value_order(y[i], y[j]) as i64;
             if dx == 0 {
                 tied_x += 1;
             }

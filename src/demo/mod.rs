@@ -8,6 +8,7 @@ mod words;
 use std::path::{Path, PathBuf};
 
 use crate::study::import::{self, ImportSet, Source};
+use crate::study::sample::DrawRequest;
 use crate::study::settings::keys;
 use crate::study::{Study, StudyError};
 
@@ -66,12 +67,30 @@ pub fn build_demo_study(path: &Path) -> Result<(), StudyError> {
     };
     let mut study = Study::create(path)?;
     import::import(&mut study, &set)?;
+    let machine = ImportSet {
+        grades: source("machine-grades.csv")?,
+        ..ImportSet::default()
+    };
+    import::import(&mut study, &machine)?;
     study.set_setting(keys::DEMO, "true")?;
     study.set_setting(keys::NAME, "Fennel Hollow demo")?;
     study.set_setting(keys::BASELINE, generate::BASELINE_RANKER)?;
     study.set_setting(keys::POOL_DEPTH, "10")?;
+    // Every pooled pair is graded by people already, so the draw queues nothing.
+    study.draw_sample(&DrawRequest {
+        contexts: DEMO_SAMPLE_CONTEXTS,
+        seed: Some(DEMO_SAMPLE_SEED),
+        reviewers: Vec::new(),
+        scale: Some("fit4".into()),
+    })?;
     Ok(())
 }
+
+/// How many contexts the demo study's human sample draws.
+pub const DEMO_SAMPLE_CONTEXTS: usize = 12;
+
+/// The seed of the demo study's human sample.
+pub const DEMO_SAMPLE_SEED: u64 = 20_261_120;
 
 /// The demo study's path, building it first if it is missing (first run, or deleted).
 pub fn ensure_demo_study() -> Result<PathBuf, StudyError> {

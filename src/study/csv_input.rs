@@ -116,8 +116,11 @@ pub fn open_regular(path: &Path) -> Result<std::fs::File, String> {
     if let Some(why) = kind(&metadata) {
         return Err(format!("cannot read the file: {why}"));
     }
-    if super::open_files::is_open_study(path) {
-        return Err("this is the study itself, not a CSV file".into());
+    if super::file_guard::is_study_file(path) {
+        return Err(
+            "this is the study itself (or one of its -wal/-shm/-journal files), not a CSV file"
+                .into(),
+        );
     }
     let file = std::fs::File::open(path).map_err(|e| format!("cannot read the file: {e}"))?;
     let metadata = file
@@ -317,6 +320,8 @@ struct TrackState {
     field_bytes: usize,
     quoting: Quoting,
     previous_cr: bool,
+    /// The last byte was an LF that ended a line by itself (not the LF of a CRLF).
+    previous_lone_lf: bool,
     bom_checked: bool,
     opened_quote: (u64, usize),
     failure: Option<(u64, usize, String)>,
@@ -350,12 +355,15 @@ impl TrackState {
                 format!("field contains a NUL byte at byte {}", self.field_bytes + 1),
             ));
         }
-        // Physical lines, whatever the quoting: LF, CRLF and a lone CR each end one.
+        // Physical lines, whatever the quoting: LF, CRLF, LF-CR (as some older systems
+        // write) and a lone CR each end one.
         let cr_then_lf = self.previous_cr && b == b'\n';
-        self.previous_cr = b == b'\r';
+        let lf_then_cr = self.previous_lone_lf && b == b'\r';
+        self.previous_cr = b == b'\r' && !lf_then_cr;
+        self.previous_lone_lf = b == b'\n' && !cr_then_lf;
         // After CRLF the next line is taken to start at the LF: the CSV reader reports a
-        // record that follows CRLF from that byte.
-        if b == b'\r' || (b == b'\n' && !cr_then_lf) {
+        // record that follows CRLF from that byte (and likewise after LF-CR).
+        if (b == b'\r' && !lf_then_cr) || (b == b'\n' && !cr_then_lf) {
             self.end_line(at + 1);
         }
         if self.quoting == Quoting::QuoteInQuoted {
@@ -432,12 +440,26 @@ impl<R: std::io::BufRead> Tracker<R> {
                 field_bytes: 0,
                 quoting: Quoting::FieldStart,
                 previous_cr: false,
+                previous_lone_lf: false,
                 bom_checked: false,
                 opened_quote: (1, 1),
                 failure: None,
             })),
         }
     }
+}
+
+/// True when a file starts like UTF-16: a UTF-16 byte order mark, or NUL bytes in every
+/// other position of its first characters (UTF-16 spells ASCII letters that way), which
+/// would otherwise be reported as a bare "NUL byte".
+fn looks_like_utf16(start: &[u8]) -> bool {
+    if start.starts_with(b"\xFF\xFE") || start.starts_with(b"\xFE\xFF") {
+        return true;
+    }
+    let head = &start[..start.len().min(8) & !1];
+    head.len() >= 4
+        && (head.chunks(2).all(|c| c[0] != 0 && c[1] == 0)
+            || head.chunks(2).all(|c| c[0] == 0 && c[1] != 0))
 }
 
 impl<R: std::io::BufRead> std::io::Read for Tracker<R> {
@@ -448,6 +470,14 @@ impl<R: std::io::BufRead> std::io::Read for Tracker<R> {
         }
         if !state.bom_checked {
             let start = self.inner.fill_buf()?;
+            if looks_like_utf16(start) {
+                state.failure = Some((
+                    1,
+                    1,
+                    "the file is UTF-16 text, not UTF-8; save it as UTF-8 (in a spreadsheet: \"CSV UTF-8\")".into(),
+                ));
+                return Err(std::io::Error::other("stopped"));
+            }
             if start.starts_with(b"\xEF\xBB\xBF") {
                 self.inner.consume(3);
             }

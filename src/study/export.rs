@@ -42,6 +42,16 @@ pub fn neutralise(text: &str) -> std::borrow::Cow<'_, str> {
     }
 }
 
+/// `neutralise` for a cell of a report table: a plain number (`-0.25`) is left as it
+/// is, since a spreadsheet reads it as that number and a reader expects it unquoted.
+pub fn neutralise_cell(text: &str) -> std::borrow::Cow<'_, str> {
+    if text.parse::<f64>().is_ok() {
+        text.into()
+    } else {
+        neutralise(text)
+    }
+}
+
 /// The columns of an exported grades file: import's columns plus reader-only ones.
 pub const GRADE_COLUMNS: &[&str] = &[
     "reviewer",

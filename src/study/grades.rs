@@ -69,7 +69,7 @@ impl Study {
     /// with synchronous=FULL, so an acknowledged grade survives a crash.
     pub fn record_grade(&mut self, grade: &NewGrade) -> Result<i64> {
         if self.is_read_only() {
-            return Err(StudyError::ReadOnly);
+            return Err(self.read_only_error());
         }
         let graded_at = time::now();
         let (action, value, reason) = match &grade.action {

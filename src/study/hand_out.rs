@@ -6,12 +6,16 @@ use std::path::Path;
 
 use rusqlite::params;
 
+use super::file_guard::{self, PartialFile};
 use super::merge::{pictures_folder_name, refused};
-use super::{Result, Study, time};
+use super::settings::keys;
+use super::{Result, Study};
 
 impl Study {
     /// Copies the pictures of the items the reviewer will see (the queue, else every
-    /// ranked item, and the anchors) into `folder`, keeping their relative paths.
+    /// ranked item, and the anchors) into `folder`, keeping their relative paths. Only
+    /// regular files whose real path lies inside the catalog folder are copied (a link
+    /// out of it, a FIFO or a device is skipped), into a folder made new for the copy.
     fn copy_pictures(&self, reviewer: &str, folder: &Path) -> Result<()> {
         let Some(root) = self.catalog_dir()? else {
             return Ok(());
@@ -27,23 +31,11 @@ impl Study {
             .query_map([reviewer], |r| r.get(0))?
             .collect::<std::result::Result<_, _>>()?;
         for image in images {
-            let relative = Path::new(&image);
-            // Only plain relative paths inside the catalog (import checked them too).
-            if relative.is_absolute()
-                || relative.components().any(|c| {
-                    !matches!(
-                        c,
-                        std::path::Component::Normal(_) | std::path::Component::CurDir
-                    )
-                })
-            {
+            // A missing or refused picture stays missing in the copy, as it shows here.
+            let Ok(source) = file_guard::resolve_inside(&root, &image) else {
                 continue;
-            }
-            let source = root.join(relative);
-            if !std::fs::metadata(&source).is_ok_and(|m| m.is_file()) {
-                continue; // a missing picture stays missing in the copy, as here
-            }
-            let target = folder.join(relative);
+            };
+            let target = folder.join(&image);
             if let Some(parent) = target.parent() {
                 std::fs::create_dir_all(parent)?;
             }
@@ -55,10 +47,22 @@ impl Study {
     /// Writes a reviewer copy: the same catalog, scales and rankings, this reviewer's own
     /// grades and queue, and nobody else's grades, queues or settled grades.
     pub fn hand_out(&self, reviewer: &str, out: &Path) -> Result<()> {
-        if out.exists() {
+        if self.is_read_only() {
+            return Err(self.read_only_error());
+        }
+        if std::fs::symlink_metadata(out).is_ok() {
             return Err(refused(
                 out,
                 "a file already exists there; choose another name".into(),
+            ));
+        }
+        file_guard::check_output(out)?;
+        let pictures = pictures_folder_name(out);
+        let pictures_path = out.with_file_name(&pictures);
+        if std::fs::symlink_metadata(&pictures_path).is_ok() {
+            return Err(refused(
+                &pictures_path,
+                "the copy's pictures folder already exists; remove it or choose another name for the copy".into(),
             ));
         }
         let known: bool = self.conn().query_row(
@@ -69,52 +73,67 @@ impl Study {
         if !known {
             self.add_reviewer(reviewer)?;
         }
+        // Everything is made under temporary names and renamed into place at the end,
+        // so an interrupted hand-out leaves no half copy under the copy's name.
+        let partial_copy = PartialFile::beside(out);
         self.conn()
-            .execute("VACUUM INTO ?1", [out.to_string_lossy()])?;
-        let mut copy = Study::open(out)?;
-        let tx = copy.begin_write()?;
-        tx.execute(
-            "DELETE FROM current_grades WHERE reviewer != ?1",
-            params![reviewer],
-        )?;
-        tx.execute(
-            "DELETE FROM grade_events WHERE reviewer != ?1",
-            params![reviewer],
-        )?;
-        tx.execute(
-            "DELETE FROM queue_entries WHERE reviewer != ?1",
-            params![reviewer],
-        )?;
-        tx.execute("DELETE FROM settle_events", [])?;
-        tx.execute(
-            "DELETE FROM reviewers WHERE reviewer != ?1",
-            params![reviewer],
-        )?;
-        tx.execute(
-            "INSERT INTO settings(key, value) VALUES ('handed_out_to', ?1)
-             ON CONFLICT(key) DO UPDATE SET value = excluded.value",
-            params![reviewer],
-        )?;
-        let copy_id =
-            super::import::content_uid(&[reviewer, &out.display().to_string(), &time::now()]);
-        tx.execute(
-            "INSERT INTO settings(key, value) VALUES ('copy_id', ?1)
-             ON CONFLICT(key) DO UPDATE SET value = excluded.value",
-            params![copy_id],
-        )?;
-        let pictures = pictures_folder_name(out);
-        tx.execute(
-            "INSERT INTO settings(key, value) VALUES ('catalog_dir', ?1)
-             ON CONFLICT(key) DO UPDATE SET value = excluded.value",
-            params![pictures],
-        )?;
-        tx.commit()?;
-        copy.conn().execute_batch("VACUUM")?;
-        drop(copy);
-        // This study remembers whom the copy went to: on the way back only that
-        // reviewer's grades come in without asking.
-        self.set_setting(&format!("hand_out:{copy_id}"), reviewer)?;
-        self.copy_pictures(reviewer, &out.with_file_name(&pictures))?;
-        Ok(())
+            .execute("VACUUM INTO ?1", [partial_copy.path().to_string_lossy()])?;
+        let secret = new_copy_secret();
+        keep_only_own(partial_copy.path(), reviewer, &secret, &pictures)?;
+        let partial_pictures = PartialFile::beside(&pictures_path);
+        std::fs::create_dir(partial_pictures.path())?;
+        self.copy_pictures(reviewer, partial_pictures.path())?;
+        // This study remembers whom the secret was issued to: on the way back only that
+        // reviewer's grades come in without asking, and only under this secret.
+        self.set_setting(&format!("{}{secret}", keys::HAND_OUT_PREFIX), reviewer)?;
+        partial_pictures.put_in_place(&pictures_path)?;
+        partial_copy.put_in_place(out)
     }
+}
+
+/// A fresh secret naming one hand-out: 128 random bits from the thread's
+/// cryptographically secure generator (ChaCha, seeded by the operating system), so a
+/// copy edited to claim another reviewer's hand-out cannot guess theirs.
+fn new_copy_secret() -> String {
+    format!("{:032x}", rand::random::<u128>())
+}
+
+/// Leaves in the copy at `path` only what its reviewer may hold: their own grades and
+/// queue, no settled grades, no other hand-out's secret, no gold pair's known level or
+/// rationale (their queue still holds the gold pairs as pairs; accuracy against gold is
+/// computed at home after merge), no human-sample draws, and this hand-out's own secret.
+fn keep_only_own(path: &Path, reviewer: &str, secret: &str, pictures: &str) -> Result<()> {
+    let mut copy = Study::open(path)?;
+    let tx = copy.begin_write()?;
+    for sql in [
+        "DELETE FROM current_grades WHERE reviewer != ?1",
+        "DELETE FROM grade_events WHERE reviewer != ?1",
+        "DELETE FROM queue_entries WHERE reviewer != ?1",
+        "DELETE FROM reviewers WHERE reviewer != ?1",
+    ] {
+        tx.execute(sql, params![reviewer])?;
+    }
+    tx.execute("DELETE FROM settle_events", [])?;
+    tx.execute("DELETE FROM gold_pairs", [])?;
+    // Which contexts are in the human sample is the lead's to know: a reviewer who knew
+    // might grade them differently.
+    tx.execute("DELETE FROM sample_draws", [])?;
+    tx.execute(
+        "DELETE FROM settings WHERE substr(key, 1, length(?1)) = ?1",
+        params![keys::HAND_OUT_PREFIX],
+    )?;
+    for (key, value) in [
+        (keys::HANDED_OUT_TO, reviewer),
+        (keys::COPY_ID, secret),
+        (keys::CATALOG_DIR, pictures),
+    ] {
+        tx.execute(
+            "INSERT INTO settings(key, value) VALUES (?1, ?2)
+             ON CONFLICT(key) DO UPDATE SET value = excluded.value",
+            params![key, value],
+        )?;
+    }
+    tx.commit()?;
+    copy.conn().execute_batch("VACUUM")?;
+    Ok(())
 }

@@ -3,6 +3,7 @@
 pub mod collapse;
 pub mod csv_input;
 pub mod export;
+pub mod file_guard;
 pub mod gap_queue;
 pub mod gold;
 pub mod grades;
@@ -14,6 +15,8 @@ pub mod outside_lists;
 pub mod pilot;
 mod problems;
 pub mod queues;
+pub mod row_rules;
+pub mod sample;
 pub mod scales;
 pub mod schema;
 pub mod settings;
@@ -54,8 +57,12 @@ pub enum StudyError {
         "the study is busy: another program kept writing to it for longer than the wait allowed; let it finish (or close it there) and try again"
     )]
     Busy,
-    #[error("the study is open read-only; changes cannot be saved")]
-    ReadOnly,
+    /// The study's file or folder cannot be written; holds the study's path where known.
+    #[error(
+        "{}the study is read-only (its file or its folder cannot be written); nothing was changed",
+        .0.as_deref().map(|p| format!("{p}: ")).unwrap_or_default()
+    )]
+    ReadOnly(Option<String>),
     #[error("the disk is full; the study could not grow")]
     DiskFull,
     #[error("database error: {0}")]
@@ -76,7 +83,7 @@ impl From<rusqlite::Error> for StudyError {
         use rusqlite::ErrorCode;
         match e.sqlite_error_code() {
             Some(ErrorCode::DatabaseBusy | ErrorCode::DatabaseLocked) => StudyError::Busy,
-            Some(ErrorCode::ReadOnly) => StudyError::ReadOnly,
+            Some(ErrorCode::ReadOnly) => StudyError::ReadOnly(None),
             Some(ErrorCode::DiskFull) => StudyError::DiskFull,
             _ => StudyError::Sql(e),
         }
@@ -96,7 +103,10 @@ impl From<rusqlite::types::FromSqlError> for StudyError {
 impl StudyError {
     /// True for errors the user caused and can fix by changing input (exit code 2).
     pub fn is_bad_input(&self) -> bool {
-        matches!(self, StudyError::Input(_) | StudyError::Refused { .. })
+        matches!(
+            self,
+            StudyError::Input(_) | StudyError::Refused { .. } | StudyError::ReadOnly(_)
+        )
     }
 }
 
@@ -113,6 +123,18 @@ pub struct Study {
     write_wait: Duration,
     announce_waits: bool,
     _registration: open_files::Registration,
+}
+
+impl Drop for Study {
+    /// Closes the connection while no other thread of this process opens one (see
+    /// `open_files::while_locked`); an in-memory connection, which touches no file,
+    /// takes its place for the rest of the drop.
+    fn drop(&mut self) {
+        if let Ok(placeholder) = Connection::open_in_memory() {
+            let conn = std::mem::replace(&mut self.conn, placeholder);
+            open_files::while_locked(|| drop(conn));
+        }
+    }
 }
 
 const SQLITE_MAGIC: &[u8; 16] = b"SQLite format 3\0";
@@ -160,17 +182,15 @@ impl Study {
                 "this is not a Plumbline study (not a regular file)",
             ));
         }
-        let read_only = metadata.permissions().readonly();
-        let flags = if read_only {
-            OpenFlags::SQLITE_OPEN_READ_ONLY | OpenFlags::SQLITE_OPEN_NO_MUTEX
-        } else {
-            OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_NO_MUTEX
-        };
+        let read_only = metadata.permissions().readonly() || !folder_writable(path);
+        if !read_only {
+            release_read_only_sidecars(path);
+        }
         let (conn, registration) = open_files::open_checked(path, |first_in_process| {
             if first_in_process {
                 check_header(path)?;
             }
-            Connection::open_with_flags(path, flags)
+            connect(path, read_only)
                 .map_err(|e| refused(path, &format!("cannot be read as SQLite: {e}")))
         })?;
         let mut study = Study::wrap(conn, path, read_only, registration);
@@ -179,6 +199,11 @@ impl Study {
         if !read_only {
             study.migrate()?;
             study.enable_wal()?;
+            // Leftovers of a killed export, hand-out or merge beside the study or in the
+            // temporary folder (never a running program's).
+            let folder = path.parent().filter(|p| !p.as_os_str().is_empty());
+            file_guard::sweep_stale(folder.unwrap_or(Path::new(".")));
+            file_guard::sweep_stale(&std::env::temp_dir());
         }
         Ok(study)
     }
@@ -221,6 +246,9 @@ impl Study {
     /// (`BEGIN IMMEDIATE`). A deferred transaction that reads and then writes is refused
     /// by SQLite at once, without waiting, when another writer committed meanwhile.
     pub(crate) fn begin_write(&mut self) -> Result<Transaction<'_>> {
+        if self.read_only {
+            return Err(self.read_only_error());
+        }
         let notice = self.announce_waits.then(|| WaitNotice::start(&self.path));
         let tx = self
             .conn
@@ -234,6 +262,11 @@ impl Study {
 
     pub fn is_read_only(&self) -> bool {
         self.read_only
+    }
+
+    /// The refusal of a write to this read-only study, naming it.
+    pub fn read_only_error(&self) -> StudyError {
+        StudyError::ReadOnly(Some(self.path.display().to_string()))
     }
 
     /// Runs `read` inside one read transaction, so every query it makes (a snapshot and the
@@ -435,6 +468,62 @@ fn sql_message(e: &rusqlite::Error) -> String {
 
 /// Reads the 100-byte database header with plain file I/O. Called only while no
 /// connection of this process has the file open (see `Study::open`).
+/// True unless the study's folder has no write permission bits: SQLite must create the
+/// `-wal` and `-shm` files beside the study to write (and to read a WAL study without
+/// them, see `connect`).
+fn folder_writable(path: &Path) -> bool {
+    let folder = match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p,
+        _ => Path::new("."),
+    };
+    std::fs::metadata(folder).is_ok_and(|m| !m.permissions().readonly())
+}
+
+/// Opens the connection. A read-only study whose `-wal` holds nothing is opened
+/// immutable: SQLite then creates no `-shm` or `-wal` file, which a read-only folder
+/// could not hold and which, made from a read-only study, would keep its read-only
+/// permissions and block writing once the study is writable again.
+fn connect(path: &Path, read_only: bool) -> rusqlite::Result<Connection> {
+    let no_mutex = OpenFlags::SQLITE_OPEN_NO_MUTEX;
+    if !read_only {
+        return Connection::open_with_flags(path, OpenFlags::SQLITE_OPEN_READ_WRITE | no_mutex);
+    }
+    let wal = sidecar(path, "-wal");
+    if std::fs::metadata(&wal).is_ok_and(|m| m.len() > 0) {
+        return Connection::open_with_flags(path, OpenFlags::SQLITE_OPEN_READ_ONLY | no_mutex);
+    }
+    Connection::open_with_flags(
+        untrusted::immutable_uri(path),
+        OpenFlags::SQLITE_OPEN_READ_ONLY | OpenFlags::SQLITE_OPEN_URI | no_mutex,
+    )
+}
+
+/// `path` with a suffix such as `-wal` added to its file name.
+fn sidecar(path: &Path, suffix: &str) -> PathBuf {
+    let mut p = path.as_os_str().to_owned();
+    p.push(suffix);
+    PathBuf::from(p)
+}
+
+/// Gives back write permission to an empty `-wal` and a `-shm` left behind by an
+/// earlier read-only open (SQLite makes them with the study's permissions), so they do
+/// not keep a study that is writable again from being written. Only the permission
+/// bits change; neither file is opened.
+fn release_read_only_sidecars(path: &Path) {
+    let Ok(study_mode) = std::fs::metadata(path).map(|m| m.permissions()) else {
+        return;
+    };
+    for suffix in ["-wal", "-shm"] {
+        let side = sidecar(path, suffix);
+        if let Ok(m) = std::fs::metadata(&side)
+            && m.is_file()
+            && m.permissions().readonly()
+        {
+            let _ = std::fs::set_permissions(&side, study_mode.clone());
+        }
+    }
+}
+
 fn check_header(path: &Path) -> Result<()> {
     use std::io::Read;
     let mut header = [0u8; 100];

@@ -8,20 +8,32 @@
 //! vanish. Files are keyed by device and inode, read with `stat` (which opens nothing).
 
 use std::collections::HashMap;
-use std::path::Path;
+use std::path::{Path, PathBuf};
 use std::sync::{Mutex, MutexGuard, PoisonError};
 
 use super::{Result, StudyError};
 
 type FileKey = (u64, u64);
 
-static OPEN: Mutex<Option<HashMap<FileKey, usize>>> = Mutex::new(None);
+/// Per open file: how many studies hold it, and its real path (for its sidecar files).
+type Table = HashMap<FileKey, (usize, PathBuf)>;
 
-fn table() -> MutexGuard<'static, Option<HashMap<FileKey, usize>>> {
+static OPEN: Mutex<Option<Table>> = Mutex::new(None);
+
+fn table() -> MutexGuard<'static, Option<Table>> {
     OPEN.lock().unwrap_or_else(PoisonError::into_inner)
 }
 
-fn key_of(path: &Path) -> std::io::Result<FileKey> {
+/// The real paths of every study file this process has open.
+pub fn open_paths() -> Vec<PathBuf> {
+    table()
+        .as_ref()
+        .map(|m| m.values().map(|(_, p)| p.clone()).collect())
+        .unwrap_or_default()
+}
+
+/// Device and inode of the file at `path` (links followed); `stat` opens nothing.
+pub fn key_of(path: &Path) -> std::io::Result<FileKey> {
     use std::os::unix::fs::MetadataExt;
     let m = std::fs::metadata(path)?;
     Ok((m.dev(), m.ino()))
@@ -37,7 +49,7 @@ impl Drop for Registration {
     fn drop(&mut self) {
         let mut guard = table();
         if let Some(map) = guard.as_mut()
-            && let Some(n) = map.get_mut(&self.key)
+            && let Some((n, _)) = map.get_mut(&self.key)
         {
             *n -= 1;
             if *n == 0 {
@@ -47,15 +59,30 @@ impl Drop for Registration {
     }
 }
 
-fn add(map: &mut Option<HashMap<FileKey, usize>>, key: FileKey) -> Registration {
-    *map.get_or_insert_with(HashMap::new).entry(key).or_insert(0) += 1;
+fn add(map: &mut Option<Table>, key: FileKey, path: &Path) -> Registration {
+    let real = path.canonicalize().unwrap_or_else(|_| path.to_path_buf());
+    map.get_or_insert_with(HashMap::new)
+        .entry(key)
+        .or_insert((0, real))
+        .0 += 1;
     Registration { key }
+}
+
+/// Runs `close` with the table locked. Opening and closing connections to one file are
+/// thereby never interleaved in this process: SQLite 3.51.1's unix VFS takes its global
+/// mutex and then a file's inode mutex when it opens the file (`findReusableFd`), but
+/// the inode mutex and then the global mutex when a closing connection takes its last
+/// exclusive lock (`unixLock` → `unixIsSharingShmNode`), and two job threads doing
+/// both at once on one study deadlocked the workbench.
+pub fn while_locked<T>(close: impl FnOnce() -> T) -> T {
+    let _guard = table();
+    close()
 }
 
 /// Registers a file that a connection has just created.
 pub fn register(path: &Path) -> Result<Registration> {
     let key = key_of(path)?;
-    Ok(add(&mut table(), key))
+    Ok(add(&mut table(), key, path))
 }
 
 /// Runs `open` with the table locked, telling it whether this process already has the
@@ -71,14 +98,5 @@ pub fn open_checked<T>(
     let mut guard = table();
     let first = guard.as_ref().is_none_or(|m| !m.contains_key(&key));
     let value = open(first)?;
-    Ok((value, add(&mut guard, key)))
-}
-
-/// True when this process has a study connection to the file at `path`: such a file
-/// must not be opened with plain file I/O (for example as a CSV to import).
-pub fn is_open_study(path: &Path) -> bool {
-    match key_of(path) {
-        Ok(key) => table().as_ref().is_some_and(|m| m.contains_key(&key)),
-        Err(_) => false,
-    }
+    Ok((value, add(&mut guard, key, path)))
 }

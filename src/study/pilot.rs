@@ -141,7 +141,7 @@ impl Study {
         reviewers: &[String],
     ) -> Result<()> {
         if self.is_read_only() {
-            return Err(StudyError::ReadOnly);
+            return Err(self.read_only_error());
         }
         self.refuse_pilot_scales(scales)?;
         if pairs == 0 {

@@ -121,7 +121,7 @@ impl Study {
         if self.is_read_only() {
             let queue = self.queue(reviewer, scale)?;
             if queue.is_empty() {
-                return Err(StudyError::ReadOnly);
+                return Err(self.read_only_error());
             }
             return Ok(queue);
         }
@@ -131,12 +131,13 @@ impl Study {
         let gold_rate = self.setting_or(keys::GOLD_RATE, DEFAULT_GOLD_RATE)?;
         let gold = self.gold_pairs(scale)?;
         let panel: Vec<String> = {
-            let mut stmt = self
-                .conn()
-                .prepare("SELECT reviewer FROM reviewers ORDER BY reviewer")?;
+            let mut stmt = self.conn().prepare(
+                "SELECT reviewer FROM reviewers WHERE kind = 'person' ORDER BY reviewer",
+            )?;
             stmt.query_map([], |r| r.get(0))?
                 .collect::<std::result::Result<_, _>>()?
         };
+        // Machine judges grade outside the desk: they get no queue and no share of the pool.
         if !panel.iter().any(|r| r == reviewer) {
             return Err(StudyError::input(format!(
                 "{reviewer} is not on the panel; add the reviewer first"

@@ -199,6 +199,20 @@ ALTER TABLE reviewers ADD COLUMN kind TEXT NOT NULL DEFAULT 'person'
 ALTER TABLE gold_pairs ADD COLUMN rationale TEXT NOT NULL DEFAULT '';
 "#,
     ),
+    // 5 (issue 30, the human sample): contexts drawn uniformly at random by `plumbline
+    // sample`, one row per context in draw order; `draw` counts the runs of `sample`,
+    // each with its own seed. Only these rows make a context part of the human sample.
+    Migration::Sql(
+        r#"
+CREATE TABLE sample_draws(
+    context_id TEXT PRIMARY KEY REFERENCES contexts(context_id),
+    position   INTEGER NOT NULL UNIQUE CHECK (position >= 1),
+    draw       INTEGER NOT NULL CHECK (draw >= 1),
+    seed       INTEGER NOT NULL,
+    drawn_at   TEXT NOT NULL
+) WITHOUT ROWID;
+"#,
+    ),
 ];
 
 /// Marks a write transaction whose grade events keep `current_grades` in one pass of

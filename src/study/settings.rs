@@ -28,6 +28,9 @@ pub mod keys {
     pub const HANDED_OUT_TO: &str = "handed_out_to";
     /// In a reviewer copy: its id, remembered by the study it came from.
     pub const COPY_ID: &str = "copy_id";
+    /// Prefix of the record of each hand-out in the lead's study: `hand_out:SECRET`
+    /// holds the reviewer the secret was issued to (never carried into a copy).
+    pub const HAND_OUT_PREFIX: &str = "hand_out:";
     /// Marks the built-in demo study.
     pub const DEMO: &str = "demo";
     /// `true` when machine judges' grades count in the panel grade, agreement and

@@ -94,7 +94,7 @@ fn insert_event(tx: &Transaction, scale: &str, record: &SettleRecord) -> Result<
 impl Study {
     fn check_writable_settler(&self, settled_by: &str) -> Result<()> {
         if self.is_read_only() {
-            return Err(StudyError::ReadOnly);
+            return Err(self.read_only_error());
         }
         if settled_by.trim().is_empty() {
             return Err(StudyError::input(

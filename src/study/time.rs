@@ -38,13 +38,18 @@ pub fn now() -> String {
     }
 }
 
+/// How far past this machine's clock an incoming time may lie (clocks of other machines
+/// drift, and offsets are easy to get wrong by hours, but never by more than a day).
+pub const FUTURE_ALLOWANCE_MS: i64 = 86_400_000;
+
 /// Parses an RFC 3339 timestamp (`T` or space separator, `Z` or ±hh:mm offset, optional
 /// fraction) into milliseconds since the epoch; the error says what is wrong.
 ///
 /// Refused: impossible dates (`2026-02-30`), offsets outside ±23:59 (RFC 3339's
 /// `time-numoffset`), and times that fall outside the years 0001–9999 once converted to
 /// UTC (they could not be written in the four-digit normalised form, and would sort
-/// wrongly).
+/// wrongly), leap seconds (`:60` sorts before the next second's `:00` of the next minute
+/// only by luck), and times more than [`FUTURE_ALLOWANCE_MS`] after this machine's clock.
 pub fn parse_checked(text: &str) -> Result<i64, String> {
     let b = text.as_bytes();
     let shape_ok = b.len() >= 20
@@ -56,6 +61,12 @@ pub fn parse_checked(text: &str) -> Result<i64, String> {
         && b[16] == b':';
     if !shape_ok {
         return Err("it is not in the form YYYY-MM-DDTHH:MM:SS with an offset".into());
+    }
+    if &b[17..19] == b"60" {
+        return Err(
+            "it names a leap second (:60), which cannot be ordered against the next second; write :59.999"
+                .into(),
+        );
     }
     let offset = offset_part(text).ok_or("it has no offset (end it with Z or ±hh:mm)")?;
     if offset != "Z" && offset != "z" {
@@ -98,6 +109,13 @@ pub fn parse_checked(text: &str) -> Result<i64, String> {
     let utc = jiff::Timestamp::from_millisecond(ms).map_err(|_| out_of_range())?;
     if utc.to_zoned(jiff::tz::TimeZone::UTC).year() < 1 {
         return Err(out_of_range());
+    }
+    let latest = jiff::Timestamp::now().as_millisecond() + FUTURE_ALLOWANCE_MS;
+    if ms > latest {
+        return Err(format!(
+            "it lies more than a day after this machine's clock (now {}); a grade from the future would win every \"latest grade\"",
+            format_millis(latest - FUTURE_ALLOWANCE_MS)
+        ));
     }
     Ok(ms)
 }
@@ -193,7 +211,22 @@ mod tests {
         assert!(normalise("2026-02-28T00:00:00").is_none());
         let late = normalise_checked("9999-12-31T23:59:59-23:59").unwrap_err();
         assert!(late.contains("0001 to 9999"), "{late}");
-        assert!(normalise("2028-02-29T12:00:00Z").is_some(), "a leap day");
+        assert!(normalise("2024-02-29T12:00:00Z").is_some(), "a leap day");
+    }
+
+    /// A time far in the future would win every "latest grade" forever; a leap second
+    /// (RFC 3339 section 5.7 allows :60) cannot be ordered against the next second.
+    #[test]
+    fn future_times_and_leap_seconds_are_refused() {
+        let far = normalise_checked("9999-01-01T00:00:00Z").unwrap_err();
+        assert!(far.contains("more than a day after"), "{far}");
+        let leap = normalise_checked("2016-12-31T23:59:60Z").unwrap_err();
+        assert!(leap.contains("leap second"), "{leap}");
+        let tomorrow = jiff::Timestamp::now().as_millisecond() + 12 * 3_600_000;
+        assert!(
+            normalise(&format_millis(tomorrow)).is_some(),
+            "half a day ahead is a clock's drift"
+        );
     }
 
     #[test]

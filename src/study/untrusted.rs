@@ -14,7 +14,8 @@ use rusqlite::limits::Limit;
 use rusqlite::types::{Value, ValueRef};
 use rusqlite::{Connection, OpenFlags};
 
-use super::{Result, StudyError, open_files, schema};
+use super::file_guard::PartialFile as Scratch;
+use super::{Result, StudyError, schema};
 
 /// The longest a copy may take to check and read.
 pub const READ_TIME_LIMIT: Duration = Duration::from_secs(20);
@@ -36,21 +37,8 @@ pub struct CheckedCopy {
     _scratch: Option<Scratch>,
 }
 
-/// A temporary file removed when dropped.
-struct Scratch(PathBuf);
-
-impl Drop for Scratch {
-    fn drop(&mut self) {
-        for suffix in ["", "-wal", "-shm", "-journal"] {
-            let mut p = self.0.clone().into_os_string();
-            p.push(suffix);
-            let _ = std::fs::remove_file(PathBuf::from(p));
-        }
-    }
-}
-
-/// `file:` URI for a path, with the characters URIs reserve escaped.
-fn uri(path: &Path) -> String {
+/// `file:` URI for a path opened immutable, with the characters URIs reserve escaped.
+pub fn immutable_uri(path: &Path) -> String {
     let text = std::path::absolute(path)
         .unwrap_or_else(|_| path.to_path_buf())
         .display()
@@ -71,7 +59,7 @@ fn uri(path: &Path) -> String {
 /// Opens `path` read-only and immutable with every hardening in place.
 fn open_hardened(path: &Path) -> Result<Connection> {
     let conn = Connection::open_with_flags(
-        uri(path),
+        immutable_uri(path),
         OpenFlags::SQLITE_OPEN_READ_ONLY
             | OpenFlags::SQLITE_OPEN_URI
             | OpenFlags::SQLITE_OPEN_NO_MUTEX,
@@ -184,7 +172,7 @@ pub fn open_copy(path: &Path) -> Result<CheckedCopy> {
     if !metadata.is_file() {
         return Err(refused(path, "it is not a regular file"));
     }
-    if open_files::is_open_study(path) {
+    if super::file_guard::is_study_file(path) {
         return Err(refused(
             path,
             "this study is open in this window; only a file from elsewhere can be merged",
@@ -249,10 +237,10 @@ pub fn open_copy(path: &Path) -> Result<CheckedCopy> {
     // Older: migrate a temporary copy (the copy itself is never written).
     drop(conn);
     let scratch = scratch_for(path);
-    std::fs::copy(path, &scratch.0)
+    std::fs::copy(path, scratch.path())
         .map_err(|e| refused(path, format!("cannot be copied for reading: {e}")))?;
     {
-        let conn = Connection::open(&scratch.0)?;
+        let conn = Connection::open(scratch.path())?;
         conn.pragma_update(None, "journal_mode", "DELETE")?;
         for (i, step) in schema::MIGRATIONS.iter().enumerate().skip(version as usize) {
             step.apply(&conn)
@@ -260,7 +248,7 @@ pub fn open_copy(path: &Path) -> Result<CheckedCopy> {
             conn.pragma_update(None, "user_version", (i + 1) as i32)?;
         }
     }
-    let conn = open_hardened(&scratch.0)?;
+    let conn = open_hardened(scratch.path())?;
     Ok(CheckedCopy {
         conn,
         path: path.to_path_buf(),
@@ -272,14 +260,14 @@ pub fn open_copy(path: &Path) -> Result<CheckedCopy> {
 /// scratch file, the WAL is folded in there, and the scratch file is checked as a copy.
 fn open_with_wal(path: &Path, wal: &Path) -> Result<CheckedCopy> {
     let scratch = scratch_for(path);
-    let mut scratch_wal = scratch.0.clone().into_os_string();
+    let mut scratch_wal = scratch.path().to_path_buf().into_os_string();
     scratch_wal.push("-wal");
-    std::fs::copy(path, &scratch.0)
+    std::fs::copy(path, scratch.path())
         .and_then(|_| std::fs::copy(wal, PathBuf::from(&scratch_wal)))
         .map_err(|e| refused(path, format!("cannot be copied for reading: {e}")))?;
     {
         let conn = Connection::open_with_flags(
-            &scratch.0,
+            scratch.path(),
             OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_NO_MUTEX,
         )?;
         conn.set_db_config(DbConfig::SQLITE_DBCONFIG_DEFENSIVE, true)?;
@@ -287,7 +275,7 @@ fn open_with_wal(path: &Path, wal: &Path) -> Result<CheckedCopy> {
         conn.pragma_update(None, "journal_mode", "DELETE")
             .map_err(|e| refused(path, format!("its -wal file cannot be read: {e}")))?;
     }
-    let mut checked = open_copy(&scratch.0)?;
+    let mut checked = open_copy(scratch.path())?;
     checked.path = path.to_path_buf();
     if checked._scratch.is_none() {
         checked._scratch = Some(scratch);
@@ -298,12 +286,10 @@ fn open_with_wal(path: &Path, wal: &Path) -> Result<CheckedCopy> {
     Ok(checked)
 }
 
-fn scratch_for(path: &Path) -> Scratch {
-    Scratch(std::env::temp_dir().join(format!(
-        "plumbline-copy-{}-{}.plumb",
-        std::process::id(),
-        super::import::content_uid(&[&path.display().to_string(), &super::time::now()])
-    )))
+/// A temporary file in the system's temporary folder, named so that a killed merge's
+/// leftover is recognised and removed by the next command (`file_guard::sweep_stale`).
+fn scratch_for(_copy: &Path) -> Scratch {
+    Scratch::beside(&std::env::temp_dir().join("copy.plumb"))
 }
 
 /// A value's text, or why it is not text.
@@ -331,13 +317,19 @@ pub fn number(value: &Value) -> Option<f64> {
     }
 }
 
-/// Reads every row of `sql` as raw values (types are checked by the caller).
-pub fn rows(copy: &CheckedCopy, sql: &str, width: usize) -> Result<Vec<Vec<Value>>> {
+/// Hands every row of `sql` to `each` as raw values (types are checked by the caller),
+/// one row at a time: a copy of any size is read in bounded memory.
+pub fn for_each_row(
+    copy: &CheckedCopy,
+    sql: &str,
+    width: usize,
+    mut each: impl FnMut(&[Value]) -> Result<()>,
+) -> Result<()> {
     let mut stmt = copy.conn.prepare(sql).map_err(|e| reading(&copy.path, e))?;
-    let mut out = Vec::new();
     let mut result = stmt.query([]).map_err(|e| reading(&copy.path, e))?;
+    let mut values = Vec::with_capacity(width);
     while let Some(row) = result.next().map_err(|e| reading(&copy.path, e))? {
-        let mut values = Vec::with_capacity(width);
+        values.clear();
         for i in 0..width {
             // `Value::from(ValueRef)` panics on text that is not UTF-8; a hostile copy
             // can hold such bytes anywhere, so they are refused here instead.
@@ -356,7 +348,20 @@ pub fn rows(copy: &CheckedCopy, sql: &str, width: usize) -> Result<Vec<Vec<Value
             };
             values.push(value);
         }
-        out.push(values);
+        each(&values)?;
     }
-    Ok(out)
+    Ok(())
+}
+
+impl CheckedCopy {
+    /// Gives the reads that follow the checks a fresh time limit, longer by a bound per
+    /// event (writing them into the study takes time the checks did not).
+    pub fn allow_time_for(&self, events: u64) {
+        let deadline = Instant::now()
+            + READ_TIME_LIMIT
+            + Duration::from_micros(200) * events.min(u32::MAX as u64) as u32;
+        let _ = self
+            .conn
+            .progress_handler(10_000, Some(move || Instant::now() > deadline));
+    }
 }

@@ -103,6 +103,15 @@ fn body(ui: &mut egui::Ui, model: &HomeModel) {
         if model.coverage.is_empty() {
             ui.weak("No rankers yet: import rankings.csv.");
         }
+        if let Some(sample) = &model.sample {
+            ui.add_space(12.0);
+            ui.strong(format!("Human sample on {scale}"));
+            ui.label(format!(
+                "{} contexts drawn · {} complete · {} pending",
+                sample.drawn, sample.complete, sample.pending
+            ));
+            fraction_bar(ui, sample.complete, sample.drawn, 260.0);
+        }
         ui.add_space(12.0);
         ui.strong(format!("Reviewers on {scale}"));
         egui::Grid::new("home_reviewers")

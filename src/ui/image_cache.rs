@@ -9,7 +9,7 @@
 
 use std::collections::{HashMap, VecDeque};
 use std::io::Read;
-use std::path::{Component, Path, PathBuf};
+use std::path::{Path, PathBuf};
 use std::sync::mpsc::{Receiver, Sender, channel};
 use std::sync::{Arc, Mutex, PoisonError};
 use std::time::{Duration, Instant};
@@ -44,7 +44,7 @@ pub enum PictureProblem {
     #[error("no image given for this item")]
     NotGiven,
     /// An absolute path, `..` or a link pointing out of the catalog folder.
-    #[error("image path {0} leaves the catalog folder; refused")]
+    #[error("image path {0} leaves the catalog folder: not a picture; refused")]
     LeavesFolder(String),
     /// The catalog folder itself cannot be read.
     #[error("catalog folder {folder} unavailable: {why}")]
@@ -58,8 +58,12 @@ pub enum PictureProblem {
     #[error("image file missing: {0}")]
     FileMissing(String),
     /// A FIFO, a device, a folder: reading it could block or never end.
-    #[error("image {0} is not a regular file; refused")]
+    #[error("image {0} is not a regular file: not a picture; refused")]
     NotAFile(String),
+    /// The path names the study itself or one of its `-wal`/`-shm`/`-journal` files:
+    /// opening it with plain file I/O would drop the study's locks.
+    #[error("image {0} is a study file: not a picture; refused")]
+    StudyFile(String),
     /// The file could not be opened or read.
     #[error("image cannot be read: {0}")]
     Unreadable(String),
@@ -261,41 +265,38 @@ impl ImageCache {
 }
 
 /// Resolves an image path from items.csv inside the catalog folder; anything that
-/// would leave the folder (absolute paths, `..`, links pointing out) is refused.
+/// would leave the folder (absolute paths, `..`, links pointing out), anything that is
+/// not a regular file, and the study's own files are refused (`study::file_guard`).
 pub fn resolve(root: &Path, relative: &str) -> Result<PathBuf, PictureProblem> {
+    use crate::study::file_guard::{PathRefusal, resolve_inside};
     let relative = relative.trim();
     if relative.is_empty() {
         return Err(PictureProblem::NotGiven);
     }
-    let rel = Path::new(relative);
-    if rel
-        .components()
-        .any(|c| !matches!(c, Component::Normal(_) | Component::CurDir))
-    {
-        return Err(PictureProblem::LeavesFolder(relative.to_string()));
-    }
-    let root = root.canonicalize().map_err(|e| PictureProblem::NoFolder {
-        folder: root.display().to_string(),
-        why: e.to_string(),
-    })?;
-    let full = root.join(rel);
-    let real = full
-        .canonicalize()
-        .map_err(|_| PictureProblem::FileMissing(relative.to_string()))?;
-    if !real.starts_with(&root) {
-        return Err(PictureProblem::LeavesFolder(relative.to_string()));
-    }
-    if !std::fs::metadata(&real).is_ok_and(|m| m.is_file()) {
-        return Err(PictureProblem::NotAFile(relative.to_string()));
-    }
-    Ok(real)
+    let named = || relative.to_string();
+    resolve_inside(root, relative).map_err(|refusal| match refusal {
+        PathRefusal::LeavesFolder | PathRefusal::LinksOutside => {
+            PictureProblem::LeavesFolder(named())
+        }
+        PathRefusal::Missing => PictureProblem::FileMissing(named()),
+        PathRefusal::NotRegularFile => PictureProblem::NotAFile(named()),
+        PathRefusal::StudyFile => PictureProblem::StudyFile(named()),
+        PathRefusal::NoFolder(why) => PictureProblem::NoFolder {
+            folder: root.display().to_string(),
+            why,
+        },
+    })
 }
 
 /// Decodes under the limits and scales down to fit `size` × `size` pixels.
 pub fn decode_scaled(path: &Path, size: u32) -> Result<egui::ColorImage, PictureProblem> {
-    // Checked again right before opening: `open` itself blocks on a FIFO.
+    // Checked again right before opening: `open` itself blocks on a FIFO, and closing
+    // a descriptor of an open study would drop its locks.
     if !std::fs::metadata(path).is_ok_and(|m| m.is_file()) {
         return Err(PictureProblem::NotAFile(path.display().to_string()));
+    }
+    if crate::study::file_guard::is_study_file(path) {
+        return Err(PictureProblem::StudyFile(path.display().to_string()));
     }
     let file = std::fs::File::open(path).map_err(|e| PictureProblem::Unreadable(e.to_string()))?;
     if !file.metadata().is_ok_and(|m| m.is_file()) {

@@ -88,6 +88,9 @@ impl Prefs {
 
     pub fn remember_study(&mut self, path: &Path) {
         let path = std::path::absolute(path).unwrap_or_else(|_| path.to_path_buf());
+        if self.recent.first() == Some(&path) {
+            return;
+        }
         self.recent.retain(|p| p != &path);
         self.recent.insert(0, path);
         self.recent.truncate(RECENT_LIMIT);
@@ -104,8 +107,10 @@ impl Prefs {
         {
             return;
         }
+        // Most recent first, so that the one just kept is never the one cut off (which
+        // made a full list write the file again on every frame).
         self.scoreboard.retain(|(p, _)| p != &study);
-        self.scoreboard.push((study, choices.clone()));
+        self.scoreboard.insert(0, (study, choices.clone()));
         self.scoreboard.truncate(RECENT_LIMIT * 5);
         self.save();
     }
@@ -327,6 +332,37 @@ mod tests {
         assert_eq!(again.recent, vec![a.clone(), b]);
         // b does not exist on disk, a does.
         assert_eq!(again.last_study(), Some(a.clone()));
+    }
+
+    /// Once the list is full, keeping the same choices again writes nothing.
+    #[test]
+    fn a_full_scoreboard_list_is_written_only_when_it_changes() {
+        let dir = tempfile::tempdir().unwrap();
+        let file = dir.path().join("prefs.json");
+        let mut prefs = Prefs::load(Some(file.clone()));
+        let choices = ScoreboardChoices {
+            settings: ScoreSettings::default(),
+            focus_k: 10,
+        };
+        for i in 0..=RECENT_LIMIT * 5 {
+            prefs.remember_scoreboard(&dir.path().join(format!("s{i}.plumb")), &choices);
+        }
+        let last = dir.path().join(format!("s{}.plumb", RECENT_LIMIT * 5));
+        assert!(
+            prefs
+                .scoreboard
+                .iter()
+                .any(|(p, _)| p.ends_with(last.file_name().unwrap()))
+        );
+        std::fs::remove_file(&file).unwrap();
+        prefs.remember_scoreboard(&last, &choices);
+        prefs.remember_study(&last);
+        prefs.remember_study(&last);
+        std::fs::remove_file(&file).unwrap();
+        prefs.remember_study(&last);
+        assert!(!file.exists(), "an unchanged list was written again");
+        prefs.remember_scoreboard(&last, &choices);
+        assert!(!file.exists(), "unchanged choices were written again");
     }
 
     #[test]

@@ -5,5 +5,6 @@
 #![allow(clippy::unwrap_used)]
 
 mod bench_import;
+mod bench_merge;
 mod bench_scoring;
 mod ui_bench;

@@ -351,3 +351,29 @@ fn every_counting_rule_is_in_the_readme_and_the_report() {
         assert!(report.contains(rule), "report lacks: {rule}");
     }
 }
+
+/// Choices are typed: a wrong value is refused before anything is read, and the message
+/// lists the values that are accepted.
+#[test]
+fn a_wrong_choice_lists_the_right_ones() {
+    let fixture = Fixture::new();
+    let (path, study) = fixture.study();
+    drop(study);
+    for (flag, wrong, right) in [
+        ("--gain", "quadratic", ["exponential", "linear"].as_slice()),
+        ("--unjudged", "skip", ["zero", "condense"].as_slice()),
+        (
+            "--panel-grade",
+            "mode",
+            ["lower-median", "upper-median", "mean-rounded"].as_slice(),
+        ),
+        ("--format", "xml", ["text", "csv", "json"].as_slice()),
+    ] {
+        let out = plumbline(args!["score", path.as_os_str(), flag, wrong]);
+        assert_eq!(out.status.code(), Some(2), "{flag}");
+        let message = String::from_utf8_lossy(&out.stderr);
+        for value in right {
+            assert!(message.contains(value), "{flag}: {message}");
+        }
+    }
+}

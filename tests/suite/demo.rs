@@ -102,7 +102,10 @@ fn the_demo_study_matches_its_readme() {
         number("query contexts (head / torso / tail)") + number("anchor contexts")
     );
     assert_eq!(counts.rankers, 3);
-    assert_eq!(counts.reviewers, number("reviewers"));
+    assert_eq!(
+        counts.reviewers,
+        number("reviewers") + number("machine judges")
+    );
     let snapshot = study.snapshot().unwrap();
     assert_eq!(
         snapshot.items.iter().filter(|i| i.is_new).count() as u64,

@@ -234,8 +234,8 @@ fn grades_by_a_reviewer_the_copy_was_not_handed_to_are_refused_by_name() {
         &copy,
         &format!(
             "INSERT OR IGNORE INTO reviewers(reviewer) VALUES ('ann');
-             {GRADE} VALUES ('x1', 'ann', 'q1', 'i1', 'fit', 'grade', 0, '', 1, '2026-11-30T10:00:00.000Z', ''),
-                    ('x2', 'ann', 'q1', 'i2', 'fit', 'grade', 0, '', 1, '2026-11-30T10:00:01.000Z', '');"
+             {GRADE} VALUES ('00000000000000000000000000abc001', 'ann', 'q1', 'i1', 'fit', 'grade', 0, '', 1, '2026-11-30T10:00:00.000Z', ''),
+                    ('00000000000000000000000000abc002', 'ann', 'q1', 'i2', 'fit', 'grade', 0, '', 1, '2026-11-30T10:00:01.000Z', '');"
         ),
     );
     refused_untouched(&study, &copy, "ann (2 grade events)");
@@ -255,7 +255,7 @@ fn a_new_reviewer_in_a_copy_is_refused_by_name() {
         &copy,
         &format!(
             "INSERT INTO reviewers(reviewer) VALUES ('mallory');
-             {GRADE} VALUES ('m1', 'mallory', 'q1', 'i1', 'fit', 'grade', 2, '', 1, '2026-11-30T10:00:00.000Z', '');"
+             {GRADE} VALUES ('00000000000000000000000000abc003', 'mallory', 'q1', 'i1', 'fit', 'grade', 2, '', 1, '2026-11-30T10:00:00.000Z', '');"
         ),
     );
     refused_untouched(&study, &copy, "mallory (1 grade events)");
@@ -268,7 +268,7 @@ fn undo_rows_against_another_reviewer_are_refused() {
         &copy,
         &format!(
             "INSERT OR IGNORE INTO reviewers(reviewer) VALUES ('ann');
-             {GRADE} VALUES ('u1', 'ann', 'q1', 'i1', 'fit', 'undo', NULL, '', 0, '2026-11-30T10:00:00.000Z', '');"
+             {GRADE} VALUES ('00000000000000000000000000abc004', 'ann', 'q1', 'i1', 'fit', 'undo', NULL, '', 0, '2026-11-30T10:00:00.000Z', '');"
         ),
     );
     refused_untouched(&study, &copy, "ann (1 grade events)");
@@ -280,7 +280,7 @@ fn settled_grades_inside_a_copy_are_refused() {
     tamper(
         &copy,
         "INSERT INTO settle_events(uid, context_id, item_id, scale, value, method, settled_by, settled_at, reason)
-         VALUES ('s1', 'q1', 'i1', 'fit', 0, 'by hand', 'bo', '2026-11-30T10:00:00.000Z', '');",
+         VALUES ('00000000000000000000000000abc005', 'q1', 'i1', 'fit', 0, 'by hand', 'bo', '2026-11-30T10:00:00.000Z', '');",
     );
     refused_untouched(&study, &copy, "bo (1 settled grades)");
 }
@@ -387,7 +387,7 @@ fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
     {
         // Put the copy back at schema 1 (the first trigger, one row per ranked entry,
         // current grades without their values, reviewers without a kind, gold pairs
-        // without a rationale), as an older build wrote it.
+        // without a rationale, no table of human sample draws), as an older build wrote it.
         let plumbline::study::schema::Migration::Sql(v1) = plumbline::study::schema::MIGRATIONS[0]
         else {
             panic!("the first schema is SQL")
@@ -399,7 +399,7 @@ fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
         tamper(
             &copy,
             &format!(
-                "PRAGMA foreign_keys = OFF; DROP VIEW ranked_items; {}
+                "PRAGMA foreign_keys = OFF; DROP TABLE sample_draws; DROP VIEW ranked_items; {}
                  INSERT INTO ranked_items(ranker, context_id, rank, item_id)
                    SELECT l.ranker, l.context_id, j.key + 1, j.value FROM ranked_lists l, json_each(l.items) j;
                  DROP TABLE ranked_lists;
@@ -414,7 +414,7 @@ fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
                  INSERT INTO gold_pairs SELECT * FROM temp.known;
                  DROP TRIGGER grade_events_keep_current; {}
                  PRAGMA user_version = 1;
-                 {GRADE} VALUES ('b9', 'bo', 'q2', 'i1', 'fit', 'grade', 1, '', 2, '2026-11-30T10:00:00.000Z', '');",
+                 {GRADE} VALUES ('00000000000000000000000000abc006', 'bo', 'q2', 'i1', 'fit', 'grade', 1, '', 2, '2026-11-30T10:00:00.000Z', '');",
                 part("CREATE TABLE ranked_items(", ") WITHOUT ROWID;"),
                 part("CREATE TABLE current_grades(", ") WITHOUT ROWID;"),
                 part("CREATE INDEX current_grades_by_reviewer", ";"),
@@ -428,7 +428,7 @@ fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
     let conn = rusqlite::Connection::open(&study).unwrap();
     let n: i64 = conn
         .query_row(
-            "SELECT COUNT(*) FROM grade_events WHERE uid = 'b9'",
+            "SELECT COUNT(*) FROM grade_events WHERE uid = '00000000000000000000000000abc006'",
             [],
             |r| r.get(0),
         )
@@ -442,7 +442,7 @@ fn a_copy_in_rollback_journal_mode_keeps_its_bytes() {
     tamper(
         &copy,
         &format!(
-            "{GRADE} VALUES ('b8', 'bo', 'q2', 'i1', 'fit', 'grade', 1, '', 2, '2026-11-30T10:00:00.000Z', '');"
+            "{GRADE} VALUES ('00000000000000000000000000abc007', 'bo', 'q2', 'i1', 'fit', 'grade', 1, '', 2, '2026-11-30T10:00:00.000Z', '');"
         ),
     );
     merged_untouched(&study, &copy, "merging wrote to its input");

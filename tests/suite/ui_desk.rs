@@ -325,7 +325,7 @@ fn images_outside_the_catalog_folder_or_missing_show_why() {
     h.step();
     assert_eq!(current_pair(&h).1, first);
     step_until(&mut h, "the refusal", |h| {
-        h.query_by_label_contains("../secret.png leaves the catalog folder; refused")
+        h.query_by_label_contains("../secret.png leaves the catalog folder: not a picture; refused")
             .is_some()
     });
 

@@ -89,7 +89,7 @@ fn the_preview_lists_names_to_accept_and_merges_only_when_ticked() {
         conn.execute_batch(
             "INSERT INTO reviewers(reviewer) VALUES ('mallory');
              INSERT INTO grade_events(uid, reviewer, context_id, item_id, scale, action, value, reason, seconds, graded_at, note)
-             VALUES ('m1', 'mallory', 'q01', 'fh-0240', 'fit4', 'grade', 3, '', 1, '2026-11-30T10:00:00.000Z', '');",
+             VALUES ('00000000000000000000000000abc003', 'mallory', 'q01', 'fh-0240', 'fit4', 'grade', 3, '', 1, '2026-11-30T10:00:00.000Z', '');",
         )
         .unwrap();
     }

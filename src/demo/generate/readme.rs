@@ -38,6 +38,11 @@ described, and the pictures are simple shapes drawn by the generator.
 - The judging pool is the union of the three rankers' top {POOL_DEPTH} per context. Reviewers see the hidden
   relevance through their own noise; rev-cedar is systematically a little stricter. The binary pilot
   grade is "useful" when the reviewer's own fit4 view is at least 2.
+- A machine judge, `{machine}`, graded every pooled pair on fit4 in one run. It sees the hidden
+  relevance through more noise than the people, rates anchor contexts too generously and tail
+  queries a little strictly: a bias of its own, not a copy of the panel. Building the demo study
+  draws a human sample of {sample} contexts with a fixed seed, so `plumbline score --machine
+  {machine}` shows estimates on first run.
 - A fixed seed (ChaCha8) drives everything, so regenerating gives byte-identical files.
 
 ## Counts
@@ -53,6 +58,9 @@ described, and the pictures are simple shapes drawn by the generator.
 | ranked list depth | {LIST_DEPTH} |
 | pooled pairs | {pairs} |
 | reviewers | {reviewers} |
+| machine judges | 1 |
+| machine judge grades (fit4) | {pairs} |
+| human sample drawn by the demo study | {sample} contexts |
 | fit4 grades | {fit4} |
 | useful2 grades | {useful2} |
 | pairs graded by all three reviewers | {overlap} ({share:.1} %) |
@@ -67,6 +75,7 @@ described, and the pictures are simple shapes drawn by the generator.
 - `rankings.csv`: top {LIST_DEPTH} per ranker and context, rank 1-based.
 - `scales.csv`: the `fit4` and `useful2` grading scales with rubrics.
 - `grades.csv`: one row per reviewer grade; an empty value is a can't-judge verdict with a reason.
+- `machine-grades.csv`: the machine judge's grades, with `kind` = `machine`.
 "#,
         items = items.len(),
         new = items.iter().filter(|i| i.new).count(),
@@ -76,6 +85,8 @@ described, and the pictures are simple shapes drawn by the generator.
         tail = seg("tail"),
         anchors = ctxs.len() - queries,
         reviewers = REVIEWERS.len(),
+        machine = super::MACHINE_JUDGE,
+        sample = crate::demo::DEMO_SAMPLE_CONTEXTS,
         useful2 = grades.len() - fit4,
         overlap = plan.overlap,
         share = 100.0 * plan.overlap as f64 / pairs as f64,

@@ -5,8 +5,8 @@ use std::collections::{BTreeMap, HashMap};
 use rusqlite::{Transaction, params};
 
 use super::{
-    CONTEXTS, Fields, FileReport, ITEMS, Source, id_set, image_path_is_safe, input_error, parse,
-    parse_bool, report, unneutralise,
+    CONTEXTS, DistinctIds, Fields, FileReport, ITEMS, Source, id_set, image_path_problem,
+    input_error, parse, parse_bool, report, unneutralise,
 };
 use crate::study::Result;
 use crate::study::csv_input::ProblemLog;
@@ -34,18 +34,15 @@ pub(super) fn import_items(tx: &Transaction, src: &Source) -> Result<FileReport>
     let extra: Vec<usize> = (0..table.header.len())
         .filter(|i| !known.contains(&table.header[*i].as_str()))
         .collect();
-    let mut seen: HashMap<String, u64> = HashMap::new();
+    let mut seen = DistinctIds::with_study(tx, "item_id", "SELECT item_id FROM items")?;
     let mut parsed: Vec<(String, ItemRow)> = Vec::with_capacity(table.rows.len());
     for row in &table.rows {
         let f = Fields { table: &table, row };
         let Some(id) = f.required("item_id", &mut log) else {
             continue;
         };
-        if let Some(first) = seen.insert(id.to_string(), row.line) {
-            log.push(f.problem(
-                "item_id",
-                format!("duplicate item_id \"{id}\" (first on line {first})"),
-            ));
+        if let Some(problem) = seen.check(id, row.line) {
+            log.push(f.problem("item_id", problem));
             continue;
         }
         let Some(title) = f.required("title", &mut log) else {
@@ -62,11 +59,11 @@ pub(super) fn import_items(tx: &Transaction, src: &Source) -> Result<FileReport>
             continue;
         };
         let image = f.text("image").trim();
-        if !image.is_empty() && !image_path_is_safe(image) {
-            log.push(f.problem(
-                "image",
-                format!("image path \"{image}\" leaves the catalog folder; use a path relative to the CSV without \"..\""),
-            ));
+        if let Some(problem) = (!image.is_empty())
+            .then(|| image_path_problem(&src.folder, image))
+            .flatten()
+        {
+            log.push(f.problem("image", problem));
             continue;
         }
         let attributes: BTreeMap<&str, &str> = extra
@@ -210,7 +207,7 @@ pub(super) fn import_contexts(tx: &Transaction, src: &Source) -> Result<FileRepo
     let table = parse(src, &CONTEXTS)?;
     let items = id_set(tx, "SELECT item_id FROM items")?;
     let mut log = ProblemLog::default();
-    let mut seen: HashMap<String, u64> = HashMap::new();
+    let mut seen = DistinctIds::with_study(tx, "context_id", "SELECT context_id FROM contexts")?;
     type ContextRow = (String, String, String, Option<String>, String);
     let mut parsed: Vec<ContextRow> = Vec::new();
     for row in &table.rows {
@@ -218,11 +215,8 @@ pub(super) fn import_contexts(tx: &Transaction, src: &Source) -> Result<FileRepo
         let Some(id) = f.required("context_id", &mut log) else {
             continue;
         };
-        if let Some(first) = seen.insert(id.to_string(), row.line) {
-            log.push(f.problem(
-                "context_id",
-                format!("duplicate context_id \"{id}\" (first on line {first})"),
-            ));
+        if let Some(problem) = seen.check(id, row.line) {
+            log.push(f.problem("context_id", problem));
             continue;
         }
         let kind = f.text("kind").trim().to_ascii_lowercase();

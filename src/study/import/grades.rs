@@ -9,6 +9,7 @@ use super::{
     report,
 };
 use crate::study::csv_input::ProblemLog;
+use crate::study::row_rules::{self, EventText};
 use crate::study::{Result, schema, time};
 
 pub(super) fn import_grades(
@@ -93,6 +94,31 @@ pub(super) fn import_grades(
             }
         };
         let settled_by = f.text("settled_by").trim();
+        let text = EventText {
+            who: if settled_by.is_empty() {
+                reviewer
+            } else {
+                settled_by
+            },
+            who_column: if settled_by.is_empty() {
+                "reviewer"
+            } else {
+                "settled_by"
+            },
+            context,
+            item,
+            scale,
+            reason: f.text("reason"),
+            note: f.text("note"),
+            at: &graded_at,
+        };
+        let found = row_rules::event_problems(&text);
+        if !found.is_empty() {
+            for (field, problem) in found {
+                log.push(f.problem(field, format!("{field} {problem}")));
+            }
+            continue;
+        }
         let kind = match f.text("kind").trim() {
             "" | "person" => "person",
             "machine" => "machine",

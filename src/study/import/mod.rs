@@ -1,8 +1,8 @@
 //! CSV import into a study. All files of one import go in one transaction: every row of
 //! every file, or nothing. Re-importing the same files changes nothing.
 
-use std::collections::HashSet;
-use std::path::{Component, Path, PathBuf};
+use std::collections::{HashMap, HashSet};
+use std::path::{Path, PathBuf};
 
 use rusqlite::Transaction;
 
@@ -97,10 +97,16 @@ impl Source {
         let name = csv_input::display_name(path);
         csv_input::open_regular(path)
             .map_err(|message| Problems(vec![csv_input::whole_file(&name, message)]))?;
-        let folder = path
-            .parent()
-            .map(|p| std::path::absolute(p).unwrap_or_else(|_| p.to_path_buf()))
-            .unwrap_or_default();
+        // Stored as the real absolute folder, whatever form the argument took (a bare
+        // `items.csv` has an empty parent), so pictures resolve from any working folder.
+        let parent = match path.parent() {
+            Some(p) if !p.as_os_str().is_empty() => p,
+            _ => Path::new("."),
+        };
+        let folder = parent
+            .canonicalize()
+            .or_else(|_| std::path::absolute(parent))
+            .unwrap_or_else(|_| parent.to_path_buf());
         Ok(Source {
             name,
             input: Input::File(path.to_path_buf()),
@@ -206,7 +212,7 @@ pub fn import_with_progress(
     progress: Progress,
 ) -> Result<Vec<FileReport>> {
     if study.is_read_only() {
-        return Err(StudyError::ReadOnly);
+        return Err(study.read_only_error());
     }
     // A large page cache keeps a big import's index pages in memory instead of
     // spilling them to the WAL mid-transaction (the default cache is 2 MB).
@@ -368,12 +374,23 @@ fn parse_bool(text: &str) -> Option<bool> {
     }
 }
 
-/// Image paths must stay inside the catalog folder: relative, with no `..`.
-fn image_path_is_safe(path: &str) -> bool {
-    let p = Path::new(path);
-    !p.is_absolute()
-        && p.components()
-            .all(|c| matches!(c, Component::Normal(_) | Component::CurDir))
+/// Why an image path of items.csv cannot be used, or None: it must be relative without
+/// `..`, and where a file is there it must be a regular file whose real path (links
+/// followed) lies inside the catalog folder and is not a study file. A missing picture
+/// stays allowed (it shows as missing on the desk).
+fn image_path_problem(folder: &Path, path: &str) -> Option<String> {
+    use crate::study::file_guard::{PathRefusal, is_plain_relative, resolve_inside};
+    if !is_plain_relative(path) {
+        return Some(format!(
+            "image path \"{path}\" leaves the catalog folder; use a path relative to the CSV without \"..\""
+        ));
+    }
+    match resolve_inside(folder, path) {
+        Ok(_) | Err(PathRefusal::Missing | PathRefusal::NoFolder(_)) => None,
+        Err(refusal) => Some(format!(
+            "image path \"{path}\": {refusal}; it is not a picture"
+        )),
+    }
 }
 
 fn report(src: &Source, kind: &'static str) -> FileReport {
@@ -448,3 +465,69 @@ fn id_set(tx: &Transaction, sql: &str) -> Result<HashSet<String>> {
 }
 
 pub use crate::core::digest::content_uid;
+
+/// The ids of one kind met so far (in the file, and in the study), keyed by their
+/// Unicode NFC form: two ids that differ in bytes but are canonically equivalent
+/// (Unicode Standard Annex #15) look identical on screen and would name two things.
+pub(super) struct DistinctIds {
+    what: &'static str,
+    /// NFC form → (the id as written, its line; 0 = already in the study).
+    seen: HashMap<String, (String, u64)>,
+}
+
+impl DistinctIds {
+    /// Starts with the ids the study already has.
+    pub(super) fn with_study(tx: &Transaction, what: &'static str, sql: &str) -> Result<Self> {
+        let mut seen = HashMap::new();
+        for id in id_set(tx, sql)? {
+            seen.insert(nfc(&id), (id, 0));
+        }
+        Ok(DistinctIds { what, seen })
+    }
+
+    /// Records `id` from `line`; the problem when an earlier line of the file has the
+    /// same id, or one equal after NFC but different in bytes (here or in the study).
+    pub(super) fn check(&mut self, id: &str, line: u64) -> Option<String> {
+        let what = self.what;
+        match self.seen.get(&nfc(id)) {
+            None => {
+                self.seen.insert(nfc(id), (id.to_string(), line));
+                None
+            }
+            Some((first, 0)) if first == id => None,
+            Some((first, first_line)) if first == id => Some(format!(
+                "duplicate {what} \"{id}\" (first on line {first_line})"
+            )),
+            Some((first, first_line)) => {
+                let place = match first_line {
+                    0 => "in the study".to_string(),
+                    n => format!("on line {n}"),
+                };
+                Some(format!(
+                    "{what} \"{}\" is the same text as \"{}\" {place} once Unicode-normalised (NFC) but differs in bytes; use one spelling",
+                    spelled(id),
+                    spelled(first)
+                ))
+            }
+        }
+    }
+}
+
+/// An id with every non-ASCII character written as its code point (`e\u{301}`), so
+/// that two spellings that look alike can be told apart in a message.
+fn spelled(id: &str) -> String {
+    id.chars()
+        .map(|c| {
+            if c.is_ascii() {
+                c.to_string()
+            } else {
+                format!("\\u{{{:x}}}", u32::from(c))
+            }
+        })
+        .collect()
+}
+
+fn nfc(text: &str) -> String {
+    use unicode_normalization::UnicodeNormalization;
+    text.nfc().collect()
+}

@@ -182,10 +182,11 @@ pub(crate) fn read_lists<'a>(
             }
         } else {
             rows.sort_by(|a, b| {
-                b.score
-                    .unwrap_or(f64::NEG_INFINITY)
-                    .total_cmp(&a.score.unwrap_or(f64::NEG_INFINITY))
-                    .then_with(|| a.item.cmp(b.item))
+                crate::core::stats::value_order(
+                    b.score.unwrap_or(f64::NEG_INFINITY),
+                    a.score.unwrap_or(f64::NEG_INFINITY),
+                )
+                .then_with(|| a.item.cmp(b.item))
             });
         }
         if left_out.contains(&(ranker, context)) {

@@ -5,7 +5,7 @@ use std::collections::BTreeMap;
 use rusqlite::{OptionalExtension, Transaction, params};
 
 use super::{Fields, FileReport, SCALES, Source, input_error, parse, report};
-use crate::core::scale::{DESK_KEYS, MAX_LEVELS, gains_fall, is_desk_key};
+use crate::core::scale::{DESK_KEYS, MAX_LEVELS, gain_problem, gains_fall, is_desk_key};
 use crate::study::Result;
 use crate::study::csv_input::{ProblemLog, Problems};
 
@@ -50,8 +50,8 @@ pub(super) fn import_scales(tx: &Transaction, src: &Source) -> Result<FileReport
         let Some(gain) = f.optional_f64("gain", &mut log) else {
             continue;
         };
-        if gain.is_some_and(|g| g < 0.0) {
-            log.push(f.problem("gain", "gain must not be negative"));
+        if let Some(problem) = gain.and_then(gain_problem) {
+            log.push(f.problem("gain", problem));
             continue;
         }
         scales.entry(scale.to_string()).or_default().push((

@@ -6,8 +6,9 @@ use std::collections::{BTreeMap, HashMap, HashSet};
 use rusqlite::types::Value;
 
 use super::refused;
+use crate::study::row_rules::{self, EventText};
 use crate::study::untrusted::{self, CheckedCopy, integer, number, text};
-use crate::study::{Result, Study, time};
+use crate::study::{Result, Study, StudyError};
 
 /// A grade event as read from a copy, checked.
 pub(super) struct GradeRow {
@@ -37,12 +38,17 @@ pub(super) struct SettleRow {
     pub(super) reason: String,
 }
 
-/// Everything a copy would bring, after every check.
-pub(super) struct Incoming {
-    pub(super) grades: Vec<GradeRow>,
-    pub(super) settlements: Vec<SettleRow>,
+/// What a copy would bring, after every check: whose events it holds and how many.
+/// The rows themselves are streamed again when they are written (`each_grade`).
+pub(super) struct CopySummary {
     pub(super) handed_out_to: Option<String>,
     pub(super) copy_id: Option<String>,
+    /// Grade events per reviewer.
+    pub(super) grades_by: BTreeMap<String, u64>,
+    /// Settled grades per settler.
+    pub(super) settled_by: BTreeMap<String, u64>,
+    /// Every event of both kinds.
+    pub(super) events: u64,
 }
 
 /// Collects problems, at most a screenful.
@@ -131,12 +137,12 @@ pub(super) fn definition_problems(
     problems: &mut Problems,
 ) -> Result<()> {
     let mut missing: BTreeMap<&str, Vec<String>> = BTreeMap::new();
-    for row in untrusted::rows(copy, "SELECT item_id, title, is_new FROM items", 3)? {
+    untrusted::for_each_row(copy, "SELECT item_id, title, is_new FROM items", 3, |row| {
         let (Some(id), Some(title)) = (text(&row[0]), text(&row[1])) else {
-            continue;
+            return Ok(());
         };
         if !used.items.contains(id) {
-            continue;
+            return Ok(());
         }
         let is_new = integer(&row[2]).unwrap_or(-1) != 0;
         match here.items.get(id) {
@@ -146,42 +152,49 @@ pub(super) fn definition_problems(
             )),
             None => {}
         }
-    }
-    for row in untrusted::rows(
+        Ok(())
+    })?;
+    untrusted::for_each_row(
         copy,
         "SELECT context_id, kind, text, anchor_item_id FROM contexts",
         4,
-    )? {
-        let Some(id) = text(&row[0]) else { continue };
-        if !used.contexts.contains(id) {
-            continue;
-        }
-        let theirs = (
-            text(&row[1]).unwrap_or_default().to_string(),
-            text(&row[2]).unwrap_or_default().to_string(),
-            text(&row[3]).map(str::to_string),
-        );
-        if let Some(ours) = here.contexts.get(id)
-            && *ours != theirs
-        {
-            problems.push(format!(
-                "context \"{id}\" is defined differently in the two studies"
-            ));
-        }
-    }
+        |row| {
+            let Some(id) = text(&row[0]) else {
+                return Ok(());
+            };
+            if !used.contexts.contains(id) {
+                return Ok(());
+            }
+            let theirs = (
+                text(&row[1]).unwrap_or_default().to_string(),
+                text(&row[2]).unwrap_or_default().to_string(),
+                text(&row[3]).map(str::to_string),
+            );
+            if let Some(ours) = here.contexts.get(id)
+                && *ours != theirs
+            {
+                problems.push(format!(
+                    "context \"{id}\" is defined differently in the two studies"
+                ));
+            }
+            Ok(())
+        },
+    )?;
     let mut their_levels: HashMap<String, Vec<String>> = HashMap::new();
-    for row in untrusted::rows(
+    untrusted::for_each_row(
         copy,
         "SELECT scale, label FROM levels ORDER BY scale, value",
         2,
-    )? {
-        if let (Some(scale), Some(label)) = (text(&row[0]), text(&row[1])) {
-            their_levels
-                .entry(scale.to_string())
-                .or_default()
-                .push(label.to_string());
-        }
-    }
+        |row| {
+            if let (Some(scale), Some(label)) = (text(&row[0]), text(&row[1])) {
+                their_levels
+                    .entry(scale.to_string())
+                    .or_default()
+                    .push(label.to_string());
+            }
+            Ok(())
+        },
+    )?;
     for scale in &used.scales {
         match (here.levels.get(scale), their_levels.get(scale)) {
             (Some(a), Some(b)) if a == b => {}
@@ -217,7 +230,7 @@ pub(super) fn definition_problems(
     Ok(())
 }
 
-/// Ids the incoming events refer to.
+/// Ids the incoming events refer to (bounded by the catalog, not by the events).
 #[derive(Default)]
 pub(super) struct Used {
     pub(super) items: HashSet<String>,
@@ -225,203 +238,332 @@ pub(super) struct Used {
     pub(super) scales: HashSet<String>,
 }
 
+impl Used {
+    fn note(&mut self, context: &str, item: &str, scale: &str) {
+        for (set, id) in [
+            (&mut self.contexts, context),
+            (&mut self.items, item),
+            (&mut self.scales, scale),
+        ] {
+            if !set.contains(id) {
+                set.insert(id.to_string());
+            }
+        }
+    }
+}
+
 pub(super) const ACTIONS: [&str; 3] = ["grade", "cant_judge", "undo"];
 
-/// Reads and checks every event of a copy.
-pub(super) fn read_incoming(copy: &CheckedCopy, here: &Definitions) -> Result<Incoming> {
-    let path = &copy.path;
+/// Checks one event of a copy by the rules an import holds (`row_rules`), plus its id:
+/// a digest this program writes. (Ids held twice are found by `repeated_ids`.)
+fn row_problems(at: &str, uid: &str, text: &EventText, problems: &mut Problems) -> bool {
+    let mut found: Vec<String> = row_rules::event_problems(text)
+        .into_iter()
+        .map(|(field, problem)| format!("{at}: {field} {problem}"))
+        .collect();
+    if !row_rules::is_digest(uid) {
+        found.push(format!(
+            "{at}: its id is not an event id this program writes (32 hex digits)"
+        ));
+    }
+    let ok = found.is_empty();
+    for p in found {
+        problems.push(p);
+    }
+    ok
+}
+
+const GRADE_ROWS: &str = "SELECT uid, reviewer, context_id, item_id, scale, action, value, reason, seconds, graded_at, note, id
+     FROM grade_events ORDER BY graded_at, id";
+const SETTLE_ROWS: &str =
+    "SELECT uid, context_id, item_id, scale, value, method, settled_by, settled_at, reason, id
+     FROM settle_events ORDER BY settled_at, id";
+
+/// Reads one grade event of a copy, or says what is wrong with it.
+fn grade_row(row: &[Value], here: &Definitions, problems: &mut Problems) -> Option<GradeRow> {
+    let at = format!("grade event {}", integer(&row[11]).unwrap_or(0));
+    let fields: Vec<Option<String>> = [
+        (0, "uid"),
+        (1, "reviewer"),
+        (2, "context_id"),
+        (3, "item_id"),
+        (4, "scale"),
+        (5, "action"),
+        (7, "reason"),
+        (9, "graded_at"),
+        (10, "note"),
+    ]
+    .iter()
+    .map(|(i, what)| text_field(row, *i, what, &at, problems))
+    .collect();
+    let [
+        Some(uid),
+        Some(reviewer),
+        Some(context),
+        Some(item),
+        Some(scale),
+        Some(action),
+        Some(reason),
+        Some(graded_at),
+        Some(note),
+    ] = <[Option<String>; 9]>::try_from(fields).unwrap_or_default()
+    else {
+        return None;
+    };
+    if !ACTIONS.contains(&action.as_str()) {
+        problems.push(format!("{at}: unknown action \"{action}\""));
+        return None;
+    }
+    let text = EventText {
+        who: &reviewer,
+        who_column: "reviewer",
+        context: &context,
+        item: &item,
+        scale: &scale,
+        reason: &reason,
+        note: &note,
+        at: &graded_at,
+    };
+    if !row_problems(&at, &uid, &text, problems) {
+        return None;
+    }
+    let (value, seconds) = grade_numbers(row, &action, &scale, here, &at, problems)?;
+    Some(GradeRow {
+        uid,
+        reviewer,
+        context,
+        item,
+        scale,
+        action,
+        value,
+        reason,
+        seconds,
+        graded_at,
+        note,
+    })
+}
+
+/// A grade event's level and seconds, checked against the scale here.
+fn grade_numbers(
+    row: &[Value],
+    action: &str,
+    scale: &str,
+    here: &Definitions,
+    at: &str,
+    problems: &mut Problems,
+) -> Option<(Option<i64>, Option<f64>)> {
+    let levels = here.levels.get(scale).map_or(0, Vec::len) as i64;
+    let value = match (&row[6], action) {
+        (Value::Null, "cant_judge" | "undo") => None,
+        (Value::Integer(v), "grade") if (0..levels.max(1)).contains(v) => Some(*v),
+        (Value::Integer(v), "grade") if levels > 0 => {
+            problems.push(format!(
+                "{at}: value {v} is not a level of scale \"{scale}\" (0 to {})",
+                levels - 1
+            ));
+            return None;
+        }
+        (Value::Integer(_), "grade") => None, // scale unknown here: reported below
+        (other, _) => {
+            problems.push(format!(
+                "{at}: value is {} for a \"{action}\" row",
+                kind(other)
+            ));
+            return None;
+        }
+    };
+    let seconds = match &row[8] {
+        Value::Null => None,
+        v => match number(v) {
+            Some(s) if row_rules::seconds_problem(s).is_none() => Some(s),
+            _ => {
+                problems.push(format!("{at}: seconds is {} and not a time", kind(v)));
+                return None;
+            }
+        },
+    };
+    Some((value, seconds))
+}
+
+/// Reads one settled grade of a copy, or says what is wrong with it.
+fn settle_row(row: &[Value], here: &Definitions, problems: &mut Problems) -> Option<SettleRow> {
+    let at = format!("settled grade {}", integer(&row[9]).unwrap_or(0));
+    let fields: Vec<Option<String>> = [
+        (0, "uid"),
+        (1, "context_id"),
+        (2, "item_id"),
+        (3, "scale"),
+        (5, "method"),
+        (6, "settled_by"),
+        (7, "settled_at"),
+        (8, "reason"),
+    ]
+    .iter()
+    .map(|(i, what)| text_field(row, *i, what, &at, problems))
+    .collect();
+    let [
+        Some(uid),
+        Some(context),
+        Some(item),
+        Some(scale),
+        Some(method),
+        Some(settled_by),
+        Some(settled_at),
+        Some(reason),
+    ] = <[Option<String>; 8]>::try_from(fields).unwrap_or_default()
+    else {
+        return None;
+    };
+    let levels = here.levels.get(&scale).map_or(0, Vec::len) as i64;
+    let value = match &row[4] {
+        Value::Null => None,
+        Value::Integer(v) if (0..levels).contains(v) || levels == 0 => Some(*v),
+        other => {
+            problems.push(format!(
+                "{at}: value {other:?} is not a level of scale \"{scale}\""
+            ));
+            return None;
+        }
+    };
+    let text = EventText {
+        who: &settled_by,
+        who_column: "settled_by",
+        context: &context,
+        item: &item,
+        scale: &scale,
+        reason: &reason,
+        note: "",
+        at: &settled_at,
+    };
+    if !row_problems(&at, &uid, &text, problems) {
+        return None;
+    }
+    Some(SettleRow {
+        uid,
+        context,
+        item,
+        scale,
+        value,
+        method,
+        settled_by,
+        settled_at,
+        reason,
+    })
+}
+
+/// Ids held by more than one event of a table (a copy edited to hold two events with
+/// one id passes SQLite's `quick_check`, which does not check UNIQUE constraints, and
+/// one of them would be dropped silently). Read without the index, which an edited
+/// copy could have made lie.
+fn repeated_ids(
+    copy: &CheckedCopy,
+    table: &str,
+    what: &str,
+    problems: &mut Problems,
+) -> Result<()> {
+    let sql =
+        format!("SELECT uid FROM {table} NOT INDEXED GROUP BY uid HAVING COUNT(*) > 1 LIMIT 5");
+    untrusted::for_each_row(copy, &sql, 1, |row| {
+        if let Some(uid) = text(&row[0]) {
+            problems.push(format!(
+                "{what}: its id {uid} is held by another event of the copy too (an edited copy)"
+            ));
+        }
+        Ok(())
+    })
+}
+
+/// Reads and checks every event of a copy, streaming (nothing of the copy is held but
+/// the names it uses and their counts), and returns what it would bring.
+pub(super) fn check_copy(copy: &CheckedCopy, here: &Definitions) -> Result<CopySummary> {
     let mut problems = Problems::default();
     let setting = |key: &str| -> Result<Option<String>> {
-        let rows = untrusted::rows(
+        let mut found = None;
+        untrusted::for_each_row(
             copy,
             &format!("SELECT value FROM settings WHERE key = '{key}'"),
             1,
-        )?;
-        Ok(rows.first().and_then(|r| text(&r[0]).map(str::to_string)))
-    };
-    let handed_out_to = setting(crate::study::settings::keys::HANDED_OUT_TO)?;
-    let copy_id = setting(crate::study::settings::keys::COPY_ID)?;
-    let mut used = Used::default();
-    let mut grades = Vec::new();
-    let rows = untrusted::rows(
-        copy,
-        "SELECT uid, reviewer, context_id, item_id, scale, action, value, reason, seconds, graded_at, note, id
-         FROM grade_events ORDER BY graded_at, id",
-        12,
-    )?;
-    for row in rows {
-        let at = format!("grade event {}", integer(&row[11]).unwrap_or(0));
-        let fields: Vec<Option<String>> = [
-            (0, "uid"),
-            (1, "reviewer"),
-            (2, "context_id"),
-            (3, "item_id"),
-            (4, "scale"),
-            (5, "action"),
-            (7, "reason"),
-            (9, "graded_at"),
-            (10, "note"),
-        ]
-        .iter()
-        .map(|(i, what)| text_field(&row, *i, what, &at, &mut problems))
-        .collect();
-        let [
-            Some(uid),
-            Some(reviewer),
-            Some(context),
-            Some(item),
-            Some(scale),
-            Some(action),
-            Some(reason),
-            Some(graded_at),
-            Some(note),
-        ] = <[Option<String>; 9]>::try_from(fields).unwrap_or_default()
-        else {
-            continue;
-        };
-        if !ACTIONS.contains(&action.as_str()) {
-            problems.push(format!("{at}: unknown action \"{action}\""));
-            continue;
-        }
-        if reviewer.trim().is_empty() || uid.is_empty() || uid.len() > 64 {
-            problems.push(format!("{at}: reviewer or uid is empty or too long"));
-            continue;
-        }
-        let levels = here.levels.get(&scale).map_or(0, Vec::len) as i64;
-        let value = match (&row[6], action.as_str()) {
-            (Value::Null, "cant_judge" | "undo") => None,
-            (Value::Integer(v), "grade") if (0..levels.max(1)).contains(v) => Some(*v),
-            (Value::Integer(v), "grade") if levels > 0 => {
-                problems.push(format!(
-                    "{at}: value {v} is not a level of scale \"{scale}\" (0 to {})",
-                    levels - 1
-                ));
-                continue;
-            }
-            (Value::Integer(_), "grade") => None, // scale unknown here: reported below
-            (other, _) => {
-                problems.push(format!(
-                    "{at}: value is {} for a \"{action}\" row",
-                    kind(other)
-                ));
-                continue;
-            }
-        };
-        let seconds = match &row[8] {
-            Value::Null => None,
-            v => match number(v) {
-                Some(s) if s.is_finite() && s >= 0.0 => Some(s),
-                _ => {
-                    problems.push(format!("{at}: seconds is {} and not a time", kind(v)));
-                    continue;
-                }
+            |r| {
+                found = text(&r[0]).map(str::to_string);
+                Ok(())
             },
-        };
-        if time::normalise_checked(&graded_at).ok().as_deref() != Some(graded_at.as_str()) {
-            problems.push(format!(
-                "{at}: graded_at \"{graded_at}\" is not a time in the study's form"
-            ));
-            continue;
+        )?;
+        Ok(found)
+    };
+    let mut summary = CopySummary {
+        handed_out_to: setting(crate::study::settings::keys::HANDED_OUT_TO)?,
+        copy_id: setting(crate::study::settings::keys::COPY_ID)?,
+        grades_by: BTreeMap::new(),
+        settled_by: BTreeMap::new(),
+        events: 0,
+    };
+    let mut used = Used::default();
+    untrusted::for_each_row(copy, GRADE_ROWS, 12, |row| {
+        if let Some(g) = grade_row(row, here, &mut problems) {
+            used.note(&g.context, &g.item, &g.scale);
+            *summary.grades_by.entry(g.reviewer).or_default() += 1;
+            summary.events += 1;
         }
-        used.items.insert(item.clone());
-        used.contexts.insert(context.clone());
-        used.scales.insert(scale.clone());
-        grades.push(GradeRow {
-            uid,
-            reviewer,
-            context,
-            item,
-            scale,
-            action,
-            value,
-            reason,
-            seconds,
-            graded_at,
-            note,
-        });
-    }
-    let mut settlements = Vec::new();
-    let rows = untrusted::rows(
-        copy,
-        "SELECT uid, context_id, item_id, scale, value, method, settled_by, settled_at, reason, id
-         FROM settle_events ORDER BY settled_at, id",
-        10,
-    )?;
-    for row in rows {
-        let at = format!("settled grade {}", integer(&row[9]).unwrap_or(0));
-        let fields: Vec<Option<String>> = [
-            (0, "uid"),
-            (1, "context_id"),
-            (2, "item_id"),
-            (3, "scale"),
-            (5, "method"),
-            (6, "settled_by"),
-            (7, "settled_at"),
-            (8, "reason"),
-        ]
-        .iter()
-        .map(|(i, what)| text_field(&row, *i, what, &at, &mut problems))
-        .collect();
-        let [
-            Some(uid),
-            Some(context),
-            Some(item),
-            Some(scale),
-            Some(method),
-            Some(settled_by),
-            Some(settled_at),
-            Some(reason),
-        ] = <[Option<String>; 8]>::try_from(fields).unwrap_or_default()
-        else {
-            continue;
-        };
-        let levels = here.levels.get(&scale).map_or(0, Vec::len) as i64;
-        let value = match &row[4] {
-            Value::Null => None,
-            Value::Integer(v) if (0..levels).contains(v) || levels == 0 => Some(*v),
-            other => {
-                problems.push(format!(
-                    "{at}: value {other:?} is not a level of scale \"{scale}\""
-                ));
-                continue;
-            }
-        };
-        if settled_by.trim().is_empty() || uid.is_empty() || uid.len() > 64 {
-            problems.push(format!("{at}: settled_by or uid is empty or too long"));
-            continue;
+        Ok(())
+    })?;
+    untrusted::for_each_row(copy, SETTLE_ROWS, 10, |row| {
+        if let Some(s) = settle_row(row, here, &mut problems) {
+            used.note(&s.context, &s.item, &s.scale);
+            *summary.settled_by.entry(s.settled_by).or_default() += 1;
+            summary.events += 1;
         }
-        if time::normalise_checked(&settled_at).ok().as_deref() != Some(settled_at.as_str()) {
-            problems.push(format!(
-                "{at}: settled_at \"{settled_at}\" is not a time in the study's form"
-            ));
-            continue;
-        }
-        used.items.insert(item.clone());
-        used.contexts.insert(context.clone());
-        used.scales.insert(scale.clone());
-        settlements.push(SettleRow {
-            uid,
-            context,
-            item,
-            scale,
-            value,
-            method,
-            settled_by,
-            settled_at,
-            reason,
-        });
-    }
+        Ok(())
+    })?;
+    repeated_ids(copy, "grade_events", "a grade event", &mut problems)?;
+    repeated_ids(copy, "settle_events", "a settled grade", &mut problems)?;
     definition_problems(copy, &used, here, &mut problems)?;
     if !problems.0.is_empty() {
         return Err(refused(
-            path,
+            &copy.path,
             format!("nothing was merged: {}", problems.0.join("; ")),
         ));
     }
-    Ok(Incoming {
-        grades,
-        settlements,
-        handed_out_to,
-        copy_id,
+    Ok(summary)
+}
+
+/// A copy whose rows changed between the check and the write (it is opened immutable,
+/// so only another program rewriting the file could do that).
+fn changed(copy: &CheckedCopy, problems: &Problems) -> StudyError {
+    refused(
+        &copy.path,
+        format!(
+            "the copy changed while it was being merged; nothing was merged ({})",
+            problems.0.join("; ")
+        ),
+    )
+}
+
+/// Streams the copy's grade events (checked by `check_copy` before) to `each`.
+pub(super) fn each_grade(
+    copy: &CheckedCopy,
+    here: &Definitions,
+    mut each: impl FnMut(GradeRow) -> Result<()>,
+) -> Result<()> {
+    untrusted::for_each_row(copy, GRADE_ROWS, 12, |row| {
+        let mut problems = Problems::default();
+        match grade_row(row, here, &mut problems) {
+            Some(g) => each(g),
+            None => Err(changed(copy, &problems)),
+        }
+    })
+}
+
+/// Streams the copy's settled grades (checked by `check_copy` before) to `each`.
+pub(super) fn each_settlement(
+    copy: &CheckedCopy,
+    here: &Definitions,
+    mut each: impl FnMut(SettleRow) -> Result<()>,
+) -> Result<()> {
+    untrusted::for_each_row(copy, SETTLE_ROWS, 10, |row| {
+        let mut problems = Problems::default();
+        match settle_row(row, here, &mut problems) {
+            Some(s) => each(s),
+            None => Err(changed(copy, &problems)),
+        }
     })
 }

@@ -17,7 +17,7 @@ mod incoming;
 
 use super::untrusted;
 use super::{Result, Study, StudyError};
-use incoming::read_incoming;
+use incoming::{CopySummary, check_copy, each_grade, each_settlement};
 
 /// What one merge brought in (or, for a preview, would bring in).
 #[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
@@ -58,6 +58,22 @@ pub fn pictures_folder_name(copy: &Path) -> String {
     format!("{stem}-pictures")
 }
 
+/// The largest study file (with its `-wal`) a merge reads: a reviewer copy of a study
+/// with millions of pairs stays well below it, and a larger file is refused before it
+/// is read rather than spending minutes of checks on it.
+pub const MAX_COPY_BYTES: u64 = 2 << 30;
+
+/// A copy's size on disk, with its `-wal` file.
+fn copy_size(copy: &Path) -> u64 {
+    let mut wal = copy.as_os_str().to_owned();
+    wal.push("-wal");
+    [copy.to_path_buf(), std::path::PathBuf::from(wal)]
+        .iter()
+        .filter_map(|p| std::fs::metadata(p).ok())
+        .map(|m| m.len())
+        .sum()
+}
+
 /// A copy refused as a whole, with the reason; nothing was changed.
 pub(super) fn refused(path: &Path, reason: String) -> StudyError {
     StudyError::Refused {
@@ -88,6 +104,38 @@ pub fn not_accepted(report: &MergeReport) -> String {
 }
 
 impl Study {
+    /// Whom this study handed the copy to, by its own record of the secret it issued (a
+    /// copy's word alone is not trusted: it could name anyone). A copy that claims a
+    /// hand-out this study never issued, or issued to someone else, is refused by name.
+    fn issued_to(&self, other: &Path, incoming: &CopySummary) -> Result<Option<String>> {
+        let (secret, named) = match (&incoming.copy_id, &incoming.handed_out_to) {
+            (None, None) => return Ok(None),
+            (Some(secret), Some(named)) => (secret, named),
+            _ => {
+                return Err(refused(
+                    other,
+                    "its hand-out record is incomplete (an edited copy); nothing was merged".into(),
+                ));
+            }
+        };
+        let key = format!("{}{secret}", super::settings::keys::HAND_OUT_PREFIX);
+        match self.setting(&key)? {
+            Some(recorded) if recorded == *named => Ok(Some(recorded)),
+            Some(recorded) => Err(refused(
+                other,
+                format!(
+                    "this copy claims to be {named}'s, but this study issued its hand-out to {recorded}; nothing was merged"
+                ),
+            )),
+            None => Err(refused(
+                other,
+                format!(
+                    "this copy claims to be handed out to {named}, but this study never issued its hand-out (an edited, copied or foreign copy); nothing was merged"
+                ),
+            )),
+        }
+    }
+
     /// Merges reviewers, grade history and settled grades from `other` in one transaction.
     /// Refuses the whole file, naming the ids, when its definitions do not match.
     pub fn merge_from(&mut self, other: &Path) -> Result<MergeReport> {
@@ -125,7 +173,7 @@ impl Study {
         commit: bool,
     ) -> Result<MergeReport> {
         if self.is_read_only() {
-            return Err(StudyError::ReadOnly);
+            return Err(self.read_only_error());
         }
         if std::fs::canonicalize(other).ok() == std::fs::canonicalize(self.path()).ok() {
             return Err(refused(
@@ -133,120 +181,130 @@ impl Study {
                 "a study cannot be merged into itself".into(),
             ));
         }
+        let size = copy_size(other);
+        if size > MAX_COPY_BYTES {
+            return Err(refused(
+                other,
+                format!(
+                    "it is {} MiB, over the limit of {} MiB for a study to merge; nothing was merged",
+                    size >> 20,
+                    MAX_COPY_BYTES >> 20
+                ),
+            ));
+        }
         let copy = untrusted::open_copy(other)?;
         let here = self.definitions()?;
-        let incoming = read_incoming(&copy, &here)?;
-        drop(copy);
-        // Whom this study handed the copy to, by its own record (a copy's word alone is
-        // not trusted: it could name anyone).
-        let handed_out_to = match (&incoming.copy_id, &incoming.handed_out_to) {
-            (Some(id), Some(named)) => self
-                .setting(&format!("hand_out:{id}"))?
-                .filter(|recorded| recorded == named),
-            _ => None,
-        };
+        let summary = check_copy(&copy, &here)?;
+        let handed_out_to = self.issued_to(other, &summary)?;
         let mut allowed: HashSet<&str> = options.accept.iter().map(String::as_str).collect();
         if let Some(r) = &handed_out_to {
             allowed.insert(r);
         }
-        let mut waiting: BTreeMap<&str, (u64, u64)> = BTreeMap::new();
-        for g in &incoming.grades {
-            if !allowed.contains(g.reviewer.as_str()) {
-                waiting.entry(&g.reviewer).or_default().0 += 1;
-            }
-        }
         // Settling is the lead's work: a settled grade comes in only when its settler is
         // accepted by name, even if it is the reviewer the copy went to.
-        let accepted: HashSet<&str> = options.accept.iter().map(String::as_str).collect();
-        for s in &incoming.settlements {
-            if !accepted.contains(s.settled_by.as_str()) {
-                waiting.entry(&s.settled_by).or_default().1 += 1;
-            }
+        let settlers: HashSet<&str> = options.accept.iter().map(String::as_str).collect();
+        let mut report = MergeReport {
+            file: other.display().to_string(),
+            grades_added: 0,
+            settled_added: 0,
+            reviewers_added: 0,
+            needs_acceptance: needs_acceptance(&summary, &allowed, &settlers),
+            handed_out_to: handed_out_to.clone(),
+        };
+        if commit && !report.needs_acceptance.is_empty() {
+            return Ok(report);
         }
-        let needs_acceptance: Vec<NameCount> = waiting
-            .into_iter()
-            .map(|(name, (grades, settled))| NameCount {
-                name: name.to_string(),
-                grades,
-                settled,
-            })
-            .collect();
-        let file = other.display().to_string();
-        if commit && !needs_acceptance.is_empty() {
-            return Ok(MergeReport {
-                file,
-                grades_added: 0,
-                settled_added: 0,
-                reviewers_added: 0,
-                handed_out_to,
-                needs_acceptance,
-            });
-        }
+        copy.allow_time_for(summary.events);
         let tx = self.begin_write()?;
-        let mut reviewers_added = 0;
-        let mut grades_added = 0;
-        let mut settled_added = 0;
-        {
-            let mut add_reviewer =
-                tx.prepare("INSERT OR IGNORE INTO reviewers(reviewer) VALUES (?1)")?;
-            let mut add_grade = tx.prepare(
-                "INSERT OR IGNORE INTO grade_events(uid, reviewer, context_id, item_id, scale, action, value, reason, seconds, graded_at, note)
-                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11)",
-            )?;
-            let mut add_settlement = tx.prepare(
-                "INSERT OR IGNORE INTO settle_events(uid, context_id, item_id, scale, value, method, settled_by, settled_at, reason)
-                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)",
-            )?;
-            for g in incoming
-                .grades
-                .iter()
-                .filter(|g| allowed.contains(g.reviewer.as_str()))
-            {
-                reviewers_added += add_reviewer.execute([&g.reviewer])? as u64;
-                grades_added += add_grade.execute(params![
-                    g.uid,
-                    g.reviewer,
-                    g.context,
-                    g.item,
-                    g.scale,
-                    g.action,
-                    g.value,
-                    g.reason,
-                    g.seconds,
-                    g.graded_at,
-                    g.note
-                ])? as u64;
-            }
-            for s in incoming
-                .settlements
-                .iter()
-                .filter(|s| accepted.contains(s.settled_by.as_str()))
-            {
-                settled_added += add_settlement.execute(params![
-                    s.uid,
-                    s.context,
-                    s.item,
-                    s.scale,
-                    s.value,
-                    s.method,
-                    s.settled_by,
-                    s.settled_at,
-                    s.reason
-                ])? as u64;
-            }
-        }
+        write_events(&tx, &copy, &here, (&allowed, &settlers), &mut report)?;
+        drop(copy);
         if commit {
             tx.commit()?;
         } else {
             tx.rollback()?;
         }
-        Ok(MergeReport {
-            file,
-            grades_added,
-            settled_added,
-            reviewers_added,
-            handed_out_to,
-            needs_acceptance,
-        })
+        Ok(report)
     }
+}
+
+/// The names whose events need the lead's yes, with how many of each kind.
+fn needs_acceptance(
+    summary: &CopySummary,
+    allowed: &HashSet<&str>,
+    settlers: &HashSet<&str>,
+) -> Vec<NameCount> {
+    let mut waiting: BTreeMap<&str, (u64, u64)> = BTreeMap::new();
+    for (name, n) in &summary.grades_by {
+        if !allowed.contains(name.as_str()) {
+            waiting.entry(name).or_default().0 += n;
+        }
+    }
+    for (name, n) in &summary.settled_by {
+        if !settlers.contains(name.as_str()) {
+            waiting.entry(name).or_default().1 += n;
+        }
+    }
+    waiting
+        .into_iter()
+        .map(|(name, (grades, settled))| NameCount {
+            name: name.to_string(),
+            grades,
+            settled,
+        })
+        .collect()
+}
+
+/// Streams the copy's events of allowed reviewers and accepted settlers into the
+/// study's transaction, counting what was new in `report`.
+fn write_events(
+    tx: &rusqlite::Transaction,
+    copy: &untrusted::CheckedCopy,
+    here: &incoming::Definitions,
+    (allowed, settlers): (&HashSet<&str>, &HashSet<&str>),
+    report: &mut MergeReport,
+) -> Result<()> {
+    let mut add_reviewer = tx.prepare("INSERT OR IGNORE INTO reviewers(reviewer) VALUES (?1)")?;
+    let mut add_grade = tx.prepare(
+        "INSERT OR IGNORE INTO grade_events(uid, reviewer, context_id, item_id, scale, action, value, reason, seconds, graded_at, note)
+         VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11)",
+    )?;
+    let mut add_settlement = tx.prepare(
+        "INSERT OR IGNORE INTO settle_events(uid, context_id, item_id, scale, value, method, settled_by, settled_at, reason)
+         VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)",
+    )?;
+    each_grade(copy, here, |g| {
+        if allowed.contains(g.reviewer.as_str()) {
+            report.reviewers_added += add_reviewer.execute([&g.reviewer])? as u64;
+            report.grades_added += add_grade.execute(params![
+                g.uid,
+                g.reviewer,
+                g.context,
+                g.item,
+                g.scale,
+                g.action,
+                g.value,
+                g.reason,
+                g.seconds,
+                g.graded_at,
+                g.note
+            ])? as u64;
+        }
+        Ok(())
+    })?;
+    each_settlement(copy, here, |s| {
+        if settlers.contains(s.settled_by.as_str()) {
+            report.settled_added += add_settlement.execute(params![
+                s.uid,
+                s.context,
+                s.item,
+                s.scale,
+                s.value,
+                s.method,
+                s.settled_by,
+                s.settled_at,
+                s.reason
+            ])? as u64;
+        }
+        Ok(())
+    })
 }

@@ -27,7 +27,10 @@ fn figure(x: f64) -> String {
     }
 }
 
-/// Gold pairs per reviewer, then the machine judges; nothing when neither exists.
+/// Where a machine judge's estimates are, said beside its agreement figures.
+pub const ESTIMATES_THERE: &str = "Estimates of every ranker's metrics from a machine judge corrected by a random human sample (prediction-powered inference) are on the Scoreboard (Ctrl+6), in its section \"Estimates from a machine judge\".";
+
+/// Gold pairs per reviewer, then the machine judges (or how to add one).
 /// Returns a setting the lead changed (training, machines in the panel).
 pub fn gold_and_machines(ui: &mut egui::Ui, model: &AgreementModel) -> Option<QualityChange> {
     let report = &model.report;
@@ -95,6 +98,7 @@ pub fn gold_and_machines(ui: &mut egui::Ui, model: &AgreementModel) -> Option<Qu
         ui.add_space(10.0);
     }
     if report.machines.is_empty() {
+        ui.weak(crate::analysis::estimates_view::NO_MACHINE);
         return change;
     }
     ui.heading("Machine judges against the people's panel grade");
@@ -140,6 +144,7 @@ pub fn gold_and_machines(ui: &mut egui::Ui, model: &AgreementModel) -> Option<Qu
             }
         });
     ui.colored_label(ui.visuals().warn_fg_color, MACHINE_CAUTION);
+    ui.label(ESTIMATES_THERE);
     let mut counted = model.machines_in_panel;
     if ui
         .add_enabled(

@@ -12,9 +12,14 @@ use crate::ui::jobs::{JobError, JobResult};
 /// Runs on a job thread; returns the write handle with the data.
 pub fn load(path: &Path, reviewer: &str, scale: Option<String>) -> JobResult<(DeskData, Study)> {
     let mut study = Study::open(path)?;
-    if !study.is_read_only() {
-        study.add_reviewer(reviewer)?;
+    if study.is_read_only() {
+        // No grade given here could be saved: the desk stays closed rather than taking
+        // grades it would lose.
+        return Err(JobError::Missing(
+            "This study is read-only (its file or its folder cannot be written): the desk is closed, since no grade could be saved.".into(),
+        ));
     }
+    study.add_reviewer(reviewer)?;
     let snapshot = study.snapshot()?;
     if snapshot.scales.is_empty() {
         return Err(JobError::Missing(
@@ -27,9 +32,7 @@ pub fn load(path: &Path, reviewer: &str, scale: Option<String>) -> JobResult<(De
             let i = snapshot
                 .scale_index(name)
                 .ok_or_else(|| JobError::Missing(format!("no scale named {name}")))?;
-            if !study.is_read_only() {
-                study.set_setting(crate::study::settings::keys::ACTIVE_SCALE, name)?;
-            }
+            study.set_setting(crate::study::settings::keys::ACTIVE_SCALE, name)?;
             i
         }
         // During a pilot the reviewer works through one scale's block after another, and

@@ -95,16 +95,21 @@ impl ScoreboardScreen {
             if report_wanted {
                 let files = report::files(&target, &board, &curves, agreement.as_ref())
                     .map_err(|e| write_error(std::io::Error::other(e)))?;
-                let written = files.write(&target).map_err(write_error)?;
+                let written = files
+                    .write(&target)
+                    .map_err(|e| write_error(std::io::Error::other(e.to_string())))?;
                 Ok(format!(
                     "Saved {} and {} pictures beside it.",
                     target.display(),
                     written.len() - 1
                 ))
             } else {
-                std::fs::write(&target, render::scoreboard_csv(&board))
-                    .map(|_| format!("Saved {}.", target.display()))
-                    .map_err(write_error)
+                let csv = render::scoreboard_csv(&board);
+                crate::study::file_guard::write_atomically(&target, |out| {
+                    Ok(out.write_all(csv.as_bytes())?)
+                })
+                .map(|_| format!("Saved {}.", target.display()))
+                .map_err(|e| write_error(std::io::Error::other(e.to_string())))
             }
         });
     }

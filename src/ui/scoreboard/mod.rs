@@ -4,6 +4,7 @@
 //! thread (see `analysis::scoreboard_view`), the same function `plumbline score` prints, so
 //! screen and terminal agree.
 
+mod estimates;
 mod export;
 pub mod plots;
 mod tables;
@@ -67,6 +68,8 @@ pub struct ScoreboardScreen {
     pub lists_path: String,
     /// Where "save … there" writes (no file dialog needed).
     pub export_path: String,
+    /// Estimates from a machine judge corrected by the human sample.
+    pub estimates: estimates::EstimatesSection,
 }
 
 impl Default for ScoreboardScreen {
@@ -89,6 +92,7 @@ impl Default for ScoreboardScreen {
             lists_files: Vec::new(),
             lists_path: String::new(),
             export_path: String::new(),
+            estimates: estimates::EstimatesSection::default(),
         }
     }
 }
@@ -132,6 +136,8 @@ impl ScoreboardScreen {
                     }
                     self.error = None;
                     self.model = Some(model);
+                    // Grades or settings may have changed: the estimates follow.
+                    self.estimates.stale = true;
                 }
                 Err(e) => {
                     self.computed_for = sent;
@@ -411,6 +417,9 @@ impl ScoreboardScreen {
             ui.add_space(6.0);
             ui.label(m);
         }
+        // Last, so that its figures arriving later never move the controls above.
+        ui.add_space(10.0);
+        self.estimates.ui(ui, path, &board.settings);
     }
 
     /// "Score lists from a file": a typed path (no file dialog needed), scored beside the

@@ -160,3 +160,58 @@ fn a_thin_pair_gets_a_caution_a_kept_interval_and_a_marked_cell() {
     );
     assert!(svg.contains("0 or below") && svg.contains("1 (perfect)"));
 }
+
+/// The Scale trial gives a reason instead of a bare "–" where a quadratic kappa cannot
+/// exist: kappa needs two reviewers (Cohen 1960), and here only ann graded.
+#[test]
+fn a_missing_trial_kappa_says_why() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let study = d.join("one.plumb");
+    let s = study.to_str().unwrap();
+    let file = |name: &str, text: &str| {
+        let p = d.join(name);
+        std::fs::write(&p, text).unwrap();
+        p.to_str().unwrap().to_string()
+    };
+    let scales = file(
+        "s.csv",
+        "scale,value,label\nfine,0,Off\nfine,1,Loose\nfine,2,Good\ncoarse,0,No\ncoarse,1,Yes\n",
+    );
+    let items = file("i.csv", "item_id,title\ni1,A\ni2,B\ni3,C\n");
+    let contexts = file("c.csv", "context_id,kind,text\nq1,query,a\n");
+    let rankings = file(
+        "r.csv",
+        "ranker,context_id,item_id,rank\nr1,q1,i1,1\nr1,q1,i2,2\nr1,q1,i3,3\n",
+    );
+    let grades = file(
+        "g.csv",
+        "reviewer,context_id,item_id,scale,value\n\
+         ann,q1,i1,fine,2\nann,q1,i2,fine,1\nann,q1,i3,fine,0\n\
+         ann,q1,i1,coarse,1\nann,q1,i2,coarse,1\nann,q1,i3,coarse,0\n",
+    );
+    run(&["new", s]);
+    run(&[
+        "import",
+        s,
+        "--scales",
+        &scales,
+        "--items",
+        &items,
+        "--contexts",
+        &contexts,
+        "--rankings",
+        &rankings,
+        "--grades",
+        &grades,
+    ]);
+    let mut h: Bench = Harness::builder()
+        .with_size([1360.0, 1400.0])
+        .build_ui_state(
+            |ui, wb: &mut Workbench| wb.show(ui),
+            Workbench::new(study.clone(), Screen::Trial),
+        );
+    step_until(&mut h, "the trial's reason", |h| {
+        h.query_all_by_label("– (one reviewer)").next().is_some()
+    });
+}

@@ -26,8 +26,11 @@ pub struct Coverage {
 pub struct ReviewerProgress {
     /// The reviewer.
     pub reviewer: String,
-    /// Grades given on the active scale (queued or not).
+    /// Pairs graded on the active scale (queued or not; can't judge included).
     pub grades: usize,
+    /// True for a machine judge (its grades stay outside the panel unless the lead
+    /// counts them in).
+    pub machine: bool,
     /// (done, total) of the reviewer's queue, once a queue exists.
     pub queue: Option<(u64, u64)>,
 }
@@ -169,8 +172,9 @@ pub fn text(model: &HomeModel) -> String {
                 Some((done, total)) => format!("queue {done} of {total}"),
                 None => "no queue yet".to_string(),
             };
+            let kind = if r.machine { " (machine judge)" } else { "" };
             out.push_str(&format!(
-                "  {:<16} {} pairs graded, {queue}\n",
+                "  {:<16} {} pairs graded{kind}, {queue}\n",
                 r.reviewer, r.grades
             ));
         }
@@ -235,11 +239,16 @@ pub fn build(
         .enumerate()
         .map(|(r, name)| ReviewerProgress {
             reviewer: name.clone(),
-            grades: snapshot
-                .grades
-                .iter()
-                .filter(|g| g.reviewer as usize == r && Some(g.scale as usize) == scale)
-                .count(),
+            machine: snapshot.is_machine(r),
+            // A machine judge's grades are kept apart from the panel's: count them there.
+            grades: if snapshot.is_machine(r) {
+                &snapshot.machine_grades
+            } else {
+                &snapshot.grades
+            }
+            .iter()
+            .filter(|g| g.reviewer as usize == r && Some(g.scale as usize) == scale)
+            .count(),
             queue: queues
                 .iter()
                 .find(|q| &q.reviewer == name)

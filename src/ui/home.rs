@@ -118,7 +118,12 @@ fn body(ui: &mut egui::Ui, model: &HomeModel) {
             .num_columns(3)
             .show(ui, |ui| {
                 for r in &model.reviewers {
-                    ui.label(&r.reviewer);
+                    if r.machine {
+                        ui.label(format!("{} (machine judge)", r.reviewer))
+                            .on_hover_text("Its grades are imported and kept outside the panel unless the lead counts them in on the Agreement screen");
+                    } else {
+                        ui.label(&r.reviewer);
+                    }
                     let outside = r.grades.saturating_sub(r.queue.map_or(0, |q| q.0 as usize));
                     ui.label(format!("{} pairs graded", r.grades)).on_hover_text(format!(
                         "Pairs {} graded on {scale}, in the queue or not; {outside} of them lie \
@@ -127,6 +132,9 @@ fn body(ui: &mut egui::Ui, model: &HomeModel) {
                     ));
                     match r.queue {
                         Some((done, total)) => queue_bar(ui, done as usize, total as usize, 220.0),
+                        None if r.machine => {
+                            ui.weak("no queue: a machine judge's grades are imported");
+                        }
                         None => {
                             ui.weak("no queue yet (made at sign-in)");
                         }

@@ -196,3 +196,30 @@ fn the_demo_tells_its_story() {
         );
     }
 }
+
+/// Home counts a machine judge's own grades (kept outside the panel), not zero: the
+/// demo's judge graded every row of demo-catalog/machine-grades.csv.
+#[test]
+fn home_counts_the_machine_judges_own_grades() {
+    let (_dir, study) = demo_study();
+    let rows = std::fs::read_to_string(committed().join("machine-grades.csv")).unwrap();
+    let fit4_rows = rows
+        .lines()
+        .skip(1)
+        .filter(|l| l.contains(",fit4,"))
+        .count();
+    let home = plumbline::analysis::home::of_study(&study).unwrap();
+    let judge = home
+        .reviewers
+        .iter()
+        .find(|r| r.reviewer == "judge-sorrel")
+        .unwrap();
+    assert!(judge.machine);
+    assert_eq!(judge.grades, fit4_rows);
+    assert!(
+        home.reviewers
+            .iter()
+            .filter(|r| r.reviewer != "judge-sorrel")
+            .all(|r| !r.machine)
+    );
+}

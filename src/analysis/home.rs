@@ -29,7 +29,9 @@ pub struct ReviewerProgress {
     /// Pairs graded on the active scale (queued or not; can't judge included).
     pub grades: usize,
     /// True for a machine judge (its grades stay outside the panel unless the lead
-    /// counts them in).
+    /// counts them in); written only when true, so a people-only study's JSON is as
+    /// older builds printed it.
+    #[serde(skip_serializing_if = "std::ops::Not::not")]
     pub machine: bool,
     /// (done, total) of the reviewer's queue, once a queue exists.
     pub queue: Option<(u64, u64)>,

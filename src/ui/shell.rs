@@ -289,7 +289,15 @@ impl Workbench {
         egui::CentralPanel::default_margins().show(ui, |ui| match self.screen {
             Screen::Catalog => self.catalog.ui(ui, &self.path, self.reviewer.as_deref()),
             Screen::Desk => self.desk_screen(ui),
-            Screen::Agreement => self.agreement.ui(ui, &self.path, self.reviewer.as_deref()),
+            Screen::Agreement => {
+                self.agreement.ui(ui, &self.path, self.reviewer.as_deref());
+                if let Some(machine) = self.agreement.take_open_estimates() {
+                    // The machine judge's estimates sit in the Scoreboard's last section.
+                    self.scoreboard.estimates.machine = Some(machine);
+                    self.scoreboard.estimates.stale = true;
+                    self.screen = Screen::Scoreboard;
+                }
+            }
             Screen::Scoreboard => {
                 let signed_in = self.reviewer.clone();
                 let action = self.scoreboard.ui(ui, &self.path, signed_in.as_deref());

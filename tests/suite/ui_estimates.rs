@@ -103,3 +103,35 @@ fn estimates_on_screen_equal_score_machine_and_the_button_draws_more() {
         plumbline::demo::DEMO_SAMPLE_CONTEXTS as u64 + most
     );
 }
+
+/// The Agreement screen's machine-judge section links to the estimates: its button opens
+/// the Scoreboard with that judge chosen, and the section shows its figures.
+#[test]
+fn the_agreement_screen_links_to_the_machine_judges_estimates() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(&path, Screen::Agreement);
+    let label = "Estimates from judge-sorrel on the Scoreboard";
+    step_until(&mut h, "the machine judge's link", |h| {
+        h.query_by_label(label).is_some()
+    });
+    // The section lies below the fold: the button is pressed through AccessKit.
+    h.get_by_label(label).click_accesskit();
+    step_until(&mut h, "the Scoreboard", |h| {
+        h.state().screen == Screen::Scoreboard
+    });
+    assert_eq!(
+        h.state().scoreboard.estimates.machine.as_deref(),
+        Some("judge-sorrel")
+    );
+    let json = machine_json(&path, "0.05");
+    let at_focus = json["estimates"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|e| e["metric"] == "ndcg@10")
+        .unwrap();
+    let expected = interval(at_focus, "estimate", "ci_low", "ci_high");
+    step_until(&mut h, "the estimates", |h| {
+        all_texts(h).iter().any(|t| t == &expected)
+    });
+}

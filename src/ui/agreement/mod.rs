@@ -39,6 +39,8 @@ pub struct AgreementScreen {
     pub settle: SettleForm,
     /// Writes a reviewer-quality setting (training, machines in the panel).
     quality_write: Task<JobResult<()>>,
+    /// A machine judge whose estimates the lead asked for (the workbench opens them).
+    open_estimates: Option<String>,
 }
 
 impl Default for AgreementScreen {
@@ -53,6 +55,7 @@ impl Default for AgreementScreen {
             show_disagreements: false,
             settle: SettleForm::default(),
             quality_write: Task::named("quality-setting"),
+            open_estimates: None,
         }
     }
 }
@@ -61,6 +64,11 @@ impl AgreementScreen {
     /// The workbench calls this when the screen is entered; the next frame recomputes.
     pub fn entered(&mut self) {
         self.entered = true;
+    }
+
+    /// The machine judge whose estimates the lead asked to see on the Scoreboard, once.
+    pub fn take_open_estimates(&mut self) -> Option<String> {
+        self.open_estimates.take()
     }
 
     /// Whether the model is being computed.
@@ -75,6 +83,7 @@ impl AgreementScreen {
         self.quality_write.start(ctx, move || {
             let study = Study::open(&path)?;
             match change {
+                quality::QualityChange::OpenEstimates(_) => {}
                 quality::QualityChange::Training(list) => {
                     study.set_setting(keys::TRAINING_REVIEWERS, &list.join(","))?
                 }
@@ -189,8 +198,12 @@ impl AgreementScreen {
                 ui.add_space(10.0);
                 quality::drift(ui, &model.review);
                 ui.add_space(10.0);
-                if let Some(change) = quality::gold_and_machines(ui, &model) {
-                    self.save_quality(ui.ctx(), path, change);
+                match quality::gold_and_machines(ui, &model) {
+                    Some(quality::QualityChange::OpenEstimates(machine)) => {
+                        self.open_estimates = Some(machine);
+                    }
+                    Some(change) => self.save_quality(ui.ctx(), path, change),
+                    None => {}
                 }
             });
         self.model = Some(Ok(model));

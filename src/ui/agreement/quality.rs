@@ -13,6 +13,8 @@ pub enum QualityChange {
     Training(Vec<String>),
     /// Whether machine judges count in the panel.
     MachinesInPanel(bool),
+    /// Open the Scoreboard's estimates section for this machine judge.
+    OpenEstimates(String),
 }
 
 fn share(x: Option<f64>) -> String {
@@ -144,7 +146,14 @@ pub fn gold_and_machines(ui: &mut egui::Ui, model: &AgreementModel) -> Option<Qu
             }
         });
     ui.colored_label(ui.visuals().warn_fg_color, MACHINE_CAUTION);
-    ui.label(ESTIMATES_THERE);
+    ui.horizontal_wrapped(|ui| {
+        for m in &report.machines {
+            let label = format!("Estimates from {} on the Scoreboard", m.reviewer);
+            if ui.button(&label).on_hover_text(ESTIMATES_THERE).clicked() {
+                change = Some(QualityChange::OpenEstimates(m.reviewer.clone()));
+            }
+        }
+    });
     let mut counted = model.machines_in_panel;
     if ui
         .add_enabled(

@@ -13,31 +13,20 @@ pub fn load(path: &Path) -> JobResult<HomeModel> {
     Ok(home::of_study(&Study::open(path)?)?)
 }
 
-fn fraction_bar(ui: &mut egui::Ui, done: usize, total: usize, width: f32) {
+/// A bar of `done` of `total` with its text: "12 / 50 (24 %)", or for a reviewer's
+/// queue "queue 197 of 347 (57 %)", so it is not read as all they graded.
+fn fraction_bar(ui: &mut egui::Ui, done: usize, total: usize, width: f32, queue: bool) {
     let f = if total == 0 {
         0.0
     } else {
         done as f32 / total as f32
     };
-    ui.add(
-        egui::ProgressBar::new(f)
-            .desired_width(width)
-            .text(format!("{done} / {total} ({:.0} %)", f * 100.0)),
-    );
-}
-
-/// A reviewer's queue: "queue 197 of 347 (57 %)", so it is not read as all they graded.
-fn queue_bar(ui: &mut egui::Ui, done: usize, total: usize, width: f32) {
-    let f = if total == 0 {
-        0.0
+    let text = if queue {
+        format!("queue {done} of {total} ({:.0} %)", f * 100.0)
     } else {
-        done as f32 / total as f32
+        format!("{done} / {total} ({:.0} %)", f * 100.0)
     };
-    ui.add(
-        egui::ProgressBar::new(f)
-            .desired_width(width)
-            .text(format!("queue {done} of {total} ({:.0} %)", f * 100.0)),
-    );
+    ui.add(egui::ProgressBar::new(f).desired_width(width).text(text));
 }
 
 pub fn ui(ui: &mut egui::Ui, model: &HomeModel) {
@@ -92,11 +81,11 @@ fn body(ui: &mut egui::Ui, model: &HomeModel) {
             .num_columns(2)
             .show(ui, |ui| {
                 ui.label("Whole pool");
-                fraction_bar(ui, model.pool_graded, model.pool_size, 260.0);
+                fraction_bar(ui, model.pool_graded, model.pool_size, 260.0, false);
                 ui.end_row();
                 for c in &model.coverage {
                     ui.label(&c.ranker);
-                    fraction_bar(ui, c.graded, c.pairs, 260.0);
+                    fraction_bar(ui, c.graded, c.pairs, 260.0, false);
                     ui.end_row();
                 }
             });
@@ -110,7 +99,7 @@ fn body(ui: &mut egui::Ui, model: &HomeModel) {
                 "{} contexts drawn · {} complete · {} pending",
                 sample.drawn, sample.complete, sample.pending
             ));
-            fraction_bar(ui, sample.complete, sample.drawn, 260.0);
+            fraction_bar(ui, sample.complete, sample.drawn, 260.0, false);
         }
         ui.add_space(12.0);
         ui.strong(format!("Reviewers on {scale}"));
@@ -131,7 +120,7 @@ fn body(ui: &mut egui::Ui, model: &HomeModel) {
                         r.reviewer
                     ));
                     match r.queue {
-                        Some((done, total)) => queue_bar(ui, done as usize, total as usize, 220.0),
+                        Some((done, total)) => fraction_bar(ui, done as usize, total as usize, 220.0, true),
                         None if r.machine => {
                             ui.weak("no queue: a machine judge's grades are imported");
                         }

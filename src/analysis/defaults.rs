@@ -8,6 +8,15 @@ pub const SEED: u64 = 20_261_201;
 /// Cut-offs scored when none are chosen.
 pub const CUTOFFS: [usize; 3] = [5, 10, 20];
 
+/// RBP's persistence p: a reader goes on to the next item four times in five (the
+/// middle of the values Moffat & Zobel 2008 discuss, 0.5 to 0.95; common practice).
+pub const RBP_PERSISTENCE: f64 = 0.8;
+
+/// [`RBP_PERSISTENCE`] as a function, for serde defaults of older saved settings.
+pub fn rbp_persistence() -> f64 {
+    RBP_PERSISTENCE
+}
+
 /// Bootstrap resamples behind a scoreboard interval (common practice: 1000–2000 for a
 /// 95 % percentile interval).
 pub const SCORE_BOOTSTRAP: usize = 2000;

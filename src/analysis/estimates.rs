@@ -217,7 +217,7 @@ fn values(
             .collect()
     };
     let (people_ideal, machine_ideal) = (ideal(&people), ideal(&machine));
-    let ks = &settings.ks;
+    let ks = &crate::core::metric_table::scored_metrics(&settings.ks);
     snapshot
         .lists
         .iter()

@@ -4,7 +4,8 @@
 
 use super::judgments::{self, ContextJudgments, GradeSource};
 use super::scoreboard::{ScoreSettings, Segment};
-use crate::core::metrics::{self, AtK, JudgedList, ListSettings};
+use crate::core::metric_table::{self, Metric};
+use crate::core::metrics::{self, JudgedList, ListSettings};
 use crate::study::snapshot::Snapshot;
 
 /// Gains, top level, relevance threshold and unjudged rule of one scoring pass.
@@ -15,6 +16,7 @@ pub fn list_settings(snapshot: &Snapshot, scale: usize, settings: &ScoreSettings
         max_level: scale.max_level(),
         relevant_from: settings.relevant_from,
         unjudged: settings.unjudged,
+        persistence: settings.persistence,
     }
 }
 
@@ -66,22 +68,21 @@ pub fn ideal_gains(judged: &[(u32, u8)], list_settings: &ListSettings) -> Vec<f6
 }
 
 /// One ranker's values `[metric][context]` over `contexts`, metrics in the order of
-/// `scoreboard::metric_keys(ks)`. `ideal[c]` holds the context's ideal gains. A context
-/// with no judged item above level 0 gets NDCG 0 (its NDCG is undefined: the scoreboard
-/// never passes such a context, the estimates count it as 0).
+/// `metrics`. `ideal[c]` holds the context's ideal gains. A context with no judged item
+/// above level 0 gets NDCG 0 (its NDCG is undefined: the scoreboard never passes such a
+/// context, the estimates count it as 0).
 pub fn ranker_values(
     lists: &[Vec<u32>],
     judged: &ContextJudgments,
     ideal: &[Vec<f64>],
     list_settings: &ListSettings,
-    ks: &[usize],
+    metrics: &[Metric],
     contexts: &[usize],
 ) -> Vec<Vec<f64>> {
-    let n_keys = ks.len() * 5 + 1;
-    let mut per_metric = vec![Vec::with_capacity(contexts.len()); n_keys];
+    let mut per_metric = vec![Vec::with_capacity(contexts.len()); metrics.len()];
     let mut levels: Vec<Option<u8>> = Vec::new();
     let mut scratch = Vec::new();
-    let mut at_k: Vec<AtK> = Vec::new();
+    let mut values: Vec<f64> = Vec::new();
     for &c in contexts {
         levels.clear();
         levels.extend(
@@ -94,16 +95,10 @@ pub fn ranker_values(
             ideal_gains: &ideal[c],
             has_relevant: judged[c].iter().any(|(_, level)| *level > 0),
         };
-        let rr = metrics::score_list(&list, list_settings, ks, &mut scratch, &mut at_k);
-        for (ki, m) in at_k.iter().enumerate() {
-            let base = ki * 5;
-            per_metric[base].push(m.ndcg.unwrap_or(0.0));
-            per_metric[base + 1].push(m.dcg);
-            per_metric[base + 2].push(m.precision);
-            per_metric[base + 3].push(m.err);
-            per_metric[base + 4].push(m.judged);
+        metric_table::score_list(&list, list_settings, metrics, &mut scratch, &mut values);
+        for (column, value) in per_metric.iter_mut().zip(&values) {
+            column.push(*value);
         }
-        per_metric[n_keys - 1].push(rr);
     }
     per_metric
 }

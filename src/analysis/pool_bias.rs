@@ -11,7 +11,8 @@ use std::collections::HashSet;
 use serde::Serialize;
 
 use super::judgments::{self, ContextJudgments};
-use crate::core::metrics::{self, AtK, JudgedList, ListSettings};
+use crate::core::metric_table::{self, Metric, MetricKind};
+use crate::core::metrics::{JudgedList, ListSettings};
 use crate::core::stats;
 use crate::study::snapshot::Snapshot;
 
@@ -70,7 +71,7 @@ pub(super) fn compute(s: &Scored) -> Vec<PoolBias> {
     let mut levels: Vec<Option<u8>> = Vec::new();
     let mut ideal: Vec<f64> = Vec::new();
     let mut scratch = Vec::new();
-    let mut at_k: Vec<AtK> = Vec::new();
+    let mut values: Vec<f64> = Vec::new();
     for (r, name) in snapshot.rankers.iter().enumerate() {
         for (ki, &k) in s.ks.iter().enumerate() {
             let (mut sum, mut kept, mut unique_pairs, mut judged_sum) = (0.0, 0usize, 0, 0.0);
@@ -111,10 +112,20 @@ pub(super) fn compute(s: &Scored) -> Vec<PoolBias> {
                     ideal_gains: &ideal,
                     has_relevant,
                 };
-                metrics::score_list(&judged_list, s.list_settings, &[k], &mut scratch, &mut at_k);
-                judged_sum += at_k[0].judged;
+                let wanted = [
+                    Metric::at(MetricKind::Ndcg, k),
+                    Metric::at(MetricKind::Judged, k),
+                ];
+                metric_table::score_list(
+                    &judged_list,
+                    s.list_settings,
+                    &wanted,
+                    &mut scratch,
+                    &mut values,
+                );
+                judged_sum += values[1];
                 if has_relevant {
-                    sum += at_k[0].ndcg.unwrap_or(0.0);
+                    sum += values[0];
                     kept += 1;
                 }
             }

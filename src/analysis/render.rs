@@ -110,28 +110,21 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
     );
     let _ = writeln!(
         out,
-        "{} contexts scored; left out: {} graded with no relevant item, {} never graded on this scale. Panel grade: {}. 95 % percentile bootstrap intervals (B = {}).\n",
+        "{} contexts scored; left out: {} graded with no relevant item, {} never graded on this scale. Panel grade: {}. RBP persistence p = {}. 95 % percentile bootstrap intervals (B = {}).\n",
         board.contexts_scored,
         board.contexts_without_relevant,
         board.contexts_without_grades,
         s.panel_grade.label(),
+        s.persistence,
         s.bootstrap_resamples
     );
     out.push_str(&rankings_files_text(board));
     if board.contexts_scored == 0 {
         let _ = writeln!(out, "{}\n", super::scoreboard::NOTHING_TO_SCORE);
     }
-    let mut keys: Vec<String> = Vec::new();
-    for k in &s.ks {
-        keys.push(format!("ndcg@{k}"));
-    }
-    for k in &s.ks {
-        keys.push(format!("judged@{k}"));
-    }
     let k_main = crate::analysis::defaults::focus_k(&s.ks);
-    keys.push(format!("precision@{k_main}"));
-    keys.push(format!("err@{k_main}"));
-    keys.push("rr".into());
+    let columns = crate::core::metric_table::table_columns(&s.ks, k_main, false);
+    let keys: Vec<String> = columns.iter().map(|m| m.key()).collect();
     let mut rows = vec![
         std::iter::once("ranker".to_string())
             .chain(keys.iter().cloned())
@@ -142,9 +135,9 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
             Some(file) => format!("{} ({file})", r.ranker),
             None => r.ranker.clone(),
         }];
-        for key in &keys {
+        for (key, metric) in keys.iter().zip(&columns) {
             row.push(match r.metrics.get(key) {
-                Some(m) if key.starts_with("judged") => percent(m.mean),
+                Some(m) if metric.spec().is_share => percent(m.mean),
                 Some(m) => super::scoreboard_view::with_interval(m.mean, m.ci_low, m.ci_high),
                 None => "–".into(),
             });
@@ -246,9 +239,11 @@ pub fn scoreboard_csv(board: &Scoreboard) -> String {
             "gain",
             "unjudged",
             "segment",
+            "persistence",
         ],
     );
     let s = &board.settings;
+    let persistence = s.persistence.to_string();
     let gain = format!("{:?}", s.gain).to_lowercase();
     let unjudged = format!("{:?}", s.unjudged).to_lowercase();
     let grades = s.grades.label();
@@ -268,6 +263,7 @@ pub fn scoreboard_csv(board: &Scoreboard) -> String {
                         &gain,
                         &unjudged,
                         &segment,
+                        &persistence,
                     ],
                 );
             }

@@ -64,6 +64,13 @@ fn settings_lines(board: &Scoreboard) -> Vec<(String, String)> {
         ),
         ("Cut-offs k".into(), ks.join(", ")),
         (
+            "RBP persistence p".into(),
+            format!(
+                "{} (a reader goes on to the next item with this chance; RBP and its residual cover the whole list)",
+                s.persistence
+            ),
+        ),
+        (
             "Gain".into(),
             match s.gain {
                 GainKind::Exponential => "exponential (2^level − 1)".into(),
@@ -102,16 +109,14 @@ fn settings_lines(board: &Scoreboard) -> Vec<(String, String)> {
     ]
 }
 
-/// The metric columns of the ranker table: NDCG at every k, then the rest at each k, then RR.
+/// The metric columns of the report's ranker table: the metric table's columns, every
+/// cut-off of each metric cut at k.
 pub fn report_metric_keys(ks: &[usize]) -> Vec<String> {
-    let mut keys = Vec::new();
-    for name in ["ndcg", "precision", "err", "judged"] {
-        for k in ks {
-            keys.push(format!("{name}@{k}"));
-        }
-    }
-    keys.push("rr".into());
-    keys
+    let focus = super::defaults::focus_k(ks);
+    crate::core::metric_table::table_columns(ks, focus, true)
+        .into_iter()
+        .map(crate::core::metric_table::Metric::key)
+        .collect()
 }
 
 /// A report ready to write: the Markdown and the SVG pictures it links.
@@ -213,7 +218,9 @@ pub fn markdown(
                 .chain(keys.iter().map(|key| match r.metrics.get(key) {
                     // A mean without data is a dash alone, never NaN or "– [–, –]".
                     Some(m) if !m.mean.is_finite() => "–".into(),
-                    Some(m) if key.starts_with("judged") => format!("{:.0} %", m.mean * 100.0),
+                    Some(m) if super::scoreboard_view::is_share(key) => {
+                        format!("{:.0} %", m.mean * 100.0)
+                    }
                     Some(m) => format!("{} [{}, {}]", num(m.mean), num(m.ci_low), num(m.ci_high)),
                     None => "–".into(),
                 }))

@@ -10,6 +10,7 @@ use super::judgments::{self, GradeSource};
 use super::per_context;
 use super::pool_bias::{self, PoolBias};
 pub use super::segment::Segment;
+use crate::core::metric_table::{self, Metric, MetricKind};
 use crate::core::metrics::{GainKind, Unjudged};
 use crate::core::stats;
 use crate::study::outside_lists::FileLists;
@@ -37,6 +38,10 @@ pub struct ScoreSettings {
     pub panel_grade: judgments::PanelRule,
     /// Level from which an item is relevant for precision and RR.
     pub relevant_from: u8,
+    /// RBP's persistence p (Moffat & Zobel 2008), strictly between 0 and 1 (default
+    /// [`defaults::RBP_PERSISTENCE`]).
+    #[serde(default = "defaults::rbp_persistence")]
+    pub persistence: f64,
     /// Bootstrap resamples of contexts behind every interval (default
     /// [`defaults::SCORE_BOOTSTRAP`]).
     pub bootstrap_resamples: usize,
@@ -59,6 +64,7 @@ impl Default for ScoreSettings {
             segment: Segment::All,
             panel_grade: judgments::PanelRule::LowerMedian,
             relevant_from: 1,
+            persistence: defaults::RBP_PERSISTENCE,
             bootstrap_resamples: defaults::SCORE_BOOTSTRAP,
             randomization_resamples: defaults::SCORE_RANDOMIZATION,
             seed: defaults::SEED,
@@ -191,16 +197,12 @@ fn describe_gains(own: &[Option<f64>], used: &[f64], kind: GainKind) -> String {
     }
 }
 
-/// The metric keys of one k, in display order.
+/// The metric keys scored at the cut-offs `ks`, in the metric table's order.
 pub fn metric_keys(ks: &[usize]) -> Vec<String> {
-    let mut keys = Vec::new();
-    for k in ks {
-        for name in ["ndcg", "dcg", "precision", "err", "judged"] {
-            keys.push(format!("{name}@{k}"));
-        }
-    }
-    keys.push("rr".into());
-    keys
+    metric_table::scored_metrics(ks)
+        .into_iter()
+        .map(Metric::key)
+        .collect()
 }
 
 /// Why every figure is "–" when no context can be scored.
@@ -227,6 +229,9 @@ pub enum ScoreError {
     /// No cut-off was given, or one of them is 0.
     #[error("k must be at least 1")]
     BadK,
+    /// RBP's persistence is not strictly between 0 and 1 (the value is given).
+    #[error("the persistence must be above 0 and below 1, not {0}")]
+    BadPersistence(f64),
 }
 
 /// Derives a seed per purpose from names, so adding a ranker leaves others' intervals alone.
@@ -239,6 +244,9 @@ fn seed_for(base: u64, parts: &[&str]) -> u64 {
 pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard, ScoreError> {
     if settings.ks.is_empty() || settings.ks.contains(&0) {
         return Err(ScoreError::BadK);
+    }
+    if !(settings.persistence > 0.0 && settings.persistence < 1.0) {
+        return Err(ScoreError::BadPersistence(settings.persistence));
     }
     let scale_index = match &settings.scale {
         Some(name) => snapshot
@@ -278,7 +286,8 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         ideal[c] = per_context::ideal_gains(&judged[c], &list_settings);
         scored_contexts.push(c);
     }
-    let keys = metric_keys(&settings.ks);
+    let metrics = metric_table::scored_metrics(&settings.ks);
+    let keys: Vec<String> = metrics.iter().map(|m| m.key()).collect();
     // values[ranker][metric key index][scored context index]
     let values: Vec<Vec<Vec<f64>>> = snapshot
         .lists
@@ -289,7 +298,7 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
                 &judged,
                 &ideal,
                 &list_settings,
-                &settings.ks,
+                &metrics,
                 &scored_contexts,
             )
         })
@@ -300,9 +309,10 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         Some(b) => (0..snapshot.rankers.len())
             .filter(|r| *r != b)
             .flat_map(|r| {
-                keys.iter()
+                metrics
+                    .iter()
                     .enumerate()
-                    .filter(|(_, k)| k.starts_with("ndcg@"))
+                    .filter(|(_, m)| m.kind == MetricKind::Ndcg)
                     .map(move |(m, _)| (r, m))
             })
             .collect(),
@@ -364,9 +374,14 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
             from_file: snapshot.ranker_file(r).map(str::to_string),
         })
         .collect();
-    let mean_at = |r: usize, offset: usize| -> Vec<f64> {
-        (0..settings.ks.len())
-            .map(|ki| intervals[r * keys.len() + ki * 5 + offset].mean)
+    let mean_at = |r: usize, kind: MetricKind| -> Vec<f64> {
+        settings
+            .ks
+            .iter()
+            .map(|&k| {
+                let m = metrics.iter().position(|m| *m == Metric::at(kind, k));
+                intervals[r * keys.len() + m.expect("every cut-off is scored")].mean
+            })
             .collect()
     };
     let pool_bias = pool_bias::compute(&pool_bias::Scored {
@@ -374,8 +389,12 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         judged: &judged,
         scored_contexts: &scored_contexts,
         list_settings: &list_settings,
-        means: (0..snapshot.rankers.len()).map(|r| mean_at(r, 0)).collect(),
-        judged_means: (0..snapshot.rankers.len()).map(|r| mean_at(r, 4)).collect(),
+        means: (0..snapshot.rankers.len())
+            .map(|r| mean_at(r, MetricKind::Ndcg))
+            .collect(),
+        judged_means: (0..snapshot.rankers.len())
+            .map(|r| mean_at(r, MetricKind::Judged))
+            .collect(),
         ks: &settings.ks,
     });
     let diff_intervals = &intervals[snapshot.rankers.len() * keys.len()..];

@@ -8,6 +8,7 @@ use super::agreement::{self, AgreementReport};
 use super::gaps::{GapPair, gap_pairs};
 use super::judgments::GradeSource;
 use super::scoreboard::{self, ScoreError, ScoreSettings, Scoreboard};
+use crate::core::metric_table::{self, Metric};
 use crate::core::stats::kendall_tau_b;
 use crate::study::snapshot::Snapshot;
 
@@ -411,27 +412,33 @@ pub fn p_text(p: f64) -> String {
     }
 }
 
-/// The ranker table's columns: NDCG at every k, P, ERR and judged at the focus k, then RR.
+/// The ranker table's columns, from the metric table: NDCG at every k, P and ERR at
+/// the focus k, RR, RBP and its residual, then judged@k at every k.
 pub fn table_keys(ks: &[usize], focus: usize) -> Vec<String> {
-    let mut keys = ndcg_keys(ks);
-    keys.push(format!("precision@{focus}"));
-    keys.push(format!("err@{focus}"));
-    keys.push("rr".into());
-    keys.extend(ks.iter().map(|k| format!("judged@{k}")));
-    keys
+    metric_table::table_columns(ks, focus, false)
+        .into_iter()
+        .map(Metric::key)
+        .collect()
 }
 
-/// A metric key as a column title (`ndcg@10` → `NDCG@10`).
+/// A metric key as a column title (`ndcg@10` → `NDCG@10`); an unknown key as it is.
 pub fn column_title(key: &str) -> String {
-    key.replace("ndcg", "NDCG")
-        .replace("precision", "P")
-        .replace("err", "ERR")
-        .replace("rr", "RR")
+    Metric::parse(key).map_or_else(|| key.to_string(), Metric::title)
 }
 
-/// A table cell: judged@k as a percentage, the rest as mean with interval.
+/// What a column measures and its source, for the column's tooltip.
+pub fn column_tooltip(key: &str) -> &'static str {
+    Metric::parse(key).map_or("", |m| m.spec().tooltip)
+}
+
+/// Whether a column is a share shown as a percentage (judged@k).
+pub fn is_share(key: &str) -> bool {
+    Metric::parse(key).is_some_and(|m| m.spec().is_share)
+}
+
+/// A table cell: shares (judged@k) as a percentage, the rest as mean with interval.
 pub fn cell_text(key: &str, m: &scoreboard::MetricSummary) -> String {
-    if key.starts_with("judged") {
+    if is_share(key) {
         super::render::percent_spaced(m.mean)
     } else {
         with_interval(m.mean, m.ci_low, m.ci_high)

@@ -9,6 +9,7 @@ use serde::Serialize;
 use super::agreement;
 use super::judgments::{self, GradeSource};
 use crate::core::agreement::CollapseMap;
+use crate::core::metric_table::{self, Metric, MetricKind};
 use crate::core::metrics::{self, JudgedList, ListSettings, Unjudged};
 use crate::core::scale::{Level, Scale};
 use crate::core::stats;
@@ -126,6 +127,7 @@ fn ndcg_by_ranker(snapshot: &Snapshot, scale: usize) -> Vec<Vec<f64>> {
         max_level: s.max_level(),
         relevant_from: 1,
         unjudged: Unjudged::Condense,
+        persistence: super::defaults::RBP_PERSISTENCE,
     };
     let contexts: Vec<usize> = (0..snapshot.contexts.len())
         .filter(|c| judged[*c].iter().any(|(_, l)| *l > 0))
@@ -150,8 +152,14 @@ fn ndcg_by_ranker(snapshot: &Snapshot, scale: usize) -> Vec<Vec<f64>> {
                         ideal_gains: &ideal,
                         has_relevant: true,
                     };
-                    metrics::score_list(&list, &settings, &[10], &mut scratch, &mut out);
-                    out[0].ndcg.unwrap_or(0.0)
+                    metric_table::score_list(
+                        &list,
+                        &settings,
+                        &[Metric::at(MetricKind::Ndcg, 10)],
+                        &mut scratch,
+                        &mut out,
+                    );
+                    out[0]
                 })
                 .collect()
         })

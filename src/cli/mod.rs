@@ -46,6 +46,9 @@ pub struct ScoreOptions {
     /// How an unsettled pair's panel levels become one level.
     #[arg(long = "panel-grade", value_enum, default_value_t = PanelGradeChoice::LowerMedian)]
     pub panel_grade: PanelGradeChoice,
+    /// RBP's persistence p, above 0 and below 1 (Moffat & Zobel 2008).
+    #[arg(long, default_value_t = crate::analysis::defaults::RBP_PERSISTENCE, value_parser = persistence)]
+    pub persistence: f64,
     #[arg(long, default_value_t = crate::analysis::defaults::SCORE_BOOTSTRAP)]
     pub bootstrap: usize,
     #[arg(long, default_value_t = crate::analysis::defaults::SCORE_RANDOMIZATION)]
@@ -78,10 +81,21 @@ impl ScoreOptions {
                 PanelGradeChoice::UpperMedian => PanelRule::UpperMedian,
                 PanelGradeChoice::MeanRounded => PanelRule::MeanRounded,
             },
+            persistence: self.persistence,
             bootstrap_resamples: self.bootstrap,
             randomization_resamples: self.randomization,
             ..Default::default()
         }
+    }
+}
+
+/// Reads `--persistence`: a number above 0 and below 1.
+fn persistence(text: &str) -> Result<f64, String> {
+    match text.parse::<f64>() {
+        Ok(p) if p > 0.0 && p < 1.0 => Ok(p),
+        _ => Err(format!(
+            "\"{text}\" is not a persistence: give a number above 0 and below 1, such as 0.8"
+        )),
     }
 }
 

@@ -2,7 +2,11 @@
 //!
 //! Definitions follow Järvelin & Kekäläinen (2002) for CG/DCG/NDCG, Burges et al. (2005)
 //! for the exponential gain, Chapelle et al. (2009) for ERR and Sakai (2007) for condensed
-//! lists. Everything here works on plain numbers so the scoring pass stays allocation-light.
+//! lists, Moffat & Zobel (2008, ACM TOIS 27(1)) for rank-biased precision and its
+//! residual. Everything here works on plain numbers so the scoring pass stays
+//! allocation-light; `metric_table` says which function makes which published key.
+
+use super::metric_table::PreparedList;
 
 /// How a level turns into a gain when the scale sets no gains of its own.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
@@ -117,25 +121,6 @@ pub fn err(levels: &[Option<u8>], max_level: u8, k: usize) -> f64 {
     total
 }
 
-/// The metric values of one ranked list at one cut-off.
-#[derive(Debug, Clone, Copy, PartialEq, Default)]
-pub struct AtK {
-    /// Cumulative gain: the sum of the gains in the top k (unjudged positions add nothing).
-    pub cg: f64,
-    /// Discounted cumulative gain at k: each gain times 1/log2(rank + 1).
-    pub dcg: f64,
-    /// DCG@k of the ideal ordering of the context's judged items.
-    pub idcg: f64,
-    /// None when the context has no item above level 0.
-    pub ndcg: Option<f64>,
-    /// Relevant items in the top k divided by k (a list shorter than k is not rescaled).
-    pub precision: f64,
-    /// Expected reciprocal rank at k (Chapelle et al. 2009).
-    pub err: f64,
-    /// Share of the top k of the list as returned (before condensing) that is judged.
-    pub judged: f64,
-}
-
 /// A ranked list resolved against the judgments: level per position, None = unjudged.
 #[derive(Debug, Clone)]
 pub struct JudgedList<'a> {
@@ -158,65 +143,100 @@ pub struct ListSettings {
     pub relevant_from: u8,
     /// Whether unjudged positions count as gain 0 or are dropped before cutting at k.
     pub unjudged: Unjudged,
+    /// RBP's persistence p, the chance that a reader goes on to the next item
+    /// (Moffat & Zobel 2008); strictly between 0 and 1.
+    pub persistence: f64,
 }
 
-/// Scores a list at each cut-off in `ks`, plus its reciprocal rank (uncut).
-/// `scratch` is reused between calls to avoid allocating per list.
-pub fn score_list(
-    list: &JudgedList<'_>,
-    settings: &ListSettings,
-    ks: &[usize],
-    scratch: &mut Vec<Option<u8>>,
-    out: &mut Vec<AtK>,
-) -> f64 {
-    scratch.clear();
-    match settings.unjudged {
-        Unjudged::Zero => scratch.extend_from_slice(list.levels),
-        Unjudged::Condense => scratch.extend(list.levels.iter().filter(|l| l.is_some())),
-    }
-    let effective = &scratch[..];
-    out.clear();
-    for &k in ks {
-        let mut cg = 0.0;
-        let mut dcg_sum = 0.0;
-        let mut relevant = 0usize;
-        for (i, level) in effective.iter().take(k).enumerate() {
-            if let Some(v) = level {
-                let g = settings.gains[*v as usize];
-                cg += g;
-                dcg_sum += g * discount(i + 1);
-                if *v >= settings.relevant_from {
-                    relevant += 1;
-                }
-            }
-        }
-        let idcg: f64 = list
-            .ideal_gains
-            .iter()
-            .take(k)
-            .enumerate()
-            .map(|(i, g)| g * discount(i + 1))
-            .sum();
-        let shown = list.levels.len().min(k);
-        let judged_count = list.levels[..shown].iter().filter(|l| l.is_some()).count();
-        out.push(AtK {
-            cg,
-            dcg: dcg_sum,
-            idcg,
-            ndcg: (list.has_relevant && idcg > 0.0).then(|| dcg_sum / idcg),
-            precision: relevant as f64 / k as f64,
-            err: err(effective, settings.max_level, k),
-            judged: if shown == 0 {
-                0.0
-            } else {
-                judged_count as f64 / shown as f64
-            },
-        });
-    }
-    effective
+/// DCG@k of a prepared list (after the unjudged rule); unjudged positions add nothing.
+pub fn dcg_at(list: &PreparedList<'_>, settings: &ListSettings, k: usize) -> f64 {
+    list.effective
+        .iter()
+        .take(k)
+        .enumerate()
+        .filter_map(|(i, level)| level.map(|v| settings.gains[v as usize] * discount(i + 1)))
+        .sum()
+}
+
+/// Cumulative gain at k: the sum of the gains in the top k (unjudged positions add
+/// nothing; Järvelin & Kekäläinen 2002).
+pub fn cg_at(list: &PreparedList<'_>, settings: &ListSettings, k: usize) -> f64 {
+    list.effective
+        .iter()
+        .take(k)
+        .flatten()
+        .map(|v| settings.gains[*v as usize])
+        .sum()
+}
+
+/// NDCG@k, or None when the context has no relevant item or its ideal DCG@k is 0.
+pub fn ndcg_at(list: &PreparedList<'_>, settings: &ListSettings, k: usize) -> Option<f64> {
+    let ideal = dcg(list.ideal_gains, Some(k));
+    (list.has_relevant && ideal > 0.0).then(|| dcg_at(list, settings, k) / ideal)
+}
+
+/// Relevant items in the top k divided by k (a list shorter than k is not rescaled).
+pub fn precision_at(list: &PreparedList<'_>, settings: &ListSettings, k: usize) -> f64 {
+    let relevant = list
+        .effective
+        .iter()
+        .take(k)
+        .filter(|l| l.is_some_and(|v| v >= settings.relevant_from))
+        .count();
+    relevant as f64 / k as f64
+}
+
+/// Reciprocal rank of the first relevant item of the whole list; 0 without one.
+pub fn reciprocal_rank(list: &PreparedList<'_>, settings: &ListSettings) -> f64 {
+    list.effective
         .iter()
         .position(|l| l.is_some_and(|v| v >= settings.relevant_from))
         .map_or(0.0, |i| 1.0 / (i + 1) as f64)
+}
+
+/// Share of the first min(k, length) positions as returned that is judged; 0 for an
+/// empty list.
+pub fn judged_at(returned: &[Option<u8>], k: usize) -> f64 {
+    let shown = returned.len().min(k);
+    if shown == 0 {
+        return 0.0;
+    }
+    returned[..shown].iter().filter(|l| l.is_some()).count() as f64 / shown as f64
+}
+
+/// Rank-biased precision of the whole list as returned (Moffat & Zobel 2008):
+/// (1 − p) Σ r_i p^(i−1), r_i = the item's gain / the gain of the scale's top level,
+/// unjudged items 0. A scale whose top level has no gain gives 0.
+pub fn rbp(returned: &[Option<u8>], settings: &ListSettings) -> f64 {
+    let top = settings.gains[settings.max_level as usize];
+    if top <= 0.0 {
+        return 0.0;
+    }
+    let p = settings.persistence;
+    let mut weight = 1.0 - p;
+    let mut sum = 0.0;
+    for level in returned {
+        if let Some(v) = level {
+            sum += weight * settings.gains[*v as usize] / top;
+        }
+        weight *= p;
+    }
+    sum
+}
+
+/// RBP's residual (Moffat & Zobel 2008): the most that the unjudged items
+/// and those past the end of the list could add, (1 − p) Σ over unjudged positions of
+/// p^(i−1) + p^(list length).
+pub fn rbp_residual(returned: &[Option<u8>], persistence: f64) -> f64 {
+    let mut reach = 1.0; // p^(i−1)
+    let mut unjudged = 0.0;
+    for level in returned {
+        if level.is_none() {
+            unjudged += reach;
+        }
+        reach *= persistence;
+    }
+    (1.0 - persistence) * unjudged + reach
 }
 
 #[cfg(test)]

@@ -7,6 +7,7 @@ pub mod agreement;
 pub mod digest;
 pub mod fast_hash;
 pub mod gaps;
+pub mod metric_table;
 pub mod metrics;
 pub mod pooling;
 pub mod ppi;

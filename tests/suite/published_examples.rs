@@ -1,7 +1,20 @@
 //! Worked examples from the literature, each with its source beside it.
 
 use plumbline::core::agreement::{self, AlphaLevel, Confusion, Weights};
+use plumbline::core::metric_table::{self, Metric, MetricKind, PreparedList};
 use plumbline::core::metrics::{self, GainKind, JudgedList, ListSettings, Unjudged};
+
+/// Scores `list` through `metric_table::score_list`, the function behind every
+/// published figure, on the given metrics in order.
+fn scored(list: &JudgedList<'_>, settings: &ListSettings, wanted: &[Metric]) -> Vec<f64> {
+    let (mut scratch, mut out) = (Vec::new(), Vec::new());
+    metric_table::score_list(list, settings, wanted, &mut scratch, &mut out);
+    out
+}
+
+fn at(kind: MetricKind, k: usize) -> Metric {
+    Metric::at(kind, k)
+}
 
 fn close(a: f64, b: f64, tol: f64) -> bool {
     (a - b).abs() <= tol
@@ -39,6 +52,7 @@ fn jarvelin_kekalainen_gain_vector() {
         max_level: 3,
         relevant_from: 1,
         unjudged: Unjudged::Zero,
+        persistence: 0.8,
     };
     let mut ideal: Vec<f64> = levels.iter().map(|l| l.unwrap() as f64).collect();
     ideal.sort_by(|a, b| b.total_cmp(a));
@@ -47,10 +61,26 @@ fn jarvelin_kekalainen_gain_vector() {
         ideal_gains: &ideal,
         has_relevant: true,
     };
-    let ks: Vec<usize> = (1..=10).collect();
-    let (mut scratch, mut out) = (Vec::new(), Vec::new());
-    metrics::score_list(&list, &linear, &ks, &mut scratch, &mut out);
-    let cg: Vec<f64> = out.iter().map(|m| m.cg).collect();
+    let cg: Vec<f64> = (1..=10)
+        .map(|k| {
+            let prepared = PreparedList {
+                returned: &levels,
+                effective: &levels,
+                ideal_gains: &ideal,
+                has_relevant: true,
+            };
+            metrics::cg_at(&prepared, &linear, k)
+        })
+        .collect();
+    let out = scored(
+        &list,
+        &linear,
+        &[
+            at(MetricKind::Dcg, 10),
+            at(MetricKind::Ndcg, 10),
+            at(MetricKind::Ndcg, 5),
+        ],
+    );
     assert_eq!(
         cg,
         vec![3.0, 5.0, 8.0, 8.0, 8.0, 9.0, 11.0, 13.0, 16.0, 16.0]
@@ -63,13 +93,17 @@ fn jarvelin_kekalainen_gain_vector() {
         + 2.0 / 3.0
         + 2.0 / 9f64.log2()
         + 3.0 / 10f64.log2();
-    assert!(close(out[9].dcg, expected_dcg, 1e-12));
-    assert!(close(out[9].dcg, 8.318_753_101_481_006, 1e-12));
-    // Ideal order <3, 3, 3, 2, 2, 2, 1, 0, 0, 0>.
-    assert!(close(out[9].idcg, 9.073_595_698_879_618, 1e-12));
-    assert!(close(out[9].ndcg.unwrap(), 0.916_808_879_032_177, 1e-12));
+    assert!(close(out[0], expected_dcg, 1e-12));
+    assert!(close(out[0], 8.318_753_101_481_006, 1e-12));
+    // Ideal order <3, 3, 3, 2, 2, 2, 1, 0, 0, 0>: IDCG@10 = 9.073595698879618.
+    assert!(close(
+        metrics::dcg(&ideal, Some(10)),
+        9.073_595_698_879_618,
+        1e-12
+    ));
+    assert!(close(out[1], 0.916_808_879_032_177, 1e-12));
     // At k = 5: DCG 3 + 2/log2 3 + 1.5 = 5.7619, ideal 3 + 3/log2 3 + 1.5 + 2/log2 5 + 2/log2 6.
-    assert!(close(out[4].ndcg.unwrap(), 0.717_734_007_091_999_9, 1e-12));
+    assert!(close(out[2], 0.717_734_007_091_999_9, 1e-12));
     // Exponential gains 2^v − 1 (Burges et al. 2005) on the same list.
     let exponential = ListSettings {
         gains: metrics::gain_table(4, &[], GainKind::Exponential),
@@ -84,9 +118,13 @@ fn jarvelin_kekalainen_gain_vector() {
         ideal_gains: &ideal_exp,
         ..list
     };
-    metrics::score_list(&list, &exponential, &[10], &mut scratch, &mut out);
-    assert!(close(out[0].dcg, 16.802_601_047_827_45, 1e-12));
-    assert!(close(out[0].ndcg.unwrap(), 0.895_133_725_335_708_8, 1e-12));
+    let out = scored(
+        &list,
+        &exponential,
+        &[at(MetricKind::Dcg, 10), at(MetricKind::Ndcg, 10)],
+    );
+    assert!(close(out[0], 16.802_601_047_827_45, 1e-12));
+    assert!(close(out[1], 0.895_133_725_335_708_8, 1e-12));
 }
 
 /// Chapelle, Metzler, Zhang & Grinspan (2009), CIKM, eq. 4 (the cascade form of ERR),
@@ -114,22 +152,71 @@ fn condensed_list_skips_unjudged() {
         max_level: 1,
         relevant_from: 1,
         unjudged: Unjudged::Zero,
+        persistence: 0.8,
     };
-    let (mut scratch, mut out) = (Vec::new(), Vec::new());
-    metrics::score_list(&list, &settings, &[2], &mut scratch, &mut out);
-    assert!(close(
-        out[0].ndcg.unwrap(),
-        1.0 / (1.0 + 1.0 / 3f64.log2()),
-        1e-12
-    ));
-    assert!(close(out[0].judged, 0.5, 1e-15));
+    let wanted = [at(MetricKind::Ndcg, 2), at(MetricKind::Judged, 2)];
+    let out = scored(&list, &settings, &wanted);
+    assert!(close(out[0], 1.0 / (1.0 + 1.0 / 3f64.log2()), 1e-12));
+    assert!(close(out[1], 0.5, 1e-15));
     settings.unjudged = Unjudged::Condense;
-    metrics::score_list(&list, &settings, &[2], &mut scratch, &mut out);
-    assert!(close(out[0].ndcg.unwrap(), 1.0, 1e-12));
+    let out = scored(&list, &settings, &wanted);
+    assert!(close(out[0], 1.0, 1e-12));
     assert!(
-        close(out[0].judged, 0.5, 1e-15),
+        close(out[1], 0.5, 1e-15),
         "judged@k is about the list as returned"
     );
+}
+
+/// Rank-biased precision by hand from its definition (Moffat & Zobel 2008, ACM TOIS
+/// 27(1)): RBP = (1 − p) Σ r_i p^(i−1), residual = (1 − p) Σ over unjudged positions
+/// p^(i−1) + p^(length). Binary scale, list <rel, non-rel, rel, unjudged>, p = 0.5:
+/// RBP = 0.5 · (1 + 0.25) = 0.625; residual = 0.5 · 0.125 + 0.5^4 = 0.125.
+/// Graded 0–3 scale with linear gains, list <3, unjudged, 1>, p = 0.8: r = <1, 0, 1/3>,
+/// RBP = 0.2 · (1 + 0.64 / 3) = 0.242666…; residual = 0.2 · 0.8 + 0.8^3 = 0.672.
+#[test]
+fn rank_biased_precision_by_hand() {
+    let whole = [
+        Metric::whole(MetricKind::Rbp),
+        Metric::whole(MetricKind::RbpResidual),
+    ];
+    let binary = ListSettings {
+        gains: vec![0.0, 1.0],
+        max_level: 1,
+        relevant_from: 1,
+        unjudged: Unjudged::Zero,
+        persistence: 0.5,
+    };
+    let levels = [Some(1u8), Some(0), Some(1), None];
+    let list = JudgedList {
+        levels: &levels,
+        ideal_gains: &[1.0, 1.0, 0.0],
+        has_relevant: true,
+    };
+    let out = scored(&list, &binary, &whole);
+    assert!(close(out[0], 0.625, 1e-15), "{}", out[0]);
+    assert!(close(out[1], 0.125, 1e-15), "{}", out[1]);
+    // Condensing changes NDCG's list, not RBP's: RBP always reads the list as returned.
+    let condensed = ListSettings {
+        unjudged: Unjudged::Condense,
+        ..binary
+    };
+    assert_eq!(scored(&list, &condensed, &whole), out);
+    let graded = ListSettings {
+        gains: metrics::gain_table(4, &[], GainKind::Linear),
+        max_level: 3,
+        relevant_from: 1,
+        unjudged: Unjudged::Zero,
+        persistence: 0.8,
+    };
+    let levels = [Some(3u8), None, Some(1)];
+    let list = JudgedList {
+        levels: &levels,
+        ideal_gains: &[3.0, 1.0],
+        has_relevant: true,
+    };
+    let out = scored(&list, &graded, &whole);
+    assert!(close(out[0], 0.2 * (1.0 + 0.64 / 3.0), 1e-15), "{}", out[0]);
+    assert!(close(out[1], 0.672, 1e-15), "{}", out[1]);
 }
 
 /// Two reviewers, 50 items: 20 yes/yes, 5 yes/no, 10 no/yes, 15 no/no →

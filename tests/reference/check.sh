@@ -42,10 +42,12 @@ mkdir -p "$out"
 "$venv/bin/python" "$ref_dir/gen_reviewer_quality.py" "$out"
 "$venv/bin/python" "$ref_dir/gen_ppi.py" "$out"
 "$venv/bin/python" "$ref_dir/gen_ppi_study.py" "$out"
+"$venv/bin/python" "$ref_dir/gen_rbp.py" "$out"
 
 status=0
 for name in metrics_expected.json agreement_expected.json pool_bias_expected.json \
-    reviewer_quality_expected.json ppi_expected.json ppi_study_expected.json; do
+    reviewer_quality_expected.json ppi_expected.json ppi_study_expected.json \
+    rbp_expected.json; do
     if [[ ! -f "$ref_dir/$name" ]]; then
         echo "check.sh: FAIL: committed file $ref_dir/$name is missing" >&2
         status=1

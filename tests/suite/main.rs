@@ -23,6 +23,7 @@ mod migration;
 mod panel_review;
 mod pilot;
 mod ppi_estimates;
+mod production_reference;
 mod properties;
 mod published_examples;
 mod rankings_file;

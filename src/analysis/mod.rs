@@ -6,6 +6,7 @@
 pub mod agreement;
 pub mod agreement_view;
 pub mod catalog_view;
+pub mod cautions;
 pub mod colours;
 pub mod defaults;
 pub mod estimates;

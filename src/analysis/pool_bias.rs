@@ -164,7 +164,7 @@ pub(super) fn compute(s: &Scored) -> Vec<PoolBias> {
 /// Cautions for rankers from files whose judged@k falls below the lowest judged@k any
 /// pooled ranker keeps with its own pairs left out: the pool knows less of their top k
 /// than it would of a pooled ranker's, so their scores are likely biased low.
-pub(super) fn cautions(rows: &[PoolBias]) -> Vec<String> {
+pub(super) fn cautions(rows: &[PoolBias]) -> Vec<super::cautions::Caution> {
     let mut out = Vec::new();
     let metrics: Vec<&str> = {
         let mut m: Vec<&str> = rows.iter().map(|r| r.metric.as_str()).collect();
@@ -180,19 +180,19 @@ pub(super) fn cautions(rows: &[PoolBias]) -> Vec<String> {
             .map(|r| r.judged_left_out)
             .min_by(f64::total_cmp);
         let Some(floor) = floor else { continue };
-        let k = metric.trim_start_matches("ndcg@");
+        let k: usize = metric.trim_start_matches("ndcg@").parse().unwrap_or(0);
         for row in rows
             .iter()
             .filter(|r| r.metric == metric && r.from_file.is_some())
         {
             if row.judged < floor - 1e-12 {
-                out.push(format!(
-                    "{} (from {}) has {:.0} % of its top {k} judged, below the {:.0} % every pooled ranker keeps without the pairs only it found: its {metric} is likely biased low. Judge the gaps (Scoreboard, \"Judge the gaps\") before trusting it.",
-                    row.ranker,
-                    row.from_file.as_deref().unwrap_or_default(),
-                    row.judged * 100.0,
-                    floor * 100.0,
-                ));
+                out.push(super::cautions::Caution::PoolBiasLow {
+                    ranker: row.ranker.clone(),
+                    file: row.from_file.clone().unwrap_or_default(),
+                    k,
+                    judged: row.judged,
+                    floor,
+                });
             }
         }
     }

@@ -169,7 +169,7 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
     }
     out.push_str(&super::pool_bias::table_text(board));
     out.push('\n');
-    for c in &board.cautions {
+    for c in board.cautions.words() {
         let _ = writeln!(out, "Caution: {c}");
     }
     out

@@ -365,7 +365,7 @@ pub fn markdown(
     }
 
     out.push_str("## Cautions\n\n");
-    for c in &board.cautions {
+    for c in board.cautions.words() {
         let _ = writeln!(out, "- {c}");
     }
     out

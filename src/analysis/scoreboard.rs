@@ -5,6 +5,7 @@ use std::collections::BTreeMap;
 
 use serde::Serialize;
 
+use super::cautions::{Caution, Cautions};
 use super::defaults;
 use super::judgments::{self, GradeSource};
 use super::per_context;
@@ -171,9 +172,11 @@ pub struct Scoreboard {
     pub pool_bias: Vec<PoolBias>,
     /// The rankings files scored beside the study's lists, without importing them.
     pub rankings_files: Vec<FileLists>,
-    /// Warnings to show beside the numbers: [`OFFLINE_CAUTION`] first, then any about the
-    /// baseline, few contexts or low judged@k coverage.
-    pub cautions: Vec<String>,
+    /// Warnings to show beside the numbers: [`Caution::OfflineOnly`] first, then any
+    /// about the baseline, few contexts, low judged@k coverage, pool bias or missing
+    /// lists; in JSON `cautions` (words) and `caution_codes`.
+    #[serde(flatten)]
+    pub cautions: Cautions,
 }
 
 /// Says which gains scored the lists: the scale's own gains win over the gain rule.
@@ -206,10 +209,10 @@ pub fn metric_keys(ks: &[usize]) -> Vec<String> {
 }
 
 /// Why every figure is "–" when no context can be scored.
-pub const NOTHING_TO_SCORE: &str = "No context has a relevant item yet (nothing graded above the lowest level on this scale), so no NDCG, interval or test is defined: every figure shows –. Grade the pool first.";
+pub const NOTHING_TO_SCORE: &str = super::cautions::NOTHING_TO_SCORE_WORDS;
 
 /// Standard caution printed with every comparison.
-pub const OFFLINE_CAUTION: &str = "Offline judgments rank candidates for an online experiment; they do not replace it. These grades reflect this panel only, and small samples give wide intervals.";
+pub const OFFLINE_CAUTION: &str = super::cautions::OFFLINE_WORDS;
 
 /// Why the scoreboard could not be built.
 #[derive(Debug, thiserror::Error)]
@@ -440,52 +443,20 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         })
         .collect();
     apply_holm(&mut comparisons);
-    let mut cautions = vec![OFFLINE_CAUTION.to_string()];
+    let mut cautions = vec![Caution::OfflineOnly];
     cautions.extend(baseline_note);
     match scored_contexts.len() {
-        0 => cautions.push(NOTHING_TO_SCORE.to_string()),
-        n if n < defaults::FEW_CONTEXTS => cautions.push(format!(
-            "Only {n} {} a relevant item; intervals are wide and tests weak.",
-            if n == 1 {
-                "context has"
-            } else {
-                "contexts have"
-            }
-        )),
+        0 => cautions.push(Caution::NothingToScore),
+        n if n < defaults::FEW_CONTEXTS => cautions.push(Caution::FewContexts { scored: n }),
         _ => {}
     }
-    for (ri, r) in rankers.iter().enumerate() {
-        for k in &settings.ks {
-            if let Some(j) = r.metrics.get(&format!("judged@{k}"))
-                && j.mean < defaults::COVERAGE_CAUTION
-            {
-                // judged@k divides by min(k, list length): say so when lists are short.
-                let returned: Vec<usize> = scored_contexts
-                    .iter()
-                    .map(|&c| snapshot.lists[ri][c].len().min(*k))
-                    .collect();
-                let of = match (returned.first(), returned.iter().all(|&n| n == *k)) {
-                    (_, true) | (None, _) => format!("its top {k}"),
-                    (Some(&n), false) if returned.iter().all(|&m| m == n) => {
-                        format!("its {n} returned items (fewer than {k})")
-                    }
-                    _ => format!(
-                        "the items it returned in its top {k} ({:.1} on average)",
-                        returned.iter().sum::<usize>() as f64 / returned.len() as f64
-                    ),
-                };
-                cautions.push(format!(
-                    "{} has only {:.0} % of {of} judged; unjudged items count as {}.",
-                    r.ranker,
-                    j.mean * 100.0,
-                    match settings.unjudged {
-                        Unjudged::Zero => "gain 0",
-                        Unjudged::Condense => "absent (condensed)",
-                    }
-                ));
-            }
-        }
-    }
+    cautions.extend(coverage_cautions(
+        snapshot,
+        &rankers,
+        &scored_contexts,
+        settings,
+    ));
+    cautions.extend(missing_list_cautions(snapshot, &scored_contexts));
     cautions.extend(pool_bias::cautions(&pool_bias));
     let gains_used = describe_gains(&scale.gains(), &list_settings.gains, settings.gain);
     let mut settings = settings.clone();
@@ -502,8 +473,71 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         comparisons,
         pool_bias,
         rankings_files: snapshot.outside.files.clone(),
-        cautions,
+        cautions: Cautions(cautions),
     })
+}
+
+/// A caution per ranker and cut-off whose mean judged@k is below
+/// [`defaults::COVERAGE_CAUTION`], saying what judged@k divides by when lists are short.
+fn coverage_cautions(
+    snapshot: &Snapshot,
+    rankers: &[RankerScores],
+    scored_contexts: &[usize],
+    settings: &ScoreSettings,
+) -> Vec<Caution> {
+    let mut out = Vec::new();
+    for (ri, r) in rankers.iter().enumerate() {
+        for &k in &settings.ks {
+            let Some(j) = r.metrics.get(&Metric::at(MetricKind::Judged, k).key()) else {
+                continue;
+            };
+            if j.mean.is_nan() || j.mean >= defaults::COVERAGE_CAUTION {
+                continue;
+            }
+            let returned: Vec<usize> = scored_contexts
+                .iter()
+                .map(|&c| snapshot.lists[ri][c].len().min(k))
+                .collect();
+            let of = match (returned.first(), returned.iter().all(|&n| n == k)) {
+                (_, true) | (None, _) => format!("its top {k}"),
+                (Some(&n), false) if returned.iter().all(|&m| m == n) => {
+                    format!("its {n} returned items (fewer than {k})")
+                }
+                _ => format!(
+                    "the items it returned in its top {k} ({:.1} on average)",
+                    returned.iter().sum::<usize>() as f64 / returned.len() as f64
+                ),
+            };
+            out.push(Caution::LowCoverage {
+                ranker: r.ranker.clone(),
+                k,
+                judged: j.mean,
+                of,
+                unjudged: settings.unjudged,
+            });
+        }
+    }
+    out
+}
+
+/// A caution per ranker from a file that has no list for some scored contexts: such a
+/// context is scored as an empty list (every metric 0), which a reader must know.
+fn missing_list_cautions(snapshot: &Snapshot, scored_contexts: &[usize]) -> Vec<Caution> {
+    (0..snapshot.rankers.len())
+        .filter_map(|r| {
+            let file = snapshot.ranker_file(r)?;
+            let missing = scored_contexts
+                .iter()
+                .filter(|&&c| snapshot.lists[r][c].is_empty())
+                .count();
+            (missing > 0).then(|| Caution::MissingLists {
+                ranker: snapshot.rankers[r].clone(),
+                file: file.to_string(),
+                contexts: missing,
+                scored: scored_contexts.len(),
+            })
+        })
+        .collect()
 }
 
 /// The baseline, by one rule everywhere (command line, Scoreboard, report): the ranker
@@ -513,7 +547,7 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
 pub fn resolve_baseline(
     snapshot: &Snapshot,
     asked: Option<&str>,
-) -> Result<(Option<usize>, Option<String>), ScoreError> {
+) -> Result<(Option<usize>, Option<Caution>), ScoreError> {
     if let Some(name) = asked {
         return snapshot
             .ranker_index(name)
@@ -527,11 +561,9 @@ pub fn resolve_baseline(
             Some(i) => Ok((Some(i), None)),
             None => Ok((
                 first,
-                first.map(|f| {
-                    format!(
-                        "The study's baseline \"{stored}\" is not among the rankers any more; comparing against {} (the first ranker alphabetically).",
-                        snapshot.rankers[f]
-                    )
+                first.map(|f| Caution::BaselineReplaced {
+                    stored: stored.to_string(),
+                    used: snapshot.rankers[f].clone(),
                 }),
             )),
         },

@@ -182,9 +182,8 @@ pub fn curves(
 }
 
 /// The cautions sorted for reading: those about no ranker in particular (the offline
-/// caution first), then each ranker's own, in board order. A caution belongs to the
-/// ranker whose name it starts with (the longest such name, so `bm25-v2` is not taken
-/// for `bm25`).
+/// caution first), then each ranker's own, in board order, as each caution names its
+/// ranker.
 pub fn cautions_by_ranker(board: &Scoreboard) -> (Vec<String>, Vec<(String, Vec<String>)>) {
     let mut general = Vec::new();
     let mut own: Vec<(String, Vec<String>)> = board
@@ -192,20 +191,13 @@ pub fn cautions_by_ranker(board: &Scoreboard) -> (Vec<String>, Vec<(String, Vec<
         .iter()
         .map(|r| (r.ranker.clone(), Vec::new()))
         .collect();
-    for caution in &board.cautions {
-        let owner = own
-            .iter()
-            .enumerate()
-            .filter(|(_, (name, _))| {
-                caution
-                    .strip_prefix(name.as_str())
-                    .is_some_and(|rest| rest.starts_with([' ', '\'', ':', ',']))
-            })
-            .max_by_key(|(_, (name, _))| name.len())
-            .map(|(i, _)| i);
-        match owner {
-            Some(i) => own[i].1.push(caution.clone()),
-            None => general.push(caution.clone()),
+    for caution in board.cautions.iter() {
+        match own
+            .iter_mut()
+            .find(|(name, _)| Some(name.as_str()) == caution.ranker())
+        {
+            Some((_, list)) => list.push(caution.words()),
+            None => general.push(caution.words()),
         }
     }
     own.retain(|(_, list)| !list.is_empty());

@@ -1,0 +1,214 @@
+//! Cautions as typed values: each is an enum value with its figures, its words are made
+//! here and only here, and its stable code lets scripts act on it (`caution_codes` in
+//! JSON, in the same order as `cautions`). Nothing parses a caution's text back.
+
+use serde::ser::{SerializeMap, Serializer};
+
+use crate::core::metrics::Unjudged;
+
+/// Why a number beside the caution could mislead.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Caution {
+    /// Offline scores rank candidates for an online test; they do not replace it.
+    OfflineOnly,
+    /// The study's stored baseline names no ranker any more; `used` was compared against.
+    BaselineReplaced {
+        /// The baseline the study keeps.
+        stored: String,
+        /// The ranker used instead (the first alphabetically).
+        used: String,
+    },
+    /// No context has a relevant item: every figure is undefined.
+    NothingToScore,
+    /// Fewer scored contexts than [`super::defaults::FEW_CONTEXTS`].
+    FewContexts {
+        /// Contexts scored.
+        scored: usize,
+    },
+    /// A ranker's judged@k is below [`super::defaults::COVERAGE_CAUTION`].
+    LowCoverage {
+        /// The ranker.
+        ranker: String,
+        /// The cut-off.
+        k: usize,
+        /// Its mean judged@k.
+        judged: f64,
+        /// What judged@k divides by, in words ("its top 10", "its 4 returned items …").
+        of: String,
+        /// How unjudged items count.
+        unjudged: Unjudged,
+    },
+    /// A ranker from a file is judged less deeply than any pooled ranker would be without
+    /// its own pairs: its score is likely biased low.
+    PoolBiasLow {
+        /// The ranker.
+        ranker: String,
+        /// The file its lists came from.
+        file: String,
+        /// The cut-off.
+        k: usize,
+        /// Its judged@k.
+        judged: f64,
+        /// The lowest judged@k a pooled ranker keeps with its own pairs left out.
+        floor: f64,
+    },
+    /// A ranker from a file has no list for some scored contexts; they count as empty
+    /// lists (every metric 0 there).
+    MissingLists {
+        /// The ranker.
+        ranker: String,
+        /// The file its lists came from.
+        file: String,
+        /// Scored contexts without a list from the file.
+        contexts: usize,
+        /// Contexts scored.
+        scored: usize,
+    },
+}
+
+impl Caution {
+    /// The stable code scripts read.
+    pub fn code(&self) -> &'static str {
+        match self {
+            Caution::OfflineOnly => "offline_only",
+            Caution::BaselineReplaced { .. } => "baseline_replaced",
+            Caution::NothingToScore => "nothing_to_score",
+            Caution::FewContexts { .. } => "few_contexts",
+            Caution::LowCoverage { .. } => "low_coverage",
+            Caution::PoolBiasLow { .. } => "pool_bias_low",
+            Caution::MissingLists { .. } => "missing_lists",
+        }
+    }
+
+    /// The ranker the caution is about, if it is about one.
+    pub fn ranker(&self) -> Option<&str> {
+        match self {
+            Caution::LowCoverage { ranker, .. }
+            | Caution::PoolBiasLow { ranker, .. }
+            | Caution::MissingLists { ranker, .. } => Some(ranker),
+            _ => None,
+        }
+    }
+
+    /// The caution in words, as every output prints it.
+    pub fn words(&self) -> String {
+        match self {
+            Caution::OfflineOnly => OFFLINE_WORDS.to_string(),
+            Caution::BaselineReplaced { stored, used } => format!(
+                "The study's baseline \"{stored}\" is not among the rankers any more; comparing against {used} (the first ranker alphabetically)."
+            ),
+            Caution::NothingToScore => NOTHING_TO_SCORE_WORDS.to_string(),
+            Caution::FewContexts { scored } => format!(
+                "Only {scored} {} a relevant item; intervals are wide and tests weak.",
+                if *scored == 1 {
+                    "context has"
+                } else {
+                    "contexts have"
+                }
+            ),
+            Caution::LowCoverage {
+                ranker,
+                judged,
+                of,
+                unjudged,
+                ..
+            } => format!(
+                "{ranker} has only {:.0} % of {of} judged; unjudged items count as {}.",
+                judged * 100.0,
+                match unjudged {
+                    Unjudged::Zero => "gain 0",
+                    Unjudged::Condense => "absent (condensed)",
+                }
+            ),
+            Caution::PoolBiasLow {
+                ranker,
+                file,
+                k,
+                judged,
+                floor,
+            } => format!(
+                "{ranker} (from {file}) has {:.0} % of its top {k} judged, below the {:.0} % every pooled ranker keeps without the pairs only it found: its ndcg@{k} is likely biased low. Judge the gaps (Scoreboard, \"Judge the gaps\") before trusting it.",
+                judged * 100.0,
+                floor * 100.0,
+            ),
+            Caution::MissingLists {
+                ranker,
+                file,
+                contexts,
+                scored,
+            } => format!(
+                "{ranker} (from {file}) has no list for {contexts} of the {scored} scored contexts; they count as empty lists, so every metric is 0 there."
+            ),
+        }
+    }
+}
+
+/// The words of [`Caution::OfflineOnly`].
+pub const OFFLINE_WORDS: &str = "Offline judgments rank candidates for an online experiment; they do not replace it. These grades reflect this panel only, and small samples give wide intervals.";
+
+/// The words of [`Caution::NothingToScore`].
+pub const NOTHING_TO_SCORE_WORDS: &str = "No context has a relevant item yet (nothing graded above the lowest level on this scale), so no NDCG, interval or test is defined: every figure shows –. Grade the pool first.";
+
+/// A model's cautions: serialised as `cautions` (the words, as before) followed by
+/// `caution_codes` (the stable codes in the same order); use with `#[serde(flatten)]`.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Cautions(pub Vec<Caution>);
+
+impl Cautions {
+    /// Every caution's words, in order.
+    pub fn words(&self) -> Vec<String> {
+        self.0.iter().map(Caution::words).collect()
+    }
+
+    /// Every caution's code, in order.
+    pub fn codes(&self) -> Vec<&'static str> {
+        self.0.iter().map(Caution::code).collect()
+    }
+
+    /// Whether there is none.
+    pub fn is_empty(&self) -> bool {
+        self.0.is_empty()
+    }
+
+    /// The cautions in order.
+    pub fn iter(&self) -> std::slice::Iter<'_, Caution> {
+        self.0.iter()
+    }
+}
+
+impl serde::Serialize for Cautions {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        let mut map = serializer.serialize_map(Some(2))?;
+        map.serialize_entry("cautions", &self.words())?;
+        map.serialize_entry("caution_codes", &self.codes())?;
+        map.end()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn json_keeps_the_words_and_adds_the_codes_in_the_same_order() {
+        #[derive(serde::Serialize)]
+        struct Model {
+            n: usize,
+            #[serde(flatten)]
+            cautions: Cautions,
+        }
+        let model = Model {
+            n: 1,
+            cautions: Cautions(vec![
+                Caution::OfflineOnly,
+                Caution::FewContexts { scored: 1 },
+            ]),
+        };
+        let json = serde_json::to_value(&model).unwrap();
+        assert_eq!(json["caution_codes"][1], "few_contexts");
+        assert_eq!(
+            json["cautions"][1],
+            "Only 1 context has a relevant item; intervals are wide and tests weak."
+        );
+    }
+}

@@ -15,6 +15,7 @@ mod open_files;
 pub mod outside_lists;
 pub mod pilot;
 mod problems;
+mod queue_shares;
 pub mod queues;
 pub mod row_rules;
 pub mod sample;

@@ -2,7 +2,9 @@
 //! the terminal and the screens agree.
 
 mod commands;
+mod reports;
 mod sample;
+mod study_files;
 
 use std::path::PathBuf;
 use std::process::ExitCode;

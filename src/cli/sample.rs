@@ -10,6 +10,29 @@ use crate::analysis::{estimates_text, render, scoreboard};
 use crate::study::Study;
 use crate::study::sample::DrawRequest;
 
+/// `sample`: draws the sample contexts and queues them for the reviewers.
+pub(super) fn cmd_sample(command: super::Command) -> Result<(), Failure> {
+    let super::Command::Sample {
+        study,
+        contexts,
+        seed,
+        reviewer,
+        scale,
+    } = command
+    else {
+        unreachable!("cmd_sample is given only the sample command")
+    };
+    sample(
+        &mut super::commands::open(&study)?,
+        DrawRequest {
+            contexts,
+            seed,
+            reviewers: reviewer,
+            scale,
+        },
+    )
+}
+
 /// Draws the sample and says what was drawn and queued.
 pub fn sample(study: &mut Study, request: DrawRequest) -> Result<(), Failure> {
     let asked = request.contexts;

@@ -1,4 +1,16 @@
 //! The study file: one SQLite database holding a whole evaluation. All SQL lives here.
+//!
+//! `Study`'s methods, by file:
+//! - `mod.rs`: creating, opening and migrating the file; write transactions and waits;
+//!   counts and size limits (still to be split further).
+//! - `settings.rs`: the `settings` table, raw and typed.
+//! - `snapshot.rs`: the read-only picture the analysis works from.
+//! - `grades.rs`: recording grades at the desk.
+//! - `queues.rs`: the pool and each reviewer's queue (`queue_shares.rs` shares it, no SQL).
+//! - `gap_queue.rs`, `sample.rs`, `pilot.rs`: extra queues — gaps, the human sample, the pilot.
+//! - `scales.rs`, `collapse.rs`, `gold.rs`: scales, their collapse maps, gold pairs.
+//! - `settle.rs`: settled grades.
+//! - `export.rs`, `hand_out.rs`, `merge/`: grades out, reviewer copies, merging back.
 
 pub mod collapse;
 mod connection;
@@ -15,6 +27,7 @@ mod open_files;
 pub mod outside_lists;
 pub mod pilot;
 mod problems;
+mod queue_shares;
 pub mod queues;
 pub mod row_rules;
 pub mod sample;
@@ -29,7 +42,7 @@ pub mod untrusted;
 use std::path::{Path, PathBuf};
 use std::time::Duration;
 
-use rusqlite::{Connection, OptionalExtension, Transaction, TransactionBehavior};
+use rusqlite::{Connection, Transaction, TransactionBehavior};
 
 pub use csv_input::{Problem, Problems};
 
@@ -365,24 +378,6 @@ impl Study {
         Ok(self
             .conn
             .pragma_query_value(None, "user_version", |r| r.get(0))?)
-    }
-
-    pub fn setting(&self, key: &str) -> Result<Option<String>> {
-        Ok(self
-            .conn
-            .query_row("SELECT value FROM settings WHERE key = ?1", [key], |r| {
-                r.get(0)
-            })
-            .optional()?)
-    }
-
-    pub fn set_setting(&self, key: &str, value: &str) -> Result<()> {
-        self.conn.execute(
-            "INSERT INTO settings(key, value) VALUES (?1, ?2)
-             ON CONFLICT(key) DO UPDATE SET value = excluded.value",
-            [key, value],
-        )?;
-        Ok(())
     }
 
     /// The folder image paths are relative to. A relative setting (a reviewer copy's

@@ -12,8 +12,9 @@ use std::collections::{HashMap, HashSet};
 
 use rusqlite::{OptionalExtension, params};
 
+use super::queue_shares::QueuePlan;
 use super::{Result, Study, StudyError};
-use crate::core::pooling::{assign_queues, depth_pool, shuffle};
+use crate::core::pooling::{depth_pool, shuffle};
 use crate::core::stats::Rng;
 
 use super::settings::keys;
@@ -125,93 +126,56 @@ impl Study {
             }
             return Ok(queue);
         }
-        let pool = self.pool()?;
-        let seed = self.queue_seed()?;
-        let overlap = self.setting_or(keys::OVERLAP_SHARE, DEFAULT_OVERLAP_SHARE)?;
-        let gold_rate = self.setting_or(keys::GOLD_RATE, DEFAULT_GOLD_RATE)?;
-        let gold = self.gold_pairs(scale)?;
-        let panel: Vec<String> = {
-            let mut stmt = self.conn().prepare(
-                "SELECT reviewer FROM reviewers WHERE kind = 'person' ORDER BY reviewer",
-            )?;
-            stmt.query_map([], |r| r.get(0))?
-                .collect::<std::result::Result<_, _>>()?
+        let plan = QueuePlan {
+            pool: self.pool()?,
+            seed: self.queue_seed()?,
+            overlap: self.setting_or(keys::OVERLAP_SHARE, DEFAULT_OVERLAP_SHARE)?,
+            gold_rate: self.setting_or(keys::GOLD_RATE, DEFAULT_GOLD_RATE)?,
+            gold: self.gold_pairs(scale)?,
         };
+        let panel = self.people_on_panel()?;
         // Machine judges grade outside the desk: they get no queue and no share of the pool.
-        if !panel.iter().any(|r| r == reviewer) {
+        let Some(me) = panel.iter().position(|r| r == reviewer) else {
             return Err(StudyError::input(format!(
                 "{reviewer} is not on the panel; add the reviewer first"
             )));
-        }
+        };
         let mut queues: Vec<Vec<PairId>> = Vec::with_capacity(panel.len());
         for r in &panel {
             queues.push(self.queue(r, scale)?);
         }
         let stored: Vec<usize> = queues.iter().map(Vec::len).collect();
-        let me = panel.iter().position(|r| r == reviewer).expect("checked");
-        let mut rng = Rng::new(seed ^ text_hash(scale));
-        let with_queue: Vec<usize> = (0..panel.len()).filter(|&r| stored[r] > 0).collect();
-
-        if with_queue.is_empty() {
-            // First assignment on this scale: split the pool over the whole panel.
-            let split = assign_queues(pool.len(), panel.len(), overlap, rng.next_u64());
-            for (r, share) in split.iter().enumerate() {
-                let pairs: Vec<PairId> = share.iter().map(|&p| pool[p].clone()).collect();
-                queues[r] = mix_gold(pairs, &gold, gold_rate, &mut rng);
-            }
+        if stored.iter().all(|&n| n == 0) {
+            plan.first_split(scale, &mut queues);
         } else {
             if stored[me] == 0 {
-                // A reviewer who joins later: the shared pairs everyone has, plus an even
-                // share of the rest, shuffled.
-                let mut rng = Rng::new(seed ^ text_hash(scale) ^ text_hash(reviewer));
-                let sets: Vec<HashSet<&PairId>> = with_queue
-                    .iter()
-                    .map(|&r| queues[r].iter().collect())
-                    .collect();
-                let gold_set: HashSet<PairId> = gold
-                    .iter()
-                    .map(|(c, i, _)| (c.clone(), i.clone()))
-                    .collect();
-                let mut shared = Vec::new();
-                let mut rest = Vec::new();
-                for pair in &pool {
-                    if sets.iter().all(|s| s.contains(pair)) {
-                        shared.push(pair.clone());
-                    } else if !gold_set.contains(pair) {
-                        rest.push(pair.clone());
-                    }
-                }
-                shuffle(&mut rest, &mut rng);
-                let n = with_queue.len() + 1;
-                let mut mine: Vec<PairId> = shared;
-                mine.extend(rest.into_iter().step_by(n));
-                shuffle(&mut mine, &mut rng);
-                queues[me] = mix_gold(mine, &gold, gold_rate, &mut rng);
+                queues[me] = plan.latecomer_queue(&queues, scale, reviewer);
             }
-            // Pairs that entered the pool after the queues were made go to the ends.
-            let queued: HashSet<&PairId> = queues.iter().flatten().collect();
-            let fresh: Vec<PairId> = pool
-                .iter()
-                .filter(|p| !queued.contains(p))
-                .cloned()
-                .collect();
-            if !fresh.is_empty() {
-                let holders: Vec<usize> = (0..panel.len())
-                    .filter(|&r| stored[r] > 0 || r == me)
-                    .collect();
-                let split = assign_queues(
-                    fresh.len(),
-                    holders.len(),
-                    overlap,
-                    seed ^ fresh.len() as u64,
-                );
-                for (h, share) in split.iter().enumerate() {
-                    let r = holders[h];
-                    queues[r].extend(share.iter().map(|&p| fresh[p].clone()));
-                }
-            }
+            plan.share_fresh_pairs(&mut queues, &stored, me);
         }
+        self.store_queue_tails(&panel, scale, &queues, &stored)?;
+        Ok(std::mem::take(&mut queues[me]))
+    }
 
+    /// The people on the panel (not machine judges), in name order.
+    fn people_on_panel(&self) -> Result<Vec<String>> {
+        let mut stmt = self
+            .conn()
+            .prepare("SELECT reviewer FROM reviewers WHERE kind = 'person' ORDER BY reviewer")?;
+        let panel = stmt
+            .query_map([], |r| r.get(0))?
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(panel)
+    }
+
+    /// Writes each queue's entries past the `stored` ones already in the file. One transaction.
+    fn store_queue_tails(
+        &mut self,
+        panel: &[String],
+        scale: &str,
+        queues: &[Vec<PairId>],
+        stored: &[usize],
+    ) -> Result<()> {
         let tx = self.begin_write()?;
         {
             let mut insert = tx.prepare(
@@ -225,7 +189,7 @@ impl Study {
             }
         }
         tx.commit()?;
-        Ok(std::mem::take(&mut queues[me]))
+        Ok(())
     }
 
     /// Gold pairs of a scale: (context_id, item_id, known level).
@@ -371,7 +335,7 @@ fn parse_attributes(json: &str) -> Vec<(String, String)> {
 
 /// Puts one gold pair after every `1 / rate − 1` pairs, each gold pair at most once and
 /// never one the queue already holds.
-fn mix_gold(
+pub(super) fn mix_gold(
     pairs: Vec<PairId>,
     gold: &[(String, String, u8)],
     rate: f64,

@@ -2,6 +2,7 @@
 //! default, and one read that returns them all. Code outside this file names a key only
 //! through `keys`.
 
+use rusqlite::OptionalExtension;
 use serde::Serialize;
 
 use super::{Result, Study};
@@ -78,6 +79,26 @@ pub struct StudySettings {
 }
 
 impl Study {
+    /// One setting as stored, or `None` when it was never set.
+    pub fn setting(&self, key: &str) -> Result<Option<String>> {
+        Ok(self
+            .conn()
+            .query_row("SELECT value FROM settings WHERE key = ?1", [key], |r| {
+                r.get(0)
+            })
+            .optional()?)
+    }
+
+    /// Stores one setting, replacing its old value.
+    pub fn set_setting(&self, key: &str, value: &str) -> Result<()> {
+        self.conn().execute(
+            "INSERT INTO settings(key, value) VALUES (?1, ?2)
+             ON CONFLICT(key) DO UPDATE SET value = excluded.value",
+            [key, value],
+        )?;
+        Ok(())
+    }
+
     /// A setting parsed as `T`, or `default` when missing or unreadable.
     pub(crate) fn setting_or<T: std::str::FromStr>(&self, key: &str, default: T) -> Result<T> {
         Ok(self

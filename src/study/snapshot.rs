@@ -161,130 +161,23 @@ impl Study {
         };
         let conn = self.conn();
         let settings = self.settings()?;
-        let items: Vec<ItemInfo> = conn
-            .prepare("SELECT item_id, title, category, is_new FROM items ORDER BY item_id")?
-            .query_map([], |r| {
-                Ok(ItemInfo {
-                    id: r.get(0)?,
-                    title: r.get(1)?,
-                    category: r.get(2)?,
-                    is_new: r.get(3)?,
-                })
-            })?
-            .collect::<std::result::Result<_, _>>()?;
-        let contexts: Vec<ContextInfo> = conn
-            .prepare(
-                "SELECT context_id, kind, text, segment, anchor_item_id FROM contexts ORDER BY context_id",
-            )?
-            .query_map([], |r| {
-                Ok(ContextInfo {
-                    id: r.get(0)?,
-                    kind: r.get(1)?,
-                    text: r.get(2)?,
-                    segment: r.get(3)?,
-                    anchor_item: r.get(4)?,
-                })
-            })?
-            .collect::<std::result::Result<_, _>>()?;
-        let rankers: Vec<String> = conn
-            .prepare("SELECT ranker FROM rankers ORDER BY ranker")?
-            .query_map([], |r| r.get(0))?
-            .collect::<std::result::Result<_, _>>()?;
-        let (reviewers, machines): (Vec<String>, Vec<bool>) = conn
-            .prepare("SELECT reviewer, kind = 'machine' FROM reviewers ORDER BY reviewer")?
-            .query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, bool>(1)?)))?
-            .collect::<std::result::Result<Vec<_>, _>>()?
-            .into_iter()
-            .unzip();
+        let items = read_items(conn)?;
+        let contexts = read_contexts(conn)?;
+        let rankers = read_rankers(conn)?;
+        let (reviewers, machines) = read_reviewers(conn)?;
+        let scales = read_scales(conn)?;
         let item_ids: Vec<String> = items.iter().map(|i| i.id.clone()).collect();
         let context_ids: Vec<String> = contexts.iter().map(|c| c.id.clone()).collect();
-        let item_index = index_of(&item_ids);
-        let context_index = index_of(&context_ids);
-        let ranker_index = index_of(&rankers);
-        let reviewer_index = index_of(&reviewers);
-
-        let mut lists = vec![vec![Vec::new(); contexts.len()]; rankers.len()];
-        {
-            let mut stmt = conn.prepare("SELECT ranker, context_id, items FROM ranked_lists")?;
-            let mut rows = stmt.query([])?;
-            while let Some(r) = rows.next()? {
-                let ranker = ranker_index[r.get_ref(0)?.as_str()?] as usize;
-                let context = context_index[r.get_ref(1)?.as_str()?] as usize;
-                let ids: Vec<std::borrow::Cow<str>> =
-                    serde_json::from_str::<JsonIds>(r.get_ref(2)?.as_str()?)
-                        .map_err(|e| {
-                            rusqlite::Error::FromSqlConversionFailure(
-                                2,
-                                rusqlite::types::Type::Text,
-                                Box::new(e),
-                            )
-                        })?
-                        .0;
-                lists[ranker][context] = ids.iter().map(|id| item_index[id.as_ref()]).collect();
-            }
-        }
-
-        let mut scales: Vec<Scale> = Vec::new();
-        {
-            let mut stmt = conn.prepare(
-                "SELECT s.scale, l.value, l.label, l.gain, l.key, l.rubric, l.colour
-                 FROM scales s JOIN levels l ON l.scale = s.scale ORDER BY s.scale, l.value",
-            )?;
-            let mut rows = stmt.query([])?;
-            while let Some(r) = rows.next()? {
-                let name: String = r.get(0)?;
-                if scales.last().is_none_or(|s| s.name != name) {
-                    scales.push(Scale {
-                        name,
-                        levels: Vec::new(),
-                    });
-                }
-                scales.last_mut().expect("pushed above").levels.push(Level {
-                    value: r.get(1)?,
-                    label: r.get(2)?,
-                    gain: r.get(3)?,
-                    key: r.get(4)?,
-                    rubric: r.get(5)?,
-                    colour: r.get(6)?,
-                });
-            }
-        }
         let scale_names: Vec<String> = scales.iter().map(|s| s.name.clone()).collect();
-        let scale_index = index_of(&scale_names);
-
-        let mut grades = Vec::new();
-        {
-            // One scan in key order (scale, context, item, reviewer): a run of rows shares
-            // its scale and context, so those are looked up once per run.
-            let mut stmt = conn.prepare(
-                "SELECT reviewer, context_id, item_id, scale, value, seconds, graded_day FROM current_grades",
-            )?;
-            let mut rows = stmt.query([])?;
-            let (mut scale_key, mut context_key) = (String::new(), String::new());
-            let (mut scale_at, mut context_at) = (0u32, 0u32);
-            while let Some(r) = rows.next()? {
-                let scale = r.get_ref(3)?.as_str()?;
-                if scale != scale_key || scale_key.is_empty() {
-                    scale_at = scale_index[scale];
-                    scale_key = scale.to_string();
-                }
-                let context = r.get_ref(1)?.as_str()?;
-                if context != context_key || context_key.is_empty() {
-                    context_at = context_index[context];
-                    context_key = context.to_string();
-                }
-                grades.push(GradeRow {
-                    reviewer: reviewer_index[r.get_ref(0)?.as_str()?],
-                    context: context_at,
-                    item: item_index[r.get_ref(2)?.as_str()?],
-                    scale: scale_at,
-                    value: r.get(4)?,
-                    seconds: r.get(5)?,
-                    day: r.get::<_, Option<i32>>(6)?.unwrap_or(0),
-                });
-            }
-        }
-        grades.sort_by_key(|g| (g.scale, g.context, g.item, g.reviewer));
+        let index = Indexes {
+            item: index_of(&item_ids),
+            context: index_of(&context_ids),
+            ranker: index_of(&rankers),
+            reviewer: index_of(&reviewers),
+            scale: index_of(&scale_names),
+        };
+        let lists = read_lists(conn, &index, rankers.len(), contexts.len())?;
+        let mut grades = read_grades(conn, &index)?;
         let machine_grades: Vec<GradeRow> = grades
             .iter()
             .filter(|g| machines[g.reviewer as usize])
@@ -293,42 +186,8 @@ impl Study {
         if !settings.machines_in_panel && !machine_grades.is_empty() {
             grades.retain(|g| !machines[g.reviewer as usize]);
         }
-
-        let mut settled = Vec::new();
-        {
-            // The latest settle event per pair and scale is in force; NULL = undone.
-            let mut stmt = conn.prepare(
-                "SELECT context_id, item_id, scale, value FROM settle_events s
-                 WHERE NOT EXISTS (
-                   SELECT 1 FROM settle_events t
-                   WHERE t.scale = s.scale AND t.context_id = s.context_id AND t.item_id = s.item_id
-                     AND (t.settled_at > s.settled_at OR (t.settled_at = s.settled_at AND t.id > s.id)))
-                 AND value IS NOT NULL",
-            )?;
-            let mut rows = stmt.query([])?;
-            while let Some(r) = rows.next()? {
-                settled.push(SettledRow {
-                    context: context_index[r.get_ref(0)?.as_str()?],
-                    item: item_index[r.get_ref(1)?.as_str()?],
-                    scale: scale_index[r.get_ref(2)?.as_str()?],
-                    value: r.get(3)?,
-                });
-            }
-        }
-        let mut gold = Vec::new();
-        {
-            let mut stmt =
-                conn.prepare("SELECT context_id, item_id, scale, value FROM gold_pairs")?;
-            let mut rows = stmt.query([])?;
-            while let Some(r) = rows.next()? {
-                gold.push((
-                    context_index[r.get_ref(0)?.as_str()?],
-                    item_index[r.get_ref(1)?.as_str()?],
-                    scale_index[r.get_ref(2)?.as_str()?],
-                    r.get(3)?,
-                ));
-            }
-        }
+        let settled = read_settled(conn, &index)?;
+        let gold = read_gold(conn, &index)?;
         Ok(Snapshot {
             name: settings.name,
             stored_baseline: settings.baseline,
@@ -349,4 +208,192 @@ impl Study {
             outside: Default::default(),
         })
     }
+}
+
+/// Each kind of id to its position in the snapshot's vectors.
+struct Indexes<'a> {
+    item: IdMap<'a>,
+    context: IdMap<'a>,
+    ranker: IdMap<'a>,
+    reviewer: IdMap<'a>,
+    scale: IdMap<'a>,
+}
+
+fn read_items(conn: &rusqlite::Connection) -> Result<Vec<ItemInfo>> {
+    Ok(conn
+        .prepare("SELECT item_id, title, category, is_new FROM items ORDER BY item_id")?
+        .query_map([], |r| {
+            Ok(ItemInfo {
+                id: r.get(0)?,
+                title: r.get(1)?,
+                category: r.get(2)?,
+                is_new: r.get(3)?,
+            })
+        })?
+        .collect::<std::result::Result<_, _>>()?)
+}
+
+fn read_contexts(conn: &rusqlite::Connection) -> Result<Vec<ContextInfo>> {
+    Ok(conn
+        .prepare(
+            "SELECT context_id, kind, text, segment, anchor_item_id FROM contexts ORDER BY context_id",
+        )?
+        .query_map([], |r| {
+            Ok(ContextInfo {
+                id: r.get(0)?,
+                kind: r.get(1)?,
+                text: r.get(2)?,
+                segment: r.get(3)?,
+                anchor_item: r.get(4)?,
+            })
+        })?
+        .collect::<std::result::Result<_, _>>()?)
+}
+
+fn read_rankers(conn: &rusqlite::Connection) -> Result<Vec<String>> {
+    Ok(conn
+        .prepare("SELECT ranker FROM rankers ORDER BY ranker")?
+        .query_map([], |r| r.get(0))?
+        .collect::<std::result::Result<_, _>>()?)
+}
+
+/// The reviewers in name order, and whether each is a machine judge.
+fn read_reviewers(conn: &rusqlite::Connection) -> Result<(Vec<String>, Vec<bool>)> {
+    Ok(conn
+        .prepare("SELECT reviewer, kind = 'machine' FROM reviewers ORDER BY reviewer")?
+        .query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, bool>(1)?)))?
+        .collect::<std::result::Result<Vec<_>, _>>()?
+        .into_iter()
+        .unzip())
+}
+
+/// Every ranker's list per context, as item positions.
+fn read_lists(
+    conn: &rusqlite::Connection,
+    index: &Indexes<'_>,
+    rankers: usize,
+    contexts: usize,
+) -> Result<Vec<Vec<Vec<u32>>>> {
+    let mut lists = vec![vec![Vec::new(); contexts]; rankers];
+    let mut stmt = conn.prepare("SELECT ranker, context_id, items FROM ranked_lists")?;
+    let mut rows = stmt.query([])?;
+    while let Some(r) = rows.next()? {
+        let ranker = index.ranker[r.get_ref(0)?.as_str()?] as usize;
+        let context = index.context[r.get_ref(1)?.as_str()?] as usize;
+        let ids: Vec<std::borrow::Cow<str>> =
+            serde_json::from_str::<JsonIds>(r.get_ref(2)?.as_str()?)
+                .map_err(|e| {
+                    rusqlite::Error::FromSqlConversionFailure(
+                        2,
+                        rusqlite::types::Type::Text,
+                        Box::new(e),
+                    )
+                })?
+                .0;
+        lists[ranker][context] = ids.iter().map(|id| index.item[id.as_ref()]).collect();
+    }
+    Ok(lists)
+}
+
+/// The scales in name order, each with its levels in value order.
+fn read_scales(conn: &rusqlite::Connection) -> Result<Vec<Scale>> {
+    let mut scales: Vec<Scale> = Vec::new();
+    let mut stmt = conn.prepare(
+        "SELECT s.scale, l.value, l.label, l.gain, l.key, l.rubric, l.colour
+         FROM scales s JOIN levels l ON l.scale = s.scale ORDER BY s.scale, l.value",
+    )?;
+    let mut rows = stmt.query([])?;
+    while let Some(r) = rows.next()? {
+        let name: String = r.get(0)?;
+        if scales.last().is_none_or(|s| s.name != name) {
+            scales.push(Scale {
+                name,
+                levels: Vec::new(),
+            });
+        }
+        scales.last_mut().expect("pushed above").levels.push(Level {
+            value: r.get(1)?,
+            label: r.get(2)?,
+            gain: r.get(3)?,
+            key: r.get(4)?,
+            rubric: r.get(5)?,
+            colour: r.get(6)?,
+        });
+    }
+    Ok(scales)
+}
+
+/// Every reviewer's current grades, sorted by (scale, context, item, reviewer).
+fn read_grades(conn: &rusqlite::Connection, index: &Indexes<'_>) -> Result<Vec<GradeRow>> {
+    let mut grades = Vec::new();
+    // One scan in key order (scale, context, item, reviewer): a run of rows shares
+    // its scale and context, so those are looked up once per run.
+    let mut stmt = conn.prepare(
+        "SELECT reviewer, context_id, item_id, scale, value, seconds, graded_day FROM current_grades",
+    )?;
+    let mut rows = stmt.query([])?;
+    let (mut scale_key, mut context_key) = (String::new(), String::new());
+    let (mut scale_at, mut context_at) = (0u32, 0u32);
+    while let Some(r) = rows.next()? {
+        let scale = r.get_ref(3)?.as_str()?;
+        if scale != scale_key || scale_key.is_empty() {
+            scale_at = index.scale[scale];
+            scale_key = scale.to_string();
+        }
+        let context = r.get_ref(1)?.as_str()?;
+        if context != context_key || context_key.is_empty() {
+            context_at = index.context[context];
+            context_key = context.to_string();
+        }
+        grades.push(GradeRow {
+            reviewer: index.reviewer[r.get_ref(0)?.as_str()?],
+            context: context_at,
+            item: index.item[r.get_ref(2)?.as_str()?],
+            scale: scale_at,
+            value: r.get(4)?,
+            seconds: r.get(5)?,
+            day: r.get::<_, Option<i32>>(6)?.unwrap_or(0),
+        });
+    }
+    grades.sort_by_key(|g| (g.scale, g.context, g.item, g.reviewer));
+    Ok(grades)
+}
+
+/// The settled grades in force: the latest settle event per pair and scale; NULL = undone.
+fn read_settled(conn: &rusqlite::Connection, index: &Indexes<'_>) -> Result<Vec<SettledRow>> {
+    let mut settled = Vec::new();
+    let mut stmt = conn.prepare(
+        "SELECT context_id, item_id, scale, value FROM settle_events s
+         WHERE NOT EXISTS (
+           SELECT 1 FROM settle_events t
+           WHERE t.scale = s.scale AND t.context_id = s.context_id AND t.item_id = s.item_id
+             AND (t.settled_at > s.settled_at OR (t.settled_at = s.settled_at AND t.id > s.id)))
+         AND value IS NOT NULL",
+    )?;
+    let mut rows = stmt.query([])?;
+    while let Some(r) = rows.next()? {
+        settled.push(SettledRow {
+            context: index.context[r.get_ref(0)?.as_str()?],
+            item: index.item[r.get_ref(1)?.as_str()?],
+            scale: index.scale[r.get_ref(2)?.as_str()?],
+            value: r.get(3)?,
+        });
+    }
+    Ok(settled)
+}
+
+/// The gold pairs as (context, item, scale, value) positions.
+fn read_gold(conn: &rusqlite::Connection, index: &Indexes<'_>) -> Result<Vec<(u32, u32, u32, u8)>> {
+    let mut gold = Vec::new();
+    let mut stmt = conn.prepare("SELECT context_id, item_id, scale, value FROM gold_pairs")?;
+    let mut rows = stmt.query([])?;
+    while let Some(r) = rows.next()? {
+        gold.push((
+            index.context[r.get_ref(0)?.as_str()?],
+            index.item[r.get_ref(1)?.as_str()?],
+            index.scale[r.get_ref(2)?.as_str()?],
+            r.get(3)?,
+        ));
+    }
+    Ok(gold)
 }

@@ -7,66 +7,98 @@ use rusqlite::{OptionalExtension, Transaction, params};
 use super::{Fields, FileReport, SCALES, Source, input_error, parse, report};
 use crate::core::scale::{DESK_KEYS, MAX_LEVELS, gain_problem, gains_fall, is_desk_key};
 use crate::study::Result;
+use crate::study::csv_input::Table;
 use crate::study::csv_input::{ProblemLog, Problems};
+
+/// One level as read: (line, value, label, gain, key, rubric, colour).
+type LevelRow = (u64, u8, String, Option<f64>, String, String, String);
+
+/// A level as stored: (value, label, gain, key, rubric, colour).
+type StoredLevel = (u8, String, Option<f64>, String, String, String);
 
 pub(super) fn import_scales(tx: &Transaction, src: &Source) -> Result<FileReport> {
     let table = parse(src, &SCALES)?;
     let mut log = ProblemLog::default();
-    type LevelRow = (u64, u8, String, Option<f64>, String, String, String);
     let mut scales: BTreeMap<String, Vec<LevelRow>> = BTreeMap::new();
     for row in &table.rows {
         let f = Fields { table: &table, row };
-        let (Some(scale), Some(value_text), Some(label)) = (
-            f.required("scale", &mut log),
-            f.required("value", &mut log),
-            f.required("label", &mut log),
-        ) else {
-            continue;
-        };
-        let value = match value_text.parse::<u8>() {
-            Ok(v) if (v as usize) < MAX_LEVELS => v,
-            _ => {
-                log.push(f.problem(
-                    "value",
-                    format!(
-                        "value must be a whole number from 0 to {} (a scale has at most {MAX_LEVELS} levels), got \"{value_text}\"",
-                        MAX_LEVELS - 1
-                    ),
-                ));
-                continue;
-            }
-        };
-        let key = f.text("key").trim();
-        if is_desk_key(key) {
+        if let Some((scale, level)) = checked_level(&f, &mut log) {
+            scales.entry(scale.to_string()).or_default().push(level);
+        }
+    }
+    let value_col = table.column("value").unwrap_or(0) + 1;
+    check_numbering(&table, &mut scales, &mut log);
+    log.into_result().map_err(input_error)?;
+    let mut report = report(src, "scales");
+    warn_of_falling_gains(src, &scales, &mut report);
+    for (name, levels) in scales {
+        write_scale(tx, &table, value_col, (&name, &levels), &mut report)?;
+    }
+    Ok(report)
+}
+
+/// One row checked field by field; `None` once a problem is logged.
+fn checked_level<'a>(f: &Fields<'a>, log: &mut ProblemLog) -> Option<(&'a str, LevelRow)> {
+    let (Some(scale), Some(value_text), Some(label)) = (
+        f.required("scale", log),
+        f.required("value", log),
+        f.required("label", log),
+    ) else {
+        return None;
+    };
+    let value = match value_text.parse::<u8>() {
+        Ok(v) if (v as usize) < MAX_LEVELS => v,
+        _ => {
             log.push(f.problem(
-                "key",
+                "value",
                 format!(
-                    "key \"{key}\" is kept by the grading desk ({}); choose another key, or leave it empty for the level's digit",
-                    DESK_KEYS.join(" ")
+                    "value must be a whole number from 0 to {} (a scale has at most {MAX_LEVELS} levels), got \"{value_text}\"",
+                    MAX_LEVELS - 1
                 ),
             ));
-            continue;
+            return None;
         }
-        let Some(gain) = f.optional_f64("gain", &mut log) else {
-            continue;
-        };
-        if let Some(problem) = gain.and_then(gain_problem) {
-            log.push(f.problem("gain", problem));
-            continue;
-        }
-        scales.entry(scale.to_string()).or_default().push((
-            row.line,
+    };
+    let key = f.text("key").trim();
+    if is_desk_key(key) {
+        log.push(f.problem(
+            "key",
+            format!(
+                "key \"{key}\" is kept by the grading desk ({}); choose another key, or leave it empty for the level's digit",
+                DESK_KEYS.join(" ")
+            ),
+        ));
+        return None;
+    }
+    let gain = f.optional_f64("gain", log)?;
+    if let Some(problem) = gain.and_then(gain_problem) {
+        log.push(f.problem("gain", problem));
+        return None;
+    }
+    Some((
+        scale,
+        (
+            f.row.line,
             value,
             label.to_string(),
             gain,
             key.to_string(),
             f.text("rubric").to_string(),
             f.text("colour").trim().to_string(),
-        ));
-    }
+        ),
+    ))
+}
+
+/// Each scale's values run 0, 1, 2… without repeats, its keys are distinct, and it has
+/// at least two levels. Sorts each scale's levels by value.
+fn check_numbering(
+    table: &Table,
+    scales: &mut BTreeMap<String, Vec<LevelRow>>,
+    log: &mut ProblemLog,
+) {
     let value_col = table.column("value").unwrap_or(0) + 1;
     let key_col = table.column("key").map_or(0, |c| c + 1);
-    for (name, levels) in &mut scales {
+    for (name, levels) in scales.iter_mut() {
         levels.sort_by_key(|l| (l.1, l.0));
         for (n, level) in levels.iter().enumerate() {
             if n > 0 && levels[n - 1].1 == level.1 {
@@ -103,9 +135,15 @@ pub(super) fn import_scales(tx: &Transaction, src: &Source) -> Result<FileReport
             ));
         }
     }
-    log.into_result().map_err(input_error)?;
-    let mut report = report(src, "scales");
-    for (name, levels) in &scales {
+}
+
+/// A warning for each scale whose gains fall as the level rises.
+fn warn_of_falling_gains(
+    src: &Source,
+    scales: &BTreeMap<String, Vec<LevelRow>>,
+    report: &mut FileReport,
+) {
+    for (name, levels) in scales {
         let gains: Vec<Option<f64>> = levels.iter().map(|l| l.3).collect();
         if gains_fall(&gains) {
             report.warnings.push(format!(
@@ -119,60 +157,68 @@ pub(super) fn import_scales(tx: &Transaction, src: &Source) -> Result<FileReport
             ));
         }
     }
-    for (name, levels) in scales {
-        let old: Vec<(u8, String, Option<f64>, String, String, String)> = {
-            let mut stmt = tx.prepare(
-                "SELECT value, label, gain, key, rubric, colour FROM levels WHERE scale = ?1 ORDER BY value",
-            )?;
-            stmt.query_map([&name], |r| {
-                Ok((
-                    r.get(0)?,
-                    r.get(1)?,
-                    r.get(2)?,
-                    r.get(3)?,
-                    r.get(4)?,
-                    r.get(5)?,
-                ))
-            })?
-            .collect::<std::result::Result<_, _>>()?
-        };
-        let new: Vec<(u8, String, Option<f64>, String, String, String)> = levels
-            .iter()
-            .map(|l| (l.1, l.2.clone(), l.3, l.4.clone(), l.5.clone(), l.6.clone()))
-            .collect();
-        if old == new {
-            report.unchanged += new.len() as u64;
-            continue;
-        }
-        if !old.is_empty() {
-            let graded: bool = tx
-                .query_row(
-                    "SELECT 1 FROM grade_events WHERE scale = ?1 LIMIT 1",
-                    [&name],
-                    |_| Ok(true),
-                )
-                .optional()?
-                .unwrap_or(false);
-            let same_values = old.iter().map(|l| l.0).eq(new.iter().map(|l| l.0));
-            if graded && !same_values {
-                return Err(input_error(Problems(vec![table.problem(
-                    levels[0].0,
-                    value_col,
-                    format!("scale \"{name}\" already has grades; its levels cannot be added, removed or renumbered — give the changed scale a new name"),
-                )])));
-            }
-            report.updated += new.len() as u64;
-            tx.execute("DELETE FROM levels WHERE scale = ?1", [&name])?;
-        } else {
-            report.added += new.len() as u64;
-            tx.execute("INSERT INTO scales(scale) VALUES (?1)", [&name])?;
-        }
-        let mut insert = tx.prepare(
-            "INSERT INTO levels(scale, value, label, gain, key, rubric, colour) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7)",
+}
+
+/// Adds or replaces one scale's levels; a graded scale keeps its values.
+fn write_scale(
+    tx: &Transaction,
+    table: &Table,
+    value_col: usize,
+    (name, levels): (&String, &[LevelRow]),
+    report: &mut FileReport,
+) -> Result<()> {
+    let old: Vec<StoredLevel> = {
+        let mut stmt = tx.prepare(
+            "SELECT value, label, gain, key, rubric, colour FROM levels WHERE scale = ?1 ORDER BY value",
         )?;
-        for (value, label, gain, key, rubric, colour) in new {
-            insert.execute(params![name, value, label, gain, key, rubric, colour])?;
-        }
+        stmt.query_map([&name], |r| {
+            Ok((
+                r.get(0)?,
+                r.get(1)?,
+                r.get(2)?,
+                r.get(3)?,
+                r.get(4)?,
+                r.get(5)?,
+            ))
+        })?
+        .collect::<std::result::Result<_, _>>()?
+    };
+    let new: Vec<StoredLevel> = levels
+        .iter()
+        .map(|l| (l.1, l.2.clone(), l.3, l.4.clone(), l.5.clone(), l.6.clone()))
+        .collect();
+    if old == new {
+        report.unchanged += new.len() as u64;
+        return Ok(());
     }
-    Ok(report)
+    if !old.is_empty() {
+        let graded: bool = tx
+            .query_row(
+                "SELECT 1 FROM grade_events WHERE scale = ?1 LIMIT 1",
+                [&name],
+                |_| Ok(true),
+            )
+            .optional()?
+            .unwrap_or(false);
+        let same_values = old.iter().map(|l| l.0).eq(new.iter().map(|l| l.0));
+        if graded && !same_values {
+            return Err(input_error(Problems(vec![table.problem(
+                levels[0].0,
+                value_col,
+                format!("scale \"{name}\" already has grades; its levels cannot be added, removed or renumbered — give the changed scale a new name"),
+            )])));
+        }
+        report.updated += new.len() as u64;
+        tx.execute("DELETE FROM levels WHERE scale = ?1", [&name])?;
+    } else {
+        report.added += new.len() as u64;
+        tx.execute("INSERT INTO scales(scale) VALUES (?1)", [&name])?;
+    }
+    let mut insert = tx.prepare(
+        "INSERT INTO levels(scale, value, label, gain, key, rubric, colour) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7)",
+    )?;
+    for (value, label, gain, key, rubric, colour) in new {
+        insert.execute(params![name, value, label, gain, key, rubric, colour])?;
+    }
+    Ok(())
 }

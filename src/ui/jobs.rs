@@ -75,9 +75,9 @@ impl<T> JobOutput for Option<T> {
 }
 
 /// A file dialog job that died counts as a dialog that could not open.
-impl<T> JobOutput for super::study_picker::Asked<T> {
+impl<T> JobOutput for crate::ui::frame::study_picker::Asked<T> {
     fn from_failure(_: String) -> Self {
-        super::study_picker::Asked::Unavailable
+        crate::ui::frame::study_picker::Asked::Unavailable
     }
 }
 

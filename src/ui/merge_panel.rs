@@ -5,9 +5,9 @@
 use std::path::{Path, PathBuf};
 
 use super::jobs::{JobError, JobResult, Task};
-use super::study_picker::{Asked, NO_DIALOG, ask};
 use crate::study::Study;
 use crate::study::merge::{MergeOptions, MergeReport};
+use crate::ui::frame::study_picker::{Asked, NO_DIALOG, ask};
 
 /// One file's outcome: what came (or would come) in, or why it was refused.
 pub type MergeOutcome = (PathBuf, JobResult<MergeReport>);

@@ -5,26 +5,23 @@
 pub mod agreement;
 pub mod catalog;
 pub mod desk;
+pub mod frame;
 pub mod home;
 pub mod image_cache;
 pub mod jobs;
-pub mod key_help;
 pub mod merge_panel;
 pub mod own_view;
 pub mod palette;
 pub mod scales;
 pub mod scoreboard;
-pub mod shell;
-pub mod sign_in;
-pub mod study_picker;
 pub mod trial;
 
 use std::path::PathBuf;
 
 use crate::study::StudyError;
 
-pub use shell::Workbench;
-pub use study_picker::Prefs;
+pub use frame::shell::Workbench;
+pub use frame::study_picker::Prefs;
 
 /// The workbench's screens, in the order of the rail.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]

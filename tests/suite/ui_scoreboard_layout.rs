@@ -11,7 +11,7 @@ use std::process::Command;
 use egui::Role;
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
-use plumbline::ui::study_picker::Prefs;
+use plumbline::ui::frame::study_picker::Prefs;
 use plumbline::ui::{Screen, Workbench};
 use ui_support::{demo_copy, step_until};
 

@@ -8,8 +8,8 @@ use std::sync::{Arc, Mutex};
 use super::Catalog;
 use crate::study::Study;
 use crate::study::import::{FileReport, ImportSet, Source, import_with_progress};
+use crate::ui::frame::study_picker::{Asked, NO_DIALOG, ask};
 use crate::ui::jobs::{JobResult, Task};
-use crate::ui::study_picker::{Asked, NO_DIALOG, ask};
 
 /// The files the import panel takes, in its order; `gold` holds gold pairs (known levels).
 const KINDS: [&str; 6] = ["items", "contexts", "rankings", "scales", "grades", "gold"];

@@ -10,13 +10,13 @@ use std::path::{Path, PathBuf};
 
 use super::image_cache::ImageCache;
 use super::jobs::{JobResult, Task};
-use super::study_picker::Asked;
 use crate::analysis::catalog_view::{ContextLists, ContextView};
 use crate::study::Problem;
 use crate::study::Study;
 use crate::study::import::FileReport;
 use crate::study::queues::{ContextCard, ItemCard};
 use crate::study::settings::keys;
+use crate::ui::frame::study_picker::Asked;
 use tables::{ContextColumn, ItemColumn, Sort};
 
 /// One ranker's row.

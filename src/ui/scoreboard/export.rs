@@ -6,8 +6,8 @@ use std::path::PathBuf;
 use super::ScoreboardScreen;
 use crate::analysis::scoreboard_view::ScoreboardModel;
 use crate::analysis::{render, report};
+use crate::ui::frame::study_picker::{Asked, NO_DIALOG, ask};
 use crate::ui::jobs::JobError;
-use crate::ui::study_picker::{Asked, NO_DIALOG, ask};
 
 impl ScoreboardScreen {
     pub(super) fn export(

@@ -221,82 +221,86 @@ impl ScoreboardScreen {
     }
 
     fn controls(&mut self, ui: &mut egui::Ui, model: &ScoreboardModel) {
-        let c = &model.choices;
-        ui.horizontal_wrapped(|ui| {
-            let scale = self.wanted.scale.clone().unwrap_or_default();
-            if let Some(s) = pick(ui, "Scale", "sb_scale", &scale, &c.scales, |s| s.clone()) {
-                self.wanted.scale = Some(s);
-            }
-            let mut sources = vec!["panel".to_string()];
-            sources.extend(c.reviewers.iter().cloned());
-            let grades = self.wanted.grades.label();
-            if let Some(g) = pick(ui, "Grades", "sb_grades", &grades, &sources, |g| {
-                if g == "panel" {
-                    "panel (settled, else median)".into()
-                } else {
-                    format!("{g} only")
-                }
-            }) {
-                self.wanted.grades = GradeSource::parse(&g);
-            }
-            let gain = match self.wanted.gain {
-                GainKind::Exponential => "exponential",
-                GainKind::Linear => "linear",
-            };
-            let gains = ["exponential".to_string(), "linear".to_string()];
-            if let Some(g) = pick(ui, "Gain", "sb_gain", gain, &gains, |g| {
-                if g == "exponential" {
-                    "exponential (2^level − 1)".into()
-                } else {
-                    "linear (level)".into()
-                }
-            }) {
-                self.wanted.gain = GainKind::parse(&g).unwrap_or(GainKind::Exponential);
-            }
-            let unjudged = match self.wanted.unjudged {
-                Unjudged::Zero => "zero",
-                Unjudged::Condense => "condense",
-            };
-            let policies = ["zero".to_string(), "condense".to_string()];
-            if let Some(u) = pick(ui, "Unjudged", "sb_unjudged", unjudged, &policies, |u| {
-                if u == "zero" {
-                    "count as gain 0".into()
-                } else {
-                    "condense (drop)".into()
-                }
-            }) {
-                self.wanted.unjudged = Unjudged::parse(&u).unwrap_or(Unjudged::Zero);
-            }
-            let segment = self.wanted.segment.label();
-            if let Some(s) = pick(
-                ui,
-                "Segment",
-                "sb_segment",
-                &segment,
-                &c.segments,
-                |s| match s.as_str() {
-                    "all" => "all contexts".into(),
-                    "new" => "new items carry gain".into(),
-                    "established" => "established items carry gain".into(),
-                    "query" => "query contexts (kind)".into(),
-                    "anchor" => "anchor contexts (kind)".into(),
-                    // A label from contexts.csv's segment column, never taken for a kind
-                    // even when it is spelled like one.
-                    other => match other.strip_prefix("segment:") {
-                        Some(label) => format!("label “{label}” (segment column)"),
-                        None => other.to_string(),
-                    },
-                },
-            ) {
-                self.wanted.segment = Segment::parse(&s);
-            }
-            let baseline = self.wanted.baseline.clone().unwrap_or_default();
-            if let Some(b) = pick(ui, "Baseline", "sb_baseline", &baseline, &c.rankers, |b| {
-                b.clone()
-            }) {
-                self.wanted.baseline = Some(b);
-            }
-        });
+        ui.horizontal_wrapped(|ui| self.setting_choices(ui, &model.choices));
+        self.cut_off_choices(ui);
+    }
+
+    /// The row of combo boxes; each holds the typed setting it chooses, so a reviewer
+    /// called "panel" or a segment label spelled like a kind stays what it is.
+    fn setting_choices(
+        &mut self,
+        ui: &mut egui::Ui,
+        c: &crate::analysis::scoreboard_view::Choices,
+    ) {
+        let scale = self.wanted.scale.clone().unwrap_or_default();
+        if let Some(s) = pick(ui, "Scale", "sb_scale", &scale, &c.scales, |s| s.clone()) {
+            self.wanted.scale = Some(s);
+        }
+        let mut sources = vec![GradeSource::Panel];
+        sources.extend(c.reviewers.iter().cloned().map(GradeSource::Reviewer));
+        if let Some(g) = pick(
+            ui,
+            "Grades",
+            "sb_grades",
+            &self.wanted.grades,
+            &sources,
+            |g| match g {
+                GradeSource::Panel => "panel (settled, else median)".into(),
+                GradeSource::Reviewer(r) => format!("{r} only"),
+            },
+        ) {
+            self.wanted.grades = g;
+        }
+        let gains = [GainKind::Exponential, GainKind::Linear];
+        if let Some(g) = pick(
+            ui,
+            "Gain",
+            "sb_gain",
+            &self.wanted.gain,
+            &gains,
+            |g| match g {
+                GainKind::Exponential => "exponential (2^level − 1)".into(),
+                GainKind::Linear => "linear (level)".into(),
+            },
+        ) {
+            self.wanted.gain = g;
+        }
+        let policies = [Unjudged::Zero, Unjudged::Condense];
+        if let Some(u) = pick(
+            ui,
+            "Unjudged",
+            "sb_unjudged",
+            &self.wanted.unjudged,
+            &policies,
+            |u| match u {
+                Unjudged::Zero => "count as gain 0".into(),
+                Unjudged::Condense => "condense (drop)".into(),
+            },
+        ) {
+            self.wanted.unjudged = u;
+        }
+        // The model names its segments as `Segment::label` writes them; read back once here.
+        let segments: Vec<Segment> = c.segments.iter().map(|s| Segment::parse(s)).collect();
+        if let Some(s) = pick(
+            ui,
+            "Segment",
+            "sb_segment",
+            &self.wanted.segment,
+            &segments,
+            segment_words,
+        ) {
+            self.wanted.segment = s;
+        }
+        let baseline = self.wanted.baseline.clone().unwrap_or_default();
+        if let Some(b) = pick(ui, "Baseline", "sb_baseline", &baseline, &c.rankers, |b| {
+            b.clone()
+        }) {
+            self.wanted.baseline = Some(b);
+        }
+    }
+
+    /// The cut-off toggles and the cut-off the plots and sensitivity use.
+    fn cut_off_choices(&mut self, ui: &mut egui::Ui) {
         ui.horizontal_wrapped(|ui| {
             ui.label("Cut-offs");
             let mut offered: Vec<usize> = OFFERED_KS.to_vec();
@@ -318,17 +322,15 @@ impl ScoreboardScreen {
                 }
             }
             ui.separator();
-            let focus = self.focus_k.to_string();
-            let ks: Vec<String> = self.wanted.ks.iter().map(usize::to_string).collect();
-            if let Some(f) = pick(
+            if let Some(k) = pick(
                 ui,
                 "Cut-off for plots and sensitivity",
                 "sb_focus",
-                &focus,
-                &ks,
+                &self.focus_k,
+                &self.wanted.ks,
                 |k| format!("k={k}"),
             ) {
-                self.focus_k = f.parse().unwrap_or(10);
+                self.focus_k = k;
             }
         });
     }
@@ -514,20 +516,20 @@ impl ScoreboardScreen {
 }
 
 /// A labelled combo box over `options`; returns the option picked this frame, if any.
-fn pick(
+fn pick<T: PartialEq + Clone>(
     ui: &mut egui::Ui,
     label: &str,
     id: &str,
-    current: &str,
-    options: &[String],
-    shown: impl Fn(&String) -> String,
-) -> Option<String> {
+    current: &T,
+    options: &[T],
+    shown: impl Fn(&T) -> String,
+) -> Option<T> {
     let mut chosen = None;
     let label_response = ui.label(label);
     let current_text = options
         .iter()
-        .find(|o| o.as_str() == current)
-        .map_or(current.to_string(), &shown);
+        .find(|o| *o == current)
+        .map_or_else(|| shown(current), &shown);
     // As wide as the longest choice, so the controls after it do not shift sideways
     // when the choice changes.
     let font = egui::TextStyle::Button.resolve(ui.style());
@@ -567,4 +569,15 @@ fn pick(
         });
     let _ = combo.response.labelled_by(label_response.id);
     chosen
+}
+
+/// How a segment reads in its combo box.
+fn segment_words(segment: &Segment) -> String {
+    match segment {
+        Segment::All => "all contexts".into(),
+        Segment::New => "new items carry gain".into(),
+        Segment::Established => "established items carry gain".into(),
+        Segment::Kind(kind) => format!("{kind} contexts (kind)"),
+        Segment::ContextSegment(label) => format!("label “{label}” (segment column)"),
+    }
 }

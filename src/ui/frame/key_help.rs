@@ -1,6 +1,6 @@
 //! Keyboard help on `?` or F1: every key of the screen on show, in one small window.
 
-use super::Screen;
+use crate::ui::Screen;
 
 /// The rail's shortcuts for the lead (nobody signed in).
 const LEAD_RAIL: (&str, &str) = (

@@ -3,18 +3,18 @@
 
 use std::path::{Path, PathBuf};
 
-use super::Screen;
-use super::agreement::AgreementScreen;
-use super::catalog::Catalog;
-use super::desk::{Desk, SaveState};
-use super::home::{self, HomeModel};
-use super::jobs::{JobResult, Task};
-use super::own_view::OwnView;
-use super::scales::ScalesScreen;
-use super::scoreboard::{ScoreboardAction, ScoreboardScreen};
 use super::sign_in::SignIn;
 use super::study_picker::{PickerOutcome, Prefs, ScoreboardChoices, StudyPicker};
-use super::trial::TrialScreen;
+use crate::ui::Screen;
+use crate::ui::agreement::AgreementScreen;
+use crate::ui::catalog::Catalog;
+use crate::ui::desk::{Desk, SaveState};
+use crate::ui::home::{self, HomeModel};
+use crate::ui::jobs::{JobResult, Task};
+use crate::ui::own_view::OwnView;
+use crate::ui::scales::ScalesScreen;
+use crate::ui::scoreboard::{ScoreboardAction, ScoreboardScreen};
+use crate::ui::trial::TrialScreen;
 
 /// One rail entry: the screen, its name, its shortcut key and how the shortcut reads.
 type RailEntry = (Screen, &'static str, egui::Key, &'static str);
@@ -411,7 +411,7 @@ impl Workbench {
                 |ui| match self.desk.save_state() {
                     SaveState::AllSaved => {
                         ui.label(
-                            egui::RichText::new("All grades saved").color(super::palette::GOOD),
+                            egui::RichText::new("All grades saved").color(crate::ui::palette::GOOD),
                         );
                     }
                     SaveState::Saving => {

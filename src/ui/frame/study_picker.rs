@@ -3,9 +3,9 @@
 
 use std::path::{Path, PathBuf};
 
-use super::jobs::{JobResult, Task};
 use crate::analysis::scoreboard::ScoreSettings;
 use crate::study::Study;
+use crate::ui::jobs::{JobResult, Task};
 
 const RECENT_LIMIT: usize = 10;
 

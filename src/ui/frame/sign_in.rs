@@ -2,8 +2,8 @@
 
 use std::path::{Path, PathBuf};
 
-use super::jobs::{JobResult, Task};
 use crate::study::Study;
+use crate::ui::jobs::{JobResult, Task};
 
 /// The panel as the sign-in list shows it, and a pending "add reviewer" job.
 pub struct SignIn {

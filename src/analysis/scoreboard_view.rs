@@ -428,6 +428,40 @@ pub fn is_share(key: &str) -> bool {
     Metric::parse(key).is_some_and(|m| m.spec().is_share)
 }
 
+/// Whether a cell is a judged@k share below [`defaults::COVERAGE_CAUTION`] (drawn in
+/// the caution colour).
+pub fn is_low_coverage(key: &str, m: &scoreboard::MetricSummary) -> bool {
+    is_share(key) && m.mean < super::defaults::COVERAGE_CAUTION
+}
+
+/// The Scoreboard's coverage line: every ranker and cut-off whose judged@k is below
+/// [`super::defaults::COVERAGE_CAUTION`]; None when every one is above.
+pub fn low_coverage_warning(board: &Scoreboard) -> Option<String> {
+    let low: Vec<String> = board
+        .rankers
+        .iter()
+        .flat_map(|r| {
+            board.settings.ks.iter().filter_map(move |k| {
+                let j = r.metrics.get(&format!("judged@{k}"))?;
+                (j.mean < super::defaults::COVERAGE_CAUTION).then(|| {
+                    format!(
+                        "{} at k={k}: {}",
+                        r.ranker,
+                        super::render::percent_spaced(j.mean)
+                    )
+                })
+            })
+        })
+        .collect();
+    (!low.is_empty()).then(|| {
+        format!(
+            "Coverage warning: below {:.0} % of the top k judged for {}. Unjudged items pull scores toward 0 (or vanish when condensed); judge the gaps below.",
+            super::defaults::COVERAGE_CAUTION * 100.0,
+            low.join("; ")
+        )
+    })
+}
+
 /// A table cell: shares (judged@k) as a percentage, the rest as mean with interval.
 pub fn cell_text(key: &str, m: &scoreboard::MetricSummary) -> String {
     if is_share(key) {

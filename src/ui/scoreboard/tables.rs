@@ -1,32 +1,16 @@
 //! The Scoreboard's tables and warnings, drawn from the cached model.
 
-use crate::analysis::defaults::COVERAGE_CAUTION;
 use crate::analysis::render::{fixed, percent_spaced as percent};
 use crate::analysis::scoreboard::{OFFLINE_CAUTION, Scoreboard};
 use crate::analysis::scoreboard_view::{
     COMPARISON_COLUMNS, ScoreboardModel, cautions_by_ranker, cell_text, column_title,
-    difference_text, order_of, p_text, table_keys,
+    column_tooltip, difference_text, is_low_coverage, low_coverage_warning, order_of, p_text,
+    table_keys,
 };
 
 pub fn coverage_warning(ui: &mut egui::Ui, board: &Scoreboard) {
-    let mut low: Vec<String> = Vec::new();
-    for r in &board.rankers {
-        for k in &board.settings.ks {
-            if let Some(j) = r.metrics.get(&format!("judged@{k}"))
-                && j.mean < COVERAGE_CAUTION
-            {
-                low.push(format!("{} at k={k}: {}", r.ranker, percent(j.mean)));
-            }
-        }
-    }
-    if !low.is_empty() {
-        ui.colored_label(
-            ui.visuals().warn_fg_color,
-            format!(
-                "Coverage warning: below 90 % of the top k judged for {}. Unjudged items pull scores toward 0 (or vanish when condensed); judge the gaps below.",
-                low.join("; ")
-            ),
-        );
+    if let Some(words) = low_coverage_warning(board) {
+        ui.colored_label(ui.visuals().warn_fg_color, words);
     }
 }
 
@@ -66,14 +50,15 @@ pub fn ranker_table(ui: &mut egui::Ui, board: &Scoreboard, focus: usize) {
 fn ranker_rows(ui: &mut egui::Ui, board: &Scoreboard, keys: &[String]) {
     ui.strong("ranker");
     for key in keys {
-        ui.strong(column_title(key));
+        ui.strong(column_title(key))
+            .on_hover_text(column_tooltip(key));
     }
     ui.end_row();
     for r in &board.rankers {
         ui.label(&r.ranker);
         for key in keys {
             match r.metrics.get(key) {
-                Some(m) if key.starts_with("judged") && m.mean < COVERAGE_CAUTION => {
+                Some(m) if is_low_coverage(key, m) => {
                     ui.colored_label(ui.visuals().warn_fg_color, cell_text(key, m));
                 }
                 Some(m) => {

@@ -64,6 +64,26 @@ pub enum Caution {
         /// Contexts scored.
         scored: usize,
     },
+    /// Kappa is not comparable across scales with different numbers of levels.
+    KappaAcrossLevelCounts,
+    /// The trial's rows share one pilot sample: the pairs graded on every scale.
+    SharedPilotSample,
+    /// The pilot has fewer than 100 common pairs.
+    FewCommonPairs {
+        /// Common pairs.
+        pairs: usize,
+    },
+    /// How wide the trial's alpha intervals are on average, and how to narrow them.
+    AlphaIntervalWidth {
+        /// Common pairs.
+        pairs: usize,
+        /// Mean half-width of the rows' alpha intervals.
+        half_width: f64,
+    },
+    /// Some uncollapsed scales' alpha intervals overlap.
+    AlphaIntervalsOverlap,
+    /// Separating rankers offline picks candidates; it does not replace an online test.
+    SeparationIsOffline,
 }
 
 impl Caution {
@@ -77,6 +97,12 @@ impl Caution {
             Caution::LowCoverage { .. } => "low_coverage",
             Caution::PoolBiasLow { .. } => "pool_bias_low",
             Caution::MissingLists { .. } => "missing_lists",
+            Caution::KappaAcrossLevelCounts => "kappa_across_level_counts",
+            Caution::SharedPilotSample => "shared_pilot_sample",
+            Caution::FewCommonPairs { .. } => "few_common_pairs",
+            Caution::AlphaIntervalWidth { .. } => "alpha_interval_width",
+            Caution::AlphaIntervalsOverlap => "alpha_intervals_overlap",
+            Caution::SeparationIsOffline => "separation_is_offline",
         }
     }
 
@@ -139,6 +165,16 @@ impl Caution {
             } => format!(
                 "{ranker} (from {file}) has no list for {contexts} of the {scored} scored contexts; they count as empty lists, so every metric is 0 there."
             ),
+            Caution::KappaAcrossLevelCounts => "Kappa values are not comparable across scales with different numbers of levels; compare Krippendorff's alpha.".into(),
+            Caution::SharedPilotSample => "Rows are computed on the pairs graded on every scale, so they share one pilot sample.".into(),
+            Caution::FewCommonPairs { pairs } => {
+                format!("The pilot has only {pairs} common pairs; intervals are wide.")
+            }
+            Caution::AlphaIntervalWidth { pairs, half_width } => format!(
+                "A pilot of {pairs} pairs gives alpha intervals about ±{half_width:.2} wide; quadrupling the pairs roughly halves them."
+            ),
+            Caution::AlphaIntervalsOverlap => "Some alpha intervals overlap: those scales are not shown to differ by this pilot.".into(),
+            Caution::SeparationIsOffline => "Separating rankers offline picks candidates for an online experiment; it does not replace one.".into(),
         }
     }
 }

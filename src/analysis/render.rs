@@ -468,7 +468,7 @@ pub fn trial_text(trial: &Trial) -> String {
     }
     out.push_str(&aligned(&rows));
     let _ = writeln!(out, "\n{}", trial.recommendation);
-    for c in &trial.cautions {
+    for c in trial.cautions.words() {
         let _ = writeln!(out, "Caution: {c}");
     }
     out

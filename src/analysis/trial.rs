@@ -6,6 +6,8 @@ use std::collections::HashSet;
 
 use serde::Serialize;
 
+use super::cautions::{Caution, Cautions};
+
 use super::agreement;
 use super::judgments::{self, GradeSource};
 use crate::core::agreement::CollapseMap;
@@ -72,8 +74,10 @@ pub struct Trial {
     /// reviewer-minute, or why the pilot cannot decide yet.
     pub recommendation: String,
     /// Warnings to read with the rows (kappa across level counts, shared sample, few
-    /// common pairs).
-    pub cautions: Vec<String>,
+    /// common pairs or their interval width, overlapping intervals, offline only); in
+    /// JSON `cautions` and `caution_codes`.
+    #[serde(flatten)]
+    pub cautions: Cautions,
 }
 
 /// A copy of the snapshot holding only `scale`'s grades on the common pairs, with the
@@ -296,28 +300,48 @@ pub fn build(
             alpha_per_reviewer_minute: alpha / (seconds_per_pair / 60.0),
         });
     }
-    let (recommendation, cautions) = recommend(&rows, common.len());
+    let (recommendation, mut cautions) = recommend(&rows, common.len());
+    if !rows.is_empty() && common.len() >= 100 {
+        let half_width = rows
+            .iter()
+            .map(|r| (r.alpha_ci_high - r.alpha_ci_low) / 2.0)
+            .sum::<f64>()
+            / rows.len() as f64;
+        cautions.push(Caution::AlphaIntervalWidth {
+            pairs: common.len(),
+            half_width,
+        });
+    }
+    if intervals_overlap(&rows) {
+        cautions.push(Caution::AlphaIntervalsOverlap);
+    }
+    cautions.push(Caution::SeparationIsOffline);
     Trial {
         study: snapshot.name.clone(),
         common_pairs: common.len(),
         scales: rows,
         recommendation,
-        cautions,
+        cautions: Cautions(cautions),
     }
+}
+
+/// True when some two uncollapsed rows have overlapping alpha intervals.
+fn intervals_overlap(rows: &[TrialRow]) -> bool {
+    let plain: Vec<&TrialRow> = rows.iter().filter(|r| r.collapse.is_none()).collect();
+    plain.iter().enumerate().any(|(i, a)| {
+        plain[i + 1..]
+            .iter()
+            .any(|b| a.alpha_ci_low <= b.alpha_ci_high && b.alpha_ci_low <= a.alpha_ci_high)
+    })
 }
 
 /// A plain-language verdict: the scale whose agreement per reviewer-minute is highest,
 /// unless its alpha interval overlaps the runner-up's, in which case the pilot cannot
 /// decide yet and a rough count of further pairs is given (interval width ∝ 1/√n).
-fn recommend(rows: &[TrialRow], pairs: usize) -> (String, Vec<String>) {
-    let mut cautions = vec![
-        "Kappa values are not comparable across scales with different numbers of levels; compare Krippendorff's alpha.".to_string(),
-        "Rows are computed on the pairs graded on every scale, so they share one pilot sample.".to_string(),
-    ];
+fn recommend(rows: &[TrialRow], pairs: usize) -> (String, Vec<Caution>) {
+    let mut cautions = vec![Caution::KappaAcrossLevelCounts, Caution::SharedPilotSample];
     if pairs < 100 {
-        cautions.push(format!(
-            "The pilot has only {pairs} common pairs; intervals are wide."
-        ));
+        cautions.push(Caution::FewCommonPairs { pairs });
     }
     let candidates: Vec<&TrialRow> = rows
         .iter()

@@ -44,16 +44,6 @@ pub fn row_name(row: &TrialRow) -> String {
     }
 }
 
-/// True when some two uncollapsed rows have overlapping alpha intervals.
-fn intervals_overlap(rows: &[TrialRow]) -> bool {
-    let plain: Vec<&TrialRow> = rows.iter().filter(|r| r.collapse.is_none()).collect();
-    plain.iter().enumerate().any(|(i, a)| {
-        plain[i + 1..]
-            .iter()
-            .any(|b| a.alpha_ci_low <= b.alpha_ci_high && b.alpha_ci_low <= a.alpha_ci_high)
-    })
-}
-
 /// The screen's state: the last trial and the job computing the next.
 pub struct TrialScreen {
     pub model: Option<JobResult<Trial>>,
@@ -216,31 +206,7 @@ fn show(ui: &mut egui::Ui, t: &Trial) {
     ui.add_space(6.0);
     ui.strong("Read with care");
     let warn = ui.visuals().warn_fg_color;
-    let mut cautions = t.cautions.clone();
-    if !t.scales.is_empty() && !cautions.iter().any(|c| c.contains("intervals are wide")) {
-        let half = t
-            .scales
-            .iter()
-            .map(|r| (r.alpha_ci_high - r.alpha_ci_low) / 2.0)
-            .sum::<f64>()
-            / t.scales.len() as f64;
-        cautions.push(format!(
-            "A pilot of {} pairs gives alpha intervals about ±{} wide; quadrupling the pairs roughly halves them.",
-            t.common_pairs,
-            fixed(half, 2)
-        ));
-    }
-    if intervals_overlap(&t.scales) {
-        cautions.push(
-            "Some alpha intervals overlap: those scales are not shown to differ by this pilot."
-                .into(),
-        );
-    }
-    cautions.push(
-        "Separating rankers offline picks candidates for an online experiment; it does not replace one."
-            .into(),
-    );
-    for c in cautions {
+    for c in t.cautions.words() {
         ui.colored_label(warn, format!("- {c}"));
     }
 }

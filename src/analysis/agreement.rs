@@ -3,6 +3,8 @@
 
 use serde::Serialize;
 
+use super::cautions::{Caution, Cautions};
+
 use crate::core::agreement::{
     self, AlphaLevel, CollapseMap, Confusion, DOMINANT_SHARE_CAUTION, PrevalenceBias, Weights,
 };
@@ -107,9 +109,11 @@ pub struct AgreementReport {
     pub ac1: f64,
     /// Where the verbal bands come from ([`LANDIS_KOCH`]).
     pub band_source: &'static str,
-    /// Plain-language warnings: one level dominating the grades, or too few pairs with
-    /// two or more grades for narrow intervals.
-    pub cautions: Vec<String>,
+    /// Plain-language warnings: one level dominating the grades, reviewer pairs sharing
+    /// too few grades, or too few pairs with two or more grades for narrow intervals; in
+    /// JSON `cautions` and `caution_codes`.
+    #[serde(flatten)]
+    pub cautions: Cautions,
 }
 
 /// Grades of one scale laid out as units (pairs) × reviewers; None = not graded or can't judge.
@@ -263,22 +267,23 @@ pub fn build(
         && total > 0
         && *count as f64 / total as f64 >= DOMINANT_SHARE_CAUTION
     {
-        cautions.push(format!(
-            "Level {level} holds {:.0} % of grades: kappa can be low even when reviewers mostly agree (Feinstein & Cicchetti 1990); read AC1 and the observed agreement beside it.",
-            100.0 * *count as f64 / total as f64
-        ));
+        cautions.push(Caution::DominantLevel {
+            level,
+            share: *count as f64 / total as f64,
+        });
     }
     let min_shared = super::defaults::kappa_min_shared(levels);
     for p in pairs.iter().filter(|p| p.thin) {
-        cautions.push(format!(
-            "{} and {} share only {} grades, fewer than {min_shared} (2 × {levels}² for {levels} levels, Cicchetti & Fleiss 1977): their kappa gets no Landis & Koch word and its interval is not to be trusted.",
-            p.reviewer_a, p.reviewer_b, p.n
-        ));
+        cautions.push(Caution::ThinKappa {
+            reviewer_a: p.reviewer_a.clone(),
+            reviewer_b: p.reviewer_b.clone(),
+            shared: p.n,
+            needed: min_shared,
+            levels,
+        });
     }
     if alpha_n < 50 {
-        cautions.push(format!(
-            "Only {alpha_n} pairs have two or more grades; the intervals are wide."
-        ));
+        cautions.push(Caution::FewAgreementUnits { units: alpha_n });
     }
     AgreementReport {
         study: snapshot.name.clone(),
@@ -308,6 +313,6 @@ pub fn build(
         alpha_n,
         ac1: agreement::gwet_ac1(levels, &units),
         band_source: LANDIS_KOCH,
-        cautions,
+        cautions: Cautions(cautions),
     }
 }

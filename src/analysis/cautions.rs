@@ -84,6 +84,31 @@ pub enum Caution {
     AlphaIntervalsOverlap,
     /// Separating rankers offline picks candidates; it does not replace an online test.
     SeparationIsOffline,
+    /// One level holds most grades: kappa misleads (Feinstein & Cicchetti 1990).
+    DominantLevel {
+        /// The level.
+        level: usize,
+        /// Its share of the grades.
+        share: f64,
+    },
+    /// Two reviewers share fewer grades than a kappa needs (Cicchetti & Fleiss 1977).
+    ThinKappa {
+        /// One reviewer.
+        reviewer_a: String,
+        /// The other.
+        reviewer_b: String,
+        /// Grades they share.
+        shared: u64,
+        /// Grades needed: 2 × levels².
+        needed: u64,
+        /// Levels of the scale.
+        levels: usize,
+    },
+    /// Few pairs have two or more grades: the panel's intervals are wide.
+    FewAgreementUnits {
+        /// Pairs with two or more grades.
+        units: usize,
+    },
 }
 
 impl Caution {
@@ -103,6 +128,9 @@ impl Caution {
             Caution::AlphaIntervalWidth { .. } => "alpha_interval_width",
             Caution::AlphaIntervalsOverlap => "alpha_intervals_overlap",
             Caution::SeparationIsOffline => "separation_is_offline",
+            Caution::DominantLevel { .. } => "dominant_level",
+            Caution::ThinKappa { .. } => "thin_kappa",
+            Caution::FewAgreementUnits { .. } => "few_agreement_units",
         }
     }
 
@@ -175,6 +203,22 @@ impl Caution {
             ),
             Caution::AlphaIntervalsOverlap => "Some alpha intervals overlap: those scales are not shown to differ by this pilot.".into(),
             Caution::SeparationIsOffline => "Separating rankers offline picks candidates for an online experiment; it does not replace one.".into(),
+            Caution::DominantLevel { level, share } => format!(
+                "Level {level} holds {:.0} % of grades: kappa can be low even when reviewers mostly agree (Feinstein & Cicchetti 1990); read AC1 and the observed agreement beside it.",
+                100.0 * share
+            ),
+            Caution::ThinKappa {
+                reviewer_a,
+                reviewer_b,
+                shared,
+                needed,
+                levels,
+            } => format!(
+                "{reviewer_a} and {reviewer_b} share only {shared} grades, fewer than {needed} (2 × {levels}² for {levels} levels, Cicchetti & Fleiss 1977): their kappa gets no Landis & Koch word and its interval is not to be trusted."
+            ),
+            Caution::FewAgreementUnits { units } => format!(
+                "Only {units} pairs have two or more grades; the intervals are wide."
+            ),
         }
     }
 }

@@ -350,7 +350,7 @@ pub fn agreement_text(report: &AgreementReport) -> String {
     );
     let _ = writeln!(out, "Bands: {}", report.band_source);
     out.push_str(&super::reviewer_quality::text(report));
-    for c in &report.cautions {
+    for c in report.cautions.words() {
         let _ = writeln!(out, "Caution: {c}");
     }
     out

@@ -352,7 +352,7 @@ pub fn markdown(
             let _ = writeln!(out, "- **Gwet's AC1 (panel):** {}", num(a.ac1));
             let _ = writeln!(out, "- **Bands:** {}\n", a.band_source);
             link_pictures(&mut out, pictures, &Place::Agreement);
-            for c in &a.cautions {
+            for c in a.cautions.words() {
                 let _ = writeln!(out, "- Caution: {c}");
             }
             if !a.cautions.is_empty() {

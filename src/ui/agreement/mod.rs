@@ -578,7 +578,7 @@ fn panel_summary(ui: &mut egui::Ui, r: &AgreementReport) {
                 s,
             );
         });
-    for caution in &r.cautions {
+    for caution in r.cautions.words() {
         ui.colored_label(super::palette::CAUTION, format!("Caution: {caution}"));
     }
     ui.weak(

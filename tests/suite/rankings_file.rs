@@ -306,3 +306,63 @@ fn a_file_ranker_judged_less_than_the_pool_gets_a_caution() {
         "{out}"
     );
 }
+
+/// Written rule: a ranker from a file with no list for a scored context is scored there
+/// as an empty list (every metric 0, common practice: a ranker that returns nothing
+/// finds nothing), and the board counts those contexts in a `missing_lists` caution.
+#[test]
+fn a_file_ranker_missing_lists_is_scored_empty_and_counted() {
+    let fixture = Fixture::new();
+    let study = pooled_study(&fixture, "missing.plumb");
+    let file = fixture.write(
+        "partial.csv",
+        "ranker,context_id,item_id,rank\npartial,c01,it01,1\npartial,c02,it01,1\n",
+    );
+    let out = run(args![
+        "score",
+        study.to_str().unwrap(),
+        "--k",
+        "3",
+        "--rankings",
+        file.to_str().unwrap(),
+        "--format",
+        "json"
+    ]);
+    let board: Value = serde_json::from_str(&out).unwrap();
+    let scored = board["contexts_scored"].as_u64().unwrap() as usize;
+    let partial = board["rankers"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["ranker"] == "partial")
+        .unwrap();
+    let rows = partial["per_context"].as_array().unwrap();
+    let with_list = rows
+        .iter()
+        .filter(|r| r["context_id"] == "c01" || r["context_id"] == "c02")
+        .count();
+    assert!(with_list >= 1 && scored > with_list, "{scored} {with_list}");
+    for row in rows
+        .iter()
+        .filter(|r| r["context_id"] != "c01" && r["context_id"] != "c02")
+    {
+        assert_eq!(row["ndcg@3"], 0.0, "{row}");
+        assert_eq!(
+            row["rbp_residual"], 1.0,
+            "an empty list leaves all of RBP unseen"
+        );
+    }
+    let codes: Vec<&str> = board["caution_codes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c.as_str().unwrap())
+        .collect();
+    let at = codes.iter().position(|c| *c == "missing_lists").unwrap();
+    let words = board["cautions"][at].as_str().unwrap();
+    let want = format!(
+        "partial (from partial.csv) has no list for {} of the {scored} scored contexts",
+        scored - with_list
+    );
+    assert!(words.starts_with(&want), "{words}");
+}

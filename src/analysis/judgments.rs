@@ -124,14 +124,33 @@ pub fn resolve_with(
     source: &GradeSource,
     rule: PanelRule,
 ) -> ContextJudgments {
-    let mut by_context: ContextJudgments = vec![Vec::new(); snapshot.contexts.len()];
     let reviewer = match source {
         GradeSource::Reviewer(name) => match snapshot.reviewer_index(name) {
             Some(r) => Some(r as u32),
-            None => return by_context,
+            None => return vec![Vec::new(); snapshot.contexts.len()],
         },
         GradeSource::Panel => None,
     };
+    resolve_grades(snapshot, scale, reviewer, false, rule)
+}
+
+/// The people's panel grade of every pair of `scale`: the settled grade, else `rule`
+/// over the people's levels; machine judges never count here, even in a study that
+/// counts them in the panel (reviewer quality compares machines against this).
+pub fn people_panel(snapshot: &Snapshot, scale: usize, rule: PanelRule) -> ContextJudgments {
+    resolve_grades(snapshot, scale, None, true, rule)
+}
+
+/// The one place a pair's level is decided: one reviewer's level, or the panel's
+/// (settled first, then `rule`), optionally without machine judges.
+fn resolve_grades(
+    snapshot: &Snapshot,
+    scale: usize,
+    reviewer: Option<u32>,
+    people_only: bool,
+    rule: PanelRule,
+) -> ContextJudgments {
+    let mut by_context: ContextJudgments = vec![Vec::new(); snapshot.contexts.len()];
     // Grades are sorted by (scale, context, item, reviewer): walk runs of one pair. A
     // machine judge's own grades live apart from the panel's unless the study counts
     // machines in the panel.
@@ -153,6 +172,7 @@ pub fn resolve_with(
         while i < grades.len() && grades[i].context == context && grades[i].item == item {
             let g = grades[i];
             if reviewer.is_none_or(|r| r == g.reviewer)
+                && !(people_only && snapshot.is_machine(g.reviewer as usize))
                 && let Some(v) = g.value
             {
                 levels.push(v);

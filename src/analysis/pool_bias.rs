@@ -69,7 +69,7 @@ pub(super) fn compute(s: &Scored) -> Vec<PoolBias> {
         .collect();
     let mut out = Vec::new();
     let mut levels: Vec<Option<u8>> = Vec::new();
-    let mut ideal: Vec<f64> = Vec::new();
+    let mut kept_pairs: Vec<(u32, u8)> = Vec::new();
     let mut scratch = Vec::new();
     let mut values: Vec<f64> = Vec::new();
     for (r, name) in snapshot.rankers.iter().enumerate() {
@@ -96,14 +96,13 @@ pub(super) fn compute(s: &Scored) -> Vec<PoolBias> {
                     true => None,
                     false => judgments::level_of(&s.judged[c], *item),
                 }));
-                ideal.clear();
-                ideal.extend(
+                kept_pairs.clear();
+                kept_pairs.extend(
                     s.judged[c]
                         .iter()
-                        .filter(|(item, _)| !unique.contains(item))
-                        .map(|(_, level)| s.list_settings.gains[*level as usize]),
+                        .filter(|(item, _)| !unique.contains(item)),
                 );
-                ideal.sort_by(|a, b| b.total_cmp(a));
+                let ideal = super::per_context::ideal_gains(&kept_pairs, s.list_settings);
                 let has_relevant = s.judged[c]
                     .iter()
                     .any(|(item, level)| *level > 0 && !unique.contains(item));

@@ -6,7 +6,7 @@ use std::collections::{BTreeMap, HashMap};
 
 use serde::Serialize;
 
-use super::judgments::lower_median;
+use super::judgments;
 use crate::core::agreement::{self, Confusion, Weights};
 use crate::study::snapshot::{GradeRow, Snapshot, day_text};
 
@@ -152,30 +152,17 @@ pub fn reviewers(snapshot: &Snapshot, scale: usize) -> Vec<ReviewerQuality> {
 }
 
 /// The people's panel grade per pair of `scale`: the settled grade, else the lower
-/// median of the people's levels (machines never count here).
+/// median of the people's levels (machines never count here; `judgments::people_panel`).
 pub fn people_panel(snapshot: &Snapshot, scale: usize) -> HashMap<(u32, u32), u8> {
-    let mut levels: BTreeMap<(u32, u32), Vec<u8>> = BTreeMap::new();
-    for g in snapshot
-        .grades
-        .iter()
-        .filter(|g| g.scale as usize == scale && !snapshot.is_machine(g.reviewer as usize))
-    {
-        if let Some(v) = g.value {
-            levels.entry((g.context, g.item)).or_default().push(v);
-        }
-    }
-    let mut panel: HashMap<(u32, u32), u8> = levels
+    judgments::people_panel(snapshot, scale, judgments::PanelRule::default())
         .into_iter()
-        .filter_map(|(pair, mut l)| lower_median(&mut l).map(|v| (pair, v)))
-        .collect();
-    for s in snapshot
-        .settled
-        .iter()
-        .filter(|s| s.scale as usize == scale)
-    {
-        panel.insert((s.context, s.item), s.value);
-    }
-    panel
+        .enumerate()
+        .flat_map(|(c, pairs)| {
+            pairs
+                .into_iter()
+                .map(move |(item, level)| ((c as u32, item), level))
+        })
+        .collect()
 }
 
 /// Every machine judge that graded `scale`, by name, against the people's panel grade.

@@ -9,10 +9,12 @@ use serde::Serialize;
 use super::cautions::{Caution, Cautions};
 
 use super::agreement;
-use super::judgments::{self, GradeSource};
+use super::judgments::GradeSource;
+use super::per_context;
+use super::scoreboard::ScoreSettings;
 use crate::core::agreement::CollapseMap;
-use crate::core::metric_table::{self, Metric, MetricKind};
-use crate::core::metrics::{self, JudgedList, ListSettings, Unjudged};
+use crate::core::metric_table::{Metric, MetricKind};
+use crate::core::metrics::Unjudged;
 use crate::core::scale::{Level, Scale};
 use crate::core::stats;
 use crate::study::snapshot::Snapshot;
@@ -122,50 +124,37 @@ fn restricted(
 }
 
 /// Per-context NDCG@10 per ranker on the restricted snapshot (condensed lists, so only
-/// the common pairs count), over contexts with a relevant item.
+/// the common pairs count), over contexts with a relevant item: the scoreboard's own
+/// judged contexts and scoring path with the trial's fixed settings.
 fn ndcg_by_ranker(snapshot: &Snapshot, scale: usize) -> Vec<Vec<f64>> {
-    let judged = judgments::resolve(snapshot, scale, &GradeSource::Panel);
-    let s = &snapshot.scales[scale];
-    let settings = ListSettings {
-        gains: metrics::gain_table(s.levels.len(), &s.gains(), metrics::GainKind::Exponential),
-        max_level: s.max_level(),
-        relevant_from: 1,
+    let settings = ScoreSettings {
+        ks: vec![10],
         unjudged: Unjudged::Condense,
-        persistence: super::defaults::RBP_PERSISTENCE,
+        ..ScoreSettings::default()
     };
+    let list_settings = per_context::list_settings(snapshot, scale, &settings);
+    let judged = per_context::judgments(snapshot, scale, &settings, &GradeSource::Panel);
+    let ideal: Vec<Vec<f64>> = judged
+        .iter()
+        .map(|j| per_context::ideal_gains(j, &list_settings))
+        .collect();
     let contexts: Vec<usize> = (0..snapshot.contexts.len())
         .filter(|c| judged[*c].iter().any(|(_, l)| *l > 0))
         .collect();
-    let (mut scratch, mut out, mut levels) = (Vec::new(), Vec::new(), Vec::new());
+    let ndcg_at_10 = [Metric::at(MetricKind::Ndcg, 10)];
     snapshot
         .lists
         .iter()
         .map(|lists| {
-            contexts
-                .iter()
-                .map(|&c| {
-                    let mut ideal: Vec<f64> = judged[c]
-                        .iter()
-                        .map(|(_, l)| settings.gains[*l as usize])
-                        .collect();
-                    ideal.sort_by(|a, b| b.total_cmp(a));
-                    levels.clear();
-                    levels.extend(lists[c].iter().map(|i| judgments::level_of(&judged[c], *i)));
-                    let list = JudgedList {
-                        levels: &levels,
-                        ideal_gains: &ideal,
-                        has_relevant: true,
-                    };
-                    metric_table::score_list(
-                        &list,
-                        &settings,
-                        &[Metric::at(MetricKind::Ndcg, 10)],
-                        &mut scratch,
-                        &mut out,
-                    );
-                    out[0]
-                })
-                .collect()
+            per_context::ranker_values(
+                lists,
+                &judged,
+                &ideal,
+                &list_settings,
+                &ndcg_at_10,
+                &contexts,
+            )
+            .swap_remove(0)
         })
         .collect()
 }

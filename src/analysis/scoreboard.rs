@@ -7,12 +7,12 @@ use serde::Serialize;
 
 use super::cautions::{Caution, Cautions};
 use super::defaults;
-use super::judgments::{self, GradeSource};
+use super::judgments::{self, ContextJudgments, GradeSource};
 use super::per_context;
 use super::pool_bias::{self, PoolBias};
 pub use super::segment::Segment;
 use crate::core::metric_table::{self, Metric, MetricKind};
-use crate::core::metrics::{GainKind, Unjudged};
+use crate::core::metrics::{GainKind, ListSettings, Unjudged};
 use crate::core::stats;
 use crate::study::outside_lists::FileLists;
 use crate::study::snapshot::Snapshot;
@@ -243,73 +243,81 @@ fn seed_for(base: u64, parts: &[&str]) -> u64 {
     base ^ u64::from_str_radix(&uid[..16], 16).unwrap_or(0)
 }
 
-/// Builds the scoreboard. Heavy statistics run on all cores.
-pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard, ScoreError> {
+/// The scale to score, once the settings are checked.
+fn checked_scale(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<usize, ScoreError> {
     if settings.ks.is_empty() || settings.ks.contains(&0) {
         return Err(ScoreError::BadK);
     }
     if !(settings.persistence > 0.0 && settings.persistence < 1.0) {
         return Err(ScoreError::BadPersistence(settings.persistence));
     }
-    let scale_index = match &settings.scale {
-        Some(name) => snapshot
-            .scale_index(name)
-            .ok_or_else(|| ScoreError::UnknownScale(name.clone()))?,
-        None => snapshot.busiest_scale().ok_or(ScoreError::NoScale)?,
-    };
     if let GradeSource::Reviewer(r) = &settings.grades
         && snapshot.reviewer_index(r).is_none()
     {
         return Err(ScoreError::UnknownReviewer(r.clone()));
     }
-    let (baseline, baseline_note) = resolve_baseline(snapshot, settings.baseline.as_deref())?;
-    let scale = &snapshot.scales[scale_index];
-    let list_settings = per_context::list_settings(snapshot, scale_index, settings);
-    let judged = per_context::judgments(snapshot, scale_index, settings, &settings.grades);
-    let mut scored_contexts: Vec<usize> = Vec::new();
-    let mut without_relevant = 0usize;
-    let mut without_grades = 0usize;
-    let mut ideal: Vec<Vec<f64>> = vec![Vec::new(); snapshot.contexts.len()];
+    match &settings.scale {
+        Some(name) => snapshot
+            .scale_index(name)
+            .ok_or_else(|| ScoreError::UnknownScale(name.clone())),
+        None => snapshot.busiest_scale().ok_or(ScoreError::NoScale),
+    }
+}
+
+/// Which contexts are scored, the ideal gains of each, and why the others are not.
+struct ContextSplit {
+    scored: Vec<usize>,
+    /// Per context: its ideal gains (empty for a context not scored).
+    ideal: Vec<Vec<f64>>,
+    without_relevant: usize,
+    without_grades: usize,
+}
+
+/// Splits the contexts of the segment: with no list and no grade (ignored), graded on
+/// no pair (counted), with no relevant item (counted), or scored.
+fn split_contexts(
+    snapshot: &Snapshot,
+    settings: &ScoreSettings,
+    judged: &ContextJudgments,
+    list_settings: &ListSettings,
+) -> ContextSplit {
+    let mut split = ContextSplit {
+        scored: Vec::new(),
+        ideal: vec![Vec::new(); snapshot.contexts.len()],
+        without_relevant: 0,
+        without_grades: 0,
+    };
     for c in 0..snapshot.contexts.len() {
         if !per_context::context_included(snapshot, &settings.segment, c) {
             continue;
         }
         let has_any_list = snapshot.lists.iter().any(|l| !l[c].is_empty());
-        if judged[c].is_empty() && !has_any_list {
-            continue;
-        }
         if judged[c].is_empty() {
-            without_grades += 1;
+            split.without_grades += usize::from(has_any_list);
             continue;
         }
         if !judged[c].iter().any(|(_, level)| *level > 0) {
-            without_relevant += 1;
+            split.without_relevant += 1;
             continue;
         }
-        ideal[c] = per_context::ideal_gains(&judged[c], &list_settings);
-        scored_contexts.push(c);
+        split.ideal[c] = per_context::ideal_gains(&judged[c], list_settings);
+        split.scored.push(c);
     }
-    let metrics = metric_table::scored_metrics(&settings.ks);
-    let keys: Vec<String> = metrics.iter().map(|m| m.key()).collect();
-    // values[ranker][metric key index][scored context index]
-    let values: Vec<Vec<Vec<f64>>> = snapshot
-        .lists
-        .iter()
-        .map(|lists| {
-            per_context::ranker_values(
-                lists,
-                &judged,
-                &ideal,
-                &list_settings,
-                &metrics,
-                &scored_contexts,
-            )
-        })
-        .collect();
+    split
+}
 
-    let baseline_name = baseline.map(|b| snapshot.rankers[b].as_str());
-    let comparison_jobs: Vec<(usize, usize)> = match baseline {
-        Some(b) => (0..snapshot.rankers.len())
+/// What every comparison and interval is computed from: per ranker `[metric][context]`
+/// values, the (candidate, metric) pairs compared with the baseline and their
+/// per-context differences.
+struct Paired {
+    values: Vec<Vec<Vec<f64>>>,
+    jobs: Vec<(usize, usize)>,
+    diffs: Vec<Vec<f64>>,
+}
+
+fn paired(values: Vec<Vec<Vec<f64>>>, metrics: &[Metric], baseline: Option<usize>) -> Paired {
+    let jobs: Vec<(usize, usize)> = match baseline {
+        Some(b) => (0..values.len())
             .filter(|r| *r != b)
             .flat_map(|r| {
                 metrics
@@ -321,7 +329,7 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
             .collect(),
         None => Vec::new(),
     };
-    let diffs: Vec<Vec<f64>> = comparison_jobs
+    let diffs = jobs
         .iter()
         .map(|&(r, m)| {
             let b = baseline.expect("jobs exist only with a baseline");
@@ -332,11 +340,130 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
                 .collect()
         })
         .collect();
+    Paired {
+        values,
+        jobs,
+        diffs,
+    }
+}
+
+/// One ranker's summaries and per-context values; `intervals` holds its metrics'
+/// intervals in the order of `keys`.
+fn ranker_scores(
+    snapshot: &Snapshot,
+    r: usize,
+    keys: &[String],
+    intervals: &[stats::Interval],
+    values: &[Vec<f64>],
+    scored: &[usize],
+) -> RankerScores {
+    RankerScores {
+        ranker: snapshot.rankers[r].clone(),
+        metrics: keys
+            .iter()
+            .zip(intervals)
+            .map(|(key, ci)| {
+                let summary = MetricSummary {
+                    mean: ci.mean,
+                    ci_low: ci.low,
+                    ci_high: ci.high,
+                };
+                (key.clone(), summary)
+            })
+            .collect(),
+        per_context: scored
+            .iter()
+            .enumerate()
+            .map(|(i, &c)| ContextScores {
+                context_id: snapshot.contexts[c].id.clone(),
+                values: keys
+                    .iter()
+                    .zip(values)
+                    .map(|(key, v)| (key.clone(), v[i]))
+                    .collect(),
+            })
+            .collect(),
+        from_file: snapshot.ranker_file(r).map(str::to_string),
+    }
+}
+
+/// A candidate against the baseline on one metric from its per-context differences `d`
+/// and their bootstrap interval `ci`.
+fn comparison(
+    settings: &ScoreSettings,
+    ranker: &str,
+    baseline: &str,
+    metric: &str,
+    d: &[f64],
+    ci: &stats::Interval,
+) -> Comparison {
+    let wins = d.iter().filter(|x| **x > 1e-9).count();
+    let losses = d.iter().filter(|x| **x < -1e-9).count();
+    let all_finite = d.iter().all(|x| x.is_finite());
+    Comparison {
+        ranker: ranker.to_string(),
+        baseline: baseline.to_string(),
+        metric: metric.to_string(),
+        n: d.len(),
+        diff: ci.mean,
+        ci_low: ci.low,
+        ci_high: ci.high,
+        // No paired context, no test: a p-value without data would read as "no
+        // difference found"; nor on a difference that is not a finite number.
+        p_randomization: if d.is_empty() || !all_finite {
+            f64::NAN
+        } else {
+            stats::randomization_test(
+                d,
+                settings.randomization_resamples,
+                seed_for(settings.seed, &["randomization", ranker, metric]),
+            )
+        },
+        p_t: if all_finite {
+            stats::paired_t_test(d).p
+        } else {
+            f64::NAN
+        },
+        p_holm: f64::NAN,
+        wins,
+        ties: d.len() - wins - losses,
+        losses,
+        contexts_needed: stats::contexts_needed(ci.mean, stats::sample_sd(d)),
+    }
+}
+
+/// Builds the scoreboard. Heavy statistics run on all cores.
+pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard, ScoreError> {
+    let scale_index = checked_scale(snapshot, settings)?;
+    let (baseline, baseline_note) = resolve_baseline(snapshot, settings.baseline.as_deref())?;
+    let scale = &snapshot.scales[scale_index];
+    let list_settings = per_context::list_settings(snapshot, scale_index, settings);
+    let judged = per_context::judgments(snapshot, scale_index, settings, &settings.grades);
+    let split = split_contexts(snapshot, settings, &judged, &list_settings);
+    let metrics = metric_table::scored_metrics(&settings.ks);
+    let keys: Vec<String> = metrics.iter().map(|m| m.key()).collect();
+    let values = snapshot
+        .lists
+        .iter()
+        .map(|lists| {
+            let ideal = &split.ideal;
+            per_context::ranker_values(
+                lists,
+                &judged,
+                ideal,
+                &list_settings,
+                &metrics,
+                &split.scored,
+            )
+        })
+        .collect();
+    let paired = paired(values, &metrics, baseline);
     // One bootstrap over contexts serves every ranker, metric and paired difference.
-    let series: Vec<&[f64]> = values
+    let series: Vec<&[f64]> = paired
+        .values
         .iter()
         .flat_map(|per_metric| per_metric.iter().map(Vec::as_slice))
-        .chain(diffs.iter().map(Vec::as_slice))
+        .chain(paired.diffs.iter().map(Vec::as_slice))
         .collect();
     let intervals = stats::bootstrap_means(
         &series,
@@ -344,108 +471,34 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         0.95,
         seed_for(settings.seed, &["bootstrap"]),
     );
-    let rankers: Vec<RankerScores> = (0..snapshot.rankers.len())
-        .map(|r| RankerScores {
-            ranker: snapshot.rankers[r].clone(),
-            metrics: keys
-                .iter()
-                .enumerate()
-                .map(|(m, key)| {
-                    let ci = intervals[r * keys.len() + m];
-                    (
-                        key.clone(),
-                        MetricSummary {
-                            mean: ci.mean,
-                            ci_low: ci.low,
-                            ci_high: ci.high,
-                        },
-                    )
-                })
-                .collect(),
-            per_context: scored_contexts
-                .iter()
-                .enumerate()
-                .map(|(i, &c)| ContextScores {
-                    context_id: snapshot.contexts[c].id.clone(),
-                    values: keys
-                        .iter()
-                        .enumerate()
-                        .map(|(m, key)| (key.clone(), values[r][m][i]))
-                        .collect(),
-                })
-                .collect(),
-            from_file: snapshot.ranker_file(r).map(str::to_string),
-        })
+    let (per_ranker, diff_intervals) = intervals.split_at(snapshot.rankers.len() * keys.len());
+    let rankers: Vec<RankerScores> = per_ranker
+        .chunks(keys.len().max(1))
+        .zip(&paired.values)
+        .enumerate()
+        .map(|(r, (cis, v))| ranker_scores(snapshot, r, &keys, cis, v, &split.scored))
         .collect();
-    let mean_at = |r: usize, kind: MetricKind| -> Vec<f64> {
-        settings
-            .ks
-            .iter()
-            .map(|&k| {
-                let m = metrics.iter().position(|m| *m == Metric::at(kind, k));
-                intervals[r * keys.len() + m.expect("every cut-off is scored")].mean
-            })
-            .collect()
-    };
     let pool_bias = pool_bias::compute(&pool_bias::Scored {
         snapshot,
         judged: &judged,
-        scored_contexts: &scored_contexts,
+        scored_contexts: &split.scored,
         list_settings: &list_settings,
-        means: (0..snapshot.rankers.len())
-            .map(|r| mean_at(r, MetricKind::Ndcg))
-            .collect(),
-        judged_means: (0..snapshot.rankers.len())
-            .map(|r| mean_at(r, MetricKind::Judged))
-            .collect(),
+        means: means_at(&rankers, &settings.ks, MetricKind::Ndcg),
+        judged_means: means_at(&rankers, &settings.ks, MetricKind::Judged),
         ks: &settings.ks,
     });
-    let diff_intervals = &intervals[snapshot.rankers.len() * keys.len()..];
-    let mut comparisons: Vec<Comparison> = comparison_jobs
-        .iter()
-        .zip(&diffs)
+    let baseline_name = baseline.map(|b| snapshot.rankers[b].as_str());
+    let mut comparisons: Vec<Comparison> = (paired.jobs.iter().zip(&paired.diffs))
         .zip(diff_intervals)
         .map(|((&(r, m), d), ci)| {
-            let name = &snapshot.rankers[r];
-            let wins = d.iter().filter(|x| **x > 1e-9).count();
-            let losses = d.iter().filter(|x| **x < -1e-9).count();
-            let all_finite = d.iter().all(|x| x.is_finite());
-            Comparison {
-                ranker: name.clone(),
-                baseline: baseline_name.unwrap_or_default().to_string(),
-                metric: keys[m].clone(),
-                n: d.len(),
-                diff: ci.mean,
-                ci_low: ci.low,
-                ci_high: ci.high,
-                // No paired context, no test: a p-value without data would read as "no
-                // difference found"; nor on a difference that is not a finite number.
-                p_randomization: if d.is_empty() || !all_finite {
-                    f64::NAN
-                } else {
-                    stats::randomization_test(
-                        d,
-                        settings.randomization_resamples,
-                        seed_for(settings.seed, &["randomization", name, &keys[m]]),
-                    )
-                },
-                p_t: if all_finite {
-                    stats::paired_t_test(d).p
-                } else {
-                    f64::NAN
-                },
-                p_holm: f64::NAN,
-                wins,
-                ties: d.len() - wins - losses,
-                losses,
-                contexts_needed: stats::contexts_needed(ci.mean, stats::sample_sd(d)),
-            }
+            let base = baseline_name.unwrap_or_default();
+            comparison(settings, &snapshot.rankers[r], base, &keys[m], d, ci)
         })
         .collect();
     apply_holm(&mut comparisons);
     let mut cautions = vec![Caution::OfflineOnly];
     cautions.extend(baseline_note);
-    match scored_contexts.len() {
+    match split.scored.len() {
         0 => cautions.push(Caution::NothingToScore),
         n if n < defaults::FEW_CONTEXTS => cautions.push(Caution::FewContexts { scored: n }),
         _ => {}
@@ -453,28 +506,43 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
     cautions.extend(coverage_cautions(
         snapshot,
         &rankers,
-        &scored_contexts,
+        &split.scored,
         settings,
     ));
-    cautions.extend(missing_list_cautions(snapshot, &scored_contexts));
+    cautions.extend(missing_list_cautions(snapshot, &split.scored));
     cautions.extend(pool_bias::cautions(&pool_bias));
-    let gains_used = describe_gains(&scale.gains(), &list_settings.gains, settings.gain);
     let mut settings = settings.clone();
     settings.baseline = baseline_name.map(str::to_string);
     Ok(Scoreboard {
-        gains_used,
+        gains_used: describe_gains(&scale.gains(), &list_settings.gains, settings.gain),
         study: snapshot.name.clone(),
         scale: scale.name.clone(),
         settings,
-        contexts_scored: scored_contexts.len(),
-        contexts_without_relevant: without_relevant,
-        contexts_without_grades: without_grades,
+        contexts_scored: split.scored.len(),
+        contexts_without_relevant: split.without_relevant,
+        contexts_without_grades: split.without_grades,
         rankers,
         comparisons,
         pool_bias,
         rankings_files: snapshot.outside.files.clone(),
         cautions: Cautions(cautions),
     })
+}
+
+/// Every ranker's mean of `kind` at each cut-off of `ks` (NaN where not scored).
+fn means_at(rankers: &[RankerScores], ks: &[usize], kind: MetricKind) -> Vec<Vec<f64>> {
+    rankers
+        .iter()
+        .map(|r| {
+            ks.iter()
+                .map(|&k| {
+                    r.metrics
+                        .get(&Metric::at(kind, k).key())
+                        .map_or(f64::NAN, |m| m.mean)
+                })
+                .collect()
+        })
+        .collect()
 }
 
 /// A caution per ranker and cut-off whose mean judged@k is below

@@ -26,6 +26,7 @@ pub mod report_estimates;
 pub mod report_pictures;
 pub mod reviewer_quality;
 pub mod scoreboard;
+pub mod scoreboard_cautions;
 pub mod scoreboard_view;
 pub mod segment;
 pub mod trial;

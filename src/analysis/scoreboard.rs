@@ -10,6 +10,7 @@ use super::defaults;
 use super::judgments::{self, ContextJudgments, GradeSource};
 use super::per_context;
 use super::pool_bias::{self, PoolBias};
+use super::scoreboard_cautions;
 pub use super::segment::Segment;
 use crate::core::metric_table::{self, Metric, MetricKind};
 use crate::core::metrics::{GainKind, ListSettings, Unjudged};
@@ -503,13 +504,13 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         n if n < defaults::FEW_CONTEXTS => cautions.push(Caution::FewContexts { scored: n }),
         _ => {}
     }
-    cautions.extend(coverage_cautions(
+    cautions.extend(scoreboard_cautions::low_coverage(
         snapshot,
         &rankers,
         &split.scored,
         settings,
     ));
-    cautions.extend(missing_list_cautions(snapshot, &split.scored));
+    cautions.extend(scoreboard_cautions::missing_lists(snapshot, &split.scored));
     cautions.extend(pool_bias::cautions(&pool_bias));
     let mut settings = settings.clone();
     settings.baseline = baseline_name.map(str::to_string);
@@ -541,69 +542,6 @@ fn means_at(rankers: &[RankerScores], ks: &[usize], kind: MetricKind) -> Vec<Vec
                         .map_or(f64::NAN, |m| m.mean)
                 })
                 .collect()
-        })
-        .collect()
-}
-
-/// A caution per ranker and cut-off whose mean judged@k is below
-/// [`defaults::COVERAGE_CAUTION`], saying what judged@k divides by when lists are short.
-fn coverage_cautions(
-    snapshot: &Snapshot,
-    rankers: &[RankerScores],
-    scored_contexts: &[usize],
-    settings: &ScoreSettings,
-) -> Vec<Caution> {
-    let mut out = Vec::new();
-    for (ri, r) in rankers.iter().enumerate() {
-        for &k in &settings.ks {
-            let Some(j) = r.metrics.get(&Metric::at(MetricKind::Judged, k).key()) else {
-                continue;
-            };
-            if j.mean.is_nan() || j.mean >= defaults::COVERAGE_CAUTION {
-                continue;
-            }
-            let returned: Vec<usize> = scored_contexts
-                .iter()
-                .map(|&c| snapshot.lists[ri][c].len().min(k))
-                .collect();
-            let of = match (returned.first(), returned.iter().all(|&n| n == k)) {
-                (_, true) | (None, _) => format!("its top {k}"),
-                (Some(&n), false) if returned.iter().all(|&m| m == n) => {
-                    format!("its {n} returned items (fewer than {k})")
-                }
-                _ => format!(
-                    "the items it returned in its top {k} ({:.1} on average)",
-                    returned.iter().sum::<usize>() as f64 / returned.len() as f64
-                ),
-            };
-            out.push(Caution::LowCoverage {
-                ranker: r.ranker.clone(),
-                k,
-                judged: j.mean,
-                of,
-                unjudged: settings.unjudged,
-            });
-        }
-    }
-    out
-}
-
-/// A caution per ranker from a file that has no list for some scored contexts: such a
-/// context is scored as an empty list (every metric 0), which a reader must know.
-fn missing_list_cautions(snapshot: &Snapshot, scored_contexts: &[usize]) -> Vec<Caution> {
-    (0..snapshot.rankers.len())
-        .filter_map(|r| {
-            let file = snapshot.ranker_file(r)?;
-            let missing = scored_contexts
-                .iter()
-                .filter(|&&c| snapshot.lists[r][c].is_empty())
-                .count();
-            (missing > 0).then(|| Caution::MissingLists {
-                ranker: snapshot.rankers[r].clone(),
-                file: file.to_string(),
-                contexts: missing,
-                scored: scored_contexts.len(),
-            })
         })
         .collect()
 }

@@ -4,7 +4,7 @@
 use std::fmt::Write;
 
 use super::estimates::{EstimateFigures, Estimates};
-use super::render::{aligned, fixed};
+use super::format::{aligned, fixed};
 use super::scoreboard::Scoreboard;
 use super::scoreboard_view::{difference_text, with_interval};
 

@@ -64,14 +64,14 @@ fn line(e: &Estimate) -> EstimateLine {
         ranker: e.ranker.clone(),
         combined: with(e.estimate, f.ci_low, f.ci_high),
         human_only: with(f.human_only_mean, f.human_only_ci_low, f.human_only_ci_high),
-        machine_only: super::render::fixed(f.machine_only_mean, 3),
+        machine_only: super::format::fixed(f.machine_only_mean, 3),
         bias: if (f.machine_only_mean - e.estimate).is_finite() {
             format!("{:+.3}", f.machine_only_mean - e.estimate)
         } else {
             "–".into()
         },
-        effective: super::render::fixed(f.effective_human_contexts, 1),
-        lambda: super::render::fixed(f.lambda, 3),
+        effective: super::format::fixed(f.effective_human_contexts, 1),
+        lambda: super::format::fixed(f.lambda, 3),
     }
 }
 
@@ -95,7 +95,7 @@ fn more_text(est: &Estimates, metric: &str) -> (Option<String>, usize) {
                     .figures
                     .humans_needed_reviewer_hours
                     .map_or(String::new(), |h| {
-                        format!(" (about {} reviewer-hours)", super::render::fixed(h, 1))
+                        format!(" (about {} reviewer-hours)", super::format::fixed(h, 1))
                     });
                 (
                     Some(format!(

@@ -12,6 +12,7 @@ pub mod defaults;
 pub mod estimates;
 pub mod estimates_text;
 pub mod estimates_view;
+pub mod format;
 pub mod gaps;
 pub mod home;
 pub mod human_sample;

@@ -232,7 +232,7 @@ pub fn in_words(row: &PoolBias) -> String {
 
 /// The pool-bias table and its reading in words.
 pub(super) fn table_text(board: &super::scoreboard::Scoreboard) -> String {
-    use super::render::{aligned, num, percent};
+    use super::format::{aligned, num, percent};
     let mut out = String::new();
     if board.pool_bias.is_empty() {
         return out;

@@ -6,7 +6,7 @@ use std::fmt::Write;
 use std::path::{Path, PathBuf};
 
 use super::agreement::AgreementReport;
-use super::render::{num, p_value};
+use super::format::{num, p_value};
 use super::report_pictures::{Picture, PictureError, Place};
 use super::scoreboard::{OFFLINE_CAUTION, Scoreboard};
 use super::scoreboard_view::CurvePoint;

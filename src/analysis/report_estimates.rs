@@ -8,7 +8,7 @@ use plotters::prelude::*;
 
 use super::colours;
 use super::estimates::Estimates;
-use super::render::num;
+use super::format::num;
 use super::report::ReportFiles;
 use super::report_pictures::{Picture, PictureError, Place};
 use super::scoreboard::Scoreboard;
@@ -80,7 +80,7 @@ fn section(est: &Estimates, metric: &str, picture: Option<&Picture>) -> String {
                 interval_text(row.human),
                 num(row.machine),
                 num(e.figures.lambda),
-                super::render::fixed(e.figures.effective_human_contexts, 1)
+                super::format::fixed(e.figures.effective_human_contexts, 1)
             );
         }
         out.push('\n');

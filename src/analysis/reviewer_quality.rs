@@ -254,7 +254,7 @@ fn compare(levels: usize, pairs: impl Iterator<Item = (u8, u8)>) -> Figures {
 
 /// Gold accuracy per reviewer and each machine judge against the people's panel grade.
 pub(super) fn text(report: &super::agreement::AgreementReport) -> String {
-    use super::render::{aligned, num};
+    use super::format::{aligned, num};
     use std::fmt::Write;
     let mut out = String::new();
     if report

@@ -374,7 +374,7 @@ pub fn with_interval(mean: f64, low: f64, high: f64) -> String {
     if !mean.is_finite() {
         return "–".into();
     }
-    let f = |x: f64| super::render::fixed(x, 3);
+    let f = |x: f64| super::format::fixed(x, 3);
     format!("{} [{}, {}]", f(mean), f(low), f(high))
 }
 
@@ -447,7 +447,7 @@ pub fn low_coverage_warning(board: &Scoreboard) -> Option<String> {
                     format!(
                         "{} at k={k}: {}",
                         r.ranker,
-                        super::render::percent_spaced(j.mean)
+                        super::format::percent_spaced(j.mean)
                     )
                 })
             })
@@ -465,7 +465,7 @@ pub fn low_coverage_warning(board: &Scoreboard) -> Option<String> {
 /// A table cell: shares (judged@k) as a percentage, the rest as mean with interval.
 pub fn cell_text(key: &str, m: &scoreboard::MetricSummary) -> String {
     if is_share(key) {
-        super::render::percent_spaced(m.mean)
+        super::format::percent_spaced(m.mean)
     } else {
         with_interval(m.mean, m.ci_low, m.ci_high)
     }

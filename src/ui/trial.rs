@@ -10,7 +10,7 @@ use std::path::Path;
 use egui_plot::{Line, Plot, PlotPoint, Points, Text};
 
 use super::jobs::{JobResult, Task};
-use crate::analysis::render::{fixed, percent_spaced as percent};
+use crate::analysis::format::{fixed, percent_spaced as percent};
 use crate::analysis::trial::{self, Trial, TrialRow};
 use crate::study::Study;
 use crate::study::grades::GradesMark;

@@ -12,7 +12,7 @@ pub mod settling;
 use crate::analysis::agreement::{AgreementReport, ReviewerPair};
 pub use crate::analysis::agreement_view::{AgreementModel, AgreementRequest};
 use crate::analysis::defaults;
-use crate::analysis::render::{fixed, percent_spaced as percent};
+use crate::analysis::format::{fixed, percent_spaced as percent};
 use crate::study::Study;
 use settling::SettleForm;
 
@@ -539,7 +539,7 @@ fn panel_summary(ui: &mut egui::Ui, r: &AgreementReport) {
                     "{} pairs with {} grades each (the most common number; {} over the {} pairs graded by everyone)",
                     r.fleiss_n,
                     r.fleiss_grades_per_pair,
-                    crate::analysis::render::fixed(r.fleiss_kappa_complete, 3),
+                    crate::analysis::format::fixed(r.fleiss_kappa_complete, 3),
                     r.fleiss_n_complete
                 ),
                 s,

@@ -1,6 +1,6 @@
 //! The Scoreboard's tables and warnings, drawn from the cached model.
 
-use crate::analysis::render::{fixed, percent_spaced as percent};
+use crate::analysis::format::{fixed, percent_spaced as percent};
 use crate::analysis::scoreboard::{OFFLINE_CAUTION, Scoreboard};
 use crate::analysis::scoreboard_view::{
     COMPARISON_COLUMNS, ScoreboardModel, cautions_by_ranker, cell_text, column_title,

@@ -428,6 +428,18 @@ pub fn is_share(key: &str) -> bool {
     Metric::parse(key).is_some_and(|m| m.spec().is_share)
 }
 
+/// The line above the Scoreboard's tables: what was scored and how.
+pub fn summary_line(board: &Scoreboard) -> String {
+    format!(
+        "{} contexts scored on scale {}; {} left out with no relevant item. Means over contexts with 95 % percentile bootstrap intervals ({} resamples). RBP with persistence p = {}.",
+        board.contexts_scored,
+        board.scale,
+        board.contexts_without_relevant,
+        board.settings.bootstrap_resamples,
+        board.settings.persistence
+    )
+}
+
 /// Whether a cell is a judged@k share below [`defaults::COVERAGE_CAUTION`] (drawn in
 /// the caution colour).
 pub fn is_low_coverage(key: &str, m: &scoreboard::MetricSummary) -> bool {

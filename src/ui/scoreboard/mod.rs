@@ -348,13 +348,7 @@ impl ScoreboardScreen {
         } else {
             crate::analysis::defaults::focus_k(&board.settings.ks)
         };
-        ui.label(format!(
-            "{} contexts scored on scale {}; {} left out with no relevant item. Means over contexts with 95 % percentile bootstrap intervals ({} resamples).",
-            board.contexts_scored,
-            board.scale,
-            board.contexts_without_relevant,
-            board.settings.bootstrap_resamples
-        ));
+        ui.label(crate::analysis::scoreboard_view::summary_line(board));
         coverage_warning(ui, board);
         ui.add_space(6.0);
         ui.horizontal(|ui| {

@@ -495,6 +495,16 @@ pub fn contexts_needed(mean_diff: f64, sd_diff: f64) -> Option<u64> {
 mod tests {
     use super::*;
 
+    /// Written rule: at least 2 contexts, the fewest a paired test can run on. Hand
+    /// computation: diff 1, SD 0.1 gives ((1.959964 + 0.841621) · 0.1)² = 0.0785, which
+    /// rounds up to 1 and is raised to 2; diff 0.1, SD 0.1 gives 7.849 → 8.
+    #[test]
+    fn contexts_needed_has_a_floor_of_two() {
+        assert_eq!(contexts_needed(1.0, 0.1), Some(2));
+        assert_eq!(contexts_needed(0.1, 0.1), Some(8));
+        assert_eq!(contexts_needed(0.0, 0.1), None);
+    }
+
     #[test]
     fn holm_matches_hand_computation() {
         // p = 0.01, 0.04, 0.03 → sorted 0.01·3, 0.03·2, 0.04·1 → 0.03, 0.06, 0.06 (monotone).

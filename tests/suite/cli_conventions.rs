@@ -377,3 +377,37 @@ fn a_wrong_choice_lists_the_right_ones() {
         }
     }
 }
+
+/// Written rule: on a scale whose levels all carry gain 0, a context with a level above
+/// 0 is still scored (relevance is read from the levels), but its ideal DCG is 0, so its
+/// NDCG is undefined and counts as 0 for every ranker; DCG and RBP are 0 there (RBP's
+/// top-level gain is 0), while precision and RR still read the levels. Hand computation
+/// on the fixture's q1 (panel: i1 = 2, i2 = 1, i3 = 0): cand's list i2, i1, i4 has two
+/// relevant items in its top 3, so precision@3 = 2/3.
+#[test]
+fn a_scale_without_gain_scores_ndcg_zero_but_keeps_precision() {
+    let fixture = Fixture::new();
+    fixture.write(
+        "scales.csv",
+        "scale,value,label,gain,key,rubric\nfit,0,Off,0,0,\nfit,1,Near,0,1,\nfit,2,Spot on,0,2,\n",
+    );
+    let (path, study) = fixture.study();
+    drop(study);
+    let board = json(args![
+        "score",
+        path.to_str().unwrap(),
+        "--k",
+        "3",
+        "--format",
+        "json"
+    ]);
+    assert_eq!(
+        board["contexts_scored"], 2,
+        "q1 and q2 have a level above 0"
+    );
+    for key in ["ndcg@3", "dcg@3", "rbp"] {
+        assert_eq!(per_context(&board, "cand", "q1", key), 0.0, "{key}");
+    }
+    let precision = per_context(&board, "cand", "q1", "precision@3");
+    assert!((precision - 2.0 / 3.0).abs() < 1e-12, "{precision}");
+}

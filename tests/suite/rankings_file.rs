@@ -366,3 +366,29 @@ fn a_file_ranker_missing_lists_is_scored_empty_and_counted() {
     );
     assert!(words.starts_with(&want), "{words}");
 }
+
+/// Written rule: the pool is the study's lists as stored and judged. A file that
+/// replaces a ranker for one run (beta here) scores the file's lists, but beta's stored
+/// lists stay in the pool, so the other rankers' pool-bias figures do not move. Had the
+/// file's lists joined the pool, alpha's top-3 items in c01 (it01, it02, it03, which the
+/// file also ranks first for beta) would no longer be alpha's alone.
+#[test]
+fn a_replaced_ranker_keeps_its_stored_lists_in_the_pool() {
+    let fixture = Fixture::new();
+    let study = pooled_study(&fixture, "pool.plumb");
+    let rows = |board: &Value, ranker: &str| -> Vec<Value> {
+        board["pool_bias"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter(|p| p["ranker"] == ranker)
+            .map(|p| serde_json::json!([p["metric"], p["unique_pairs"], p["mean_left_out"]]))
+            .collect()
+    };
+    let alone = score_json(&study, &[]);
+    let replaced = score_json(&study, &["candidate_replaces.csv"]);
+    for ranker in ["alpha", "gamma"] {
+        assert_eq!(rows(&alone, ranker), rows(&replaced, ranker), "{ranker}");
+    }
+    assert_ne!(rows(&alone, "beta"), rows(&replaced, "beta"));
+}

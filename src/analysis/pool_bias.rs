@@ -179,7 +179,7 @@ pub(super) fn cautions(rows: &[PoolBias]) -> Vec<super::cautions::Caution> {
             .map(|r| r.judged_left_out)
             .min_by(f64::total_cmp);
         let Some(floor) = floor else { continue };
-        let k: usize = metric.trim_start_matches("ndcg@").parse().unwrap_or(0);
+        let k = Metric::parse(metric).and_then(|m| m.cutoff).unwrap_or(0);
         for row in rows
             .iter()
             .filter(|r| r.metric == metric && r.from_file.is_some())

@@ -393,17 +393,6 @@ pub fn difference_text(diff: f64, low: f64, high: f64) -> String {
     format!("{} [{}, {}]", signed(diff), signed(low), signed(high))
 }
 
-/// A p-value as the table shows it ("< 0.001", three decimals, "–" when undefined).
-pub fn p_text(p: f64) -> String {
-    if !p.is_finite() {
-        "–".into()
-    } else if p < 0.001 {
-        "< 0.001".into()
-    } else {
-        format!("{p:.3}")
-    }
-}
-
 /// The ranker table's columns, from the metric table: NDCG at every k, P and ERR at
 /// the focus k, RR, RBP and its residual, then judged@k at every k.
 pub fn table_keys(ks: &[usize], focus: usize) -> Vec<String> {

@@ -1,11 +1,10 @@
 //! The Scoreboard's tables and warnings, drawn from the cached model.
 
-use crate::analysis::format::{fixed, percent_spaced as percent};
+use crate::analysis::format::{fixed, p_value, percent_spaced as percent};
 use crate::analysis::scoreboard::{OFFLINE_CAUTION, Scoreboard};
 use crate::analysis::scoreboard_view::{
     COMPARISON_COLUMNS, ScoreboardModel, cautions_by_ranker, cell_text, column_title,
-    column_tooltip, difference_text, is_low_coverage, low_coverage_warning, order_of, p_text,
-    table_keys,
+    column_tooltip, difference_text, is_low_coverage, low_coverage_warning, order_of, table_keys,
 };
 
 pub fn coverage_warning(ui: &mut egui::Ui, board: &Scoreboard) {
@@ -99,9 +98,9 @@ pub fn comparisons(ui: &mut egui::Ui, board: &Scoreboard) {
                     } else {
                         ui.label(text);
                     }
-                    ui.label(p_text(c.p_randomization));
-                    ui.label(p_text(c.p_t));
-                    ui.label(p_text(c.p_holm));
+                    ui.label(p_value(c.p_randomization));
+                    ui.label(p_value(c.p_t));
+                    ui.label(p_value(c.p_holm));
                     ui.label(format!("{} / {} / {}", c.wins, c.ties, c.losses));
                     ui.label(c.contexts_needed.map_or("–".into(), |n| n.to_string()))
                         .on_hover_text(COMPARISON_COLUMNS[7].1);

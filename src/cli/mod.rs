@@ -45,9 +45,10 @@ pub struct ScoreOptions {
     /// (`label:NAME` always means a label, even one called "new").
     #[arg(long, default_value = "all")]
     pub segment: String,
-    /// How an unsettled pair's panel levels become one level.
-    #[arg(long = "panel-grade", value_enum, default_value_t = PanelGradeChoice::LowerMedian)]
-    pub panel_grade: PanelGradeChoice,
+    /// How an unsettled pair's panel levels become one level for this run (default:
+    /// the study's panel rule, lower-median unless the study chose another).
+    #[arg(long = "panel-grade", value_enum)]
+    pub panel_grade: Option<PanelGradeChoice>,
     /// RBP's persistence p, above 0 and below 1 (Moffat & Zobel 2008).
     #[arg(long, default_value_t = crate::analysis::defaults::RBP_PERSISTENCE, value_parser = persistence)]
     pub persistence: f64,
@@ -58,11 +59,16 @@ pub struct ScoreOptions {
 }
 
 impl ScoreOptions {
-    /// The scoreboard settings these options and `grades` (panel or a reviewer) ask for.
-    pub fn settings(&self, grades: &str) -> crate::analysis::scoreboard::ScoreSettings {
-        use crate::analysis::judgments::{GradeSource, PanelRule};
+    /// The scoreboard settings these options and `grades` (panel or a reviewer) ask for;
+    /// `study_rule` is the study's panel rule, used unless `--panel-grade` chose one.
+    pub fn settings(
+        &self,
+        grades: &str,
+        study_rule: crate::core::panel_rule::PanelRule,
+    ) -> crate::analysis::scoring::scoreboard::ScoreSettings {
+        use crate::analysis::judged::judgments::{GradeSource, PanelRule};
         use crate::core::metrics::{GainKind, Unjudged};
-        crate::analysis::scoreboard::ScoreSettings {
+        crate::analysis::scoring::scoreboard::ScoreSettings {
             scale: self.scale.clone(),
             ks: self.k.clone(),
             gain: match self.gain {
@@ -77,11 +83,12 @@ impl ScoreOptions {
             // None: the study's stored baseline, else the first ranker (one rule,
             // `scoreboard::resolve_baseline`).
             baseline: self.baseline.clone(),
-            segment: crate::analysis::scoreboard::Segment::parse(&self.segment),
+            segment: crate::analysis::scoring::scoreboard::Segment::parse(&self.segment),
             panel_grade: match self.panel_grade {
-                PanelGradeChoice::LowerMedian => PanelRule::LowerMedian,
-                PanelGradeChoice::UpperMedian => PanelRule::UpperMedian,
-                PanelGradeChoice::MeanRounded => PanelRule::MeanRounded,
+                None => study_rule,
+                Some(PanelGradeChoice::LowerMedian) => PanelRule::LowerMedian,
+                Some(PanelGradeChoice::UpperMedian) => PanelRule::UpperMedian,
+                Some(PanelGradeChoice::MeanRounded) => PanelRule::MeanRounded,
             },
             persistence: self.persistence,
             bootstrap_resamples: self.bootstrap,

@@ -4,7 +4,7 @@ use std::path::{Path, PathBuf};
 
 use super::commands::{open, print};
 use super::{Command, Failure, Format, ScoreOptions, ViewName};
-use crate::analysis::{agreement, render, scoreboard, trial};
+use crate::analysis::{agreement, output::render, scoring::scoreboard, scoring::trial};
 use crate::core::text::printable;
 use crate::study::{Study, file_guard};
 
@@ -23,12 +23,14 @@ pub(super) fn cmd_score(command: Command) -> Result<(), Failure> {
         unreachable!("cmd_score is given only the score command")
     };
     if let Some(machine) = machine {
+        let study = open(&study)?;
+        let rule = study.settings()?.panel_rule;
         return super::sample::score_with_machine(
-            &open(&study)?,
-            &options.settings(&grades),
+            &study,
+            &options.settings(&grades, rule),
             &rankings,
             format,
-            crate::analysis::estimates::EstimateRequest {
+            crate::analysis::scoring::estimates::EstimateRequest {
                 machine,
                 target_width,
             },
@@ -38,7 +40,7 @@ pub(super) fn cmd_score(command: Command) -> Result<(), Failure> {
     for file in &rankings {
         snapshot.add_rankings_file(file)?;
     }
-    let settings = options.settings(&grades);
+    let settings = options.settings(&grades, snapshot.panel_rule);
     let board =
         scoreboard::build(&snapshot, &settings).map_err(|e| Failure::input(e.to_string()))?;
     print(match format {
@@ -64,7 +66,7 @@ pub(super) fn cmd_view(
     study: &Path,
     viewer: Option<String>,
 ) -> Result<(), Failure> {
-    use crate::analysis::{agreement_view, home, scoreboard_view};
+    use crate::analysis::{views::agreement_view, views::home, views::scoreboard_view};
     let study = open(study)?;
     print(match screen {
         ViewName::Home => json_line(serde_json::to_string_pretty(&home::of_study(&study)?))?,
@@ -89,16 +91,16 @@ pub(super) fn cmd_view(
 
 /// `status`: the home figures as text, JSON, or the coverage rows as CSV.
 pub(super) fn cmd_status(study: &Path, format: Format) -> Result<(), Failure> {
-    let model = crate::analysis::home::of_study(&open(study)?)?;
+    let model = crate::analysis::views::home::of_study(&open(study)?)?;
     print(match format {
-        Format::Text => printable(&crate::analysis::home::text(&model)).into_owned(),
+        Format::Text => printable(&crate::analysis::views::home::text(&model)).into_owned(),
         Format::Json => json_line(serde_json::to_string_pretty(&model))?,
         Format::Csv => coverage_csv(&model)?,
     })
 }
 
 /// The coverage rows of `status --format csv`.
-fn coverage_csv(model: &crate::analysis::home::HomeModel) -> Result<String, Failure> {
+fn coverage_csv(model: &crate::analysis::views::home::HomeModel) -> Result<String, Failure> {
     let mut csv = csv::Writer::from_writer(Vec::new());
     let io = |e: csv::Error| Failure::other(e.to_string());
     csv.write_record(["ranker", "graded", "pairs"])
@@ -218,7 +220,7 @@ fn export_scores_and_report(
     targets: ExportTargets,
 ) -> Result<(), Failure> {
     let snapshot = study.snapshot()?;
-    let settings = options.settings(source);
+    let settings = options.settings(source, snapshot.panel_rule);
     let board =
         scoreboard::build(&snapshot, &settings).map_err(|e| Failure::input(e.to_string()))?;
     if let Some(path) = targets.scores {
@@ -242,12 +244,13 @@ fn write_report(
     let agreement = snapshot
         .scale_index(&board.scale)
         .map(|s| agreement::with_defaults(snapshot, s, None));
-    let curves = crate::analysis::scoreboard_view::curves(snapshot, &board.settings)
+    let curves = crate::analysis::views::scoreboard_view::curves(snapshot, &board.settings)
         .map_err(|e| Failure::input(e.to_string()))?;
-    let mut files = crate::analysis::report::files(path, board, &curves, agreement.as_ref())
-        .map_err(|e| Failure::other(e.to_string()))?;
+    let mut files =
+        crate::analysis::output::report::files(path, board, &curves, agreement.as_ref())
+            .map_err(|e| Failure::other(e.to_string()))?;
     if let Some(machine) = machine {
-        let request = crate::analysis::estimates::EstimateRequest {
+        let request = crate::analysis::scoring::estimates::EstimateRequest {
             machine,
             target_width: None,
         };

@@ -5,8 +5,8 @@ use std::path::PathBuf;
 
 use super::commands::print;
 use super::{Failure, Format};
-use crate::analysis::estimates::{self, EstimateRequest};
-use crate::analysis::{estimates_text, render, scoreboard};
+use crate::analysis::scoring::estimates::{self, EstimateRequest};
+use crate::analysis::{output::estimates_text, output::render, scoring::scoreboard};
 use crate::study::Study;
 use crate::study::sample::DrawRequest;
 
@@ -100,7 +100,7 @@ pub fn score_with_machine(
 /// Adds the estimates section and its picture to a report about to be written at
 /// `path` (`export --report … --machine NAME`).
 pub fn add_estimates(
-    files: &mut crate::analysis::report::ReportFiles,
+    files: &mut crate::analysis::output::report::ReportFiles,
     study: &Study,
     (snapshot, board): (&crate::study::snapshot::Snapshot, &scoreboard::Scoreboard),
     path: &std::path::Path,
@@ -113,6 +113,6 @@ pub fn add_estimates(
         .file_stem()
         .map(|s| s.to_string_lossy().into_owned())
         .unwrap_or_else(|| "report".into());
-    crate::analysis::report_estimates::add_to(files, &stem, board, &est)
+    crate::analysis::output::report_estimates::add_to(files, &stem, board, &est)
         .map_err(|e| Failure::other(e.to_string()))
 }

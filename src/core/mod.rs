@@ -9,6 +9,7 @@ pub mod fast_hash;
 pub mod gaps;
 pub mod metric_table;
 pub mod metrics;
+pub mod panel_rule;
 pub mod pooling;
 pub mod ppi;
 pub mod scale;

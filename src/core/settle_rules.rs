@@ -3,11 +3,14 @@
 
 use serde::Serialize;
 
+use crate::core::panel_rule::PanelRule;
+
 /// A bulk settling rule. Each gives a level that at least one reviewer chose.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum SettleRule {
-    /// The lower median (the same level `panel` scoring would use without a settlement).
+    /// The study's panel rule (lower median unless the study chose another): the level
+    /// panel scoring already gives the pair, made final.
     Median,
     /// The most frequent level; a tie goes to the lower level.
     Majority,
@@ -35,21 +38,22 @@ impl SettleRule {
     /// One line on what the rule does, shown beside its button.
     pub fn explain(self) -> &'static str {
         match self {
-            SettleRule::Median => "lower median of the levels (what panel scoring already uses)",
+            SettleRule::Median => "the study's panel rule (what panel scoring already uses)",
             SettleRule::Majority => "most frequent level; a tie goes to the lower level",
             SettleRule::Strictest => "lowest level any reviewer gave",
         }
     }
 
-    /// The settled level for `levels` (can't-judge already left out); None when empty.
-    pub fn apply(self, levels: &[u8]) -> Option<u8> {
+    /// The settled level for `levels` (can't-judge already left out) when the study's
+    /// panel rule is `panel`; None when empty.
+    pub fn apply(self, levels: &[u8], panel: PanelRule) -> Option<u8> {
         if levels.is_empty() {
             return None;
         }
         let mut sorted = levels.to_vec();
         sorted.sort_unstable();
         Some(match self {
-            SettleRule::Median => sorted[(sorted.len() - 1) / 2],
+            SettleRule::Median => panel.apply(&mut sorted)?,
             SettleRule::Strictest => sorted[0],
             SettleRule::Majority => {
                 let mut best = (0usize, sorted[0]);
@@ -82,13 +86,18 @@ mod tests {
 
     #[test]
     fn rules_on_small_cases() {
-        assert_eq!(SettleRule::Median.apply(&[3, 1]), Some(1));
-        assert_eq!(SettleRule::Median.apply(&[2, 0, 3]), Some(2));
-        assert_eq!(SettleRule::Majority.apply(&[2, 3, 3]), Some(3));
-        assert_eq!(SettleRule::Majority.apply(&[3, 1]), Some(1));
-        assert_eq!(SettleRule::Majority.apply(&[0, 2, 2, 0, 3]), Some(0));
-        assert_eq!(SettleRule::Strictest.apply(&[2, 3, 1]), Some(1));
-        assert_eq!(SettleRule::Strictest.apply(&[]), None);
+        let lower = PanelRule::LowerMedian;
+        assert_eq!(SettleRule::Median.apply(&[3, 1], lower), Some(1));
+        assert_eq!(
+            SettleRule::Median.apply(&[3, 1], PanelRule::UpperMedian),
+            Some(3)
+        );
+        assert_eq!(SettleRule::Median.apply(&[2, 0, 3], lower), Some(2));
+        assert_eq!(SettleRule::Majority.apply(&[2, 3, 3], lower), Some(3));
+        assert_eq!(SettleRule::Majority.apply(&[3, 1], lower), Some(1));
+        assert_eq!(SettleRule::Majority.apply(&[0, 2, 2, 0, 3], lower), Some(0));
+        assert_eq!(SettleRule::Strictest.apply(&[2, 3, 1], lower), Some(1));
+        assert_eq!(SettleRule::Strictest.apply(&[], lower), None);
         assert_eq!(spread(&[1, 3, 2]), 2);
         assert_eq!(spread(&[]), 0);
     }

@@ -6,6 +6,7 @@ use rusqlite::OptionalExtension;
 use serde::Serialize;
 
 use super::{Result, Study};
+use crate::core::panel_rule::PanelRule;
 
 /// The keys of the `settings` table (a contract with older study files: add, never rename).
 pub mod keys {
@@ -47,6 +48,10 @@ pub mod keys {
     pub const PILOT_PAIRS: &str = "pilot_pairs";
     /// The reviewers who grade the running pilot as a JSON list (absent: the panel).
     pub const PILOT_REVIEWERS: &str = "pilot_reviewers";
+    /// How an unsettled pair's levels become the panel grade: `lower-median` (the
+    /// default), `upper-median` or `mean-rounded`. Every screen and command reads it;
+    /// `score --panel-grade` may choose another for one run.
+    pub const PANEL_RULE: &str = "panel_rule";
 }
 
 /// Pool depth k when the study names none (common practice: 10, the depth most
@@ -76,6 +81,8 @@ pub struct StudySettings {
     pub machines_in_panel: bool,
     /// Reviewers who see a gold pair's level and rationale after grading it.
     pub training_reviewers: Vec<String>,
+    /// The study's panel rule for unsettled pairs (default lower median).
+    pub panel_rule: PanelRule,
 }
 
 impl Study {
@@ -119,6 +126,7 @@ impl Study {
             gold_rate: self.setting_or(keys::GOLD_RATE, DEFAULT_GOLD_RATE)?,
             active_scale: self.setting(keys::ACTIVE_SCALE)?,
             machines_in_panel: self.setting_or(keys::MACHINES_IN_PANEL, false)?,
+            panel_rule: self.setting_or(keys::PANEL_RULE, PanelRule::default())?,
             training_reviewers: self
                 .setting(keys::TRAINING_REVIEWERS)?
                 .unwrap_or_default()

@@ -193,7 +193,8 @@ impl Study {
             .into_iter()
             .map(|s| (s.context_id, s.item_id))
             .collect();
-        let machines: HashSet<String> = if self.settings()?.machines_in_panel {
+        let settings = self.settings()?;
+        let machines: HashSet<String> = if settings.machines_in_panel {
             HashSet::new()
         } else {
             self.conn()
@@ -213,7 +214,7 @@ impl Study {
             .into_iter()
             .filter(|(pair, l)| spread(l) > 0 && !settled.contains(pair))
             .filter(|(pair, _)| only.is_none_or(|o| o.contains(pair)))
-            .filter_map(|(pair, l)| rule.apply(&l).map(|v| (pair, v)))
+            .filter_map(|(pair, l)| rule.apply(&l, settings.panel_rule).map(|v| (pair, v)))
             .collect();
         todo.sort();
         let at = time::now();

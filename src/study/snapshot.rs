@@ -57,7 +57,7 @@ pub struct SettledRow {
 pub struct Snapshot {
     pub name: String,
     /// The baseline the study stores (`settings.baseline`), which may name a ranker
-    /// that no longer exists; `analysis::scoreboard::resolve_baseline` decides.
+    /// that no longer exists; `analysis::scoring::scoreboard::resolve_baseline` decides.
     pub stored_baseline: Option<String>,
     /// The scale the study names as active (`settings.active_scale`), if it still exists
     /// among `scales`; `active_scale_index` applies the fallback.
@@ -80,6 +80,8 @@ pub struct Snapshot {
     pub machines: Vec<bool>,
     /// Whether machine grades also count in `grades` (the study's `machines_in_panel`).
     pub machines_in_panel: bool,
+    /// The study's rule for an unsettled pair's panel grade (`panel_rule` setting).
+    pub panel_rule: crate::core::panel_rule::PanelRule,
     pub settled: Vec<SettledRow>,
     /// Gold pairs: (context, item, scale, known level).
     pub gold: Vec<(u32, u32, u32, u8)>,
@@ -192,6 +194,7 @@ impl Study {
             name: settings.name,
             stored_baseline: settings.baseline,
             stored_active_scale: settings.active_scale,
+            panel_rule: settings.panel_rule,
             pool_depth: settings.pool_depth,
             items,
             contexts,

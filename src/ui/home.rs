@@ -1,11 +1,11 @@
-//! Home: draws `analysis::home::HomeModel` (what the study holds, how far the pool is
+//! Home: draws `analysis::views::home::HomeModel` (what the study holds, how far the pool is
 //! graded and what to do next).
 
 use std::path::Path;
 
 use super::jobs::JobResult;
-pub use crate::analysis::home::HomeModel;
-use crate::analysis::home::{self, next_step};
+pub use crate::analysis::views::home::HomeModel;
+use crate::analysis::views::home::{self, next_step};
 use crate::study::Study;
 
 /// The same model as `plumbline status` (`home::of_study`); runs on a job thread.

@@ -7,7 +7,7 @@
 
 use std::sync::mpsc::{Receiver, TryRecvError, channel};
 
-use crate::analysis::scoreboard::ScoreError;
+use crate::analysis::scoring::scoreboard::ScoreError;
 use crate::study::{Problem, StudyError};
 
 /// Why a screen's background task has no result.

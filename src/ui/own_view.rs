@@ -1,11 +1,11 @@
 //! The two screens a signed-in reviewer has besides the desk: "My progress" (their own
 //! queue on every scale and their pilot share) and "Rubric" (every scale's levels, read
-//! only). Both draw `analysis::own_progress::OwnProgress`, loaded on a job thread.
+//! only). Both draw `analysis::views::own_progress::OwnProgress`, loaded on a job thread.
 
 use std::path::Path;
 
 use super::jobs::{JobResult, Task};
-use crate::analysis::own_progress::{self, OwnProgress, OwnScale};
+use crate::analysis::views::own_progress::{self, OwnProgress, OwnScale};
 use crate::study::Study;
 
 /// The reviewer's own model and the job that loads it.

@@ -1,6 +1,6 @@
 //! Scale trial: one row per piloted scale and per saved collapse map, a plot of agreement
 //! against time per grade, the recommendation and its cautions. The numbers come from
-//! `analysis::trial::build` with the same settings as `plumbline trial`, computed on a
+//! `analysis::scoring::trial::build` with the same settings as `plumbline trial`, computed on a
 //! job thread. While the screen is shown it asks every few seconds whether grades
 //! arrived (pilot grades from the desk, another workstation or a merge) and recomputes
 //! when they did.
@@ -11,7 +11,7 @@ use egui_plot::{Line, Plot, PlotPoint, Points, Text};
 
 use super::jobs::{JobResult, Task};
 use crate::analysis::format::{fixed, percent_spaced as percent};
-use crate::analysis::trial::{self, Trial, TrialRow};
+use crate::analysis::scoring::trial::{self, Trial, TrialRow};
 use crate::study::Study;
 use crate::study::grades::GradesMark;
 use crate::study::pilot::PilotStatus;
@@ -258,7 +258,7 @@ fn table(ui: &mut egui::Ui, rows: &[TrialRow]) {
                 ui.label(r.levels.to_string());
                 ui.label(r.pairs.to_string());
                 ui.label(r.reviewers.to_string());
-                ui.label(crate::analysis::scoreboard_view::with_interval(
+                ui.label(crate::analysis::views::scoreboard_view::with_interval(
                     r.alpha_ordinal,
                     r.alpha_ci_low,
                     r.alpha_ci_high,

@@ -4,7 +4,7 @@
 
 use std::time::Instant;
 
-use plumbline::analysis::scoreboard::{self, ScoreSettings};
+use plumbline::analysis::scoring::scoreboard::{self, ScoreSettings};
 use plumbline::core::scale::preset;
 use plumbline::core::stats::Rng;
 use plumbline::study::snapshot::{ContextInfo, GradeRow, ItemInfo, Snapshot};

@@ -107,3 +107,64 @@ fn the_layer_check_sees_a_forbidden_name() {
     assert_eq!(hits.len(), 1);
     assert_eq!(hits[0].0, 2);
 }
+
+/// `analysis/` is grouped in rooms with arrows one way: a room names only the leaves,
+/// itself and the rooms before it, so models never import their renderings (output) or
+/// the screens' view models (views), and no two rooms import each other.
+#[test]
+fn analysis_rooms_import_one_way() {
+    const LEAVES: [&str; 4] = ["cautions", "colours", "defaults", "format"];
+    const ROOMS: [&str; 5] = ["judged", "agreement", "scoring", "views", "output"];
+    let analysis = src("analysis");
+    let mut found = Vec::new();
+    for file in rust_files(&analysis) {
+        let relative = file.strip_prefix(&analysis).unwrap();
+        let first = relative
+            .iter()
+            .next()
+            .unwrap()
+            .to_string_lossy()
+            .to_string();
+        let room = first.trim_end_matches(".rs").to_string();
+        let allowed: Vec<&str> = match ROOMS.iter().position(|r| *r == room) {
+            Some(at) => ROOMS[..=at].to_vec(),
+            None => Vec::new(),
+        };
+        for (n, line) in code_lines(&file) {
+            for (other_at, other) in ROOMS.iter().enumerate() {
+                let named = line.contains(&format!("analysis::{other}"));
+                if named && !allowed.contains(other) {
+                    found.push(format!(
+                        "{}:{n}: {} (room {other_at})",
+                        file.display(),
+                        line.trim()
+                    ));
+                }
+            }
+        }
+        if LEAVES.contains(&room.as_str()) || room == "mod" {
+            continue;
+        }
+        assert!(
+            ROOMS.contains(&room.as_str()),
+            "{} sits flat in analysis/: give it a room",
+            file.display()
+        );
+    }
+    assert!(found.is_empty(), "imports against the arrows: {found:#?}");
+}
+
+/// No more than ten files sit flat in `src/ui`; the rest live in one folder per screen.
+#[test]
+fn the_screens_sit_in_folders() {
+    let flat: Vec<_> = std::fs::read_dir(src("ui"))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "rs"))
+        .collect();
+    assert!(
+        flat.len() <= 10,
+        "{} files flat in src/ui: {flat:#?}",
+        flat.len()
+    );
+}

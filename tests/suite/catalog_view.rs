@@ -4,7 +4,7 @@
 
 use crate::common::Fixture;
 
-use plumbline::analysis::catalog_view::{ContextLists, Mark, PanelMark};
+use plumbline::analysis::views::catalog_view::{ContextLists, Mark, PanelMark};
 
 #[test]
 fn each_rankers_list_carries_the_panel_grade_and_every_reviewers_own() {

@@ -346,7 +346,7 @@ fn every_counting_rule_is_in_the_readme_and_the_report() {
         String::from_utf8_lossy(&out.stderr)
     );
     let report = std::fs::read_to_string(report).unwrap();
-    for rule in plumbline::analysis::report::CONVENTION_RULES {
+    for rule in plumbline::analysis::output::report::CONVENTION_RULES {
         assert!(readme.contains(rule), "README lacks: {rule}");
         assert!(report.contains(rule), "report lacks: {rule}");
     }
@@ -410,4 +410,54 @@ fn a_scale_without_gain_scores_ndcg_zero_but_keeps_precision() {
     }
     let precision = per_context(&board, "cand", "q1", "precision@3");
     assert!((precision - 2.0 / 3.0).abs() < 1e-12, "{precision}");
+}
+
+/// The study keeps one panel rule (`panel_rule` setting) that every figure reads unless
+/// a run chooses another: with the same fixture as above (q1's i2 graded [1, 2]),
+/// upper median gives i2 level 2, so NDCG@3 of cand on q1 = 1; `--panel-grade
+/// lower-median` still gives 0.796708 for one run. The Catalog's panel mark and the
+/// people's panel that machine judges are measured against follow the study's rule.
+#[test]
+fn the_study_panel_rule_is_read_by_score_and_by_every_view() {
+    use plumbline::analysis::agreement::reviewer_quality;
+    use plumbline::analysis::views::catalog_view::ContextLists;
+    let fixture = Fixture::new();
+    let (path, study) = fixture.study();
+    study
+        .set_setting(plumbline::study::settings::keys::PANEL_RULE, "upper-median")
+        .unwrap();
+    let snapshot = study.snapshot().unwrap();
+    drop(study);
+    let s = path.to_str().unwrap();
+    let board = json(args!["score", s, "--k", "3", "--format", "json"]);
+    assert_eq!(board["settings"]["panel_grade"], "upper-median");
+    assert!((per_context(&board, "cand", "q1", "ndcg@3") - 1.0).abs() < 1e-9);
+    let one_run = json(args![
+        "score",
+        s,
+        "--k",
+        "3",
+        "--panel-grade",
+        "lower-median",
+        "--format",
+        "json"
+    ]);
+    let got = per_context(&one_run, "cand", "q1", "ndcg@3");
+    assert!((got - 0.796_708).abs() < 1e-6, "{got}");
+
+    let (q1, i2) = (
+        snapshot.contexts.iter().position(|c| c.id == "q1").unwrap(),
+        snapshot.items.iter().position(|i| i.id == "i2").unwrap(),
+    );
+    let people = reviewer_quality::people_panel(&snapshot, 0);
+    assert_eq!(people.get(&(q1 as u32, i2 as u32)), Some(&2));
+    let lists = ContextLists::build(snapshot);
+    let view = lists.view(q1, Some(0)).unwrap();
+    let row = view
+        .lists
+        .iter()
+        .flat_map(|l| &l.rows)
+        .find(|r| r.item_id == "i2")
+        .unwrap();
+    assert_eq!(row.panel.as_ref().map(|p| p.level), Some(2));
 }

@@ -5,7 +5,7 @@ use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 use plumbline::analysis::agreement;
-use plumbline::analysis::scoreboard::{self, ScoreSettings, Segment};
+use plumbline::analysis::scoring::scoreboard::{self, ScoreSettings, Segment};
 use plumbline::study::Study;
 
 fn committed() -> PathBuf {
@@ -208,7 +208,7 @@ fn home_counts_the_machine_judges_own_grades() {
         .skip(1)
         .filter(|l| l.contains(",fit4,"))
         .count();
-    let home = plumbline::analysis::home::of_study(&study).unwrap();
+    let home = plumbline::analysis::views::home::of_study(&study).unwrap();
     let judge = home
         .reviewers
         .iter()

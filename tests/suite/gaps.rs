@@ -6,8 +6,8 @@
 use crate::common;
 
 use common::Fixture;
-use plumbline::analysis::gaps::gap_pairs;
-use plumbline::analysis::judgments::GradeSource;
+use plumbline::analysis::judged::judgments::GradeSource;
+use plumbline::analysis::scoring::gaps::gap_pairs;
 use plumbline::study::Study;
 
 /// Two rankers over two contexts. In `solo`, ranker `a` puts `x1` first and `b` never

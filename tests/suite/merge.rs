@@ -3,7 +3,7 @@
 use crate::common;
 
 use common::{Fixture, study_dump};
-use plumbline::analysis::{agreement, scoreboard};
+use plumbline::analysis::{agreement, scoring::scoreboard};
 use plumbline::study::Study;
 use plumbline::study::import::{self, ImportSet, Source};
 use plumbline::study::merge::MergeOptions;

@@ -3,7 +3,7 @@
 
 use crate::common;
 
-use plumbline::analysis::panel_review;
+use plumbline::analysis::agreement::panel_review;
 use plumbline::study::grades::{GradeAction, NewGrade};
 
 /// Fixture grades on `fit` plus cy: q1/i1 = ann 2, bo 2, cy 0; q1/i2 = ann 1, bo 2, cy 2;
@@ -102,8 +102,8 @@ fn level_use_gold_accuracy_drift_and_disagreement_order() {
 
 #[test]
 fn the_pace_waits_until_it_rests_on_enough_grades() {
+    use plumbline::analysis::agreement::panel_review::grades_per_hour;
     use plumbline::analysis::defaults::PACE_MIN_GRADES;
-    use plumbline::analysis::panel_review::grades_per_hour;
     // One grade in 5.9 s would read as "610 grades per hour"; it says nothing instead.
     assert_eq!(grades_per_hour(1, 5.9), None);
     assert_eq!(grades_per_hour(PACE_MIN_GRADES - 1, 60.0), None);

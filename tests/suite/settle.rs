@@ -5,8 +5,8 @@
 
 use crate::common;
 
-use plumbline::analysis::judgments::{GradeSource, level_of, resolve};
-use plumbline::analysis::scoreboard::{self, ScoreSettings};
+use plumbline::analysis::judged::judgments::{GradeSource, level_of, resolve};
+use plumbline::analysis::scoring::scoreboard::{self, ScoreSettings};
 use plumbline::core::settle_rules::SettleRule;
 use plumbline::study::Study;
 use plumbline::study::grades::{GradeAction, NewGrade};

@@ -2,7 +2,7 @@
 
 use std::collections::{BTreeMap, HashSet};
 
-use plumbline::analysis::trial;
+use plumbline::analysis::scoring::trial;
 use plumbline::core::agreement::{self, AlphaLevel, CollapseMap, Confusion, Weights};
 use plumbline::core::stats;
 use plumbline::study::Study;

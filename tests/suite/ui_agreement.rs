@@ -1,6 +1,6 @@
 //! The Agreement screen driven through the real workbench (`Workbench::show`) with
 //! egui_kittest on a fresh copy of the demo study. Numbers on screen are compared with
-//! what the engines (`analysis::agreement`, `analysis::scoreboard`) compute from the
+//! what the engines (`analysis::agreement`, `analysis::scoring::scoreboard`) compute from the
 //! study file on their own.
 
 use crate::ui_support;
@@ -11,8 +11,8 @@ use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
 use plumbline::analysis::agreement;
 use plumbline::analysis::defaults::{AGREEMENT_BOOTSTRAP as RESAMPLES, SEED};
-use plumbline::analysis::judgments::{GradeSource, level_of, lower_median, resolve};
-use plumbline::analysis::scoreboard::{self, ScoreSettings, Scoreboard};
+use plumbline::analysis::judged::judgments::{GradeSource, PanelRule, level_of, resolve};
+use plumbline::analysis::scoring::scoreboard::{self, ScoreSettings, Scoreboard};
 use plumbline::study::Study;
 use plumbline::ui::Screen;
 use plumbline::ui::Workbench;
@@ -230,7 +230,7 @@ fn settling_by_hand_then_by_the_median_rule_reaches_the_panel_scores() {
                 .filter(|g| g.scale as usize == scale && g.context as usize == c && g.item == i)
                 .filter_map(|g| g.value)
                 .collect();
-            assert_eq!(s.value, lower_median(&mut levels));
+            assert_eq!(s.value, PanelRule::LowerMedian.apply(&mut levels));
             assert_eq!(s.method, "median");
         }
     }
@@ -284,9 +284,9 @@ fn the_blind_rule_hides_other_grades_from_a_reviewer_with_pending_pairs() {
     // The workbench never draws Agreement for a signed-in reviewer; the blind rule is what
     // `plumbline view agreement --viewer` computes, from the same view model.
     let study = Study::open(&path).unwrap();
-    let m = plumbline::analysis::agreement_view::build(
+    let m = plumbline::analysis::views::agreement_view::build(
         &study,
-        plumbline::analysis::agreement_view::AgreementRequest {
+        plumbline::analysis::views::agreement_view::AgreementRequest {
             viewer: Some("rev-dune".into()),
             ..Default::default()
         },

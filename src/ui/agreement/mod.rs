@@ -1,6 +1,6 @@
 //! Agreement: does the panel agree, who drifts, and which disagreements matter. The model
 //! is built on a job thread (study snapshot → `analysis::agreement` and
-//! `analysis::panel_review`); `ui` only draws it. Settling lives in `settling.rs`.
+//! `analysis::agreement::panel_review`); `ui` only draws it. Settling lives in `settling.rs`.
 
 use std::path::{Path, PathBuf};
 
@@ -10,15 +10,15 @@ mod quality;
 pub mod settling;
 
 use crate::analysis::agreement::{AgreementReport, ReviewerPair};
-pub use crate::analysis::agreement_view::{AgreementModel, AgreementRequest};
 use crate::analysis::defaults;
 use crate::analysis::format::{fixed, percent_spaced as percent};
+pub use crate::analysis::views::agreement_view::{AgreementModel, AgreementRequest};
 use crate::study::Study;
 use settling::SettleForm;
 
 /// Loads and computes the model (runs on a job thread).
 pub fn load(path: &Path, request: AgreementRequest) -> JobResult<AgreementModel> {
-    crate::analysis::agreement_view::build(&Study::open(path)?, request)?.ok_or_else(|| {
+    crate::analysis::views::agreement_view::build(&Study::open(path)?, request)?.ok_or_else(|| {
         JobError::Missing("The study has no scales yet: import scales.csv first.".into())
     })
 }

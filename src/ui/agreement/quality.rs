@@ -2,9 +2,9 @@
 //! agreement with the others by day, gold accuracy (with drift by day) and each machine
 //! judge against the people's panel grade, drawn from the cached model.
 
-use crate::analysis::agreement_view::AgreementModel;
-use crate::analysis::panel_review::PanelReview;
-use crate::analysis::reviewer_quality::MACHINE_CAUTION;
+use crate::analysis::agreement::panel_review::PanelReview;
+use crate::analysis::agreement::reviewer_quality::MACHINE_CAUTION;
+use crate::analysis::views::agreement_view::AgreementModel;
 
 /// A setting the lead changed in this section, for the screen to write.
 #[derive(Debug, Clone, PartialEq)]
@@ -100,7 +100,7 @@ pub fn gold_and_machines(ui: &mut egui::Ui, model: &AgreementModel) -> Option<Qu
         ui.add_space(10.0);
     }
     if report.machines.is_empty() {
-        ui.weak(crate::analysis::estimates_view::NO_MACHINE);
+        ui.weak(crate::analysis::views::estimates_view::NO_MACHINE);
         return change;
     }
     ui.heading("Machine judges against the people's panel grade");

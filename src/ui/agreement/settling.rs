@@ -5,7 +5,7 @@
 use std::path::Path;
 
 use super::AgreementModel;
-use crate::analysis::panel_review::Disagreement;
+use crate::analysis::agreement::panel_review::Disagreement;
 use crate::core::settle_rules::SettleRule;
 use crate::study::Study;
 use crate::ui::jobs::{JobResult, Task};

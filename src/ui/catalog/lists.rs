@@ -1,10 +1,10 @@
 //! The lead's context view: pick a context (and a scale) and read each ranker's list in
 //! rank order with the panel grade and every reviewer's own grade of each item. Drawn
-//! from `analysis::catalog_view`; the workbench never draws it for a reviewer.
+//! from `analysis::views::catalog_view`; the workbench never draws it for a reviewer.
 
 use super::Catalog;
 use super::tables::left_aligned;
-use crate::analysis::catalog_view::{
+use crate::analysis::views::catalog_view::{
     ContextLists, ContextName, ContextView, ListRow, Mark, PanelMark, ScaleName,
 };
 

@@ -10,7 +10,7 @@ use std::path::{Path, PathBuf};
 
 use super::image_cache::ImageCache;
 use super::jobs::{JobResult, Task};
-use crate::analysis::catalog_view::{ContextLists, ContextView};
+use crate::analysis::views::catalog_view::{ContextLists, ContextView};
 use crate::study::Problem;
 use crate::study::Study;
 use crate::study::import::FileReport;

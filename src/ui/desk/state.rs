@@ -167,7 +167,7 @@ impl DeskState {
     pub fn pace_per_hour(&self) -> Option<f64> {
         let grades = self.data.past_grades + self.session_grades;
         let seconds = self.data.past_seconds + self.session_seconds;
-        crate::analysis::panel_review::grades_per_hour(grades, seconds)
+        crate::analysis::agreement::panel_review::grades_per_hour(grades, seconds)
     }
 
     /// Adds visible time to the card on screen.

@@ -3,7 +3,7 @@
 
 use std::path::{Path, PathBuf};
 
-use crate::analysis::scoreboard::ScoreSettings;
+use crate::analysis::scoring::scoreboard::ScoreSettings;
 use crate::study::Study;
 use crate::ui::jobs::{JobResult, Task};
 

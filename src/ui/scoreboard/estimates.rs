@@ -2,12 +2,12 @@
 //! sample: per ranker the combined interval, the human-only interval, the machine-only
 //! point, the machine's bias and the effective human contexts; a target width gives how
 //! many more sample contexts to grade, and a button draws them into a person's queue.
-//! The model comes from `analysis::estimates_view::build` on a job thread.
+//! The model comes from `analysis::views::estimates_view::build` on a job thread.
 
 use std::path::Path;
 
-use crate::analysis::estimates_view::{self, EstimatesPanel};
-use crate::analysis::scoreboard::ScoreSettings;
+use crate::analysis::scoring::scoreboard::ScoreSettings;
+use crate::analysis::views::estimates_view::{self, EstimatesPanel};
 use crate::study::Study;
 use crate::study::sample::DrawRequest;
 use crate::ui::jobs::{JobResult, Task};

@@ -4,8 +4,8 @@
 use std::path::PathBuf;
 
 use super::ScoreboardScreen;
-use crate::analysis::scoreboard_view::ScoreboardModel;
-use crate::analysis::{render, report};
+use crate::analysis::views::scoreboard_view::ScoreboardModel;
+use crate::analysis::{output::render, output::report};
 use crate::ui::frame::study_picker::{Asked, NO_DIALOG, ask};
 use crate::ui::jobs::JobError;
 

@@ -1,7 +1,7 @@
 //! Scoreboard: rank the rankers with intervals, compare candidates with the baseline,
 //! see how much the answer depends on who graded, and queue the unjudged pairs that
-//! could change it. Every number comes from `analysis::scoreboard::build` on a job
-//! thread (see `analysis::scoreboard_view`), the same function `plumbline score` prints, so
+//! could change it. Every number comes from `analysis::scoring::scoreboard::build` on a job
+//! thread (see `analysis::views::scoreboard_view`), the same function `plumbline score` prints, so
 //! screen and terminal agree.
 
 mod estimates;
@@ -12,9 +12,9 @@ mod tables;
 use std::path::{Path, PathBuf};
 
 use super::jobs::{JobResult, Task};
-use crate::analysis::judgments::GradeSource;
-use crate::analysis::scoreboard::{ScoreSettings, Segment};
-pub use crate::analysis::scoreboard_view::*;
+use crate::analysis::judged::judgments::GradeSource;
+use crate::analysis::scoring::scoreboard::{ScoreSettings, Segment};
+pub use crate::analysis::views::scoreboard_view::*;
 use crate::core::metrics::{GainKind, Unjudged};
 use crate::study::Study;
 use tables::{comparisons, coverage_warning, ranker_table, sensitivity};
@@ -230,7 +230,7 @@ impl ScoreboardScreen {
     fn setting_choices(
         &mut self,
         ui: &mut egui::Ui,
-        c: &crate::analysis::scoreboard_view::Choices,
+        c: &crate::analysis::views::scoreboard_view::Choices,
     ) {
         let scale = self.wanted.scale.clone().unwrap_or_default();
         if let Some(s) = pick(ui, "Scale", "sb_scale", &scale, &c.scales, |s| s.clone()) {
@@ -348,7 +348,7 @@ impl ScoreboardScreen {
         } else {
             crate::analysis::defaults::focus_k(&board.settings.ks)
         };
-        ui.label(crate::analysis::scoreboard_view::summary_line(board));
+        ui.label(crate::analysis::views::scoreboard_view::summary_line(board));
         coverage_warning(ui, board);
         ui.add_space(6.0);
         ui.horizontal(|ui| {
@@ -370,7 +370,7 @@ impl ScoreboardScreen {
         comparisons(ui, board);
         ui.add_space(10.0);
         self.lists_from_files(ui);
-        let files_text = crate::analysis::render::rankings_files_text(board);
+        let files_text = crate::analysis::output::render::rankings_files_text(board);
         if !files_text.is_empty() {
             ui.label(files_text.trim_end());
         }

@@ -7,7 +7,7 @@ use egui_plot::{
     uniform_grid_spacer,
 };
 
-use crate::analysis::scoreboard_view::{Differences, ScoreboardModel};
+use crate::analysis::views::scoreboard_view::{Differences, ScoreboardModel};
 
 /// The colour of ranker `r` (board order), the same in every plot and legend.
 pub fn colour(r: usize) -> egui::Color32 {

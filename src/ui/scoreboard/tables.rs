@@ -1,8 +1,8 @@
 //! The Scoreboard's tables and warnings, drawn from the cached model.
 
 use crate::analysis::format::{fixed, p_value, percent_spaced as percent};
-use crate::analysis::scoreboard::{OFFLINE_CAUTION, Scoreboard};
-use crate::analysis::scoreboard_view::{
+use crate::analysis::scoring::scoreboard::{OFFLINE_CAUTION, Scoreboard};
+use crate::analysis::views::scoreboard_view::{
     COMPARISON_COLUMNS, ScoreboardModel, cautions_by_ranker, cell_text, column_title,
     column_tooltip, difference_text, is_low_coverage, low_coverage_warning, order_of, table_keys,
 };
@@ -264,6 +264,6 @@ pub fn pool_bias(ui: &mut egui::Ui, board: &Scoreboard, focus: usize) {
             }
         });
     for p in &rows {
-        ui.label(crate::analysis::pool_bias::in_words(p));
+        ui.label(crate::analysis::scoring::pool_bias::in_words(p));
     }
 }

@@ -80,7 +80,7 @@ pub struct HomeModel {
     /// The human sample on the active scale, once `plumbline sample` has drawn one
     /// (absent before).
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub sample: Option<super::human_sample::SampleStatus>,
+    pub sample: Option<crate::analysis::scoring::human_sample::SampleStatus>,
 }
 
 impl HomeModel {
@@ -119,7 +119,9 @@ pub fn of_study(study: &Study) -> Result<HomeModel, StudyError> {
         let draws = study.sample_draws()?;
         if !draws.is_empty() && !snapshot.scales.is_empty() {
             let scale = snapshot.active_scale_index();
-            model.sample = Some(super::human_sample::status(&snapshot, &draws, scale));
+            model.sample = Some(crate::analysis::scoring::human_sample::status(
+                &snapshot, &draws, scale,
+            ));
         }
         Ok(model)
     })
@@ -165,7 +167,7 @@ pub fn text(model: &HomeModel) -> String {
         if let Some(sample) = &model.sample {
             out.push_str(&format!(
                 "\n{}\n",
-                super::human_sample::status_line(sample, scale)
+                crate::analysis::scoring::human_sample::status_line(sample, scale)
             ));
         }
         out.push_str(&format!("\nReviewers on {scale}\n"));

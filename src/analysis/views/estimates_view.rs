@@ -1,11 +1,11 @@
 //! The Scoreboard's estimates section as a view model: the machine judges to choose
 //! from, the people whose queues can take more sample contexts, and per ranker at the
 //! focus cut-off the combined interval, the human-only interval, the machine-only point,
-//! the machine's bias and the effective human contexts (`analysis::estimates`, the same
+//! the machine's bias and the effective human contexts (`analysis::scoring::estimates`, the same
 //! function `plumbline score --machine` prints).
 
-use super::estimates::{self, Estimate, EstimateRequest, Estimates};
-use super::scoreboard::{self, ScoreSettings};
+use crate::analysis::scoring::estimates::{self, Estimate, EstimateRequest, Estimates};
+use crate::analysis::scoring::scoreboard::{self, ScoreSettings};
 use crate::study::{Study, StudyError};
 
 /// One ranker's line at the focus metric.
@@ -59,19 +59,19 @@ pub const NO_MACHINE: &str = "This study has no machine judge. Import its grades
 
 fn line(e: &Estimate) -> EstimateLine {
     let f = &e.figures;
-    let with = super::scoreboard_view::with_interval;
+    let with = crate::analysis::views::scoreboard_view::with_interval;
     EstimateLine {
         ranker: e.ranker.clone(),
         combined: with(e.estimate, f.ci_low, f.ci_high),
         human_only: with(f.human_only_mean, f.human_only_ci_low, f.human_only_ci_high),
-        machine_only: super::format::fixed(f.machine_only_mean, 3),
+        machine_only: crate::analysis::format::fixed(f.machine_only_mean, 3),
         bias: if (f.machine_only_mean - e.estimate).is_finite() {
             format!("{:+.3}", f.machine_only_mean - e.estimate)
         } else {
             "–".into()
         },
-        effective: super::format::fixed(f.effective_human_contexts, 1),
-        lambda: super::format::fixed(f.lambda, 3),
+        effective: crate::analysis::format::fixed(f.effective_human_contexts, 1),
+        lambda: crate::analysis::format::fixed(f.lambda, 3),
     }
 }
 
@@ -95,7 +95,10 @@ fn more_text(est: &Estimates, metric: &str) -> (Option<String>, usize) {
                     .figures
                     .humans_needed_reviewer_hours
                     .map_or(String::new(), |h| {
-                        format!(" (about {} reviewer-hours)", super::format::fixed(h, 1))
+                        format!(
+                            " (about {} reviewer-hours)",
+                            crate::analysis::format::fixed(h, 1)
+                        )
                     });
                 (
                     Some(format!(
@@ -151,7 +154,7 @@ pub fn build(
         }
     };
     panel.scale = board.scale.clone();
-    panel.metric = format!("ndcg@{}", super::defaults::focus_k(&settings.ks));
+    panel.metric = format!("ndcg@{}", crate::analysis::defaults::focus_k(&settings.ks));
     let request = EstimateRequest {
         machine,
         target_width,

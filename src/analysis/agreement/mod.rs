@@ -3,7 +3,10 @@
 
 use serde::Serialize;
 
-use super::cautions::{Caution, Cautions};
+pub mod panel_review;
+pub mod reviewer_quality;
+
+use crate::analysis::cautions::{Caution, Cautions};
 
 use crate::core::agreement::{
     self, AlphaLevel, CollapseMap, Confusion, DOMINANT_SHARE_CAUTION, PrevalenceBias, Weights,
@@ -69,9 +72,9 @@ pub struct AgreementReport {
     pub reviewer_names: Vec<String>,
     /// Every reviewer who graded this scale, people and machine judges, with their gold
     /// accuracy (on the scale's own levels, whatever the collapse map).
-    pub reviewers: Vec<super::reviewer_quality::ReviewerQuality>,
+    pub reviewers: Vec<reviewer_quality::ReviewerQuality>,
     /// Every machine judge against the people's panel grade (settled, else lower median).
-    pub machines: Vec<super::reviewer_quality::MachineAgreement>,
+    pub machines: Vec<reviewer_quality::MachineAgreement>,
     /// Pairs with at least one grade on this scale.
     pub units: usize,
     /// Number of "can't judge" grades on this scale (grades, not pairs); agreement leaves
@@ -183,8 +186,8 @@ pub fn with_defaults(
         snapshot,
         scale,
         collapse,
-        super::defaults::AGREEMENT_BOOTSTRAP,
-        super::defaults::SEED,
+        crate::analysis::defaults::AGREEMENT_BOOTSTRAP,
+        crate::analysis::defaults::SEED,
     )
 }
 
@@ -220,7 +223,7 @@ pub fn build(
                 .filter(|(x, y)| x.is_some() && y.is_some())
                 .map(|(x, y)| vec![*x, *y])
                 .collect();
-            let thin = n < super::defaults::kappa_min_shared(levels);
+            let thin = n < crate::analysis::defaults::kappa_min_shared(levels);
             pairs.push(ReviewerPair {
                 reviewer_a: snapshot.reviewers[table.reviewers[a] as usize].clone(),
                 reviewer_b: snapshot.reviewers[table.reviewers[b] as usize].clone(),
@@ -272,7 +275,7 @@ pub fn build(
             share: *count as f64 / total as f64,
         });
     }
-    let min_shared = super::defaults::kappa_min_shared(levels);
+    let min_shared = crate::analysis::defaults::kappa_min_shared(levels);
     for p in pairs.iter().filter(|p| p.thin) {
         cautions.push(Caution::ThinKappa {
             reviewer_a: p.reviewer_a.clone(),
@@ -295,8 +298,8 @@ pub fn build(
             .iter()
             .map(|r| snapshot.reviewers[*r as usize].clone())
             .collect(),
-        reviewers: super::reviewer_quality::reviewers(snapshot, scale),
-        machines: super::reviewer_quality::machines(snapshot, scale),
+        reviewers: reviewer_quality::reviewers(snapshot, scale),
+        machines: reviewer_quality::machines(snapshot, scale),
         units: units.len(),
         cant_judge: table.cant_judge,
         pairs,

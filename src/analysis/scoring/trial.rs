@@ -6,12 +6,12 @@ use std::collections::HashSet;
 
 use serde::Serialize;
 
-use super::cautions::{Caution, Cautions};
+use crate::analysis::cautions::{Caution, Cautions};
 
-use super::agreement;
-use super::judgments::GradeSource;
-use super::per_context;
-use super::scoreboard::ScoreSettings;
+use crate::analysis::agreement;
+use crate::analysis::judged::JudgedContexts;
+use crate::analysis::judged::judgments::GradeSource;
+use crate::analysis::scoring::scoreboard::ScoreSettings;
 use crate::core::agreement::CollapseMap;
 use crate::core::metric_table::{Metric, MetricKind};
 use crate::core::metrics::Unjudged;
@@ -132,29 +132,15 @@ fn ndcg_by_ranker(snapshot: &Snapshot, scale: usize) -> Vec<Vec<f64>> {
         unjudged: Unjudged::Condense,
         ..ScoreSettings::default()
     };
-    let list_settings = per_context::list_settings(snapshot, scale, &settings);
-    let judged = per_context::judgments(snapshot, scale, &settings, &GradeSource::Panel);
-    let ideal: Vec<Vec<f64>> = judged
-        .iter()
-        .map(|j| per_context::ideal_gains(j, &list_settings))
-        .collect();
-    let contexts: Vec<usize> = (0..snapshot.contexts.len())
-        .filter(|c| judged[*c].iter().any(|(_, l)| *l > 0))
-        .collect();
+    let judged = JudgedContexts::build(snapshot, scale, &settings, &GradeSource::Panel);
     let ndcg_at_10 = [Metric::at(MetricKind::Ndcg, 10)];
     snapshot
         .lists
         .iter()
         .map(|lists| {
-            per_context::ranker_values(
-                lists,
-                &judged,
-                &ideal,
-                &list_settings,
-                &ndcg_at_10,
-                &contexts,
-            )
-            .swap_remove(0)
+            judged
+                .ranker_values(lists, &ndcg_at_10, &judged.scored)
+                .swap_remove(0)
         })
         .collect()
 }
@@ -190,8 +176,8 @@ pub fn of_study(study: &crate::study::Study) -> Result<Trial, crate::study::Stud
     Ok(build(
         &snapshot,
         &maps,
-        super::defaults::TRIAL_BOOTSTRAP,
-        super::defaults::SEED,
+        crate::analysis::defaults::TRIAL_BOOTSTRAP,
+        crate::analysis::defaults::SEED,
     ))
 }
 

@@ -3,8 +3,8 @@
 
 use std::collections::HashSet;
 
-use super::agreement::{self, AgreementReport, ReviewerPair};
-use super::panel_review::{self, PanelReview};
+use crate::analysis::agreement::panel_review::{self, PanelReview};
+use crate::analysis::agreement::{self, AgreementReport, ReviewerPair};
 use crate::core::scale::Scale;
 use crate::study::{Study, StudyError};
 

@@ -10,10 +10,11 @@
 
 use serde::Serialize;
 
-use super::human_sample::{self, SampleStatus};
-use super::judgments::GradeSource;
-use super::per_context;
-use super::scoreboard::{Scoreboard, metric_keys};
+use crate::analysis::judged::JudgedContexts;
+use crate::analysis::judged::judgments::GradeSource;
+use crate::analysis::judged::per_context;
+use crate::analysis::scoring::human_sample::{self, SampleStatus};
+use crate::analysis::scoring::scoreboard::{Scoreboard, metric_keys};
 use crate::core::ppi::{self, HumansNeeded, PpiEstimate};
 use crate::study::sample::SampleDraw;
 use crate::study::snapshot::Snapshot;
@@ -206,40 +207,17 @@ fn values(
     machine: &str,
 ) -> Values {
     let settings = &board.settings;
-    let ls = per_context::list_settings(snapshot, scale, settings);
-    let people = per_context::judgments(snapshot, scale, settings, &settings.grades);
+    let people = JudgedContexts::build(snapshot, scale, settings, &settings.grades);
     let machine = GradeSource::Reviewer(machine.to_string());
-    let machine = per_context::judgments(snapshot, scale, settings, &machine);
-    let ideal = |judged: &crate::analysis::judgments::ContextJudgments| -> Vec<Vec<f64>> {
-        judged
-            .iter()
-            .map(|j| per_context::ideal_gains(j, &ls))
-            .collect()
-    };
-    let (people_ideal, machine_ideal) = (ideal(&people), ideal(&machine));
+    let machine = JudgedContexts::build(snapshot, scale, settings, &machine);
     let ks = &crate::core::metric_table::scored_metrics(&settings.ks);
     snapshot
         .lists
         .iter()
         .map(|lists| {
-            let y =
-                per_context::ranker_values(lists, &people, &people_ideal, &ls, ks, &sets.labelled);
-            let yl = per_context::ranker_values(
-                lists,
-                &machine,
-                &machine_ideal,
-                &ls,
-                ks,
-                &sets.labelled,
-            );
-            let yu = per_context::ranker_values(
-                lists,
-                &machine,
-                &machine_ideal,
-                &ls,
-                ks,
-                &sets.unlabelled,
-            );
+            let y = people.ranker_values(lists, ks, &sets.labelled);
+            let yl = machine.ranker_values(lists, ks, &sets.labelled);
+            let yu = machine.ranker_values(lists, ks, &sets.unlabelled);
             y.into_iter()
                 .zip(yl)
                 .zip(yu)

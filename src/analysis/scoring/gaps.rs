@@ -2,7 +2,7 @@
 //! most come first (see `core::gaps`). Shared by the Scoreboard's "judge the gaps" button
 //! and its tests.
 
-use super::judgments::{self, GradeSource};
+use crate::analysis::judged::judgments::{self, GradeSource};
 use crate::core::gaps::order_gaps;
 use crate::study::snapshot::Snapshot;
 

@@ -6,12 +6,12 @@ use std::fmt::Write;
 
 use plotters::prelude::*;
 
-use super::colours;
-use super::estimates::Estimates;
-use super::format::num;
-use super::report::ReportFiles;
-use super::report_pictures::{Picture, PictureError, Place};
-use super::scoreboard::Scoreboard;
+use crate::analysis::colours;
+use crate::analysis::format::num;
+use crate::analysis::output::report::ReportFiles;
+use crate::analysis::output::report_pictures::{Picture, PictureError, Place};
+use crate::analysis::scoring::estimates::Estimates;
+use crate::analysis::scoring::scoreboard::Scoreboard;
 
 const SIZE: (u32, u32) = (720, 420);
 const FONT: &str = "sans-serif";
@@ -80,7 +80,7 @@ fn section(est: &Estimates, metric: &str, picture: Option<&Picture>) -> String {
                 interval_text(row.human),
                 num(row.machine),
                 num(e.figures.lambda),
-                super::format::fixed(e.figures.effective_human_contexts, 1)
+                crate::analysis::format::fixed(e.figures.effective_human_contexts, 1)
             );
         }
         out.push('\n');
@@ -191,7 +191,7 @@ pub fn add_to(
     board: &Scoreboard,
     est: &Estimates,
 ) -> Result<(), PictureError> {
-    let focus = super::defaults::focus_k(&board.settings.ks);
+    let focus = crate::analysis::defaults::focus_k(&board.settings.ks);
     let metric = format!("ndcg@{focus}");
     let rows = rows(est, &metric);
     let picture = if rows.is_empty() {

@@ -5,7 +5,6 @@
 
 use std::collections::{BTreeMap, HashMap};
 
-use crate::analysis::judgments::lower_median;
 use crate::core::agreement::CollapseMap;
 use crate::core::settle_rules::spread;
 use crate::study::settle::{GradeDetail, SettleRecord};
@@ -146,7 +145,7 @@ pub fn build(
                 .filter(|o| o.reviewer != g.reviewer)
                 .filter_map(|o| o.value.map(map))
                 .collect();
-            if let Some(m) = lower_median(&mut others) {
+            if let Some(m) = snapshot.panel_rule.apply(&mut others) {
                 diff_sum[r].0 += v as i64 - m as i64;
                 diff_sum[r].1 += 1;
                 let day = g.graded_at.get(..10).unwrap_or(&g.graded_at).to_string();
@@ -293,7 +292,10 @@ fn disagreements(
             grades: list.iter().map(|g| (*g).clone()).collect(),
             rankers_in_top_k,
             best_rank,
-            panel_level: lower_median(&mut levels).expect("two levels at least"),
+            panel_level: snapshot
+                .panel_rule
+                .apply(&mut levels)
+                .expect("two levels at least"),
             settled: settled.get(&(*context_id, *item_id)).map(|s| (*s).clone()),
         });
     }
@@ -313,9 +315,9 @@ fn disagreements(
 }
 
 /// A reviewer's pace: grades per hour over the time recorded on the cards; `None` until
-/// it rests on [`super::defaults::PACE_MIN_GRADES`] timed grades (the desk shows it).
+/// it rests on [`crate::analysis::defaults::PACE_MIN_GRADES`] timed grades (the desk shows it).
 pub fn grades_per_hour(grades: u64, seconds: f64) -> Option<f64> {
-    (grades >= super::defaults::PACE_MIN_GRADES && seconds > 0.0)
+    (grades >= crate::analysis::defaults::PACE_MIN_GRADES && seconds > 0.0)
         .then(|| grades as f64 * 3600.0 / seconds)
 }
 

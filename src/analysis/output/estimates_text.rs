@@ -3,10 +3,10 @@
 
 use std::fmt::Write;
 
-use super::estimates::{EstimateFigures, Estimates};
-use super::format::{aligned, fixed};
-use super::scoreboard::Scoreboard;
-use super::scoreboard_view::{difference_text, with_interval};
+use crate::analysis::format::{aligned, fixed};
+use crate::analysis::scoring::estimates::{EstimateFigures, Estimates};
+use crate::analysis::scoring::scoreboard::Scoreboard;
+use crate::analysis::views::scoreboard_view::{difference_text, with_interval};
 
 fn needed_text(f: &EstimateFigures) -> String {
     match (f.humans_needed, &f.humans_needed_reason) {

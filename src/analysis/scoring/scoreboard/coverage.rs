@@ -1,9 +1,9 @@
 //! The scoreboard's cautions about coverage and lists: which rankers are judged too
 //! thinly, and which file rankers lack lists (typed values of `cautions::Caution`).
 
-use super::cautions::Caution;
-use super::defaults;
-use super::scoreboard::{RankerScores, ScoreSettings};
+use super::{RankerScores, ScoreSettings};
+use crate::analysis::cautions::Caution;
+use crate::analysis::defaults;
 use crate::core::metric_table::{Metric, MetricKind};
 use crate::study::snapshot::Snapshot;
 

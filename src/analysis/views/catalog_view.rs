@@ -3,7 +3,7 @@
 //! [`ContextLists`] is built once from a snapshot on a job thread; [`ContextLists::view`]
 //! then answers one (context, scale) choice with binary searches only.
 
-use super::judgments::{self, ContextJudgments, GradeSource, PanelRule};
+use crate::analysis::judged::judgments::{self, ContextJudgments, GradeSource, PanelRule};
 use crate::study::snapshot::{GradeRow, Snapshot};
 
 /// One reviewer's grade of a pair, as the view shows it.
@@ -124,9 +124,9 @@ pub struct ContextLists {
 
 impl ContextLists {
     /// Indexes the snapshot's lists and grades under the study's panel rule (the settled
-    /// grade where one exists, else the lower median of the reviewers' levels).
+    /// grade where one exists, else the study's `panel_rule` over the reviewers' levels).
     pub fn build(snapshot: Snapshot) -> ContextLists {
-        let rule = PanelRule::default();
+        let rule = snapshot.panel_rule;
         let panel = (0..snapshot.scales.len())
             .map(|s| judgments::resolve_with(&snapshot, s, &GradeSource::Panel, rule))
             .collect();

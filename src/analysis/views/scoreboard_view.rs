@@ -4,10 +4,10 @@
 
 use std::collections::BTreeMap;
 
-use super::agreement::{self, AgreementReport};
-use super::gaps::{GapPair, gap_pairs};
-use super::judgments::GradeSource;
-use super::scoreboard::{self, ScoreError, ScoreSettings, Scoreboard};
+use crate::analysis::agreement::{self, AgreementReport};
+use crate::analysis::judged::judgments::GradeSource;
+use crate::analysis::scoring::gaps::{GapPair, gap_pairs};
+use crate::analysis::scoring::scoreboard::{self, ScoreError, ScoreSettings, Scoreboard};
 use crate::core::metric_table::{self, Metric};
 use crate::core::stats::kendall_tau_b;
 use crate::study::snapshot::Snapshot;
@@ -241,6 +241,8 @@ pub const COMPARISON_COLUMNS: [(&str, &str); 8] = [
 /// Builds the model. Heavy (several scoreboards): the screen runs it on a job thread.
 pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<ScoreboardModel, ScoreError> {
     let mut settings = requested;
+    // The screen offers no panel rule of its own: it scores under the study's.
+    settings.panel_grade = snapshot.panel_rule;
     let board = scoreboard::build(snapshot, &settings)?;
     // The baseline as resolved by the one rule (`scoreboard::resolve_baseline`).
     settings.baseline = board.settings.baseline.clone();
@@ -374,7 +376,7 @@ pub fn with_interval(mean: f64, low: f64, high: f64) -> String {
     if !mean.is_finite() {
         return "–".into();
     }
-    let f = |x: f64| super::format::fixed(x, 3);
+    let f = |x: f64| crate::analysis::format::fixed(x, 3);
     format!("{} [{}, {}]", f(mean), f(low), f(high))
 }
 
@@ -432,11 +434,11 @@ pub fn summary_line(board: &Scoreboard) -> String {
 /// Whether a cell is a judged@k share below [`defaults::COVERAGE_CAUTION`] (drawn in
 /// the caution colour).
 pub fn is_low_coverage(key: &str, m: &scoreboard::MetricSummary) -> bool {
-    is_share(key) && m.mean < super::defaults::COVERAGE_CAUTION
+    is_share(key) && m.mean < crate::analysis::defaults::COVERAGE_CAUTION
 }
 
 /// The Scoreboard's coverage line: every ranker and cut-off whose judged@k is below
-/// [`super::defaults::COVERAGE_CAUTION`]; None when every one is above.
+/// [`crate::analysis::defaults::COVERAGE_CAUTION`]; None when every one is above.
 pub fn low_coverage_warning(board: &Scoreboard) -> Option<String> {
     let low: Vec<String> = board
         .rankers
@@ -444,11 +446,11 @@ pub fn low_coverage_warning(board: &Scoreboard) -> Option<String> {
         .flat_map(|r| {
             board.settings.ks.iter().filter_map(move |k| {
                 let j = r.metrics.get(&format!("judged@{k}"))?;
-                (j.mean < super::defaults::COVERAGE_CAUTION).then(|| {
+                (j.mean < crate::analysis::defaults::COVERAGE_CAUTION).then(|| {
                     format!(
                         "{} at k={k}: {}",
                         r.ranker,
-                        super::format::percent_spaced(j.mean)
+                        crate::analysis::format::percent_spaced(j.mean)
                     )
                 })
             })
@@ -457,7 +459,7 @@ pub fn low_coverage_warning(board: &Scoreboard) -> Option<String> {
     (!low.is_empty()).then(|| {
         format!(
             "Coverage warning: below {:.0} % of the top k judged for {}. Unjudged items pull scores toward 0 (or vanish when condensed); judge the gaps below.",
-            super::defaults::COVERAGE_CAUTION * 100.0,
+            crate::analysis::defaults::COVERAGE_CAUTION * 100.0,
             low.join("; ")
         )
     })
@@ -466,7 +468,7 @@ pub fn low_coverage_warning(board: &Scoreboard) -> Option<String> {
 /// A table cell: shares (judged@k) as a percentage, the rest as mean with interval.
 pub fn cell_text(key: &str, m: &scoreboard::MetricSummary) -> String {
     if is_share(key) {
-        super::format::percent_spaced(m.mean)
+        crate::analysis::format::percent_spaced(m.mean)
     } else {
         with_interval(m.mean, m.ci_low, m.ci_high)
     }

@@ -2,10 +2,10 @@
 
 use std::fmt::Write;
 
-use super::agreement::AgreementReport;
-use super::format::{aligned, num, p_value, percent};
-use super::scoreboard::Scoreboard;
-use super::trial::Trial;
+use crate::analysis::agreement::AgreementReport;
+use crate::analysis::format::{aligned, num, p_value, percent};
+use crate::analysis::scoring::scoreboard::Scoreboard;
+use crate::analysis::scoring::trial::Trial;
 
 /// Writes one CSV row with every text cell a spreadsheet would run as a formula
 /// neutralised (a ranker or context named `=2+3`); numbers are written as they are.
@@ -48,7 +48,11 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
     );
     out.push_str(&rankings_files_text(board));
     if board.contexts_scored == 0 {
-        let _ = writeln!(out, "{}\n", super::scoreboard::NOTHING_TO_SCORE);
+        let _ = writeln!(
+            out,
+            "{}\n",
+            crate::analysis::scoring::scoreboard::NOTHING_TO_SCORE
+        );
     }
     let k_main = crate::analysis::defaults::focus_k(&s.ks);
     let columns = crate::core::metric_table::table_columns(&s.ks, k_main, false);
@@ -66,7 +70,9 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
         for (key, metric) in keys.iter().zip(&columns) {
             row.push(match r.metrics.get(key) {
                 Some(m) if metric.spec().is_share => percent(m.mean),
-                Some(m) => super::scoreboard_view::with_interval(m.mean, m.ci_low, m.ci_high),
+                Some(m) => crate::analysis::views::scoreboard_view::with_interval(
+                    m.mean, m.ci_low, m.ci_high,
+                ),
                 None => "–".into(),
             });
         }
@@ -76,7 +82,7 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
     if !board.comparisons.is_empty() {
         out.push_str("\nPaired comparisons against the baseline (diff = candidate − baseline):\n");
         let mut rows = vec![
-            super::scoreboard_view::COMPARISON_COLUMNS
+            crate::analysis::views::scoreboard_view::COMPARISON_COLUMNS
                 .map(|(title, _)| title.to_string())
                 .to_vec(),
         ];
@@ -84,7 +90,9 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
             rows.push(vec![
                 format!("{} vs {}", c.ranker, c.baseline),
                 c.metric.clone(),
-                super::scoreboard_view::difference_text(c.diff, c.ci_low, c.ci_high),
+                crate::analysis::views::scoreboard_view::difference_text(
+                    c.diff, c.ci_low, c.ci_high,
+                ),
                 p_value(c.p_randomization),
                 p_value(c.p_t),
                 p_value(c.p_holm),
@@ -95,7 +103,7 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
         out.push_str(&aligned(&rows));
         out.push_str("Contexts needed: for 80 % power at two-sided α = 0.05, normal approximation with the observed mean and SD of the differences.\n");
     }
-    out.push_str(&super::pool_bias::table_text(board));
+    out.push_str(&super::pool_bias_text::table_text(board));
     out.push('\n');
     for c in board.cautions.words() {
         let _ = writeln!(out, "Caution: {c}");
@@ -277,7 +285,7 @@ pub fn agreement_text(report: &AgreementReport) -> String {
         num(report.ac1)
     );
     let _ = writeln!(out, "Bands: {}", report.band_source);
-    out.push_str(&super::reviewer_quality::text(report));
+    out.push_str(&super::quality_text::text(report));
     for c in report.cautions.words() {
         let _ = writeln!(out, "Caution: {c}");
     }

@@ -5,11 +5,11 @@
 use std::fmt::Write;
 use std::path::{Path, PathBuf};
 
-use super::agreement::AgreementReport;
-use super::format::{num, p_value};
-use super::report_pictures::{Picture, PictureError, Place};
-use super::scoreboard::{OFFLINE_CAUTION, Scoreboard};
-use super::scoreboard_view::CurvePoint;
+use crate::analysis::agreement::AgreementReport;
+use crate::analysis::format::{num, p_value};
+use crate::analysis::output::report_pictures::{Picture, PictureError, Place};
+use crate::analysis::scoring::scoreboard::{OFFLINE_CAUTION, Scoreboard};
+use crate::analysis::views::scoreboard_view::CurvePoint;
 use crate::core::metrics::GainKind;
 
 /// A table cell: pipes and line breaks would break the table.
@@ -112,7 +112,7 @@ fn settings_lines(board: &Scoreboard) -> Vec<(String, String)> {
 /// The metric columns of the report's ranker table: the metric table's columns, every
 /// cut-off of each metric cut at k.
 pub fn report_metric_keys(ks: &[usize]) -> Vec<String> {
-    let focus = super::defaults::focus_k(ks);
+    let focus = crate::analysis::defaults::focus_k(ks);
     crate::core::metric_table::table_columns(ks, focus, true)
         .into_iter()
         .map(crate::core::metric_table::Metric::key)
@@ -140,7 +140,8 @@ pub fn files(
         .file_stem()
         .map(|s| s.to_string_lossy().into_owned())
         .unwrap_or_else(|| "report".into());
-    let pictures = super::report_pictures::pictures(&stem, board, curves, agreement)?;
+    let pictures =
+        crate::analysis::output::report_pictures::pictures(&stem, board, curves, agreement)?;
     Ok(ReportFiles {
         markdown: markdown(board, agreement, &pictures),
         pictures,
@@ -218,7 +219,7 @@ pub fn markdown(
                 .chain(keys.iter().map(|key| match r.metrics.get(key) {
                     // A mean without data is a dash alone, never NaN or "– [–, –]".
                     Some(m) if !m.mean.is_finite() => "–".into(),
-                    Some(m) if super::scoreboard_view::is_share(key) => {
+                    Some(m) if crate::analysis::views::scoreboard_view::is_share(key) => {
                         format!("{:.0} %", m.mean * 100.0)
                     }
                     Some(m) => format!("{} [{}, {}]", num(m.mean), num(m.ci_low), num(m.ci_high)),
@@ -260,7 +261,9 @@ pub fn markdown(
                     c.ranker.clone(),
                     c.baseline.clone(),
                     c.metric.replace("ndcg", "NDCG"),
-                    super::scoreboard_view::difference_text(c.diff, c.ci_low, c.ci_high),
+                    crate::analysis::views::scoreboard_view::difference_text(
+                        c.diff, c.ci_low, c.ci_high,
+                    ),
                     p_value(c.p_randomization),
                     p_value(c.p_t),
                     p_value(c.p_holm),
@@ -280,13 +283,17 @@ pub fn markdown(
     if !board.pool_bias.is_empty() {
         out.push_str("## Is the pool fair to a newcomer?\n\n");
         out.push_str("Each ranker scored again as if the judged pairs only it found in its top k had never been judged (the leave-one-out test of Zobel 1998, SIGIR). A large drop warns that a ranker finding different items than the pooled ones is likely scored low; judge its gaps before trusting its score.\n\n");
-        let focus = super::defaults::focus_k(&board.settings.ks);
+        let focus = crate::analysis::defaults::focus_k(&board.settings.ks);
         for p in board
             .pool_bias
             .iter()
             .filter(|p| p.metric == format!("ndcg@{focus}"))
         {
-            let _ = writeln!(out, "- {}", super::pool_bias::in_words(p));
+            let _ = writeln!(
+                out,
+                "- {}",
+                crate::analysis::scoring::pool_bias::in_words(p)
+            );
         }
         out.push('\n');
     }

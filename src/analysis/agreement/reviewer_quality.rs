@@ -6,7 +6,7 @@ use std::collections::{BTreeMap, HashMap};
 
 use serde::Serialize;
 
-use super::judgments;
+use crate::analysis::judged::judgments;
 use crate::core::agreement::{self, Confusion, Weights};
 use crate::study::snapshot::{GradeRow, Snapshot, day_text};
 
@@ -151,10 +151,10 @@ pub fn reviewers(snapshot: &Snapshot, scale: usize) -> Vec<ReviewerQuality> {
         .collect()
 }
 
-/// The people's panel grade per pair of `scale`: the settled grade, else the lower
-/// median of the people's levels (machines never count here; `judgments::people_panel`).
+/// The people's panel grade per pair of `scale`: the settled grade, else the study's
+/// panel rule over the people's levels (machines never count here; `judgments::people_panel`).
 pub fn people_panel(snapshot: &Snapshot, scale: usize) -> HashMap<(u32, u32), u8> {
-    judgments::people_panel(snapshot, scale, judgments::PanelRule::default())
+    judgments::people_panel(snapshot, scale, snapshot.panel_rule)
         .into_iter()
         .enumerate()
         .flat_map(|(c, pairs)| {
@@ -250,95 +250,4 @@ fn compare(levels: usize, pairs: impl Iterator<Item = (u8, u8)>) -> Figures {
             .map(|i| (0..levels).map(|j| confusion.get(i, j)).collect())
             .collect(),
     }
-}
-
-/// Gold accuracy per reviewer and each machine judge against the people's panel grade.
-pub(super) fn text(report: &super::agreement::AgreementReport) -> String {
-    use super::format::{aligned, num};
-    use std::fmt::Write;
-    let mut out = String::new();
-    if report
-        .reviewers
-        .iter()
-        .any(|r| r.gold_n + r.gold_cant_judge > 0)
-    {
-        out.push_str("\nGold pairs (known levels):\n");
-        let mut rows = vec![
-            [
-                "reviewer",
-                "kind",
-                "grades",
-                "gold graded",
-                "exactly right",
-                "within one",
-                "can't judge",
-                "by day (exactly right)",
-            ]
-            .map(String::from)
-            .to_vec(),
-        ];
-        let share = |x: Option<f64>| x.map_or("–".into(), |v| format!("{:.0}%", v * 100.0));
-        for r in &report.reviewers {
-            rows.push(vec![
-                r.reviewer.clone(),
-                r.kind.to_string(),
-                r.grades.to_string(),
-                r.gold_n.to_string(),
-                share(r.gold_exact),
-                share(r.gold_within_one),
-                r.gold_cant_judge.to_string(),
-                r.gold_by_day
-                    .iter()
-                    .map(|d| format!("{} {:.0}% of {}", d.day, d.exact * 100.0, d.n))
-                    .collect::<Vec<_>>()
-                    .join(", "),
-            ]);
-        }
-        out.push_str(&aligned(&rows));
-    }
-    if !report.machines.is_empty() {
-        out.push_str(
-            "\nMachine judges against the people's panel grade (settled, else lower median):\n",
-        );
-        let mut rows = vec![
-            [
-                "judge",
-                "n",
-                "kappa",
-                "quadratic",
-                "AC1",
-                "exactly equal",
-                "new",
-                "established",
-                "query",
-                "anchor",
-            ]
-            .map(String::from)
-            .to_vec(),
-        ];
-        for m in &report.machines {
-            let mut row = vec![
-                m.reviewer.clone(),
-                m.n.to_string(),
-                num(m.kappa),
-                num(m.kappa_quadratic),
-                num(m.ac1),
-                if m.exact.is_finite() {
-                    format!("{:.0}%", m.exact * 100.0)
-                } else {
-                    "–".into()
-                },
-            ];
-            for s in &m.by_segment {
-                row.push(match s.kappa {
-                    Some(k) => format!("κ {} (n {})", num(k), s.n),
-                    None => format!("– (n {})", s.n),
-                });
-            }
-            rows.push(row);
-        }
-        out.push_str(&aligned(&rows));
-        let _ = writeln!(out, "Caution: {}", MACHINE_CAUTION);
-    }
-    out
 }

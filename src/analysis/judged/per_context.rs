@@ -2,8 +2,9 @@
 //! scoreboard (`scoreboard::build`) and the estimates from a machine judge
 //! (`estimates::build`): the same judgments, segment, gains, cut-offs and unjudged rule.
 
-use super::judgments::{self, ContextJudgments, GradeSource};
-use super::scoreboard::{ScoreSettings, Segment};
+use super::segment::Segment;
+use super::settings::ScoreSettings;
+use crate::analysis::judged::judgments::{self, ContextJudgments, GradeSource};
 use crate::core::metric_table::{self, Metric};
 use crate::core::metrics::{self, JudgedList, ListSettings};
 use crate::study::snapshot::Snapshot;

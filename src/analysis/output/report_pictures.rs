@@ -6,10 +6,10 @@
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
-use super::agreement::AgreementReport;
-use super::colours;
-use super::scoreboard::Scoreboard;
-use super::scoreboard_view::{self, CurvePoint};
+use crate::analysis::agreement::AgreementReport;
+use crate::analysis::colours;
+use crate::analysis::scoring::scoreboard::Scoreboard;
+use crate::analysis::views::scoreboard_view::{self, CurvePoint};
 
 /// Where a picture belongs in the report.
 #[derive(Debug, Clone, PartialEq)]
@@ -268,7 +268,7 @@ type HeatChart<'a, 'b> = ChartContext<
 fn heat_cell(
     chart: &mut HeatChart,
     (x, y): (f64, f64),
-    pair: Option<&super::agreement::ReviewerPair>,
+    pair: Option<&crate::analysis::agreement::ReviewerPair>,
 ) -> Result<(), String> {
     let e = |e: DrawingAreaErrorKind<_>| e.to_string();
     let centred = TextStyle::from((FONT, 13).into_font()).pos(Pos::new(HPos::Center, VPos::Center));
@@ -427,7 +427,7 @@ fn agreement_svg(file_name: &str, report: &AgreementReport) -> Result<String, Pi
                 .map_err(e)?;
         }
         let (gx, gy) = chart.backend_coord(&(n, n));
-        let min_shared = super::defaults::kappa_min_shared(report.levels);
+        let min_shared = crate::analysis::defaults::kappa_min_shared(report.levels);
         heat_legend(root, (gx + 24, gy), min_shared, report.levels)
     })
 }
@@ -454,7 +454,7 @@ pub fn pictures(
             file_name,
         });
     }
-    let focus = super::defaults::focus_k(&board.settings.ks);
+    let focus = crate::analysis::defaults::focus_k(&board.settings.ks);
     let key = format!("ndcg@{focus}");
     let baseline = board.settings.baseline.clone().unwrap_or_default();
     for (n, ranker) in board.rankers.iter().enumerate() {

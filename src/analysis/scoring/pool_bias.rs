@@ -10,7 +10,7 @@ use std::collections::HashSet;
 
 use serde::Serialize;
 
-use super::judgments::{self, ContextJudgments};
+use crate::analysis::judged::judgments::{self, ContextJudgments};
 use crate::core::metric_table::{self, Metric, MetricKind};
 use crate::core::metrics::{JudgedList, ListSettings};
 use crate::core::stats;
@@ -102,7 +102,8 @@ pub(super) fn compute(s: &Scored) -> Vec<PoolBias> {
                         .iter()
                         .filter(|(item, _)| !unique.contains(item)),
                 );
-                let ideal = super::per_context::ideal_gains(&kept_pairs, s.list_settings);
+                let ideal =
+                    crate::analysis::judged::per_context::ideal_gains(&kept_pairs, s.list_settings);
                 let has_relevant = s.judged[c]
                     .iter()
                     .any(|(item, level)| *level > 0 && !unique.contains(item));
@@ -163,7 +164,7 @@ pub(super) fn compute(s: &Scored) -> Vec<PoolBias> {
 /// Cautions for rankers from files whose judged@k falls below the lowest judged@k any
 /// pooled ranker keeps with its own pairs left out: the pool knows less of their top k
 /// than it would of a pooled ranker's, so their scores are likely biased low.
-pub(super) fn cautions(rows: &[PoolBias]) -> Vec<super::cautions::Caution> {
+pub(super) fn cautions(rows: &[PoolBias]) -> Vec<crate::analysis::cautions::Caution> {
     let mut out = Vec::new();
     let metrics: Vec<&str> = {
         let mut m: Vec<&str> = rows.iter().map(|r| r.metric.as_str()).collect();
@@ -185,7 +186,7 @@ pub(super) fn cautions(rows: &[PoolBias]) -> Vec<super::cautions::Caution> {
             .filter(|r| r.metric == metric && r.from_file.is_some())
         {
             if row.judged < floor - 1e-12 {
-                out.push(super::cautions::Caution::PoolBiasLow {
+                out.push(crate::analysis::cautions::Caution::PoolBiasLow {
                     ranker: row.ranker.clone(),
                     file: row.from_file.clone().unwrap_or_default(),
                     k,
@@ -228,50 +229,4 @@ pub fn in_words(row: &PoolBias) -> String {
             row.metric
         ),
     }
-}
-
-/// The pool-bias table and its reading in words.
-pub(super) fn table_text(board: &super::scoreboard::Scoreboard) -> String {
-    use super::format::{aligned, num, percent};
-    let mut out = String::new();
-    if board.pool_bias.is_empty() {
-        return out;
-    }
-    out.push_str("\nPool bias (leave-one-out, Zobel 1998): each ranker scored again without the judged pairs only it found in its top k:\n");
-    let mut rows = vec![
-        [
-            "ranker",
-            "metric",
-            "as scored",
-            "without own pairs",
-            "drop",
-            "contexts",
-            "own pairs",
-            "judged",
-            "judged without",
-            "Kendall tau-b",
-        ]
-        .map(String::from)
-        .to_vec(),
-    ];
-    for p in &board.pool_bias {
-        rows.push(vec![
-            match &p.from_file {
-                Some(file) => format!("{} ({file})", p.ranker),
-                None => p.ranker.clone(),
-            },
-            p.metric.clone(),
-            num(p.mean),
-            p.mean_left_out.map_or("–".into(), num),
-            p.drop.map_or("–".into(), |d| format!("{d:+.3}")),
-            p.contexts.to_string(),
-            p.unique_pairs.to_string(),
-            percent(p.judged),
-            percent(p.judged_left_out),
-            p.kendall_tau_b.map_or("–".into(), |t| format!("{t:.3}")),
-        ]);
-    }
-    out.push_str(&aligned(&rows));
-    out.push_str("Kendall tau-b compares the ranker order by mean NDCG@k with the order when only this ranker loses its own pairs (1 = unchanged).\n");
-    out
 }

@@ -5,74 +5,21 @@ use std::collections::BTreeMap;
 
 use serde::Serialize;
 
-use super::cautions::{Caution, Cautions};
-use super::defaults;
-use super::judgments::{self, ContextJudgments, GradeSource};
-use super::per_context;
-use super::pool_bias::{self, PoolBias};
-use super::scoreboard_cautions;
-pub use super::segment::Segment;
+use crate::analysis::cautions::{Caution, Cautions};
+use crate::analysis::defaults;
+use crate::analysis::judged::JudgedContexts;
+use crate::analysis::judged::judgments::GradeSource;
+use crate::analysis::scoring::pool_bias::{self, PoolBias};
+
+mod coverage;
+
+pub use crate::analysis::judged::segment::Segment;
+pub use crate::analysis::judged::settings::ScoreSettings;
 use crate::core::metric_table::{self, Metric, MetricKind};
-use crate::core::metrics::{GainKind, ListSettings, Unjudged};
+use crate::core::metrics::GainKind;
 use crate::core::stats;
 use crate::study::outside_lists::FileLists;
 use crate::study::snapshot::Snapshot;
-
-/// Everything that decides the numbers; printed beside them in every export.
-#[derive(Debug, Clone, PartialEq, Serialize, serde::Deserialize)]
-pub struct ScoreSettings {
-    /// Name of the scale to score; None = the scale with the most grades.
-    pub scale: Option<String>,
-    /// Cut-offs k to score at, each at least 1 (default [`defaults::CUTOFFS`]).
-    pub ks: Vec<usize>,
-    /// Gain rule for levels the scale gives no gain of its own.
-    pub gain: GainKind,
-    /// Whose grades are scored: the panel's or one reviewer's.
-    pub grades: GradeSource,
-    /// Whether unjudged items in a list count as gain 0 or are dropped before cutting at k.
-    pub unjudged: Unjudged,
-    /// Ranker the others are compared against. As asked for when building; in a built
-    /// scoreboard, the baseline actually used (see [`resolve_baseline`]).
-    pub baseline: Option<String>,
-    /// Which items carry gain and which contexts count.
-    pub segment: Segment,
-    /// How an unsettled pair's panel levels become one level.
-    pub panel_grade: judgments::PanelRule,
-    /// Level from which an item is relevant for precision and RR.
-    pub relevant_from: u8,
-    /// RBP's persistence p (Moffat & Zobel 2008), strictly between 0 and 1 (default
-    /// [`defaults::RBP_PERSISTENCE`]).
-    #[serde(default = "defaults::rbp_persistence")]
-    pub persistence: f64,
-    /// Bootstrap resamples of contexts behind every interval (default
-    /// [`defaults::SCORE_BOOTSTRAP`]).
-    pub bootstrap_resamples: usize,
-    /// Random sign flips behind each randomization p-value when there are too many
-    /// non-zero differences for the exact test (default [`defaults::SCORE_RANDOMIZATION`]).
-    pub randomization_resamples: usize,
-    /// Base seed of every resampling; each purpose derives its own seed from it.
-    pub seed: u64,
-}
-
-impl Default for ScoreSettings {
-    fn default() -> Self {
-        ScoreSettings {
-            scale: None,
-            ks: defaults::CUTOFFS.to_vec(),
-            gain: GainKind::Exponential,
-            grades: GradeSource::Panel,
-            unjudged: Unjudged::Zero,
-            baseline: None,
-            segment: Segment::All,
-            panel_grade: judgments::PanelRule::LowerMedian,
-            relevant_from: 1,
-            persistence: defaults::RBP_PERSISTENCE,
-            bootstrap_resamples: defaults::SCORE_BOOTSTRAP,
-            randomization_resamples: defaults::SCORE_RANDOMIZATION,
-            seed: defaults::SEED,
-        }
-    }
-}
 
 /// One metric of one ranker over the scored contexts.
 #[derive(Debug, Clone, Serialize)]
@@ -210,10 +157,10 @@ pub fn metric_keys(ks: &[usize]) -> Vec<String> {
 }
 
 /// Why every figure is "–" when no context can be scored.
-pub const NOTHING_TO_SCORE: &str = super::cautions::NOTHING_TO_SCORE_WORDS;
+pub const NOTHING_TO_SCORE: &str = crate::analysis::cautions::NOTHING_TO_SCORE_WORDS;
 
 /// Standard caution printed with every comparison.
-pub const OFFLINE_CAUTION: &str = super::cautions::OFFLINE_WORDS;
+pub const OFFLINE_CAUTION: &str = crate::analysis::cautions::OFFLINE_WORDS;
 
 /// Why the scoreboard could not be built.
 #[derive(Debug, thiserror::Error)]
@@ -263,48 +210,6 @@ fn checked_scale(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<usize,
             .ok_or_else(|| ScoreError::UnknownScale(name.clone())),
         None => snapshot.busiest_scale().ok_or(ScoreError::NoScale),
     }
-}
-
-/// Which contexts are scored, the ideal gains of each, and why the others are not.
-struct ContextSplit {
-    scored: Vec<usize>,
-    /// Per context: its ideal gains (empty for a context not scored).
-    ideal: Vec<Vec<f64>>,
-    without_relevant: usize,
-    without_grades: usize,
-}
-
-/// Splits the contexts of the segment: with no list and no grade (ignored), graded on
-/// no pair (counted), with no relevant item (counted), or scored.
-fn split_contexts(
-    snapshot: &Snapshot,
-    settings: &ScoreSettings,
-    judged: &ContextJudgments,
-    list_settings: &ListSettings,
-) -> ContextSplit {
-    let mut split = ContextSplit {
-        scored: Vec::new(),
-        ideal: vec![Vec::new(); snapshot.contexts.len()],
-        without_relevant: 0,
-        without_grades: 0,
-    };
-    for c in 0..snapshot.contexts.len() {
-        if !per_context::context_included(snapshot, &settings.segment, c) {
-            continue;
-        }
-        let has_any_list = snapshot.lists.iter().any(|l| !l[c].is_empty());
-        if judged[c].is_empty() {
-            split.without_grades += usize::from(has_any_list);
-            continue;
-        }
-        if !judged[c].iter().any(|(_, level)| *level > 0) {
-            split.without_relevant += 1;
-            continue;
-        }
-        split.ideal[c] = per_context::ideal_gains(&judged[c], list_settings);
-        split.scored.push(c);
-    }
-    split
 }
 
 /// What every comparison and interval is computed from: per ranker `[metric][context]`
@@ -438,25 +343,13 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
     let scale_index = checked_scale(snapshot, settings)?;
     let (baseline, baseline_note) = resolve_baseline(snapshot, settings.baseline.as_deref())?;
     let scale = &snapshot.scales[scale_index];
-    let list_settings = per_context::list_settings(snapshot, scale_index, settings);
-    let judged = per_context::judgments(snapshot, scale_index, settings, &settings.grades);
-    let split = split_contexts(snapshot, settings, &judged, &list_settings);
+    let judged = JudgedContexts::build(snapshot, scale_index, settings, &settings.grades);
     let metrics = metric_table::scored_metrics(&settings.ks);
     let keys: Vec<String> = metrics.iter().map(|m| m.key()).collect();
     let values = snapshot
         .lists
         .iter()
-        .map(|lists| {
-            let ideal = &split.ideal;
-            per_context::ranker_values(
-                lists,
-                &judged,
-                ideal,
-                &list_settings,
-                &metrics,
-                &split.scored,
-            )
-        })
+        .map(|lists| judged.ranker_values(lists, &metrics, &judged.scored))
         .collect();
     let paired = paired(values, &metrics, baseline);
     // One bootstrap over contexts serves every ranker, metric and paired difference.
@@ -477,13 +370,13 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         .chunks(keys.len().max(1))
         .zip(&paired.values)
         .enumerate()
-        .map(|(r, (cis, v))| ranker_scores(snapshot, r, &keys, cis, v, &split.scored))
+        .map(|(r, (cis, v))| ranker_scores(snapshot, r, &keys, cis, v, &judged.scored))
         .collect();
     let pool_bias = pool_bias::compute(&pool_bias::Scored {
         snapshot,
-        judged: &judged,
-        scored_contexts: &split.scored,
-        list_settings: &list_settings,
+        judged: &judged.judged,
+        scored_contexts: &judged.scored,
+        list_settings: &judged.list_settings,
         means: means_at(&rankers, &settings.ks, MetricKind::Ndcg),
         judged_means: means_at(&rankers, &settings.ks, MetricKind::Judged),
         ks: &settings.ks,
@@ -499,29 +392,29 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
     apply_holm(&mut comparisons);
     let mut cautions = vec![Caution::OfflineOnly];
     cautions.extend(baseline_note);
-    match split.scored.len() {
+    match judged.scored.len() {
         0 => cautions.push(Caution::NothingToScore),
         n if n < defaults::FEW_CONTEXTS => cautions.push(Caution::FewContexts { scored: n }),
         _ => {}
     }
-    cautions.extend(scoreboard_cautions::low_coverage(
+    cautions.extend(coverage::low_coverage(
         snapshot,
         &rankers,
-        &split.scored,
+        &judged.scored,
         settings,
     ));
-    cautions.extend(scoreboard_cautions::missing_lists(snapshot, &split.scored));
+    cautions.extend(coverage::missing_lists(snapshot, &judged.scored));
     cautions.extend(pool_bias::cautions(&pool_bias));
     let mut settings = settings.clone();
     settings.baseline = baseline_name.map(str::to_string);
     Ok(Scoreboard {
-        gains_used: describe_gains(&scale.gains(), &list_settings.gains, settings.gain),
+        gains_used: describe_gains(&scale.gains(), &judged.list_settings.gains, settings.gain),
         study: snapshot.name.clone(),
         scale: scale.name.clone(),
         settings,
-        contexts_scored: split.scored.len(),
-        contexts_without_relevant: split.without_relevant,
-        contexts_without_grades: split.without_grades,
+        contexts_scored: judged.scored.len(),
+        contexts_without_relevant: judged.without_relevant,
+        contexts_without_grades: judged.without_grades,
         rankers,
         comparisons,
         pool_bias,

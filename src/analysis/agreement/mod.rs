@@ -209,46 +209,14 @@ pub fn build(
         for b in (a + 1)..table.reviewers.len() {
             let col_a: Vec<Option<u8>> = units.iter().map(|u| u[a]).collect();
             let col_b: Vec<Option<u8>> = units.iter().map(|u| u[b]).collect();
-            let confusion = Confusion::from_pairs(levels, &col_a, &col_b);
-            let n = confusion.total();
-            if n == 0 {
-                continue;
+            let names = (
+                snapshot.reviewers[table.reviewers[a] as usize].as_str(),
+                snapshot.reviewers[table.reviewers[b] as usize].as_str(),
+            );
+            // Reviewers who share no graded pair have no kappa: the pair is omitted.
+            if let Some(pair) = reviewer_pair(names, levels, &col_a, &col_b) {
+                pairs.push(pair);
             }
-            let kappa = agreement::cohen_kappa(&confusion, Weights::Unweighted);
-            let se = agreement::cohen_kappa_se(&confusion);
-            let (po, pe) = agreement::agreement_proportions(&confusion);
-            let both: Vec<Vec<Option<u8>>> = col_a
-                .iter()
-                .zip(&col_b)
-                .filter(|(x, y)| x.is_some() && y.is_some())
-                .map(|(x, y)| vec![*x, *y])
-                .collect();
-            let thin = n < crate::analysis::defaults::kappa_min_shared(levels);
-            pairs.push(ReviewerPair {
-                reviewer_a: snapshot.reviewers[table.reviewers[a] as usize].clone(),
-                reviewer_b: snapshot.reviewers[table.reviewers[b] as usize].clone(),
-                n,
-                kappa,
-                kappa_se: se,
-                // Clamp keeps a NaN kappa NaN; the interval never leaves [−1, 1].
-                kappa_ci_low: (kappa - Z_975 * se).clamp(-1.0, 1.0),
-                kappa_ci_high: (kappa + Z_975 * se).clamp(-1.0, 1.0),
-                kappa_linear: agreement::cohen_kappa(&confusion, Weights::Linear),
-                kappa_quadratic: agreement::cohen_kappa(&confusion, Weights::Quadratic),
-                ac1: agreement::gwet_ac1(levels, &both),
-                observed_agreement: po,
-                chance_agreement: pe,
-                band: if thin {
-                    TOO_FEW
-                } else {
-                    agreement::landis_koch_band(kappa)
-                },
-                thin,
-                prevalence: agreement::prevalence_bias(&confusion),
-                confusion: (0..levels)
-                    .map(|i| (0..levels).map(|j| confusion.get(i, j)).collect())
-                    .collect(),
-            });
         }
     }
     let (fleiss_kappa, fleiss_n, fleiss_grades_per_pair) =
@@ -260,34 +228,7 @@ pub fn build(
         .count();
     let (ci_low, ci_high) =
         agreement::krippendorff_alpha_ci(levels, &units, AlphaLevel::Ordinal, resamples, seed);
-    let mut cautions = Vec::new();
-    let mut level_counts = vec![0usize; levels];
-    for v in units.iter().flatten().flatten() {
-        level_counts[*v as usize] += 1;
-    }
-    let total: usize = level_counts.iter().sum();
-    if let Some((level, count)) = level_counts.iter().enumerate().max_by_key(|(_, c)| **c)
-        && total > 0
-        && *count as f64 / total as f64 >= DOMINANT_SHARE_CAUTION
-    {
-        cautions.push(Caution::DominantLevel {
-            level,
-            share: *count as f64 / total as f64,
-        });
-    }
-    let min_shared = crate::analysis::defaults::kappa_min_shared(levels);
-    for p in pairs.iter().filter(|p| p.thin) {
-        cautions.push(Caution::ThinKappa {
-            reviewer_a: p.reviewer_a.clone(),
-            reviewer_b: p.reviewer_b.clone(),
-            shared: p.n,
-            needed: min_shared,
-            levels,
-        });
-    }
-    if alpha_n < 50 {
-        cautions.push(Caution::FewAgreementUnits { units: alpha_n });
-    }
+    let cautions = agreement_cautions(levels, &units, &pairs, alpha_n);
     AgreementReport {
         study: snapshot.name.clone(),
         scale: snapshot.scales[scale].name.clone(),
@@ -318,4 +259,92 @@ pub fn build(
         band_source: LANDIS_KOCH,
         cautions: Cautions(cautions),
     }
+}
+
+/// Cohen's kappa with its interval, the weighted kappas and AC1 of two reviewers' columns;
+/// None when they share no graded pair.
+fn reviewer_pair(
+    names: (&str, &str),
+    levels: usize,
+    col_a: &[Option<u8>],
+    col_b: &[Option<u8>],
+) -> Option<ReviewerPair> {
+    let confusion = Confusion::from_pairs(levels, col_a, col_b);
+    let n = confusion.total();
+    if n == 0 {
+        return None;
+    }
+    let kappa = agreement::cohen_kappa(&confusion, Weights::Unweighted);
+    let se = agreement::cohen_kappa_se(&confusion);
+    let (po, pe) = agreement::agreement_proportions(&confusion);
+    let both: Vec<Vec<Option<u8>>> = col_a
+        .iter()
+        .zip(col_b)
+        .filter(|(x, y)| x.is_some() && y.is_some())
+        .map(|(x, y)| vec![*x, *y])
+        .collect();
+    let thin = n < crate::analysis::defaults::kappa_min_shared(levels);
+    Some(ReviewerPair {
+        reviewer_a: names.0.to_string(),
+        reviewer_b: names.1.to_string(),
+        n,
+        kappa,
+        kappa_se: se,
+        // Clamp keeps a NaN kappa NaN; the interval never leaves [−1, 1].
+        kappa_ci_low: (kappa - Z_975 * se).clamp(-1.0, 1.0),
+        kappa_ci_high: (kappa + Z_975 * se).clamp(-1.0, 1.0),
+        kappa_linear: agreement::cohen_kappa(&confusion, Weights::Linear),
+        kappa_quadratic: agreement::cohen_kappa(&confusion, Weights::Quadratic),
+        ac1: agreement::gwet_ac1(levels, &both),
+        observed_agreement: po,
+        chance_agreement: pe,
+        band: if thin {
+            TOO_FEW
+        } else {
+            agreement::landis_koch_band(kappa)
+        },
+        thin,
+        prevalence: agreement::prevalence_bias(&confusion),
+        confusion: (0..levels)
+            .map(|i| (0..levels).map(|j| confusion.get(i, j)).collect())
+            .collect(),
+    })
+}
+
+/// A dominant level, thin reviewer pairs and few units, each with its figures.
+fn agreement_cautions(
+    levels: usize,
+    units: &[Vec<Option<u8>>],
+    pairs: &[ReviewerPair],
+    alpha_n: usize,
+) -> Vec<Caution> {
+    let mut cautions = Vec::new();
+    let mut level_counts = vec![0usize; levels];
+    for v in units.iter().flatten().flatten() {
+        level_counts[*v as usize] += 1;
+    }
+    let total: usize = level_counts.iter().sum();
+    if let Some((level, count)) = level_counts.iter().enumerate().max_by_key(|(_, c)| **c)
+        && total > 0
+        && *count as f64 / total as f64 >= DOMINANT_SHARE_CAUTION
+    {
+        cautions.push(Caution::DominantLevel {
+            level,
+            share: *count as f64 / total as f64,
+        });
+    }
+    let min_shared = crate::analysis::defaults::kappa_min_shared(levels);
+    for p in pairs.iter().filter(|p| p.thin) {
+        cautions.push(Caution::ThinKappa {
+            reviewer_a: p.reviewer_a.clone(),
+            reviewer_b: p.reviewer_b.clone(),
+            shared: p.n,
+            needed: min_shared,
+            levels,
+        });
+    }
+    if alpha_n < 50 {
+        cautions.push(Caution::FewAgreementUnits { units: alpha_n });
+    }
+    cautions
 }

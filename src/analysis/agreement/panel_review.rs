@@ -130,70 +130,125 @@ pub fn build(
     reviewers.sort_unstable();
     reviewers.dedup();
 
-    let mut counts = vec![vec![0usize; levels]; reviewers.len()];
-    let mut diff_sum = vec![(0i64, 0usize); reviewers.len()];
-    let mut drift: BTreeMap<(usize, String), (usize, usize)> = BTreeMap::new();
-    for list in by_pair.values() {
-        for g in list {
-            let Some(v) = g.value.map(map) else { continue };
-            let r = reviewers
-                .binary_search(&g.reviewer.as_str())
-                .expect("listed");
-            counts[r][v as usize] += 1;
-            let mut others: Vec<u8> = list
-                .iter()
-                .filter(|o| o.reviewer != g.reviewer)
-                .filter_map(|o| o.value.map(map))
-                .collect();
-            if let Some(m) = snapshot.panel_rule.apply(&mut others) {
-                diff_sum[r].0 += v as i64 - m as i64;
-                diff_sum[r].1 += 1;
-                let day = g.graded_at.get(..10).unwrap_or(&g.graded_at).to_string();
-                let cell = drift.entry((r, day)).or_default();
-                cell.0 += (v == m) as usize;
-                cell.1 += 1;
+    let tally = Tally::of(snapshot, &by_pair, &reviewers, levels, &map);
+    let (panel_shares, strictness) = strictness(&reviewers, &tally);
+    let gold_rows = gold_accuracy(&reviewers, grades, gold, &map);
+    let (days, drift) = drift_rows(&reviewers, tally.drift);
+    PanelReview {
+        levels,
+        panel_shares,
+        strictness,
+        gold_pairs: gold.len(),
+        gold: gold_rows,
+        days,
+        drift,
+        top_k,
+        disagreements: disagreements(snapshot, &by_pair, settled, top_k),
+    }
+}
+
+/// Per reviewer: grades per level, the summed difference from the others' panel grade,
+/// and per (reviewer, day) the grades equal to it.
+struct Tally {
+    counts: Vec<Vec<usize>>,
+    diff_sum: Vec<(i64, usize)>,
+    drift: BTreeMap<(usize, String), (usize, usize)>,
+}
+
+impl Tally {
+    /// Compares every grade with the others' panel grade on the same pair (the study's
+    /// panel rule over the other reviewers' levels).
+    fn of(
+        snapshot: &Snapshot,
+        by_pair: &BTreeMap<(&str, &str), Vec<&GradeDetail>>,
+        reviewers: &[&str],
+        levels: usize,
+        map: &dyn Fn(u8) -> u8,
+    ) -> Tally {
+        let mut tally = Tally {
+            counts: vec![vec![0usize; levels]; reviewers.len()],
+            diff_sum: vec![(0i64, 0usize); reviewers.len()],
+            drift: BTreeMap::new(),
+        };
+        for list in by_pair.values() {
+            for g in list {
+                let Some(v) = g.value.map(map) else { continue };
+                let r = reviewers
+                    .binary_search(&g.reviewer.as_str())
+                    .expect("listed");
+                tally.counts[r][v as usize] += 1;
+                let mut others: Vec<u8> = list
+                    .iter()
+                    .filter(|o| o.reviewer != g.reviewer)
+                    .filter_map(|o| o.value.map(map))
+                    .collect();
+                if let Some(m) = snapshot.panel_rule.apply(&mut others) {
+                    tally.diff_sum[r].0 += v as i64 - m as i64;
+                    tally.diff_sum[r].1 += 1;
+                    let day = g.graded_at.get(..10).unwrap_or(&g.graded_at).to_string();
+                    let cell = tally.drift.entry((r, day)).or_default();
+                    cell.0 += (v == m) as usize;
+                    cell.1 += 1;
+                }
             }
         }
+        tally
     }
-    let share = |c: &[usize]| {
-        let total: usize = c.iter().sum();
-        c.iter()
-            .map(|x| {
-                if total == 0 {
-                    0.0
-                } else {
-                    *x as f64 / total as f64
-                }
-            })
-            .collect::<Vec<f64>>()
-    };
+}
+
+/// Shares of each count of `c` (all 0 when `c` sums to 0).
+fn shares(c: &[usize]) -> Vec<f64> {
+    let total: usize = c.iter().sum();
+    c.iter()
+        .map(|x| {
+            if total == 0 {
+                0.0
+            } else {
+                *x as f64 / total as f64
+            }
+        })
+        .collect()
+}
+
+/// The panel's level shares and each reviewer's shares and mean difference.
+fn strictness(reviewers: &[&str], tally: &Tally) -> (Vec<f64>, Vec<Strictness>) {
+    let levels = tally.counts.first().map_or(0, Vec::len);
     let mut panel_counts = vec![0usize; levels];
-    for c in &counts {
+    for c in &tally.counts {
         for (l, x) in c.iter().enumerate() {
             panel_counts[l] += x;
         }
     }
-    let strictness = reviewers
+    let rows = reviewers
         .iter()
         .enumerate()
         .map(|(r, name)| Strictness {
             reviewer: name.to_string(),
-            shares: share(&counts[r]),
-            graded: counts[r].iter().sum(),
-            mean_difference: if diff_sum[r].1 == 0 {
+            shares: shares(&tally.counts[r]),
+            graded: tally.counts[r].iter().sum(),
+            mean_difference: if tally.diff_sum[r].1 == 0 {
                 f64::NAN
             } else {
-                diff_sum[r].0 as f64 / diff_sum[r].1 as f64
+                tally.diff_sum[r].0 as f64 / tally.diff_sum[r].1 as f64
             },
-            compared: diff_sum[r].1,
+            compared: tally.diff_sum[r].1,
         })
         .collect();
+    (shares(&panel_counts), rows)
+}
 
+/// Each reviewer's accuracy on the gold pairs they graded.
+fn gold_accuracy(
+    reviewers: &[&str],
+    grades: &[GradeDetail],
+    gold: &[(String, String, u8)],
+    map: &dyn Fn(u8) -> u8,
+) -> Vec<GoldAccuracy> {
     let gold_level: HashMap<(&str, &str), u8> = gold
         .iter()
         .map(|(c, i, v)| ((c.as_str(), i.as_str()), *v))
         .collect();
-    let gold_rows = reviewers
+    reviewers
         .iter()
         .map(|name| {
             let mut acc = GoldAccuracy {
@@ -213,8 +268,14 @@ pub fn build(
             acc
         })
         .filter(|a| a.graded > 0)
-        .collect();
+        .collect()
+}
 
+/// The days graded and each reviewer's agreement with the others per day.
+fn drift_rows(
+    reviewers: &[&str],
+    drift: BTreeMap<(usize, String), (usize, usize)>,
+) -> (Vec<String>, Vec<DayAgreement>) {
     let mut days: Vec<String> = drift.keys().map(|(_, d)| d.clone()).collect();
     days.sort();
     days.dedup();
@@ -228,17 +289,7 @@ pub fn build(
         })
         .collect();
 
-    PanelReview {
-        levels,
-        panel_shares: share(&panel_counts),
-        strictness,
-        gold_pairs: gold.len(),
-        gold: gold_rows,
-        days,
-        drift,
-        top_k,
-        disagreements: disagreements(snapshot, &by_pair, settled, top_k),
-    }
+    (days, drift)
 }
 
 fn disagreements(

@@ -9,6 +9,13 @@ use crate::analysis::format::{aligned, num};
 /// Gold accuracy per reviewer and each machine judge against the people's panel grade.
 pub fn text(report: &AgreementReport) -> String {
     let mut out = String::new();
+    gold_table(&mut out, report);
+    machine_table(&mut out, report);
+    out
+}
+
+/// Each reviewer's accuracy on gold pairs, overall and by day.
+fn gold_table(out: &mut String, report: &AgreementReport) {
     if report
         .reviewers
         .iter()
@@ -48,6 +55,10 @@ pub fn text(report: &AgreementReport) -> String {
         }
         out.push_str(&aligned(&rows));
     }
+}
+
+/// Each machine judge against the people's panel grade, overall and by segment.
+fn machine_table(out: &mut String, report: &AgreementReport) {
     if !report.machines.is_empty() {
         out.push_str(
             "\nMachine judges against the people's panel grade (settled, else lower median):\n",
@@ -92,5 +103,4 @@ pub fn text(report: &AgreementReport) -> String {
         out.push_str(&aligned(&rows));
         let _ = writeln!(out, "Caution: {}", MACHINE_CAUTION);
     }
-    out
 }

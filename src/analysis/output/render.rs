@@ -54,6 +54,19 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
             crate::analysis::scoring::scoreboard::NOTHING_TO_SCORE
         );
     }
+    out.push_str(&ranker_table(board));
+    out.push_str(&comparison_table(board));
+    out.push_str(&super::pool_bias_text::table_text(board));
+    out.push('\n');
+    for c in board.cautions.words() {
+        let _ = writeln!(out, "Caution: {c}");
+    }
+    out
+}
+
+/// One row per ranker: each metric of the text columns with its interval.
+fn ranker_table(board: &Scoreboard) -> String {
+    let s = &board.settings;
     let k_main = crate::analysis::defaults::focus_k(&s.ks);
     let columns = crate::core::metric_table::table_columns(&s.ks, k_main, false);
     let keys: Vec<String> = columns.iter().map(|m| m.key()).collect();
@@ -78,7 +91,12 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
         }
         rows.push(row);
     }
-    out.push_str(&aligned(&rows));
+    aligned(&rows)
+}
+
+/// The paired comparisons against the baseline (empty without one).
+fn comparison_table(board: &Scoreboard) -> String {
+    let mut out = String::new();
     if !board.comparisons.is_empty() {
         out.push_str("\nPaired comparisons against the baseline (diff = candidate − baseline):\n");
         let mut rows = vec![
@@ -102,11 +120,6 @@ pub fn scoreboard_text(board: &Scoreboard) -> String {
         }
         out.push_str(&aligned(&rows));
         out.push_str("Contexts needed: for 80 % power at two-sided α = 0.05, normal approximation with the observed mean and SD of the differences.\n");
-    }
-    out.push_str(&super::pool_bias_text::table_text(board));
-    out.push('\n');
-    for c in board.cautions.words() {
-        let _ = writeln!(out, "Caution: {c}");
     }
     out
 }

@@ -204,7 +204,25 @@ pub fn markdown(
         let _ = writeln!(out, "- **{name}:** {value}");
     }
     out.push('\n');
+    rankers_section(&mut out, board, pictures);
+    comparisons_section(&mut out, board, pictures);
+    pool_bias_section(&mut out, board);
+    out.push_str("## Reviewer agreement\n\n");
+    match agreement {
+        Some(a) if !a.pairs.is_empty() => agreement_section(&mut out, a, pictures),
+        _ => out.push_str(
+            "Not measurable yet: no two reviewers graded the same pairs on this scale.\n\n",
+        ),
+    }
+    out.push_str("## Cautions\n\n");
+    for c in board.cautions.words() {
+        let _ = writeln!(out, "- {c}");
+    }
+    out
+}
 
+/// Every ranker's means with intervals, and the NDCG@k picture.
+fn rankers_section(out: &mut String, board: &Scoreboard, pictures: &[Picture]) {
     out.push_str("## Rankers\n\n");
     out.push_str("Mean over contexts with the 95 % interval in brackets; judged@k is the share of the top k that has a grade.\n\n");
     let keys = report_metric_keys(&board.settings.ks);
@@ -228,13 +246,16 @@ pub fn markdown(
                 .collect()
         })
         .collect();
-    table(&mut out, &header, &rows);
+    table(out, &header, &rows);
     if pictures.iter().any(|p| p.place == Place::Curves) {
-        link_pictures(&mut out, pictures, &Place::Curves);
+        link_pictures(out, pictures, &Place::Curves);
     } else {
         out.push_str("No NDCG@k picture: no context has a relevant item yet.\n\n");
     }
+}
 
+/// Each candidate against the baseline with its tests, and the difference pictures.
+fn comparisons_section(out: &mut String, board: &Scoreboard, pictures: &[Picture]) {
     out.push_str("## Comparisons against the baseline\n\n");
     if board.comparisons.is_empty() {
         out.push_str("No comparisons: the study has a single ranker.\n\n");
@@ -272,14 +293,17 @@ pub fn markdown(
                 ]
             })
             .collect();
-        table(&mut out, &header, &rows);
+        table(out, &header, &rows);
         for c in board.rankers.iter() {
-            link_pictures(&mut out, pictures, &Place::Differences(c.ranker.clone()));
+            link_pictures(out, pictures, &Place::Differences(c.ranker.clone()));
         }
         out.push_str("Contexts needed: for 80 % power at two-sided α = 0.05, by the normal approximation with the observed mean and SD of the differences.\n\n");
         let _ = writeln!(out, "> {OFFLINE_CAUTION}\n");
     }
+}
 
+/// Pool bias at the focus cut-off, in words.
+fn pool_bias_section(out: &mut String, board: &Scoreboard) {
     if !board.pool_bias.is_empty() {
         out.push_str("## Is the pool fair to a newcomer?\n\n");
         out.push_str("Each ranker scored again as if the judged pairs only it found in its top k had never been judged (the leave-one-out test of Zobel 1998, SIGIR). A large drop warns that a ranker finding different items than the pooled ones is likely scored low; judge its gaps before trusting its score.\n\n");
@@ -297,83 +321,77 @@ pub fn markdown(
         }
         out.push('\n');
     }
+}
 
-    out.push_str("## Reviewer agreement\n\n");
-    match agreement {
-        Some(a) if !a.pairs.is_empty() => {
-            let _ = writeln!(
-                out,
-                "Scale {} · reviewers {} · {} pairs graded, {} can't-judge grades left out.\n",
-                a.scale,
-                a.reviewer_names.join(", "),
-                a.units,
-                a.cant_judge
-            );
-            let header: Vec<String> = [
-                "reviewers",
-                "n",
-                "Cohen's kappa [95 % CI]",
-                "band",
-                "Gwet's AC1",
+/// Reviewer pairs and the panel's coefficients, with their picture and cautions.
+fn agreement_section(out: &mut String, a: &AgreementReport, pictures: &[Picture]) {
+    let _ = writeln!(
+        out,
+        "Scale {} · reviewers {} · {} pairs graded, {} can't-judge grades left out.\n",
+        a.scale,
+        a.reviewer_names.join(", "),
+        a.units,
+        a.cant_judge
+    );
+    let header: Vec<String> = [
+        "reviewers",
+        "n",
+        "Cohen's kappa [95 % CI]",
+        "band",
+        "Gwet's AC1",
+    ]
+    .map(String::from)
+    .to_vec();
+    let rows: Vec<Vec<String>> = a
+        .pairs
+        .iter()
+        .map(|p| {
+            vec![
+                format!("{} × {}", p.reviewer_a, p.reviewer_b),
+                p.n.to_string(),
+                format!(
+                    "{} [{}, {}]",
+                    num(p.kappa),
+                    num(p.kappa_ci_low),
+                    num(p.kappa_ci_high)
+                ),
+                p.band.to_string(),
+                num(p.ac1),
             ]
-            .map(String::from)
-            .to_vec();
-            let rows: Vec<Vec<String>> = a
-                .pairs
-                .iter()
-                .map(|p| {
-                    vec![
-                        format!("{} × {}", p.reviewer_a, p.reviewer_b),
-                        p.n.to_string(),
-                        format!(
-                            "{} [{}, {}]",
-                            num(p.kappa),
-                            num(p.kappa_ci_low),
-                            num(p.kappa_ci_high)
-                        ),
-                        p.band.to_string(),
-                        num(p.ac1),
-                    ]
-                })
-                .collect();
-            table(&mut out, &header, &rows);
-            let _ = writeln!(
-                out,
-                "- **Fleiss' kappa:** {} over the {} pairs with {} grades each (the most common number); {} over the {} pairs graded by every reviewer",
-                num(a.fleiss_kappa),
-                a.fleiss_n,
-                a.fleiss_grades_per_pair,
-                num(a.fleiss_kappa_complete),
-                a.fleiss_n_complete
-            );
-            let _ = writeln!(
-                out,
-                "- **Krippendorff's alpha:** nominal {}, ordinal {} [{}, {}], interval {} (pairs with two or more grades: {})",
-                num(a.alpha_nominal),
-                num(a.alpha_ordinal),
-                num(a.alpha_ordinal_ci_low),
-                num(a.alpha_ordinal_ci_high),
-                num(a.alpha_interval),
-                a.alpha_n
-            );
-            let _ = writeln!(out, "- **Gwet's AC1 (panel):** {}", num(a.ac1));
-            let _ = writeln!(out, "- **Bands:** {}\n", a.band_source);
-            link_pictures(&mut out, pictures, &Place::Agreement);
-            for c in a.cautions.words() {
-                let _ = writeln!(out, "- Caution: {c}");
-            }
-            if !a.cautions.is_empty() {
-                out.push('\n');
-            }
-        }
-        _ => out.push_str(
-            "Not measurable yet: no two reviewers graded the same pairs on this scale.\n\n",
-        ),
-    }
+        })
+        .collect();
+    table(out, &header, &rows);
+    agreement_lines(out, a, pictures);
+}
 
-    out.push_str("## Cautions\n\n");
-    for c in board.cautions.words() {
-        let _ = writeln!(out, "- {c}");
+/// Fleiss, Krippendorff and AC1 over the panel, the bands' source and the cautions.
+fn agreement_lines(out: &mut String, a: &AgreementReport, pictures: &[Picture]) {
+    let _ = writeln!(
+        out,
+        "- **Fleiss' kappa:** {} over the {} pairs with {} grades each (the most common number); {} over the {} pairs graded by every reviewer",
+        num(a.fleiss_kappa),
+        a.fleiss_n,
+        a.fleiss_grades_per_pair,
+        num(a.fleiss_kappa_complete),
+        a.fleiss_n_complete
+    );
+    let _ = writeln!(
+        out,
+        "- **Krippendorff's alpha:** nominal {}, ordinal {} [{}, {}], interval {} (pairs with two or more grades: {})",
+        num(a.alpha_nominal),
+        num(a.alpha_ordinal),
+        num(a.alpha_ordinal_ci_low),
+        num(a.alpha_ordinal_ci_high),
+        num(a.alpha_interval),
+        a.alpha_n
+    );
+    let _ = writeln!(out, "- **Gwet's AC1 (panel):** {}", num(a.ac1));
+    let _ = writeln!(out, "- **Bands:** {}\n", a.band_source);
+    link_pictures(out, pictures, &Place::Agreement);
+    for c in a.cautions.words() {
+        let _ = writeln!(out, "- Caution: {c}");
     }
-    out
+    if !a.cautions.is_empty() {
+        out.push('\n');
+    }
 }

@@ -10,9 +10,11 @@ use std::collections::HashSet;
 
 use serde::Serialize;
 
-use crate::analysis::judged::judgments::{self, ContextJudgments};
+use crate::analysis::judged::JudgedContexts;
+use crate::analysis::judged::judgments;
+use crate::analysis::judged::per_context;
 use crate::core::metric_table::{self, Metric, MetricKind};
-use crate::core::metrics::{JudgedList, ListSettings};
+use crate::core::metrics::JudgedList;
 use crate::core::stats;
 use crate::study::snapshot::Snapshot;
 
@@ -49,14 +51,22 @@ pub struct PoolBias {
 /// What the scoreboard already resolved, reused here.
 pub(super) struct Scored<'a> {
     pub snapshot: &'a Snapshot,
-    pub judged: &'a ContextJudgments,
-    pub scored_contexts: &'a [usize],
-    pub list_settings: &'a ListSettings,
+    pub judged: &'a JudgedContexts,
     /// `means[ranker][i]`: mean NDCG at `ks[i]`.
     pub means: Vec<Vec<f64>>,
     /// `judged[ranker][i]`: mean judged@k at `ks[i]`.
     pub judged_means: Vec<Vec<f64>>,
     pub ks: &'a [usize],
+}
+
+/// Sums over the scored contexts of one ranker at one cut-off with its own pairs left out.
+#[derive(Default)]
+struct LeftOut {
+    ndcg_sum: f64,
+    /// Contexts that keep a relevant item without the ranker's own pairs.
+    kept: usize,
+    unique_pairs: usize,
+    judged_sum: f64,
 }
 
 /// Every ranker's pool-bias figures, by ranker then cut-off. The "other" rankers are
@@ -68,97 +78,117 @@ pub(super) fn compute(s: &Scored) -> Vec<PoolBias> {
         .filter_map(|r| snapshot.pooled_lists(r).map(|lists| (r, lists)))
         .collect();
     let mut out = Vec::new();
-    let mut levels: Vec<Option<u8>> = Vec::new();
-    let mut kept_pairs: Vec<(u32, u8)> = Vec::new();
-    let mut scratch = Vec::new();
-    let mut values: Vec<f64> = Vec::new();
+    let mut scratch = Scratch::default();
     for (r, name) in snapshot.rankers.iter().enumerate() {
         for (ki, &k) in s.ks.iter().enumerate() {
-            let (mut sum, mut kept, mut unique_pairs, mut judged_sum) = (0.0, 0usize, 0, 0.0);
-            for &c in s.scored_contexts {
-                let list = &snapshot.lists[r][c];
-                let top = &list[..list.len().min(k)];
+            let mut sums = LeftOut::default();
+            for &c in &s.judged.scored {
                 let others: HashSet<u32> = pooled
                     .iter()
                     .filter(|(p, _)| *p != r)
                     .flat_map(|(_, lists)| lists[c].iter().take(k).copied())
                     .collect();
-                let unique: HashSet<u32> = top
-                    .iter()
-                    .copied()
-                    .filter(|item| {
-                        !others.contains(item) && judgments::level_of(&s.judged[c], *item).is_some()
-                    })
-                    .collect();
-                unique_pairs += unique.len();
-                levels.clear();
-                levels.extend(list.iter().map(|item| match unique.contains(item) {
-                    true => None,
-                    false => judgments::level_of(&s.judged[c], *item),
-                }));
-                kept_pairs.clear();
-                kept_pairs.extend(
-                    s.judged[c]
-                        .iter()
-                        .filter(|(item, _)| !unique.contains(item)),
-                );
-                let ideal =
-                    crate::analysis::judged::per_context::ideal_gains(&kept_pairs, s.list_settings);
-                let has_relevant = s.judged[c]
-                    .iter()
-                    .any(|(item, level)| *level > 0 && !unique.contains(item));
-                let judged_list = JudgedList {
-                    levels: &levels,
-                    ideal_gains: &ideal,
-                    has_relevant,
-                };
-                let wanted = [
-                    Metric::at(MetricKind::Ndcg, k),
-                    Metric::at(MetricKind::Judged, k),
-                ];
-                metric_table::score_list(
-                    &judged_list,
-                    s.list_settings,
-                    &wanted,
-                    &mut scratch,
-                    &mut values,
-                );
-                judged_sum += values[1];
-                if has_relevant {
-                    sum += values[0];
-                    kept += 1;
-                }
+                scratch.add_context(s, &snapshot.lists[r][c], c, k, &others, &mut sums);
             }
-            let mean = s.means[r][ki];
-            let mean_left_out = (kept > 0).then(|| sum / kept as f64);
-            let kendall_tau_b = mean_left_out.and_then(|left_out| {
-                let before: Vec<f64> = s.means.iter().map(|m| m[ki]).collect();
-                let mut after = before.clone();
-                after[r] = left_out;
-                let tau = stats::kendall_tau_b(&before, &after);
-                tau.is_finite().then_some(tau)
-            });
-            let scored = s.scored_contexts.len();
-            out.push(PoolBias {
-                ranker: name.clone(),
-                from_file: snapshot.ranker_file(r).map(str::to_string),
-                metric: format!("ndcg@{k}"),
-                mean,
-                mean_left_out,
-                drop: mean_left_out.map(|m| mean - m),
-                contexts: kept,
-                unique_pairs,
-                judged: s.judged_means[r][ki],
-                judged_left_out: if scored == 0 {
-                    f64::NAN
-                } else {
-                    judged_sum / scored as f64
-                },
-                kendall_tau_b,
-            });
+            out.push(row(s, (r, name), (ki, k), sums));
         }
     }
     out
+}
+
+/// Buffers reused across contexts.
+#[derive(Default)]
+struct Scratch {
+    levels: Vec<Option<u8>>,
+    kept_pairs: Vec<(u32, u8)>,
+    metric: Vec<Option<u8>>,
+    values: Vec<f64>,
+}
+
+impl Scratch {
+    /// Scores one context's `list` at `k` as if the judged items of its top k that no
+    /// other pooled ranker put in its top k (`others`) had never been judged.
+    fn add_context(
+        &mut self,
+        s: &Scored,
+        list: &[u32],
+        c: usize,
+        k: usize,
+        others: &HashSet<u32>,
+        sums: &mut LeftOut,
+    ) {
+        let judged = &s.judged.judged[c];
+        let top = &list[..list.len().min(k)];
+        let unique: HashSet<u32> = top
+            .iter()
+            .copied()
+            .filter(|item| !others.contains(item) && judgments::level_of(judged, *item).is_some())
+            .collect();
+        sums.unique_pairs += unique.len();
+        self.levels.clear();
+        self.levels
+            .extend(list.iter().map(|item| match unique.contains(item) {
+                true => None,
+                false => judgments::level_of(judged, *item),
+            }));
+        self.kept_pairs.clear();
+        self.kept_pairs
+            .extend(judged.iter().filter(|(item, _)| !unique.contains(item)));
+        let ideal = per_context::ideal_gains(&self.kept_pairs, &s.judged.list_settings);
+        let has_relevant = self.kept_pairs.iter().any(|(_, level)| *level > 0);
+        let judged_list = JudgedList {
+            levels: &self.levels,
+            ideal_gains: &ideal,
+            has_relevant,
+        };
+        let wanted = [
+            Metric::at(MetricKind::Ndcg, k),
+            Metric::at(MetricKind::Judged, k),
+        ];
+        metric_table::score_list(
+            &judged_list,
+            &s.judged.list_settings,
+            &wanted,
+            &mut self.metric,
+            &mut self.values,
+        );
+        sums.judged_sum += self.values[1];
+        if has_relevant {
+            sums.ndcg_sum += self.values[0];
+            sums.kept += 1;
+        }
+    }
+}
+
+/// One ranker's row at one cut-off from its sums.
+fn row(s: &Scored, (r, name): (usize, &str), (ki, k): (usize, usize), sums: LeftOut) -> PoolBias {
+    let mean = s.means[r][ki];
+    let mean_left_out = (sums.kept > 0).then(|| sums.ndcg_sum / sums.kept as f64);
+    let kendall_tau_b = mean_left_out.and_then(|left_out| {
+        let before: Vec<f64> = s.means.iter().map(|m| m[ki]).collect();
+        let mut after = before.clone();
+        after[r] = left_out;
+        let tau = stats::kendall_tau_b(&before, &after);
+        tau.is_finite().then_some(tau)
+    });
+    let scored = s.judged.scored.len();
+    PoolBias {
+        ranker: name.to_string(),
+        from_file: s.snapshot.ranker_file(r).map(str::to_string),
+        metric: format!("ndcg@{k}"),
+        mean,
+        mean_left_out,
+        drop: mean_left_out.map(|m| mean - m),
+        contexts: sums.kept,
+        unique_pairs: sums.unique_pairs,
+        judged: s.judged_means[r][ki],
+        judged_left_out: if scored == 0 {
+            f64::NAN
+        } else {
+            sums.judged_sum / scored as f64
+        },
+        kendall_tau_b,
+    }
 }
 
 /// Cautions for rankers from files whose judged@k falls below the lowest judged@k any

@@ -253,7 +253,39 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
 
     let curves = curves(snapshot, &settings)?;
 
-    // Reviewer sensitivity: means only, so few resamples.
+    let keys = ndcg_keys(&settings.ks);
+    let (panel_means, sensitivity) = reviewer_sensitivity(snapshot, &settings, &board, scale)?;
+    let agreement = Some(agreement::with_defaults(snapshot, scale, None));
+    let gap_k = settings.ks.iter().copied().max().unwrap_or(10);
+    let gaps = gap_pairs(snapshot, scale, &settings.grades, gap_k);
+    let choices = choices(snapshot);
+    let differences = differences_by_ranker(&board, &keys);
+    let histograms = histograms(&board, &keys);
+    Ok(ScoreboardModel {
+        differences,
+        histograms,
+        settings,
+        board,
+        curves,
+        panel_means,
+        sensitivity,
+        agreement,
+        gaps,
+        choices,
+    })
+}
+
+/// Panel means per NDCG key, and each grader's own means with Kendall's tau-b against
+/// the panel's ranker order: means only, so few resamples.
+type Sensitivity = (BTreeMap<String, Vec<f64>>, Vec<SensitivityRow>);
+
+fn reviewer_sensitivity(
+    snapshot: &Snapshot,
+    settings: &ScoreSettings,
+    board: &Scoreboard,
+    scale: usize,
+) -> Result<Sensitivity, ScoreError> {
+    let keys = ndcg_keys(&settings.ks);
     let quick = |grades: GradeSource| {
         scoreboard::build(
             snapshot,
@@ -269,7 +301,6 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
         GradeSource::Panel => board.clone(),
         _ => quick(GradeSource::Panel)?,
     };
-    let keys = ndcg_keys(&settings.ks);
     let panel_means: BTreeMap<String, Vec<f64>> = keys
         .iter()
         .map(|k| (k.clone(), means(&panel_board, k)))
@@ -304,9 +335,11 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
         });
     }
 
-    let agreement = Some(agreement::with_defaults(snapshot, scale, None));
-    let gap_k = settings.ks.iter().copied().max().unwrap_or(10);
-    let gaps = gap_pairs(snapshot, scale, &settings.grades, gap_k);
+    Ok((panel_means, sensitivity))
+}
+
+/// What the Scoreboard's selectors offer.
+fn choices(snapshot: &Snapshot) -> Choices {
     let mut segments = vec!["all".to_string(), "new".into(), "established".into()];
     for kind in ["query", "anchor"] {
         if snapshot.contexts.iter().any(|c| c.kind == kind) {
@@ -322,13 +355,20 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
     labels.sort();
     labels.dedup();
     segments.extend(labels.into_iter().map(|s| format!("segment:{s}")));
-    let choices = Choices {
+    Choices {
         scales: snapshot.scales.iter().map(|s| s.name.clone()).collect(),
         rankers: snapshot.rankers.clone(),
         reviewers: snapshot.reviewers.clone(),
         segments,
-    };
-    let differences = board
+    }
+}
+
+/// Per ranker and NDCG key: its per-context differences from the baseline.
+fn differences_by_ranker(
+    board: &Scoreboard,
+    keys: &[String],
+) -> BTreeMap<String, BTreeMap<String, Differences>> {
+    board
         .rankers
         .iter()
         .map(|r| {
@@ -338,9 +378,12 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
                 .collect();
             (r.ranker.clone(), by_key)
         })
-        .collect();
-    let histograms = keys
-        .iter()
+        .collect()
+}
+
+/// Per NDCG key: each ranker's histogram of per-context values.
+fn histograms(board: &Scoreboard, keys: &[String]) -> BTreeMap<String, Vec<[usize; 10]>> {
+    keys.iter()
         .map(|k| {
             let per_ranker = board
                 .rankers
@@ -356,19 +399,7 @@ pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<Scoreboard
                 .collect();
             (k.clone(), per_ranker)
         })
-        .collect();
-    Ok(ScoreboardModel {
-        differences,
-        histograms,
-        settings,
-        board,
-        curves,
-        panel_means,
-        sensitivity,
-        agreement,
-        gaps,
-        choices,
-    })
+        .collect()
 }
 
 /// "mean [low, high]" as the table shows it.

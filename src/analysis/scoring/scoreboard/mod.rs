@@ -374,9 +374,7 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         .collect();
     let pool_bias = pool_bias::compute(&pool_bias::Scored {
         snapshot,
-        judged: &judged.judged,
-        scored_contexts: &judged.scored,
-        list_settings: &judged.list_settings,
+        judged: &judged,
         means: means_at(&rankers, &settings.ks, MetricKind::Ndcg),
         judged_means: means_at(&rankers, &settings.ks, MetricKind::Judged),
         ks: &settings.ks,
@@ -390,21 +388,13 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         })
         .collect();
     apply_holm(&mut comparisons);
-    let mut cautions = vec![Caution::OfflineOnly];
-    cautions.extend(baseline_note);
-    match judged.scored.len() {
-        0 => cautions.push(Caution::NothingToScore),
-        n if n < defaults::FEW_CONTEXTS => cautions.push(Caution::FewContexts { scored: n }),
-        _ => {}
-    }
-    cautions.extend(coverage::low_coverage(
+    let cautions = board_cautions(
         snapshot,
-        &rankers,
-        &judged.scored,
         settings,
-    ));
-    cautions.extend(coverage::missing_lists(snapshot, &judged.scored));
-    cautions.extend(pool_bias::cautions(&pool_bias));
+        &judged,
+        (&rankers, &pool_bias),
+        baseline_note,
+    );
     let mut settings = settings.clone();
     settings.baseline = baseline_name.map(str::to_string);
     Ok(Scoreboard {
@@ -421,6 +411,33 @@ pub fn build(snapshot: &Snapshot, settings: &ScoreSettings) -> Result<Scoreboard
         rankings_files: snapshot.outside.files.clone(),
         cautions: Cautions(cautions),
     })
+}
+
+/// The scoreboard's cautions in order: offline only, the baseline, few contexts, low
+/// coverage, missing lists, pool bias.
+fn board_cautions(
+    snapshot: &Snapshot,
+    settings: &ScoreSettings,
+    judged: &JudgedContexts,
+    (rankers, pool_bias): (&[RankerScores], &[PoolBias]),
+    baseline_note: Option<Caution>,
+) -> Vec<Caution> {
+    let mut cautions = vec![Caution::OfflineOnly];
+    cautions.extend(baseline_note);
+    match judged.scored.len() {
+        0 => cautions.push(Caution::NothingToScore),
+        n if n < defaults::FEW_CONTEXTS => cautions.push(Caution::FewContexts { scored: n }),
+        _ => {}
+    }
+    cautions.extend(coverage::low_coverage(
+        snapshot,
+        rankers,
+        &judged.scored,
+        settings,
+    ));
+    cautions.extend(coverage::missing_lists(snapshot, &judged.scored));
+    cautions.extend(pool_bias::cautions(pool_bias));
+    cautions
 }
 
 /// Every ranker's mean of `kind` at each cut-off of `ks` (NaN where not scored).

@@ -1,9 +1,35 @@
-//! Gold pairs entered one at a time (the Scales screen); files go through
-//! `import --gold`. Every write checks the pair and the level first.
+//! Gold pairs: read back, and entered one at a time (the Scales screen); files go
+//! through `import --gold`. Every write checks the pair and the level first.
 
 use super::{Result, Study, StudyError};
 
 impl Study {
+    /// Gold pairs of a scale: (context_id, item_id, known level).
+    pub fn gold_pairs(&self, scale: &str) -> Result<Vec<(String, String, u8)>> {
+        let mut stmt = self.conn().prepare(
+            "SELECT context_id, item_id, value FROM gold_pairs WHERE scale = ?1
+             ORDER BY context_id, item_id",
+        )?;
+        let rows = stmt
+            .query_map([scale], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?)))?
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(rows)
+    }
+
+    /// Gold pairs of a scale with their rationale: (context_id, item_id, level, rationale).
+    pub fn gold_with_rationale(&self, scale: &str) -> Result<Vec<(String, String, u8, String)>> {
+        let mut stmt = self.conn().prepare(
+            "SELECT context_id, item_id, value, rationale FROM gold_pairs WHERE scale = ?1
+             ORDER BY context_id, item_id",
+        )?;
+        let rows = stmt
+            .query_map([scale], |r| {
+                Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?))
+            })?
+            .collect::<std::result::Result<_, _>>()?;
+        Ok(rows)
+    }
+
     /// Adds a gold pair or changes its known level and rationale.
     pub fn save_gold_pair(
         &mut self,

@@ -147,6 +147,27 @@ impl Study {
         if pairs == 0 {
             return Err(StudyError::input("a pilot needs at least one pair"));
         }
+        let chosen = self.pilot_people(reviewers)?;
+        let (sample, seed) = self.draw_pilot_pairs(scales, pairs, &chosen)?;
+        for r in &chosen {
+            for s in scales {
+                self.ensure_queue(r, s)?;
+            }
+        }
+        let tx = self.begin_write()?;
+        for r in &chosen {
+            for s in scales {
+                put_pilot_pairs_first(&tx, r, s, &sample, seed)?;
+            }
+        }
+        store_pilot(&tx, scales, &sample, &chosen)?;
+        tx.commit()?;
+        Ok(())
+    }
+
+    /// The chosen reviewers, sorted and each once; refuses none, machine judges and
+    /// names not on the panel.
+    fn pilot_people(&self, reviewers: &[String]) -> Result<Vec<String>> {
         let people = self.people()?;
         let mut chosen: Vec<String> = reviewers.to_vec();
         chosen.sort();
@@ -166,6 +187,17 @@ impl Study {
                 format!("{r} is not on the panel")
             }));
         }
+        Ok(chosen)
+    }
+
+    /// `pairs` pool pairs outside the gold pairs, those the chosen reviewers have marked
+    /// least on the pilot scales first (ties in a shuffled order), with the pilot's seed.
+    fn draw_pilot_pairs(
+        &self,
+        scales: &[String],
+        pairs: usize,
+        chosen: &[String],
+    ) -> Result<(Vec<PairId>, u64)> {
         let mut sample = self.pilot_pool()?;
         if sample.len() < pairs {
             return Err(StudyError::input(format!(
@@ -175,7 +207,7 @@ impl Study {
         }
         // How many of the pilot's (reviewer, scale) blocks already hold a mark per pair.
         let mut marked: HashMap<PairId, usize> = HashMap::new();
-        for r in &chosen {
+        for r in chosen {
             for s in scales {
                 for pair in self.reviewer_marks(r, s)?.into_keys() {
                     *marked.entry(pair).or_default() += 1;
@@ -187,49 +219,7 @@ impl Study {
         // Stable: the least graded pairs first, ties in their shuffled order.
         sample.sort_by_key(|p| marked.get(p).copied().unwrap_or(0));
         sample.truncate(pairs);
-        for r in &chosen {
-            for s in scales {
-                self.ensure_queue(r, s)?;
-            }
-        }
-        let front: HashSet<&PairId> = sample.iter().collect();
-        let tx = self.begin_write()?;
-        for r in &chosen {
-            for s in scales {
-                let before = queue_in(&tx, r, s)?;
-                let mut lead = sample.clone();
-                shuffle(
-                    &mut lead,
-                    &mut Rng::new(seed ^ text_hash(r) ^ text_hash(s).rotate_left(17)),
-                );
-                tx.execute(
-                    "DELETE FROM queue_entries WHERE reviewer = ?1 AND scale = ?2",
-                    [r, s],
-                )?;
-                let mut insert = tx.prepare(
-                    "INSERT INTO queue_entries(reviewer, scale, position, context_id, item_id)
-                     VALUES (?1, ?2, ?3, ?4, ?5)",
-                )?;
-                let rest = before.iter().filter(|p| !front.contains(p));
-                for (pos, (c, i)) in lead.iter().chain(rest).enumerate() {
-                    insert.execute(params![r, s, pos as i64, c, i])?;
-                }
-            }
-        }
-        let mut put = tx.prepare(
-            "INSERT INTO settings(key, value) VALUES (?1, ?2)
-             ON CONFLICT(key) DO UPDATE SET value = excluded.value",
-        )?;
-        // Lists of strings always serialise.
-        let scales_json = serde_json::to_string(scales).unwrap_or_default();
-        let pairs_json = serde_json::to_string(&sample).unwrap_or_default();
-        let reviewers_json = serde_json::to_string(&chosen).unwrap_or_default();
-        put.execute([keys::PILOT_SCALES, &scales_json])?;
-        put.execute([keys::PILOT_PAIRS, &pairs_json])?;
-        put.execute([keys::PILOT_REVIEWERS, &reviewers_json])?;
-        drop(put);
-        tx.commit()?;
-        Ok(())
+        Ok((sample, seed))
     }
 
     /// Ends the pilot; queues and grades stay as they are.
@@ -403,6 +393,59 @@ impl Study {
             .collect::<std::result::Result<_, _>>()?;
         Ok(panel)
     }
+}
+
+/// Rewrites one reviewer's queue on one scale with the pilot pairs first, in a shuffle of
+/// their own for this reviewer and scale, and the rest of the queue after them unmoved.
+fn put_pilot_pairs_first(
+    tx: &rusqlite::Transaction,
+    reviewer: &str,
+    scale: &str,
+    sample: &[PairId],
+    seed: u64,
+) -> Result<()> {
+    let front: HashSet<&PairId> = sample.iter().collect();
+    let before = queue_in(tx, reviewer, scale)?;
+    let mut lead = sample.to_vec();
+    shuffle(
+        &mut lead,
+        &mut Rng::new(seed ^ text_hash(reviewer) ^ text_hash(scale).rotate_left(17)),
+    );
+    tx.execute(
+        "DELETE FROM queue_entries WHERE reviewer = ?1 AND scale = ?2",
+        [reviewer, scale],
+    )?;
+    let mut insert = tx.prepare(
+        "INSERT INTO queue_entries(reviewer, scale, position, context_id, item_id)
+         VALUES (?1, ?2, ?3, ?4, ?5)",
+    )?;
+    let rest = before.iter().filter(|p| !front.contains(p));
+    for (pos, (c, i)) in lead.iter().chain(rest).enumerate() {
+        insert.execute(params![reviewer, scale, pos as i64, c, i])?;
+    }
+    Ok(())
+}
+
+/// Keeps the pilot's scales, pairs and reviewers in settings, so its blocks stay the same
+/// after a restart and in a reviewer copy.
+fn store_pilot(
+    tx: &rusqlite::Transaction,
+    scales: &[String],
+    sample: &[PairId],
+    chosen: &[String],
+) -> Result<()> {
+    let mut put = tx.prepare(
+        "INSERT INTO settings(key, value) VALUES (?1, ?2)
+         ON CONFLICT(key) DO UPDATE SET value = excluded.value",
+    )?;
+    // Lists of strings always serialise.
+    let scales_json = serde_json::to_string(scales).unwrap_or_default();
+    let pairs_json = serde_json::to_string(sample).unwrap_or_default();
+    let reviewers_json = serde_json::to_string(chosen).unwrap_or_default();
+    put.execute([keys::PILOT_SCALES, &scales_json])?;
+    put.execute([keys::PILOT_PAIRS, &pairs_json])?;
+    put.execute([keys::PILOT_REVIEWERS, &reviewers_json])?;
+    Ok(())
 }
 
 /// The pilot pairs in the order `queue` holds them, each once; pilot pairs missing from

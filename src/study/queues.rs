@@ -1,4 +1,4 @@
-//! The pool and the reviewers' queues, and the card data the screens show.
+//! The pool and the reviewers' queues, and how far each reviewer is through theirs.
 //!
 //! The pool is the union of every ranker's top k per context (`pool_depth`, default 10).
 //! Each reviewer's queue is a shuffled order of their share of it: an overlap share
@@ -10,13 +10,15 @@
 
 use std::collections::{HashMap, HashSet};
 
-use rusqlite::{OptionalExtension, params};
+use rusqlite::params;
 
 use super::queue_shares::QueuePlan;
 use super::{Result, Study, StudyError};
 use crate::core::pooling::{depth_pool, shuffle};
 use crate::core::stats::Rng;
 
+/// The cards' old home, kept for the paths that still name it.
+pub use super::cards::{ContextCard, ItemCard};
 use super::settings::keys;
 pub use super::settings::{DEFAULT_GOLD_RATE, DEFAULT_OVERLAP_SHARE, DEFAULT_POOL_DEPTH};
 
@@ -25,31 +27,6 @@ pub type PairId = (String, String);
 
 /// A reviewer's current mark on a pair: a level, or can't judge (None).
 pub type Mark = Option<u8>;
-
-/// Everything an item shows on a card or in the catalog.
-#[derive(Debug, Clone, Default, PartialEq)]
-pub struct ItemCard {
-    pub id: String,
-    pub title: String,
-    pub category: String,
-    pub description: String,
-    pub price: Option<f64>,
-    /// Path relative to the catalog folder, as imported.
-    pub image: String,
-    pub is_new: bool,
-    /// Free attributes in the order of the imported columns' names (sorted).
-    pub attributes: Vec<(String, String)>,
-}
-
-/// Everything a context shows.
-#[derive(Debug, Clone, Default, PartialEq)]
-pub struct ContextCard {
-    pub id: String,
-    pub kind: String,
-    pub text: String,
-    pub anchor_item_id: Option<String>,
-    pub segment: String,
-}
 
 /// How far one reviewer is through their queue on a scale.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -192,32 +169,6 @@ impl Study {
         Ok(())
     }
 
-    /// Gold pairs of a scale: (context_id, item_id, known level).
-    pub fn gold_pairs(&self, scale: &str) -> Result<Vec<(String, String, u8)>> {
-        let mut stmt = self.conn().prepare(
-            "SELECT context_id, item_id, value FROM gold_pairs WHERE scale = ?1
-             ORDER BY context_id, item_id",
-        )?;
-        let rows = stmt
-            .query_map([scale], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?)))?
-            .collect::<std::result::Result<_, _>>()?;
-        Ok(rows)
-    }
-
-    /// Gold pairs of a scale with their rationale: (context_id, item_id, level, rationale).
-    pub fn gold_with_rationale(&self, scale: &str) -> Result<Vec<(String, String, u8, String)>> {
-        let mut stmt = self.conn().prepare(
-            "SELECT context_id, item_id, value, rationale FROM gold_pairs WHERE scale = ?1
-             ORDER BY context_id, item_id",
-        )?;
-        let rows = stmt
-            .query_map([scale], |r| {
-                Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?))
-            })?
-            .collect::<std::result::Result<_, _>>()?;
-        Ok(rows)
-    }
-
     /// A reviewer's current marks on a scale, keyed by pair.
     pub fn reviewer_marks(&self, reviewer: &str, scale: &str) -> Result<HashMap<PairId, Mark>> {
         let mut stmt = self.conn().prepare(
@@ -262,75 +213,6 @@ impl Study {
             .collect::<std::result::Result<_, _>>()?;
         Ok(rows)
     }
-
-    /// Every item with all it shows, ordered by id.
-    pub fn item_cards(&self) -> Result<Vec<ItemCard>> {
-        let mut stmt = self.conn().prepare(&format!(
-            "SELECT {ITEM_CARD_COLUMNS} FROM items ORDER BY item_id"
-        ))?;
-        let rows = stmt
-            .query_map([], item_card)?
-            .collect::<std::result::Result<_, _>>()?;
-        Ok(rows)
-    }
-
-    /// The cards of the named items (unknown ids are left out), for screens that show a
-    /// few items without reading the whole catalog.
-    pub fn item_cards_of<'a>(
-        &self,
-        ids: impl IntoIterator<Item = &'a str>,
-    ) -> Result<std::collections::BTreeMap<String, ItemCard>> {
-        let mut stmt = self.conn().prepare_cached(&format!(
-            "SELECT {ITEM_CARD_COLUMNS} FROM items WHERE item_id = ?1"
-        ))?;
-        let mut out = std::collections::BTreeMap::new();
-        for id in ids {
-            if out.contains_key(id) {
-                continue;
-            }
-            if let Some(card) = stmt.query_row([id], item_card).optional()? {
-                out.insert(id.to_string(), card);
-            }
-        }
-        Ok(out)
-    }
-
-    /// Every context, ordered by id.
-    pub fn context_cards(&self) -> Result<Vec<ContextCard>> {
-        let mut stmt = self.conn().prepare(
-            "SELECT context_id, kind, text, anchor_item_id, segment FROM contexts
-             ORDER BY context_id",
-        )?;
-        let rows = stmt
-            .query_map([], |r| {
-                Ok(ContextCard {
-                    id: r.get(0)?,
-                    kind: r.get(1)?,
-                    text: r.get(2)?,
-                    anchor_item_id: r.get(3)?,
-                    segment: r.get(4)?,
-                })
-            })?
-            .collect::<std::result::Result<_, _>>()?;
-        Ok(rows)
-    }
-}
-
-/// The free attributes stored as a JSON object; values shown as text.
-fn parse_attributes(json: &str) -> Vec<(String, String)> {
-    match serde_json::from_str::<serde_json::Value>(json) {
-        Ok(serde_json::Value::Object(map)) => map
-            .into_iter()
-            .map(|(k, v)| {
-                let text = match v {
-                    serde_json::Value::String(s) => s,
-                    other => other.to_string(),
-                };
-                (k, text)
-            })
-            .collect(),
-        _ => Vec::new(),
-    }
 }
 
 /// Puts one gold pair after every `1 / rate − 1` pairs, each gold pair at most once and
@@ -369,25 +251,6 @@ pub(super) fn mix_gold(
 pub(crate) fn text_hash(text: &str) -> u64 {
     text.bytes().fold(0xcbf2_9ce4_8422_2325, |h, b| {
         (h ^ b as u64).wrapping_mul(0x0100_0000_01b3)
-    })
-}
-
-/// The columns `item_card` reads, in its order.
-const ITEM_CARD_COLUMNS: &str =
-    "item_id, title, category, description, price, image, is_new, attributes";
-
-/// One row of `ITEM_CARD_COLUMNS` as a card.
-fn item_card(r: &rusqlite::Row) -> rusqlite::Result<ItemCard> {
-    let attributes: String = r.get(7)?;
-    Ok(ItemCard {
-        id: r.get(0)?,
-        title: r.get(1)?,
-        category: r.get(2)?,
-        description: r.get(3)?,
-        price: r.get(4)?,
-        image: r.get(5)?,
-        is_new: r.get(6)?,
-        attributes: parse_attributes(&attributes),
     })
 }
 
@@ -528,17 +391,5 @@ mod tests {
             vec![9, 19, 29],
             "one gold pair after every nine pairs"
         );
-    }
-
-    #[test]
-    fn attributes_come_back_as_text() {
-        assert_eq!(
-            parse_attributes(r#"{"weight_g":"2120","season":3}"#),
-            vec![
-                ("season".to_string(), "3".to_string()),
-                ("weight_g".to_string(), "2120".to_string())
-            ]
-        );
-        assert!(parse_attributes("not json").is_empty());
     }
 }

@@ -2,6 +2,8 @@
 //! default, and one read that returns them all. Code outside this file names a key only
 //! through `keys`.
 
+use std::path::{Path, PathBuf};
+
 use rusqlite::OptionalExtension;
 use serde::Serialize;
 
@@ -136,6 +138,29 @@ impl Study {
                 .map(str::to_string)
                 .collect(),
         })
+    }
+
+    /// The folder image paths are relative to. A relative setting (a reviewer copy's
+    /// own pictures folder) is taken relative to the study file, so a copy finds its
+    /// pictures wherever it is moved with them.
+    pub fn catalog_dir(&self) -> Result<Option<PathBuf>> {
+        let Some(dir) = self.setting(keys::CATALOG_DIR)?.filter(|s| !s.is_empty()) else {
+            return Ok(None);
+        };
+        let dir = PathBuf::from(dir);
+        if dir.is_absolute() {
+            return Ok(Some(dir));
+        }
+        let base = std::path::absolute(&self.path)
+            .ok()
+            .and_then(|p| p.parent().map(Path::to_path_buf))
+            .unwrap_or_default();
+        Ok(Some(base.join(dir)))
+    }
+
+    /// The study's display name (file stem unless renamed).
+    pub fn name(&self) -> String {
+        self.setting(keys::NAME).ok().flatten().unwrap_or_default()
     }
 }
 

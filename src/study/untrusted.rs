@@ -187,6 +187,21 @@ pub fn open_copy(path: &Path) -> Result<CheckedCopy> {
         return open_with_wal(path, &wal);
     }
     let conn = open_hardened(path)?;
+    let version = checked_version(&conn, path)?;
+    if version == i64::from(schema::current_version()) {
+        return Ok(CheckedCopy {
+            conn,
+            path: path.to_path_buf(),
+            _scratch: None,
+        });
+    }
+    drop(conn);
+    open_migrated(path, version)
+}
+
+/// Checks an opened copy before a row is read: Plumbline's mark, SQLite's `quick_check`,
+/// a schema version this build knows and the schema object by object. Returns the version.
+fn checked_version(conn: &Connection, path: &Path) -> Result<i64> {
     let pragma = |name: &str| -> Result<i64> {
         conn.pragma_query_value(None, name, |r| r.get::<_, i64>(0))
             .map_err(|e| reading(path, e))
@@ -215,7 +230,7 @@ pub fn open_copy(path: &Path) -> Result<CheckedCopy> {
             ),
         ));
     }
-    let found = schema_of(&conn).map_err(|e| reading(path, e))?;
+    let found = schema_of(conn).map_err(|e| reading(path, e))?;
     let expected = expected_schema(version as i32).map_err(StudyError::Sql)?;
     let differences = schema_differences(&found, &expected);
     if !differences.is_empty() {
@@ -227,15 +242,12 @@ pub fn open_copy(path: &Path) -> Result<CheckedCopy> {
             ),
         ));
     }
-    if version == i64::from(schema::current_version()) {
-        return Ok(CheckedCopy {
-            conn,
-            path: path.to_path_buf(),
-            _scratch: None,
-        });
-    }
-    // Older: migrate a temporary copy (the copy itself is never written).
-    drop(conn);
+    Ok(version)
+}
+
+/// An older copy, read through a migrated temporary copy (the copy itself is never
+/// written).
+fn open_migrated(path: &Path, version: i64) -> Result<CheckedCopy> {
     let scratch = scratch_for(path);
     std::fs::copy(path, scratch.path())
         .map_err(|e| refused(path, format!("cannot be copied for reading: {e}")))?;

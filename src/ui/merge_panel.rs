@@ -85,7 +85,31 @@ impl MergePanel {
     }
 
     pub fn ui(&mut self, ui: &mut egui::Ui, study: &Path) {
-        let ctx = ui.ctx().clone();
+        self.poll();
+        egui::CollapsingHeader::new("Bring in grades from other studies")
+            .default_open(false)
+            .show(ui, |ui| {
+                ui.label("Studies graded on other machines (reviewer copies or whole studies), one path per line:");
+                let label = ui.label("Studies to merge");
+                ui.add(
+                    egui::TextEdit::multiline(&mut self.paths)
+                        .desired_rows(2)
+                        .desired_width(520.0)
+                        .hint_text("/path/to/rev-birch-copy.plumb"),
+                )
+                .labelled_by(label.id);
+                self.buttons(ui, study);
+                if let Some(note) = &self.dialog_note {
+                    ui.colored_label(ui.visuals().warn_fg_color, note);
+                }
+                outcome_list(ui, "Would come in", &self.preview);
+                acceptance(ui, &self.preview, &mut self.accepted);
+                outcome_list(ui, "Merged", &self.merged);
+            });
+    }
+
+    /// Takes in finished jobs: files picked in the dialog, a merge, a preview.
+    fn poll(&mut self) {
         if let Some(asked) = self.dialog.poll() {
             let picked = match asked {
                 Asked::Chosen(paths) => paths,
@@ -110,72 +134,71 @@ impl MergePanel {
         if let Some(outcomes) = self.previewing.poll() {
             self.preview = outcomes;
         }
-        egui::CollapsingHeader::new("Bring in grades from other studies")
-            .default_open(false)
-            .show(ui, |ui| {
-                ui.label("Studies graded on other machines (reviewer copies or whole studies), one path per line:");
-                let label = ui.label("Studies to merge");
-                ui.add(
-                    egui::TextEdit::multiline(&mut self.paths)
-                        .desired_rows(2)
-                        .desired_width(520.0)
-                        .hint_text("/path/to/rev-birch-copy.plumb"),
+    }
+
+    /// Choose, preview and merge, with the run's progress.
+    fn buttons(&mut self, ui: &mut egui::Ui, study: &Path) {
+        let ctx = &ui.ctx().clone();
+        ui.horizontal(|ui| {
+            let busy = self.previewing.is_running() || self.merging.is_running();
+            if ui
+                .add_enabled(
+                    !self.dialog.is_running() && !busy,
+                    egui::Button::new("Choose studies…"),
                 )
-                .labelled_by(label.id);
-                ui.horizontal(|ui| {
-                    let busy = self.previewing.is_running() || self.merging.is_running();
-                    if ui
-                        .add_enabled(!self.dialog.is_running() && !busy, egui::Button::new("Choose studies…"))
-                        .clicked()
-                    {
-                        self.dialog.start(&ctx, || {
-                            let dialog = rfd::AsyncFileDialog::new()
-                                .add_filter("Plumbline study", &["plumb"])
-                                .pick_files();
-                            ask(async {
-                                dialog
-                                    .await
-                                    .map(|hs| hs.iter().map(|h| h.path().to_path_buf()).collect())
-                            })
-                        });
-                    }
-                    let files = self.files();
-                    if ui
-                        .add_enabled(!files.is_empty() && !busy, egui::Button::new("Show what would come in"))
-                        .clicked()
-                    {
-                        let s = study.to_path_buf();
-                        self.merged.clear();
-                        self.accepted.clear();
-                        self.previewing.start(&ctx, move || run(&s, files, false, Vec::new()));
-                    }
-                    let ready = !self.preview.is_empty() && self.preview.iter().any(|(_, r)| r.is_ok());
-                    if ui
-                        .add_enabled(ready && !busy, egui::Button::new("Merge now"))
-                        .clicked()
-                    {
-                        let s = study.to_path_buf();
-                        let files: Vec<PathBuf> = self
-                            .preview
-                            .iter()
-                            .filter(|(_, r)| r.is_ok())
-                            .map(|(f, _)| f.clone())
-                            .collect();
-                        let accept: Vec<String> = self.accepted.iter().cloned().collect();
-                        self.merging.start(&ctx, move || run(&s, files, true, accept));
-                    }
-                    if busy {
-                        ui.add(egui::ProgressBar::new(0.0).animate(true).text("merging…").desired_width(200.0));
-                        ctx.request_repaint_after_secs(0.1);
-                    }
+                .clicked()
+            {
+                self.dialog.start(ctx, || {
+                    let dialog = rfd::AsyncFileDialog::new()
+                        .add_filter("Plumbline study", &["plumb"])
+                        .pick_files();
+                    ask(async {
+                        dialog
+                            .await
+                            .map(|hs| hs.iter().map(|h| h.path().to_path_buf()).collect())
+                    })
                 });
-                if let Some(note) = &self.dialog_note {
-                    ui.colored_label(ui.visuals().warn_fg_color, note);
-                }
-                outcome_list(ui, "Would come in", &self.preview);
-                acceptance(ui, &self.preview, &mut self.accepted);
-                outcome_list(ui, "Merged", &self.merged);
-            });
+            }
+            let files = self.files();
+            if ui
+                .add_enabled(
+                    !files.is_empty() && !busy,
+                    egui::Button::new("Show what would come in"),
+                )
+                .clicked()
+            {
+                let s = study.to_path_buf();
+                self.merged.clear();
+                self.accepted.clear();
+                self.previewing
+                    .start(ctx, move || run(&s, files, false, Vec::new()));
+            }
+            let ready = !self.preview.is_empty() && self.preview.iter().any(|(_, r)| r.is_ok());
+            if ui
+                .add_enabled(ready && !busy, egui::Button::new("Merge now"))
+                .clicked()
+            {
+                let s = study.to_path_buf();
+                let files: Vec<PathBuf> = self
+                    .preview
+                    .iter()
+                    .filter(|(_, r)| r.is_ok())
+                    .map(|(f, _)| f.clone())
+                    .collect();
+                let accept: Vec<String> = self.accepted.iter().cloned().collect();
+                self.merging
+                    .start(ctx, move || run(&s, files, true, accept));
+            }
+            if busy {
+                ui.add(
+                    egui::ProgressBar::new(0.0)
+                        .animate(true)
+                        .text("merging…")
+                        .desired_width(200.0),
+                );
+                ctx.request_repaint_after_secs(0.1);
+            }
+        });
     }
 }
 

@@ -12,14 +12,16 @@ pub(super) fn readme(
     pairs: usize,
     plan: &Plan,
 ) -> String {
-    let seg = |name: &str| ctxs.iter().filter(|c| c.segment == name).count();
-    let queries = ctxs.iter().filter(|c| c.anchor.is_none()).count();
-    let fit4 = grades.iter().filter(|g| !g.useful2).count();
-    let rankers = RANKERS
-        .iter()
-        .map(|r| format!("`{}`", r.name))
-        .collect::<Vec<_>>()
-        .join(", ");
+    [
+        how_it_was_made(),
+        counts(items, ctxs, grades, pairs, plan),
+        files(),
+    ]
+    .concat()
+}
+
+/// The title, what is invented, and how the generator made the data.
+fn how_it_was_made() -> String {
     format!(
         r#"# Fennel Hollow Outfitters demo catalog
 
@@ -45,7 +47,24 @@ described, and the pictures are simple shapes drawn by the generator.
   {machine}` shows estimates on first run.
 - A fixed seed (ChaCha8) drives everything, so regenerating gives byte-identical files.
 
-## Counts
+"#,
+        machine = super::MACHINE_JUDGE,
+        sample = crate::demo::DEMO_SAMPLE_CONTEXTS,
+    )
+}
+
+/// The table of counts, each computed from the generated data.
+fn counts(items: &[Item], ctxs: &[Ctx], grades: &[Grade], pairs: usize, plan: &Plan) -> String {
+    let seg = |name: &str| ctxs.iter().filter(|c| c.segment == name).count();
+    let queries = ctxs.iter().filter(|c| c.anchor.is_none()).count();
+    let fit4 = grades.iter().filter(|g| !g.useful2).count();
+    let rankers = RANKERS
+        .iter()
+        .map(|r| format!("`{}`", r.name))
+        .collect::<Vec<_>>()
+        .join(", ");
+    format!(
+        r#"## Counts
 
 | what | count |
 | --- | --- |
@@ -68,14 +87,6 @@ described, and the pictures are simple shapes drawn by the generator.
 | can't-judge grades | {cj} |
 | images | {items} |
 
-## Files
-
-- `items.csv`: the catalog; `image` is relative to this folder.
-- `contexts.csv`: search queries and anchor items ("similar items" placements).
-- `rankings.csv`: top {LIST_DEPTH} per ranker and context, rank 1-based.
-- `scales.csv`: the `fit4` and `useful2` grading scales with rubrics.
-- `grades.csv`: one row per reviewer grade; an empty value is a can't-judge verdict with a reason.
-- `machine-grades.csv`: the machine judge's grades, with `kind` = `machine`.
 "#,
         items = items.len(),
         new = items.iter().filter(|i| i.new).count(),
@@ -85,12 +96,26 @@ described, and the pictures are simple shapes drawn by the generator.
         tail = seg("tail"),
         anchors = ctxs.len() - queries,
         reviewers = REVIEWERS.len(),
-        machine = super::MACHINE_JUDGE,
         sample = crate::demo::DEMO_SAMPLE_CONTEXTS,
         useful2 = grades.len() - fit4,
         overlap = plan.overlap,
         share = 100.0 * plan.overlap as f64 / pairs as f64,
         pilot = plan.pilot,
         cj = plan.cant_judge.len(),
+    )
+}
+
+/// What each file beside the README holds.
+fn files() -> String {
+    format!(
+        r#"## Files
+
+- `items.csv`: the catalog; `image` is relative to this folder.
+- `contexts.csv`: search queries and anchor items ("similar items" placements).
+- `rankings.csv`: top {LIST_DEPTH} per ranker and context, rank 1-based.
+- `scales.csv`: the `fit4` and `useful2` grading scales with rubrics.
+- `grades.csv`: one row per reviewer grade; an empty value is a can't-judge verdict with a reason.
+- `machine-grades.csv`: the machine judge's grades, with `kind` = `machine`.
+"#
     )
 }

@@ -1,14 +1,15 @@
-//! Reading a copy's rows: its definitions (items, contexts, scales, levels) compared with
-//! this study's, then every grade and settle event checked as strictly as an import.
+//! Reading a copy's rows: its definitions compared with this study's (`definitions.rs`),
+//! then every grade and settle event checked as strictly as an import.
 
-use std::collections::{BTreeMap, HashMap, HashSet};
+use std::collections::{BTreeMap, HashSet};
 
 use rusqlite::types::Value;
 
+use super::definitions::{Definitions, definition_problems};
 use super::refused;
 use crate::study::row_rules::{self, EventText};
 use crate::study::untrusted::{self, CheckedCopy, integer, number, text};
-use crate::study::{Result, Study, StudyError};
+use crate::study::{Result, StudyError};
 
 /// A grade event as read from a copy, checked.
 pub(super) struct GradeRow {
@@ -56,7 +57,7 @@ pub(super) struct CopySummary {
 pub(super) struct Problems(Vec<String>);
 
 impl Problems {
-    fn push(&mut self, p: String) {
+    pub(super) fn push(&mut self, p: String) {
         if self.0.len() < 12 {
             self.0.push(p);
         }
@@ -88,146 +89,6 @@ pub(super) fn kind(value: &Value) -> &'static str {
         Value::Text(_) => "text",
         Value::Blob(_) => "a blob",
     }
-}
-
-/// The lead study's definitions an incoming event must agree with.
-pub(super) struct Definitions {
-    pub(super) items: HashMap<String, (String, bool)>,
-    pub(super) contexts: HashMap<String, (String, String, Option<String>)>,
-    pub(super) levels: HashMap<String, Vec<String>>,
-}
-
-impl Study {
-    pub(super) fn definitions(&self) -> Result<Definitions> {
-        let conn = self.conn();
-        let mut items = HashMap::new();
-        let mut stmt = conn.prepare("SELECT item_id, title, is_new FROM items")?;
-        for row in stmt.query_map([], |r| Ok((r.get::<_, String>(0)?, r.get(1)?, r.get(2)?)))? {
-            let (id, title, is_new) = row?;
-            items.insert(id, (title, is_new));
-        }
-        let mut contexts = HashMap::new();
-        let mut stmt =
-            conn.prepare("SELECT context_id, kind, text, anchor_item_id FROM contexts")?;
-        for row in stmt.query_map([], |r| {
-            Ok((r.get::<_, String>(0)?, r.get(1)?, r.get(2)?, r.get(3)?))
-        })? {
-            let (id, kind, text, anchor) = row?;
-            contexts.insert(id, (kind, text, anchor));
-        }
-        let mut levels: HashMap<String, Vec<String>> = HashMap::new();
-        let mut stmt = conn.prepare("SELECT scale, label FROM levels ORDER BY scale, value")?;
-        for row in stmt.query_map([], |r| Ok((r.get::<_, String>(0)?, r.get::<_, String>(1)?)))? {
-            let (scale, label) = row?;
-            levels.entry(scale).or_default().push(label);
-        }
-        Ok(Definitions {
-            items,
-            contexts,
-            levels,
-        })
-    }
-}
-
-/// Compares the copy's definitions of the ids its events use with the lead's.
-pub(super) fn definition_problems(
-    copy: &CheckedCopy,
-    used: &Used,
-    here: &Definitions,
-    problems: &mut Problems,
-) -> Result<()> {
-    let mut missing: BTreeMap<&str, Vec<String>> = BTreeMap::new();
-    untrusted::for_each_row(copy, "SELECT item_id, title, is_new FROM items", 3, |row| {
-        let (Some(id), Some(title)) = (text(&row[0]), text(&row[1])) else {
-            return Ok(());
-        };
-        if !used.items.contains(id) {
-            return Ok(());
-        }
-        let is_new = integer(&row[2]).unwrap_or(-1) != 0;
-        match here.items.get(id) {
-            Some((t, n)) if t == title && *n == is_new => {}
-            Some(_) => problems.push(format!(
-                "item \"{id}\" is defined differently in the two studies"
-            )),
-            None => {}
-        }
-        Ok(())
-    })?;
-    untrusted::for_each_row(
-        copy,
-        "SELECT context_id, kind, text, anchor_item_id FROM contexts",
-        4,
-        |row| {
-            let Some(id) = text(&row[0]) else {
-                return Ok(());
-            };
-            if !used.contexts.contains(id) {
-                return Ok(());
-            }
-            let theirs = (
-                text(&row[1]).unwrap_or_default().to_string(),
-                text(&row[2]).unwrap_or_default().to_string(),
-                text(&row[3]).map(str::to_string),
-            );
-            if let Some(ours) = here.contexts.get(id)
-                && *ours != theirs
-            {
-                problems.push(format!(
-                    "context \"{id}\" is defined differently in the two studies"
-                ));
-            }
-            Ok(())
-        },
-    )?;
-    let mut their_levels: HashMap<String, Vec<String>> = HashMap::new();
-    untrusted::for_each_row(
-        copy,
-        "SELECT scale, label FROM levels ORDER BY scale, value",
-        2,
-        |row| {
-            if let (Some(scale), Some(label)) = (text(&row[0]), text(&row[1])) {
-                their_levels
-                    .entry(scale.to_string())
-                    .or_default()
-                    .push(label.to_string());
-            }
-            Ok(())
-        },
-    )?;
-    for scale in &used.scales {
-        match (here.levels.get(scale), their_levels.get(scale)) {
-            (Some(a), Some(b)) if a == b => {}
-            (Some(_), _) => problems.push(format!(
-                "scale \"{scale}\" has different levels in the two studies"
-            )),
-            (None, _) => missing.entry("scales").or_default().push(scale.clone()),
-        }
-    }
-    for id in &used.items {
-        if !here.items.contains_key(id) {
-            missing.entry("items").or_default().push(id.clone());
-        }
-    }
-    for id in &used.contexts {
-        if !here.contexts.contains_key(id) {
-            missing.entry("contexts").or_default().push(id.clone());
-        }
-    }
-    for (what, mut ids) in missing {
-        ids.sort();
-        let shown: Vec<&str> = ids.iter().take(10).map(String::as_str).collect();
-        problems.push(format!(
-            "{what} missing here: {}{}",
-            shown.join(", "),
-            if ids.len() > 10 {
-                format!(" and {} more", ids.len() - 10)
-            } else {
-                String::new()
-            }
-        ));
-    }
-    Ok(())
 }
 
 /// Ids the incoming events refer to (bounded by the catalog, not by the events).

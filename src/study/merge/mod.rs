@@ -13,6 +13,7 @@ use std::path::Path;
 
 use rusqlite::params;
 
+mod definitions;
 mod incoming;
 
 use super::untrusted;
@@ -259,7 +260,7 @@ fn needs_acceptance(
 fn write_events(
     tx: &rusqlite::Transaction,
     copy: &untrusted::CheckedCopy,
-    here: &incoming::Definitions,
+    here: &definitions::Definitions,
     (allowed, settlers): (&HashSet<&str>, &HashSet<&str>),
     report: &mut MergeReport,
 ) -> Result<()> {

@@ -1,10 +1,12 @@
 //! Agreement: does the panel agree, who drifts, and which disagreements matter. The model
 //! is built on a job thread (study snapshot → `analysis::agreement` and
-//! `analysis::agreement::panel_review`); `ui` only draws it. Settling lives in `settling.rs`.
+//! `analysis::agreement::panel_review`); `ui` only draws it. Settling lives in
+//! `settling.rs`, the confusion heatmap of a reviewer pair in `heatmap.rs`.
 
 use std::path::{Path, PathBuf};
 
 use super::jobs::{JobError, JobResult, Task};
+mod heatmap;
 mod pair_items;
 mod quality;
 pub mod settling;
@@ -14,6 +16,8 @@ use crate::analysis::defaults;
 use crate::analysis::format::{fixed, percent_spaced as percent};
 pub use crate::analysis::views::agreement_view::{AgreementModel, AgreementRequest};
 use crate::study::Study;
+use heatmap::heatmap;
+pub use heatmap::heatmap_cell_label;
 use settling::SettleForm;
 
 /// Loads and computes the model (runs on a job thread).
@@ -398,99 +402,6 @@ fn kappa_cell(
         percent(p.chance_agreement),
         weighted_band
     ))
-}
-
-/// The accessible label of one heatmap cell (tests look cells up by it).
-pub fn heatmap_cell_label(a: &str, level_a: usize, b: &str, level_b: usize, count: u64) -> String {
-    format!("{a} level {level_a}, {b} level {level_b}: {count} pairs")
-}
-
-fn heatmap(ui: &mut egui::Ui, model: &AgreementModel, selected: Option<&(String, String)>) {
-    ui.heading("Where two reviewers differ");
-    let Some((a, b)) = selected else {
-        ui.weak("Pick a cell of the reviewer matrix to see how that pair's levels cross.");
-        return;
-    };
-    let Some(p) = model.pair(a, b) else {
-        ui.weak("This pair shares no graded pairs on the chosen scale.");
-        return;
-    };
-    ui.label(format!(
-        "Rows: {}'s level · columns: {}'s level · {} pairs",
-        p.reviewer_a, p.reviewer_b, p.n
-    ));
-    let max = p
-        .confusion
-        .iter()
-        .flatten()
-        .copied()
-        .max()
-        .unwrap_or(0)
-        .max(1);
-    let level_name = |l: usize| match &model.request.collapse {
-        Some(_) => format!("{l}"),
-        None => model
-            .scale
-            .levels
-            .get(l)
-            .map_or(format!("{l}"), |x| format!("{l} {}", x.label)),
-    };
-    egui::Grid::new("confusion_heatmap")
-        .spacing([3.0, 3.0])
-        .show(ui, |ui| {
-            ui.label("");
-            for j in 0..p.confusion.len() {
-                ui.add_sized(
-                    [58.0, 18.0],
-                    egui::Label::new(egui::RichText::new(level_name(j)).weak()).truncate(),
-                )
-                .on_hover_text(level_name(j));
-            }
-            ui.end_row();
-            for (i, row) in p.confusion.iter().enumerate() {
-                ui.weak(level_name(i));
-                for (j, count) in row.iter().enumerate() {
-                    let (rect, response) =
-                        ui.allocate_exact_size(egui::vec2(58.0, 30.0), egui::Sense::hover());
-                    let t = *count as f32 / max as f32;
-                    let base = if i == j {
-                        super::palette::GOOD
-                    } else {
-                        super::palette::DISAGREE
-                    };
-                    let fill = ui
-                        .visuals()
-                        .extreme_bg_color
-                        .lerp_to_gamma(base, 0.15 + 0.85 * t);
-                    ui.painter().rect_filled(rect, 3.0, fill);
-                    ui.painter().text(
-                        rect.center(),
-                        egui::Align2::CENTER_CENTER,
-                        count.to_string(),
-                        egui::FontId::monospace(14.0),
-                        if t > 0.5 {
-                            egui::Color32::WHITE
-                        } else {
-                            ui.visuals().text_color()
-                        },
-                    );
-                    let label = heatmap_cell_label(&p.reviewer_a, i, &p.reviewer_b, j, *count);
-                    response
-                        .widget_info(|| egui::WidgetInfo::labeled(egui::Role::Label, true, &label));
-                }
-                ui.end_row();
-            }
-        });
-    if p.prevalence.dominant_share >= crate::core::agreement::DOMINANT_SHARE_CAUTION {
-        ui.colored_label(
-            super::palette::CAUTION,
-            format!(
-                "Level {} holds {:.0} % of this pair's grades: kappa can be low although they mostly agree.",
-                p.prevalence.dominant_level,
-                100.0 * p.prevalence.dominant_share
-            ),
-        );
-    }
 }
 
 fn coefficient_row(ui: &mut egui::Ui, name: &str, value: f64, extra: String, source: &str) {

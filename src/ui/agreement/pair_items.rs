@@ -5,7 +5,7 @@
 use std::path::PathBuf;
 
 use super::AgreementModel;
-use crate::study::queues::ItemCard;
+use crate::study::cards::ItemCard;
 use crate::ui::image_cache::{self, ImageCache};
 
 const SIDE: u32 = 160;

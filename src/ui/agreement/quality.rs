@@ -43,59 +43,7 @@ pub fn gold_and_machines(ui: &mut egui::Ui, model: &AgreementModel) -> Option<Qu
         .iter()
         .any(|r| r.gold_n + r.gold_cant_judge > 0)
     {
-        ui.heading("Gold pairs: graded against the known level");
-        egui::Grid::new("gold_by_reviewer")
-            .striped(true)
-            .show(ui, |ui| {
-                for title in [
-                    "Reviewer",
-                    "Kind",
-                    "Gold pairs graded",
-                    "Exactly right",
-                    "Within one level",
-                    "Can't judge",
-                    "Exactly right by day",
-                    "In training",
-                ] {
-                    ui.strong(title);
-                }
-                ui.end_row();
-                for r in &report.reviewers {
-                    ui.label(&r.reviewer);
-                    ui.label(r.kind);
-                    ui.label(r.gold_n.to_string());
-                    ui.label(share(r.gold_exact));
-                    ui.label(share(r.gold_within_one));
-                    ui.label(r.gold_cant_judge.to_string());
-                    ui.label(
-                        r.gold_by_day
-                            .iter()
-                            .map(|d| format!("{}: {:.0} % of {}", d.day, d.exact * 100.0, d.n))
-                            .collect::<Vec<_>>()
-                            .join(" · "),
-                    );
-                    let mut training = model.training_reviewers.contains(&r.reviewer);
-                    let tick = ui
-                        .add_enabled(
-                            editable && r.kind == "person",
-                            egui::Checkbox::new(&mut training, "in training"),
-                        )
-                        .on_hover_text("A reviewer in training sees a gold pair's known level and rationale on the desk right after grading it.");
-                    if tick.changed() {
-                        let mut list: Vec<String> = model
-                            .training_reviewers
-                            .iter()
-                            .filter(|t| **t != r.reviewer)
-                            .cloned()
-                            .collect();
-                        if training {
-                            list.push(r.reviewer.clone());
-                        }
-                        change = Some(QualityChange::Training(list));
-                    }
-                    ui.end_row();
-                }
-            });
+        change = gold_by_reviewer(ui, model, editable);
         ui.weak("A few gold pairs give a rough check only; a falling share day by day is drift worth a word with the reviewer.");
         ui.add_space(10.0);
     }
@@ -104,6 +52,100 @@ pub fn gold_and_machines(ui: &mut egui::Ui, model: &AgreementModel) -> Option<Qu
         return change;
     }
     ui.heading("Machine judges against the people's panel grade");
+    machines_against_panel(ui, model);
+    ui.colored_label(ui.visuals().warn_fg_color, MACHINE_CAUTION);
+    ui.horizontal_wrapped(|ui| {
+        for m in &report.machines {
+            let label = format!("Estimates from {} on the Scoreboard", m.reviewer);
+            if ui.button(&label).on_hover_text(ESTIMATES_THERE).clicked() {
+                change = Some(QualityChange::OpenEstimates(m.reviewer.clone()));
+            }
+        }
+    });
+    let mut counted = model.machines_in_panel;
+    if ui
+        .add_enabled(
+            editable,
+            egui::Checkbox::new(
+                &mut counted,
+                "Count machine judges in the panel grade, agreement and settling",
+            ),
+        )
+        .changed()
+    {
+        change = Some(QualityChange::MachinesInPanel(counted));
+    }
+    change
+}
+
+/// Each reviewer's gold pairs: right, within one level, by day, with the training tick.
+/// Returns the new training list when a tick changed.
+fn gold_by_reviewer(
+    ui: &mut egui::Ui,
+    model: &AgreementModel,
+    editable: bool,
+) -> Option<QualityChange> {
+    let report = &model.report;
+    let mut change = None;
+    ui.heading("Gold pairs: graded against the known level");
+    egui::Grid::new("gold_by_reviewer")
+        .striped(true)
+        .show(ui, |ui| {
+            for title in [
+                "Reviewer",
+                "Kind",
+                "Gold pairs graded",
+                "Exactly right",
+                "Within one level",
+                "Can't judge",
+                "Exactly right by day",
+                "In training",
+            ] {
+                ui.strong(title);
+            }
+            ui.end_row();
+            for r in &report.reviewers {
+                ui.label(&r.reviewer);
+                ui.label(r.kind);
+                ui.label(r.gold_n.to_string());
+                ui.label(share(r.gold_exact));
+                ui.label(share(r.gold_within_one));
+                ui.label(r.gold_cant_judge.to_string());
+                ui.label(
+                    r.gold_by_day
+                        .iter()
+                        .map(|d| format!("{}: {:.0} % of {}", d.day, d.exact * 100.0, d.n))
+                        .collect::<Vec<_>>()
+                        .join(" · "),
+                );
+                let mut training = model.training_reviewers.contains(&r.reviewer);
+                let tick = ui
+                    .add_enabled(
+                        editable && r.kind == "person",
+                        egui::Checkbox::new(&mut training, "in training"),
+                    )
+                    .on_hover_text("A reviewer in training sees a gold pair's known level and rationale on the desk right after grading it.");
+                if tick.changed() {
+                    let mut list: Vec<String> = model
+                        .training_reviewers
+                        .iter()
+                        .filter(|t| **t != r.reviewer)
+                        .cloned()
+                        .collect();
+                    if training {
+                        list.push(r.reviewer.clone());
+                    }
+                    change = Some(QualityChange::Training(list));
+                }
+                ui.end_row();
+            }
+        });
+    change
+}
+
+/// Each machine judge against the panel grade: kappas, AC1, exact share, by segment.
+fn machines_against_panel(ui: &mut egui::Ui, model: &AgreementModel) {
+    let report = &model.report;
     egui::Grid::new("machines_against_panel")
         .striped(true)
         .show(ui, |ui| {
@@ -145,29 +187,6 @@ pub fn gold_and_machines(ui: &mut egui::Ui, model: &AgreementModel) -> Option<Qu
                 ui.end_row();
             }
         });
-    ui.colored_label(ui.visuals().warn_fg_color, MACHINE_CAUTION);
-    ui.horizontal_wrapped(|ui| {
-        for m in &report.machines {
-            let label = format!("Estimates from {} on the Scoreboard", m.reviewer);
-            if ui.button(&label).on_hover_text(ESTIMATES_THERE).clicked() {
-                change = Some(QualityChange::OpenEstimates(m.reviewer.clone()));
-            }
-        }
-    });
-    let mut counted = model.machines_in_panel;
-    if ui
-        .add_enabled(
-            editable,
-            egui::Checkbox::new(
-                &mut counted,
-                "Count machine judges in the panel grade, agreement and settling",
-            ),
-        )
-        .changed()
-    {
-        change = Some(QualityChange::MachinesInPanel(counted));
-    }
-    change
 }
 
 pub fn strictness(ui: &mut egui::Ui, model: &AgreementModel) {

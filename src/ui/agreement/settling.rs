@@ -1,6 +1,7 @@
 //! Disagreements and settling on the Agreement screen: the sorted, filtered list of
 //! disagreeing pairs, one pair's grades side by side, a settled level chosen by hand
 //! with a reason, bulk rules for the rest, and undo. Writes run on a job thread.
+//! `bulk.rs` holds the rules over the shown pairs, `detail.rs` the open pair.
 
 use std::path::Path;
 
@@ -9,6 +10,9 @@ use crate::analysis::agreement::panel_review::Disagreement;
 use crate::core::settle_rules::SettleRule;
 use crate::study::Study;
 use crate::ui::jobs::{JobResult, Task};
+
+mod bulk;
+mod detail;
 
 /// A settling action waiting to be written.
 #[derive(Debug, Clone, PartialEq)]
@@ -231,88 +235,7 @@ impl SettleForm {
                 }
                 ui.separator();
             });
-            // Bulk rules act on exactly the pairs the list shows, without a settled
-            // grade and without the settler's own grade, after a confirmation.
-            let shown: Vec<(String, String)> = self
-                .visible(model)
-                .into_iter()
-                .filter(|d| d.settled.is_none())
-                .filter(|d| !d.grades.iter().any(|g| g.reviewer == who))
-                .map(|d| (d.context_id.clone(), d.item_id.clone()))
-                .collect();
-            let own = self
-                .visible(model)
-                .into_iter()
-                .filter(|d| d.settled.is_none() && d.grades.iter().any(|g| g.reviewer == who))
-                .count();
-            ui.horizontal_wrapped(|ui| {
-                ui.label(format!("The {} unsettled pairs shown, in one step:", shown.len()));
-                for rule in SettleRule::ALL {
-                    let button = egui::Button::new(format!("Settle the shown pairs by {}", rule.method()));
-                    if ui
-                        .add_enabled(can_settle && !who.is_empty() && !shown.is_empty(), button)
-                        .on_hover_text(format!(
-                            "Each pair the list shows without a settled grade gets the {}; asks first, and the batch can be undone in one step.",
-                            rule.explain()
-                        ))
-                        .clicked()
-                    {
-                        self.confirm = Some(rule);
-                    }
-                }
-            });
-            if own > 0 {
-                ui.colored_label(
-                    crate::ui::palette::CAUTION,
-                    format!("{own} shown pairs carry {who}'s own grade and are left out: another lead should settle them."),
-                );
-            }
-            if let Some(rule) = self.confirm {
-                ui.horizontal(|ui| {
-                    ui.colored_label(
-                        crate::ui::palette::CAUTION,
-                        format!(
-                            "Settle these {} pairs by {} ({})?",
-                            shown.len(),
-                            rule.method(),
-                            rule.explain()
-                        ),
-                    );
-                    if ui
-                        .add_enabled(
-                            can_settle && !shown.is_empty(),
-                            egui::Button::new(format!("Yes, settle {} pairs", shown.len())),
-                        )
-                        .clicked()
-                    {
-                        self.confirm = None;
-                        let action = SettleAction::Rule {
-                            rule,
-                            pairs: shown.clone(),
-                        };
-                        self.start(ui.ctx(), path, model, who.clone(), action);
-                    }
-                    if ui.button("Cancel").clicked() {
-                        self.confirm = None;
-                    }
-                });
-            }
-            if let Some((batch, n)) = self.last_batch.clone()
-                && ui
-                    .add_enabled(
-                        can_settle && !who.is_empty(),
-                        egui::Button::new(format!("Undo the last batch ({n} pairs)")),
-                    )
-                    .clicked()
-            {
-                self.start(
-                    ui.ctx(),
-                    path,
-                    model,
-                    who.clone(),
-                    SettleAction::UndoBatch(batch),
-                );
-            }
+            self.bulk(ui, model, path, &who, can_settle);
         }
         if self.writing.is_running() {
             ui.horizontal(|ui| {
@@ -413,154 +336,6 @@ impl SettleForm {
                     }
                 }
             });
-    }
-
-    fn detail(
-        &mut self,
-        ui: &mut egui::Ui,
-        model: &AgreementModel,
-        path: &Path,
-        can_settle: bool,
-        who: &str,
-    ) {
-        let Some(open) = self.open.clone() else {
-            ui.weak("Open a pair from the list to see each reviewer's level, note and time.");
-            return;
-        };
-        let Some(d) = model
-            .review
-            .disagreements
-            .iter()
-            .find(|d| d.context_id == open.0 && d.item_id == open.1)
-        else {
-            ui.weak("This pair is no longer in disagreement on this scale (or is hidden by the blind rule).");
-            return;
-        };
-        ui.strong(format!("Context {}: {}", d.context_id, context_words(d)));
-        self.pictures.show(ui, model, &d.context_id, &d.item_id);
-        ui.label(match d.best_rank {
-            Some(r) => format!(
-                "Best rank {r}; in {} top {}.",
-                rankers_phrase(d.rankers_in_top_k),
-                model.review.top_k
-            ),
-            None => "No ranker returns this item here.".into(),
-        });
-        egui::Grid::new("pair_grades").striped(true).show(ui, |ui| {
-            ui.strong("Reviewer");
-            ui.strong("Level");
-            ui.strong("Note");
-            ui.strong("Seconds");
-            ui.end_row();
-            for g in &d.grades {
-                ui.label(&g.reviewer);
-                ui.label(match g.value {
-                    Some(v) => level_text(model, v),
-                    None => format!("can't judge: {}", g.reason),
-                });
-                ui.label(&g.note);
-                ui.label(g.seconds.map_or("—".into(), |s| format!("{s:.1}")));
-                ui.end_row();
-            }
-        });
-        ui.label(format!(
-            "Panel grade without settling (lower median): {}",
-            level_text(model, d.panel_level)
-        ));
-        if let Some(s) = &d.settled {
-            ui.label(format!(
-                "Settled at {} by {} ({}) on {}{}",
-                s.value.map_or("—".into(), |v| level_text(model, v)),
-                s.settled_by,
-                s.method,
-                crate::study::time::readable_local(&s.settled_at),
-                if s.reason.is_empty() {
-                    String::new()
-                } else {
-                    format!(": {}", s.reason)
-                }
-            ));
-        }
-        let history: Vec<_> = model
-            .settle_history
-            .iter()
-            .filter(|r| r.context_id == open.0 && r.item_id == open.1)
-            .collect();
-        if !history.is_empty() {
-            ui.strong("Settlement history");
-            for r in history {
-                ui.label(format!(
-                    "{} · {} · {} by {}{}",
-                    crate::study::time::readable_local(&r.settled_at),
-                    r.value.map_or("undone".into(), |v| format!(
-                        "level {}",
-                        level_text(model, v)
-                    )),
-                    r.method,
-                    r.settled_by,
-                    if r.reason.is_empty() {
-                        String::new()
-                    } else {
-                        format!(": {}", r.reason)
-                    }
-                ));
-            }
-        }
-        if !can_settle {
-            return;
-        }
-        if d.grades.iter().any(|g| g.reviewer == who) {
-            ui.colored_label(
-                crate::ui::palette::CAUTION,
-                format!("{who} graded this pair: a settlement should come from someone who did not, so it is off here."),
-            );
-            return;
-        }
-        ui.add_space(6.0);
-        ui.label("Settled level");
-        ui.horizontal_wrapped(|ui| {
-            for level in &model.scale.levels {
-                let text = format!("Settle at {} {}", level.value, level.label);
-                if ui
-                    .selectable_label(self.level == Some(level.value), text)
-                    .clicked()
-                {
-                    self.level = Some(level.value);
-                }
-            }
-        });
-        let label = ui.label("Why");
-        ui.add(egui::TextEdit::singleline(&mut self.reason).desired_width(f32::INFINITY))
-            .labelled_by(label.id);
-        ui.horizontal(|ui| {
-            let ready = self.level.is_some() && !who.is_empty();
-            if ui
-                .add_enabled(ready, egui::Button::new("Record settled level"))
-                .clicked()
-                && let Some(value) = self.level
-            {
-                let action = SettleAction::ByHand {
-                    pair: open.clone(),
-                    value,
-                    reason: self.reason.clone(),
-                };
-                self.start(ui.ctx(), path, model, who.to_string(), action);
-            }
-            if d.settled.is_some()
-                && ui
-                    .add_enabled(!who.is_empty(), egui::Button::new("Undo settlement"))
-                    .clicked()
-            {
-                let action = SettleAction::Undo {
-                    pair: open.clone(),
-                    reason: self.reason.clone(),
-                };
-                self.start(ui.ctx(), path, model, who.to_string(), action);
-            }
-        });
-        if who.is_empty() {
-            ui.weak("Type who settles (or sign in) to record a settled level.");
-        }
     }
 }
 

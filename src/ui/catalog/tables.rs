@@ -4,7 +4,7 @@
 use std::cmp::Ordering;
 
 use super::CatalogModel;
-use crate::study::queues::{ContextCard, ItemCard};
+use crate::study::cards::{ContextCard, ItemCard};
 use crate::ui::desk::new_badge;
 use crate::ui::image_cache::{self, ImageCache};
 

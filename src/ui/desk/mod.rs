@@ -20,7 +20,7 @@ use std::path::Path;
 use super::image_cache::{self, ImageCache};
 use super::jobs::{JobResult, Task};
 use crate::study::Study;
-use crate::study::queues::ItemCard;
+use crate::study::cards::ItemCard;
 use card::key_role;
 pub use card::{level_key, new_badge};
 pub use load::load;

@@ -10,8 +10,9 @@ use std::collections::{HashMap, VecDeque};
 use std::path::PathBuf;
 
 use crate::core::scale::Scale;
+use crate::study::cards::{ContextCard, ItemCard};
 use crate::study::grades::{GradeAction, NewGrade};
-use crate::study::queues::{ContextCard, ItemCard, Mark};
+use crate::study::queues::Mark;
 
 pub const REASON_IMAGE: &str = "image missing";
 pub const REASON_QUERY: &str = "unclear query";

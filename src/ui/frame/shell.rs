@@ -275,48 +275,30 @@ impl Workbench {
         egui::Panel::left("navigation")
             .resizable(false)
             .exact_size(170.0)
-            .show(ui, |ui| {
-                ui.add_space(8.0);
-                for &(screen, label, _, keys) in rail(signed_in) {
-                    let button = egui::Button::selectable(self.screen == screen, label)
-                        .shortcut_text(keys)
-                        .min_size(egui::vec2(156.0, 30.0));
-                    if ui.add(button).clicked() {
-                        self.screen = screen;
-                    }
-                }
-            });
-        egui::CentralPanel::default_margins().show(ui, |ui| match self.screen {
+            .show(ui, |ui| self.rail_ui(ui, signed_in));
+        egui::CentralPanel::default_margins().show(ui, |ui| self.screen_ui(ui));
+    }
+
+    /// The rail of the role's screens, each with its keys.
+    fn rail_ui(&mut self, ui: &mut egui::Ui, signed_in: bool) {
+        ui.add_space(8.0);
+        for &(screen, label, _, keys) in rail(signed_in) {
+            let button = egui::Button::selectable(self.screen == screen, label)
+                .shortcut_text(keys)
+                .min_size(egui::vec2(156.0, 30.0));
+            if ui.add(button).clicked() {
+                self.screen = screen;
+            }
+        }
+    }
+
+    /// The screen on show, in the central panel.
+    fn screen_ui(&mut self, ui: &mut egui::Ui) {
+        match self.screen {
             Screen::Catalog => self.catalog.ui(ui, &self.path, self.reviewer.as_deref()),
             Screen::Desk => self.desk_screen(ui),
-            Screen::Agreement => {
-                self.agreement.ui(ui, &self.path, self.reviewer.as_deref());
-                if let Some(machine) = self.agreement.take_open_estimates() {
-                    // The machine judge's estimates sit in the Scoreboard's last section.
-                    self.scoreboard.estimates.machine = Some(machine);
-                    self.scoreboard.estimates.stale = true;
-                    self.screen = Screen::Scoreboard;
-                }
-            }
-            Screen::Scoreboard => {
-                let signed_in = self.reviewer.clone();
-                let action = self.scoreboard.ui(ui, &self.path, signed_in.as_deref());
-                // The choices are kept per study, so reopening it shows the same scores.
-                self.prefs.remember_scoreboard(
-                    &self.path,
-                    &ScoreboardChoices {
-                        settings: self.scoreboard.wanted.clone(),
-                        focus_k: self.scoreboard.focus_k,
-                    },
-                );
-                if let Some(ScoreboardAction::OpenDesk { reviewer, scale }) = action
-                    && !self.desk.has_unsaved()
-                {
-                    // The gaps lead the reviewer's queue on the scale they were queued for.
-                    self.sign_in_on(&ui.ctx().clone(), &reviewer, Some(scale));
-                    self.screen = Screen::Desk;
-                }
-            }
+            Screen::Agreement => self.agreement_screen(ui),
+            Screen::Scoreboard => self.scoreboard_screen(ui),
             Screen::Scales => self.scales.ui(ui, &self.path),
             Screen::Trial => self.trial.ui(ui, &self.path),
             Screen::Progress => {
@@ -339,7 +321,37 @@ impl Workbench {
                 }
                 Some(Ok(model)) => home::ui(ui, model),
             },
-        });
+        }
+    }
+
+    fn agreement_screen(&mut self, ui: &mut egui::Ui) {
+        self.agreement.ui(ui, &self.path, self.reviewer.as_deref());
+        if let Some(machine) = self.agreement.take_open_estimates() {
+            // The machine judge's estimates sit in the Scoreboard's last section.
+            self.scoreboard.estimates.machine = Some(machine);
+            self.scoreboard.estimates.stale = true;
+            self.screen = Screen::Scoreboard;
+        }
+    }
+
+    fn scoreboard_screen(&mut self, ui: &mut egui::Ui) {
+        let signed_in = self.reviewer.clone();
+        let action = self.scoreboard.ui(ui, &self.path, signed_in.as_deref());
+        // The choices are kept per study, so reopening it shows the same scores.
+        self.prefs.remember_scoreboard(
+            &self.path,
+            &ScoreboardChoices {
+                settings: self.scoreboard.wanted.clone(),
+                focus_k: self.scoreboard.focus_k,
+            },
+        );
+        if let Some(ScoreboardAction::OpenDesk { reviewer, scale }) = action
+            && !self.desk.has_unsaved()
+        {
+            // The gaps lead the reviewer's queue on the scale they were queued for.
+            self.sign_in_on(&ui.ctx().clone(), &reviewer, Some(scale));
+            self.screen = Screen::Desk;
+        }
     }
 
     fn desk_screen(&mut self, ui: &mut egui::Ui) {

@@ -211,6 +211,29 @@ impl Default for StudyPicker {
 
 impl StudyPicker {
     pub fn ui(&mut self, ctx: &egui::Context, prefs: &Prefs) -> Option<PickerOutcome> {
+        let outcome = self.poll(ctx);
+        if !self.open {
+            return outcome;
+        }
+        let mut open = self.open;
+        egui::Window::new("Studies")
+            .open(&mut open)
+            .collapsible(false)
+            .default_width(520.0)
+            .anchor(egui::Align2::CENTER_TOP, [0.0, 80.0])
+            .show(ctx, |ui| {
+                self.recent_ui(ui, prefs);
+                ui.separator();
+                self.dialog_buttons(ui);
+                self.typed_path(ui);
+            });
+        self.open &= open;
+        outcome
+    }
+
+    /// Takes in a finished dialog (checking the file chosen) and a finished check (the
+    /// study to open, or why not).
+    fn poll(&mut self, ctx: &egui::Context) -> Option<PickerOutcome> {
         let mut outcome = None;
         if let Some(result) = self.dialog.poll() {
             match result {
@@ -229,74 +252,76 @@ impl StudyPicker {
                 Err(e) => self.message = Some(e.to_string()),
             }
         }
-        if !self.open {
-            return outcome;
-        }
-        let mut open = self.open;
-        egui::Window::new("Studies")
-            .open(&mut open)
-            .collapsible(false)
-            .default_width(520.0)
-            .anchor(egui::Align2::CENTER_TOP, [0.0, 80.0])
-            .show(ctx, |ui| {
-                ui.label("Recent studies");
-                if prefs.recent.is_empty() {
-                    ui.weak("None yet.");
-                }
-                for path in &prefs.recent {
-                    let exists = path.exists();
-                    let text = path.display().to_string();
-                    let button = ui.add_enabled(exists, egui::Button::new(&text).truncate());
-                    if button.clicked() {
-                        self.check(ctx, path.clone(), false);
-                    }
-                }
-                ui.separator();
-                ui.horizontal(|ui| {
-                    if ui.button("Browse to open…").clicked() {
-                        self.dialog.start(ctx, || {
-                            let dialog = rfd::AsyncFileDialog::new()
-                                .add_filter("Plumbline study", &["plumb"])
-                                .pick_file();
-                            ask(async { dialog.await.map(|h| (h.path().to_path_buf(), false)) })
-                        });
-                    }
-                    if ui.button("Browse to create…").clicked() {
-                        self.dialog.start(ctx, || {
-                            let dialog = rfd::AsyncFileDialog::new()
-                                .add_filter("Plumbline study", &["plumb"])
-                                .set_file_name("study.plumb")
-                                .save_file();
-                            ask(async { dialog.await.map(|h| (h.path().to_path_buf(), true)) })
-                        });
-                    }
-                    if self.dialog.is_running() {
-                        ui.spinner();
-                    }
-                });
-                let label = ui.label("Or type the path of a study file:");
-                ui.add(
-                    egui::TextEdit::singleline(&mut self.typed)
-                        .hint_text("/path/to/study.plumb")
-                        .desired_width(f32::INFINITY),
-                )
-                .labelled_by(label.id);
-                ui.horizontal(|ui| {
-                    let typed = PathBuf::from(self.typed.trim());
-                    let has = !self.typed.trim().is_empty();
-                    if ui.add_enabled(has, egui::Button::new("Open")).clicked() {
-                        self.check(ctx, typed.clone(), false);
-                    }
-                    if ui.add_enabled(has, egui::Button::new("Create")).clicked() {
-                        self.check(ctx, typed, true);
-                    }
-                });
-                if let Some(m) = &self.message {
-                    ui.colored_label(ui.visuals().error_fg_color, m);
-                }
-            });
-        self.open &= open;
         outcome
+    }
+
+    /// The recent studies, one button each (off for a file that is gone).
+    fn recent_ui(&mut self, ui: &mut egui::Ui, prefs: &Prefs) {
+        let ctx = ui.ctx().clone();
+        ui.label("Recent studies");
+        if prefs.recent.is_empty() {
+            ui.weak("None yet.");
+        }
+        for path in &prefs.recent {
+            let exists = path.exists();
+            let text = path.display().to_string();
+            let button = ui.add_enabled(exists, egui::Button::new(&text).truncate());
+            if button.clicked() {
+                self.check(&ctx, path.clone(), false);
+            }
+        }
+    }
+
+    /// The native open and create dialogs.
+    fn dialog_buttons(&mut self, ui: &mut egui::Ui) {
+        let ctx = ui.ctx().clone();
+        ui.horizontal(|ui| {
+            if ui.button("Browse to open…").clicked() {
+                self.dialog.start(&ctx, || {
+                    let dialog = rfd::AsyncFileDialog::new()
+                        .add_filter("Plumbline study", &["plumb"])
+                        .pick_file();
+                    ask(async { dialog.await.map(|h| (h.path().to_path_buf(), false)) })
+                });
+            }
+            if ui.button("Browse to create…").clicked() {
+                self.dialog.start(&ctx, || {
+                    let dialog = rfd::AsyncFileDialog::new()
+                        .add_filter("Plumbline study", &["plumb"])
+                        .set_file_name("study.plumb")
+                        .save_file();
+                    ask(async { dialog.await.map(|h| (h.path().to_path_buf(), true)) })
+                });
+            }
+            if self.dialog.is_running() {
+                ui.spinner();
+            }
+        });
+    }
+
+    /// A typed path to open or create, and the last problem.
+    fn typed_path(&mut self, ui: &mut egui::Ui) {
+        let ctx = ui.ctx().clone();
+        let label = ui.label("Or type the path of a study file:");
+        ui.add(
+            egui::TextEdit::singleline(&mut self.typed)
+                .hint_text("/path/to/study.plumb")
+                .desired_width(f32::INFINITY),
+        )
+        .labelled_by(label.id);
+        ui.horizontal(|ui| {
+            let typed = PathBuf::from(self.typed.trim());
+            let has = !self.typed.trim().is_empty();
+            if ui.add_enabled(has, egui::Button::new("Open")).clicked() {
+                self.check(&ctx, typed.clone(), false);
+            }
+            if ui.add_enabled(has, egui::Button::new("Create")).clicked() {
+                self.check(&ctx, typed, true);
+            }
+        });
+        if let Some(m) = &self.message {
+            ui.colored_label(ui.visuals().error_fg_color, m);
+        }
     }
 
     /// Opens (or creates) on a thread; the study is used only once that succeeded.

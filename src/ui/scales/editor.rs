@@ -262,20 +262,7 @@ pub struct MapEditor {
 impl MapEditor {
     /// Draws the saved maps and the form; returns a map to save.
     pub fn ui(&mut self, ui: &mut egui::Ui, model: &ScalesModel) -> Option<(String, CollapseMap)> {
-        ui.strong("Collapse maps");
-        ui.label(
-            "Map a scale's levels onto a coarser one (for example levels 0 and 1 become 0, levels 2 and 3 become 1). \
-             Agreement and the scale trial compute every saved map beside its scale.",
-        );
-        for (scale, map) in &model.maps {
-            let arrows: Vec<String> = map
-                .targets
-                .iter()
-                .enumerate()
-                .map(|(v, t)| format!("{v} to {t}"))
-                .collect();
-            ui.label(format!("{} on {scale}: {}", map.name, arrows.join(", ")));
-        }
+        saved_maps(ui, model);
         if model.scales.is_empty() {
             return None;
         }
@@ -289,22 +276,7 @@ impl MapEditor {
             self.targets = (0..fine).map(|v| (v * 2 / fine.max(1)) as u8).collect();
         }
         let mut result = None;
-        ui.horizontal(|ui| {
-            let label = ui.label("Map scale");
-            let combo = egui::ComboBox::from_id_salt("map_scale")
-                .selected_text(&self.scale)
-                .show_ui(ui, |ui| {
-                    for e in &model.scales {
-                        ui.selectable_value(&mut self.scale, e.scale.name.clone(), &e.scale.name);
-                    }
-                });
-            let _ = combo.response.labelled_by(label.id);
-            let label = ui.label("Map name");
-            let name = ui
-                .add(egui::TextEdit::singleline(&mut self.name).desired_width(140.0))
-                .labelled_by(label.id);
-            self.touched |= name.changed();
-        });
+        self.scale_and_name(ui, model);
         let entry = model.entry(&self.scale)?;
         for (v, level) in entry.scale.levels.iter().enumerate() {
             ui.horizontal(|ui| {
@@ -318,23 +290,7 @@ impl MapEditor {
             name: self.name.trim().to_string(),
             targets: self.targets.clone(),
         };
-        let mut problems = Vec::new();
-        if map.name.is_empty() {
-            problems.push("the map needs a name".to_string());
-        }
-        let coarse = map.coarse_levels();
-        if coarse < 2 || coarse >= fine {
-            problems.push("a collapse map needs at least two and fewer coarse levels".into());
-        }
-        if (0..coarse as u8).any(|c| !map.targets.contains(&c)) {
-            problems.push(format!(
-                "use every coarse level from 0 to {}",
-                coarse.saturating_sub(1)
-            ));
-        }
-        if map.targets.windows(2).any(|w| w[1] < w[0]) {
-            problems.push("coarse levels must not fall as the fine level rises".into());
-        }
+        let problems = map_problems(&map, fine);
         if self.touched {
             for p in &problems {
                 ui.colored_label(ui.visuals().error_fg_color, format!("- {p}"));
@@ -351,4 +307,64 @@ impl MapEditor {
         }
         result
     }
+
+    /// The fine scale to map and the map's name.
+    fn scale_and_name(&mut self, ui: &mut egui::Ui, model: &ScalesModel) {
+        ui.horizontal(|ui| {
+            let label = ui.label("Map scale");
+            let combo = egui::ComboBox::from_id_salt("map_scale")
+                .selected_text(&self.scale)
+                .show_ui(ui, |ui| {
+                    for e in &model.scales {
+                        ui.selectable_value(&mut self.scale, e.scale.name.clone(), &e.scale.name);
+                    }
+                });
+            let _ = combo.response.labelled_by(label.id);
+            let label = ui.label("Map name");
+            let name = ui
+                .add(egui::TextEdit::singleline(&mut self.name).desired_width(140.0))
+                .labelled_by(label.id);
+            self.touched |= name.changed();
+        });
+    }
+}
+
+/// The saved collapse maps, one line each, under the editor's heading.
+fn saved_maps(ui: &mut egui::Ui, model: &ScalesModel) {
+    ui.strong("Collapse maps");
+    ui.label(
+        "Map a scale's levels onto a coarser one (for example levels 0 and 1 become 0, levels 2 and 3 become 1). \
+         Agreement and the scale trial compute every saved map beside its scale.",
+    );
+    for (scale, map) in &model.maps {
+        let arrows: Vec<String> = map
+            .targets
+            .iter()
+            .enumerate()
+            .map(|(v, t)| format!("{v} to {t}"))
+            .collect();
+        ui.label(format!("{} on {scale}: {}", map.name, arrows.join(", ")));
+    }
+}
+
+/// What keeps a typed map of a scale with `fine` levels from being saved.
+fn map_problems(map: &CollapseMap, fine: usize) -> Vec<String> {
+    let mut problems = Vec::new();
+    if map.name.is_empty() {
+        problems.push("the map needs a name".to_string());
+    }
+    let coarse = map.coarse_levels();
+    if coarse < 2 || coarse >= fine {
+        problems.push("a collapse map needs at least two and fewer coarse levels".into());
+    }
+    if (0..coarse as u8).any(|c| !map.targets.contains(&c)) {
+        problems.push(format!(
+            "use every coarse level from 0 to {}",
+            coarse.saturating_sub(1)
+        ));
+    }
+    if map.targets.windows(2).any(|w| w[1] < w[0]) {
+        problems.push("coarse levels must not fall as the fine level rises".into());
+    }
+    problems
 }

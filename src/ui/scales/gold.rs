@@ -3,6 +3,7 @@
 //! through the screen's job thread like every other change here.
 
 use super::{Change, ScalesModel};
+use crate::core::scale::Level;
 
 /// The form's text between frames.
 #[derive(Debug, Clone, Default)]
@@ -17,7 +18,6 @@ pub struct GoldForm {
 impl GoldForm {
     /// Draws the list and the form; returns the change asked for.
     pub fn ui(&mut self, ui: &mut egui::Ui, model: &ScalesModel, busy: bool) -> Option<Change> {
-        let mut change = None;
         ui.heading("Gold pairs");
         ui.label("Pairs with a known level, mixed into every new queue at the study's gold share and never marked on the desk (a reviewer in training sees the level after grading). Files of them go in through Import on the Catalog screen (gold.csv).");
         if model.scales.is_empty() {
@@ -28,6 +28,37 @@ impl GoldForm {
         }
         let entry = model.entry(&self.scale)?;
         let levels = entry.scale.levels.clone();
+        let mut change = self.pairs_grid(ui, model, &levels, busy);
+        ui.add_space(6.0);
+        self.form_grid(ui, model, &levels);
+        let ready = !self.context.trim().is_empty() && !self.item.trim().is_empty();
+        if ui
+            .add_enabled(
+                ready && !busy && !model.read_only,
+                egui::Button::new("Save gold pair"),
+            )
+            .clicked()
+        {
+            change = Some(Change::SaveGold {
+                scale: self.scale.clone(),
+                context: self.context.trim().to_string(),
+                item: self.item.trim().to_string(),
+                value: self.value,
+                rationale: self.rationale.trim().to_string(),
+            });
+        }
+        change
+    }
+
+    /// The scale's gold pairs, each with buttons to edit it in the form or remove it.
+    fn pairs_grid(
+        &mut self,
+        ui: &mut egui::Ui,
+        model: &ScalesModel,
+        levels: &[Level],
+        busy: bool,
+    ) -> Option<Change> {
+        let mut change = None;
         let pairs: Vec<_> = model.gold.iter().filter(|g| g.0 == self.scale).collect();
         if pairs.is_empty() {
             ui.weak(format!("Scale {} has no gold pairs yet.", self.scale));
@@ -78,7 +109,11 @@ impl GoldForm {
                 ui.end_row();
             }
         });
-        ui.add_space(6.0);
+        change
+    }
+
+    /// The form's fields: scale, context, item, known level, rationale.
+    fn form_grid(&mut self, ui: &mut egui::Ui, model: &ScalesModel, levels: &[Level]) {
         egui::Grid::new("gold_form").num_columns(2).show(ui, |ui| {
             let label = ui.label("Gold pair scale");
             egui::ComboBox::from_id_salt("gold_scale")
@@ -127,22 +162,5 @@ impl GoldForm {
             .labelled_by(label.id);
             ui.end_row();
         });
-        let ready = !self.context.trim().is_empty() && !self.item.trim().is_empty();
-        if ui
-            .add_enabled(
-                ready && !busy && !model.read_only,
-                egui::Button::new("Save gold pair"),
-            )
-            .clicked()
-        {
-            change = Some(Change::SaveGold {
-                scale: self.scale.clone(),
-                context: self.context.trim().to_string(),
-                item: self.item.trim().to_string(),
-                value: self.value,
-                rationale: self.rationale.trim().to_string(),
-            });
-        }
-        change
     }
 }

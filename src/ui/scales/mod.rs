@@ -284,27 +284,7 @@ impl ScalesScreen {
             }
             Some(Ok(m)) => m.clone(),
         };
-        ui.label(
-            "Grades are never rewritten: once a scale has grades, adding, removing or \
-             reordering its levels saves a new version; wording, keys, colours and gains \
-             can still change in place.",
-        );
-        match &self.message {
-            Some(Ok(m)) => {
-                ui.colored_label(crate::ui::palette::GOOD, m);
-                ctx.request_repaint_after(MESSAGE_SHOWN_FOR);
-            }
-            Some(Err(e)) => {
-                ui.colored_label(ui.visuals().error_fg_color, format!("Not saved: {e}"));
-            }
-            None => {}
-        }
-        if model.read_only {
-            ui.colored_label(
-                ui.visuals().warn_fg_color,
-                "This study is open read-only; nothing here can be saved.",
-            );
-        }
+        self.notes(ui, &model);
         ui.separator();
         let mut change: Option<Change> = None;
         egui::ScrollArea::vertical().show(ui, |ui| {
@@ -319,27 +299,7 @@ impl ScalesScreen {
                 });
                 ui.separator();
                 ui.vertical(|ui| {
-                    if let Some(editor) = &mut self.editor {
-                        let entry = editor.stored_name().and_then(|n| model.entry(n));
-                        match editor.ui(ui, entry, self.writing.is_running()) {
-                            Some(editor::EditorAction::Save(scale, origins)) => {
-                                change = Some(Change::SaveScale { scale, origins });
-                            }
-                            Some(editor::EditorAction::Close) => {}
-                            None => {}
-                        }
-                        if editor.closed {
-                            self.editor = None;
-                        }
-                        ui.add_space(12.0);
-                        ui.separator();
-                    }
-                    if let Some((scale, map)) = self.map_editor.ui(ui, &model) {
-                        change = Some(Change::SaveMap { scale, map });
-                    }
-                    ui.add_space(12.0);
-                    ui.separator();
-                    if let Some(c) = self.gold_form.ui(ui, &model, self.writing.is_running()) {
+                    if let Some(c) = self.editors(ui, &model) {
                         change = Some(c);
                     }
                 });
@@ -350,6 +310,61 @@ impl ScalesScreen {
         {
             self.request(&ctx, path, c);
         }
+    }
+
+    /// What a save does to graded scales, the last write's outcome, and read-only state.
+    fn notes(&self, ui: &mut egui::Ui, model: &ScalesModel) {
+        ui.label(
+            "Grades are never rewritten: once a scale has grades, adding, removing or \
+             reordering its levels saves a new version; wording, keys, colours and gains \
+             can still change in place.",
+        );
+        match &self.message {
+            Some(Ok(m)) => {
+                ui.colored_label(crate::ui::palette::GOOD, m);
+                ui.ctx().request_repaint_after(MESSAGE_SHOWN_FOR);
+            }
+            Some(Err(e)) => {
+                ui.colored_label(ui.visuals().error_fg_color, format!("Not saved: {e}"));
+            }
+            None => {}
+        }
+        if model.read_only {
+            ui.colored_label(
+                ui.visuals().warn_fg_color,
+                "This study is open read-only; nothing here can be saved.",
+            );
+        }
+    }
+
+    /// The open level editor, the collapse-map editor and the gold pairs; returns the
+    /// change the last of them asked for.
+    fn editors(&mut self, ui: &mut egui::Ui, model: &ScalesModel) -> Option<Change> {
+        let mut change = None;
+        if let Some(editor) = &mut self.editor {
+            let entry = editor.stored_name().and_then(|n| model.entry(n));
+            match editor.ui(ui, entry, self.writing.is_running()) {
+                Some(editor::EditorAction::Save(scale, origins)) => {
+                    change = Some(Change::SaveScale { scale, origins });
+                }
+                Some(editor::EditorAction::Close) => {}
+                None => {}
+            }
+            if editor.closed {
+                self.editor = None;
+            }
+            ui.add_space(12.0);
+            ui.separator();
+        }
+        if let Some((scale, map)) = self.map_editor.ui(ui, model) {
+            change = Some(Change::SaveMap { scale, map });
+        }
+        ui.add_space(12.0);
+        ui.separator();
+        if let Some(c) = self.gold_form.ui(ui, model, self.writing.is_running()) {
+            change = Some(c);
+        }
+        change
     }
 
     fn list(&mut self, ui: &mut egui::Ui, model: &ScalesModel, change: &mut Option<Change>) {

@@ -18,6 +18,29 @@ pub struct PilotForm {
     pub left_out: Vec<String>,
 }
 
+/// Why the typed number of pairs cannot start a pilot.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum PairsProblem {
+    NotANumber,
+    None,
+    /// More than the pool holds outside the gold pairs (this many).
+    MoreThanRoom(usize),
+}
+
+impl std::fmt::Display for PairsProblem {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            PairsProblem::NotANumber => f.write_str("Type the number of pairs as a whole number."),
+            PairsProblem::None => f.write_str("A pilot needs at least one pair."),
+            PairsProblem::MoreThanRoom(room) => write!(
+                f,
+                "The pool has {} outside the gold pairs; a pilot cannot ask for more.",
+                pairs_text(*room)
+            ),
+        }
+    }
+}
+
 /// "1 pair" / "40 pairs".
 fn pairs_text(n: usize) -> String {
     if n == 1 {
@@ -48,6 +71,39 @@ impl PilotForm {
     }
 
     fn form(&mut self, ui: &mut egui::Ui, model: &ScalesModel, busy: bool) -> Option<Change> {
+        self.scale_choices(ui, model);
+        let pairs = self.pairs_field(ui, model);
+        let chosen = self.reviewer_choices(ui, model);
+        let why_not = if self.scales.len() < 2 {
+            Some("Choose two or more scales".to_string())
+        } else if let Err(why) = &pairs {
+            Some(why.to_string())
+        } else if chosen.is_empty() {
+            Some("Choose at least one reviewer".to_string())
+        } else {
+            None
+        };
+        if let (Ok(n), None) = (&pairs, &why_not) {
+            self.preview(ui, *n, &chosen);
+        }
+        let start = ui
+            .add_enabled(
+                why_not.is_none() && !model.read_only && !busy,
+                egui::Button::new("Start pilot"),
+            )
+            .on_disabled_hover_text(why_not.unwrap_or_default());
+        match (start.clicked(), pairs) {
+            (true, Ok(pairs)) => Some(Change::StartPilot {
+                scales: self.scales.clone(),
+                pairs,
+                reviewers: chosen,
+            }),
+            _ => None,
+        }
+    }
+
+    /// A box per scale; the order they are ticked in is the block order.
+    fn scale_choices(&mut self, ui: &mut egui::Ui, model: &ScalesModel) {
         for entry in &model.scales {
             let name = entry.scale.name.clone();
             let mut on = self.scales.contains(&name);
@@ -60,7 +116,15 @@ impl PilotForm {
             }
         }
         self.scales.retain(|n| model.entry(n).is_some());
+    }
 
+    /// The number of pairs, typed, with the room the pool leaves; the number or why it
+    /// cannot be used.
+    fn pairs_field(
+        &mut self,
+        ui: &mut egui::Ui,
+        model: &ScalesModel,
+    ) -> Result<usize, PairsProblem> {
         let room = model.pilot_room;
         let text = self
             .pairs
@@ -84,18 +148,19 @@ impl PilotForm {
             .wrap(),
         );
         let pairs = match text.trim().parse::<usize>() {
-            Err(_) => Err("Type the number of pairs as a whole number.".to_string()),
-            Ok(0) => Err("A pilot needs at least one pair.".to_string()),
-            Ok(n) if n > room => Err(format!(
-                "The pool has {} outside the gold pairs; a pilot cannot ask for more.",
-                pairs_text(room)
-            )),
+            Err(_) => Err(PairsProblem::NotANumber),
+            Ok(0) => Err(PairsProblem::None),
+            Ok(n) if n > room => Err(PairsProblem::MoreThanRoom(room)),
             Ok(n) => Ok(n),
         };
         if let Err(why) = &pairs {
-            ui.colored_label(ui.visuals().error_fg_color, why);
+            ui.colored_label(ui.visuals().error_fg_color, why.to_string());
         }
+        pairs
+    }
 
+    /// A box per person on the panel (all ticked at first); returns those ticked.
+    fn reviewer_choices(&mut self, ui: &mut egui::Ui, model: &ScalesModel) -> Vec<String> {
         ui.label("Reviewers (people only: machine judges are measured against them, not piloted)");
         if model.people.is_empty() {
             ui.weak("No reviewer on the panel yet: reviewers join when they first sign in or when grades are imported.");
@@ -110,49 +175,27 @@ impl PilotForm {
                 }
             }
         }
-        let chosen: Vec<String> = model
+        model
             .people
             .iter()
             .filter(|p| !self.left_out.contains(p))
             .cloned()
-            .collect();
+            .collect()
+    }
 
-        let why_not = if self.scales.len() < 2 {
-            Some("Choose two or more scales".to_string())
-        } else if let Err(why) = &pairs {
-            Some(why.clone())
-        } else if chosen.is_empty() {
-            Some("Choose at least one reviewer".to_string())
-        } else {
-            None
-        };
-        if let (Ok(n), None) = (&pairs, &why_not) {
-            ui.add_space(4.0);
-            ui.label("Each chosen reviewer will grade:");
-            for r in &chosen {
-                ui.label(share_text(r, *n, self.scales.len()));
-            }
-            ui.weak(format!(
-                "The same {} for everyone, {} grades in all, in blocks of {}; the pairs they have graded least on these scales come first, gold pairs never (a pair a reviewer graded before counts as done in their block).",
-                pairs_text(*n),
-                n * chosen.len() * self.scales.len(),
-                self.scales.join(", then ")
-            ));
+    /// What each chosen reviewer will grade, shown before the pilot starts.
+    fn preview(&self, ui: &mut egui::Ui, n: usize, chosen: &[String]) {
+        ui.add_space(4.0);
+        ui.label("Each chosen reviewer will grade:");
+        for r in chosen {
+            ui.label(share_text(r, n, self.scales.len()));
         }
-        let start = ui
-            .add_enabled(
-                why_not.is_none() && !model.read_only && !busy,
-                egui::Button::new("Start pilot"),
-            )
-            .on_disabled_hover_text(why_not.unwrap_or_default());
-        match (start.clicked(), pairs) {
-            (true, Ok(pairs)) => Some(Change::StartPilot {
-                scales: self.scales.clone(),
-                pairs,
-                reviewers: chosen,
-            }),
-            _ => None,
-        }
+        ui.weak(format!(
+            "The same {} for everyone, {} grades in all, in blocks of {}; the pairs they have graded least on these scales come first, gold pairs never (a pair a reviewer graded before counts as done in their block).",
+            pairs_text(n),
+            n * chosen.len() * self.scales.len(),
+            self.scales.join(", then ")
+        ));
     }
 }
 

@@ -13,7 +13,7 @@ use std::path::{Path, PathBuf};
 
 use super::jobs::{JobResult, Task};
 use crate::analysis::judged::judgments::GradeSource;
-use crate::analysis::scoring::scoreboard::{ScoreSettings, Segment};
+use crate::analysis::scoring::scoreboard::{ScoreSettings, Scoreboard, Segment};
 pub use crate::analysis::views::scoreboard_view::*;
 use crate::core::metrics::{GainKind, Unjudged};
 use crate::study::Study;
@@ -351,6 +351,33 @@ impl ScoreboardScreen {
         ui.label(crate::analysis::views::scoreboard_view::summary_line(board));
         coverage_warning(ui, board);
         ui.add_space(6.0);
+        self.tables(ui, ctx, board, focus);
+        ui.add_space(10.0);
+        self.lists_from_files(ui);
+        let files_text = crate::analysis::output::render::rankings_files_text(board);
+        if !files_text.is_empty() {
+            ui.label(files_text.trim_end());
+        }
+        tables::pool_bias(ui, board, focus);
+        ui.add_space(10.0);
+        self.plots_and_candidate(ui, model, focus);
+        ui.add_space(10.0);
+        sensitivity(ui, model, focus);
+        ui.add_space(10.0);
+        self.gaps(ui, ctx, path, model);
+        ui.add_space(10.0);
+        self.export(ui, ctx, model);
+        if let Some(m) = &self.message {
+            ui.add_space(6.0);
+            ui.label(m);
+        }
+        // Last, so that its figures arriving later never move the controls above.
+        ui.add_space(10.0);
+        self.estimates.ui(ui, path, &board.settings);
+    }
+
+    /// The ranker table and the comparisons with the baseline, each with its copy button.
+    fn tables(&mut self, ui: &mut egui::Ui, ctx: &egui::Context, board: &Scoreboard, focus: usize) {
         ui.horizontal(|ui| {
             ui.strong("Rankers");
             if ui.button("Copy table (tab-separated)").clicked() {
@@ -368,14 +395,12 @@ impl ScoreboardScreen {
             }
         });
         comparisons(ui, board);
-        ui.add_space(10.0);
-        self.lists_from_files(ui);
-        let files_text = crate::analysis::output::render::rankings_files_text(board);
-        if !files_text.is_empty() {
-            ui.label(files_text.trim_end());
-        }
-        tables::pool_bias(ui, board, focus);
-        ui.add_space(10.0);
+    }
+
+    /// The plots with the candidate the differences plot shows (a choice once there are
+    /// two or more).
+    fn plots_and_candidate(&mut self, ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize) {
+        let board = &model.board;
         let candidates: Vec<String> = board
             .rankers
             .iter()
@@ -403,19 +428,6 @@ impl ScoreboardScreen {
                 self.candidate = Some(c);
             }
         }
-        ui.add_space(10.0);
-        sensitivity(ui, model, focus);
-        ui.add_space(10.0);
-        self.gaps(ui, ctx, path, model);
-        ui.add_space(10.0);
-        self.export(ui, ctx, model);
-        if let Some(m) = &self.message {
-            ui.add_space(6.0);
-            ui.label(m);
-        }
-        // Last, so that its figures arriving later never move the controls above.
-        ui.add_space(10.0);
-        self.estimates.ui(ui, path, &board.settings);
     }
 
     /// "Score lists from a file": a typed path (no file dialog needed), scored beside the

@@ -106,125 +106,148 @@ pub fn legend_row(ui: &mut egui::Ui, names: &[String], extra: Option<&str>) {
 }
 
 pub fn plots(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, candidate: Option<&str>) {
-    let key = format!("ndcg@{focus}");
     let width = ((ui.available_width() - 24.0) / 3.0).max(220.0);
-    let height = 230.0;
+    let size = egui::vec2(width, 230.0);
     ui.horizontal_top(|ui| {
         ui.vertical(|ui| {
             ui.set_width(width);
-            ui.strong("NDCG@k for k = 1…20 (bands: 95 % CI)");
-            Plot::new("sb_curve")
-                .width(width)
-                .height(height)
-                .include_y(0.0)
-                .include_y(1.0)
-                .include_x(1.0)
-                .x_grid_spacer(uniform_grid_spacer(|_| K_STEPS))
-                .y_grid_spacer(uniform_grid_spacer(|_| NDCG_STEPS))
-                .custom_x_axes(vec![axis(AxisHints::new_x(), "k".into())])
-                .custom_y_axes(vec![axis(AxisHints::new_y(), "NDCG@k".into())])
-                .allow_scroll(false)
-                .show(ui, |p| {
-                    for item in curve_items(model) {
-                        match item {
-                            CurveItem::Line {
-                                name,
-                                colour,
-                                points,
-                            } => {
-                                let line: PlotPoints = points.into_iter().collect();
-                                p.line(Line::new(name, line).color(colour).width(2.0));
-                            }
-                            CurveItem::Band {
-                                name,
-                                colour,
-                                xs,
-                                lows,
-                                highs,
-                            } => {
-                                p.add(FilledArea::new(name, &xs, &lows, &highs).fill_color(colour))
-                            }
-                        }
-                    }
-                });
-            let names: Vec<String> = model.curves.iter().map(|(n, _)| n.clone()).collect();
-            legend_row(ui, &names, Some("shaded: 95 % CI"));
+            ndcg_curves(ui, model, size);
         });
         ui.vertical(|ui| {
             ui.set_width(width);
-            let baseline = model.board.settings.baseline.clone().unwrap_or_default();
-            match candidate {
-                Some(c) => {
-                    ui.strong(format!("{c} − {baseline}, NDCG@{focus} per context"));
-                    let empty = Differences::default();
-                    let d = model
-                        .differences
-                        .get(c)
-                        .and_then(|by_key| by_key.get(&key))
-                        .unwrap_or(&empty);
-                    let (wins, losses) = (d.wins, d.losses);
-                    let bars: Vec<Bar> = d
-                        .sorted
-                        .iter()
-                        .enumerate()
-                        .map(|(i, v)| {
-                            let fill = if *v >= 0.0 {
-                                crate::ui::palette::GOOD
-                            } else {
-                                crate::ui::palette::WORSE
-                            };
-                            Bar::new(i as f64, *v).width(0.9).fill(fill)
-                        })
-                        .collect();
-                    Plot::new("sb_differences")
-                        .width(width)
-                        .height(height)
-                        .x_axis_label(format!("contexts, sorted ({wins} better, {losses} worse)"))
-                        .allow_scroll(false)
-                        .show(ui, |p| p.bar_chart(BarChart::new("difference", bars)));
-                }
-                None => {
-                    ui.weak("One ranker only: no differences to draw.");
+            differences(ui, model, focus, candidate, size);
+        });
+        ui.vertical(|ui| {
+            ui.set_width(width);
+            histogram(ui, model, focus, size);
+        });
+    });
+}
+
+/// NDCG@k of every ranker for k = 1 to 20 with its 95 % band.
+fn ndcg_curves(ui: &mut egui::Ui, model: &ScoreboardModel, size: egui::Vec2) {
+    let (width, height) = (size.x, size.y);
+    ui.strong("NDCG@k for k = 1…20 (bands: 95 % CI)");
+    Plot::new("sb_curve")
+        .width(width)
+        .height(height)
+        .include_y(0.0)
+        .include_y(1.0)
+        .include_x(1.0)
+        .x_grid_spacer(uniform_grid_spacer(|_| K_STEPS))
+        .y_grid_spacer(uniform_grid_spacer(|_| NDCG_STEPS))
+        .custom_x_axes(vec![axis(AxisHints::new_x(), "k".into())])
+        .custom_y_axes(vec![axis(AxisHints::new_y(), "NDCG@k".into())])
+        .allow_scroll(false)
+        .show(ui, |p| {
+            for item in curve_items(model) {
+                match item {
+                    CurveItem::Line {
+                        name,
+                        colour,
+                        points,
+                    } => {
+                        let line: PlotPoints = points.into_iter().collect();
+                        p.line(Line::new(name, line).color(colour).width(2.0));
+                    }
+                    CurveItem::Band {
+                        name,
+                        colour,
+                        xs,
+                        lows,
+                        highs,
+                    } => p.add(FilledArea::new(name, &xs, &lows, &highs).fill_color(colour)),
                 }
             }
         });
-        ui.vertical(|ui| {
-            ui.set_width(width);
-            ui.strong(format!("Per-context NDCG@{focus}, contexts per 0.1 bin"));
-            let n = model.board.rankers.len().max(1) as f64;
-            let bar_width = 0.1 / n * 0.9;
-            Plot::new("sb_histogram")
+    let names: Vec<String> = model.curves.iter().map(|(n, _)| n.clone()).collect();
+    legend_row(ui, &names, Some("shaded: 95 % CI"));
+}
+
+/// The candidate's difference from the baseline per context, sorted, better in green.
+fn differences(
+    ui: &mut egui::Ui,
+    model: &ScoreboardModel,
+    focus: usize,
+    candidate: Option<&str>,
+    size: egui::Vec2,
+) {
+    let (width, height) = (size.x, size.y);
+    let key = format!("ndcg@{focus}");
+    let baseline = model.board.settings.baseline.clone().unwrap_or_default();
+    match candidate {
+        Some(c) => {
+            ui.strong(format!("{c} − {baseline}, NDCG@{focus} per context"));
+            let empty = Differences::default();
+            let d = model
+                .differences
+                .get(c)
+                .and_then(|by_key| by_key.get(&key))
+                .unwrap_or(&empty);
+            let (wins, losses) = (d.wins, d.losses);
+            let bars: Vec<Bar> = d
+                .sorted
+                .iter()
+                .enumerate()
+                .map(|(i, v)| {
+                    let fill = if *v >= 0.0 {
+                        crate::ui::palette::GOOD
+                    } else {
+                        crate::ui::palette::WORSE
+                    };
+                    Bar::new(i as f64, *v).width(0.9).fill(fill)
+                })
+                .collect();
+            Plot::new("sb_differences")
                 .width(width)
                 .height(height)
-                .include_y(0.0)
-                .x_grid_spacer(uniform_grid_spacer(|_| NDCG_STEPS))
-                .custom_x_axes(vec![axis(AxisHints::new_x(), format!("NDCG@{focus}"))])
-                .y_grid_spacer(uniform_grid_spacer(|input| count_steps(input.bounds.1)))
-                .custom_y_axes(vec![axis(AxisHints::new_y(), "contexts".into())])
+                .x_axis_label(format!("contexts, sorted ({wins} better, {losses} worse)"))
                 .allow_scroll(false)
-                .show(ui, |p| {
-                    let none = Vec::new();
-                    let bins = model.histograms.get(&key).unwrap_or(&none);
-                    for (r, ranker) in model.board.rankers.iter().enumerate() {
-                        let Some(counts) = bins.get(r) else { continue };
-                        let bars: Vec<Bar> = counts
-                            .iter()
-                            .enumerate()
-                            .map(|(b, count)| {
-                                let x = b as f64 * 0.1 + 0.1 / n * (r as f64 + 0.5);
-                                Bar::new(x, *count as f64).width(bar_width)
-                            })
-                            .collect();
-                        p.bar_chart(BarChart::new(ranker.ranker.clone(), bars).color(colour(r)));
-                    }
-                });
-            let names: Vec<String> = model
-                .board
-                .rankers
-                .iter()
-                .map(|r| r.ranker.clone())
-                .collect();
-            legend_row(ui, &names, None);
+                .show(ui, |p| p.bar_chart(BarChart::new("difference", bars)));
+        }
+        None => {
+            ui.weak("One ranker only: no differences to draw.");
+        }
+    }
+}
+
+/// How many contexts each ranker has in each 0.1 bin of NDCG@focus.
+fn histogram(ui: &mut egui::Ui, model: &ScoreboardModel, focus: usize, size: egui::Vec2) {
+    let (width, height) = (size.x, size.y);
+    let key = format!("ndcg@{focus}");
+    ui.strong(format!("Per-context NDCG@{focus}, contexts per 0.1 bin"));
+    let n = model.board.rankers.len().max(1) as f64;
+    let bar_width = 0.1 / n * 0.9;
+    Plot::new("sb_histogram")
+        .width(width)
+        .height(height)
+        .include_y(0.0)
+        .x_grid_spacer(uniform_grid_spacer(|_| NDCG_STEPS))
+        .custom_x_axes(vec![axis(AxisHints::new_x(), format!("NDCG@{focus}"))])
+        .y_grid_spacer(uniform_grid_spacer(|input| count_steps(input.bounds.1)))
+        .custom_y_axes(vec![axis(AxisHints::new_y(), "contexts".into())])
+        .allow_scroll(false)
+        .show(ui, |p| {
+            let none = Vec::new();
+            let bins = model.histograms.get(&key).unwrap_or(&none);
+            for (r, ranker) in model.board.rankers.iter().enumerate() {
+                let Some(counts) = bins.get(r) else { continue };
+                let bars: Vec<Bar> = counts
+                    .iter()
+                    .enumerate()
+                    .map(|(b, count)| {
+                        let x = b as f64 * 0.1 + 0.1 / n * (r as f64 + 0.5);
+                        Bar::new(x, *count as f64).width(bar_width)
+                    })
+                    .collect();
+                p.bar_chart(BarChart::new(ranker.ranker.clone(), bars).color(colour(r)));
+            }
         });
-    });
+    let names: Vec<String> = model
+        .board
+        .rankers
+        .iter()
+        .map(|r| r.ranker.clone())
+        .collect();
+    legend_row(ui, &names, None);
 }

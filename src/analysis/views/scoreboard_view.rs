@@ -374,7 +374,7 @@ fn differences_by_ranker(
         .map(|r| {
             let by_key = keys
                 .iter()
-                .map(|k| (k.clone(), differences(&board, &r.ranker, k)))
+                .map(|k| (k.clone(), differences(board, &r.ranker, k)))
                 .collect();
             (r.ranker.clone(), by_key)
         })

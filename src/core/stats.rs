@@ -253,42 +253,8 @@ pub fn bootstrap_means(
     }
     let blocks = resamples.div_ceil(BLOCK);
     let per_block: Vec<Vec<f64>> = par_blocks(blocks, |block| {
-        let mut rng = Rng::new(block_seed(seed, block));
         let count = BLOCK.min(resamples - block * BLOCK);
-        let mut out = Vec::with_capacity(count * m);
-        // Resamples go in batches of BATCH: first how often each context was drawn in
-        // each resample of the batch, then one sequential pass over the rows adds
-        // count × row into every resample's sums. The rows are read once per batch
-        // instead of once per draw, which keeps the pass compute-bound.
-        let mut counts = vec![0u32; n * BATCH];
-        let mut sums = vec![0.0; BATCH * m];
-        let mut done = 0;
-        while done < count {
-            let batch = BATCH.min(count - done);
-            counts.iter_mut().for_each(|c| *c = 0);
-            sums.iter_mut().for_each(|x| *x = 0.0);
-            for r in 0..batch {
-                for _ in 0..n {
-                    counts[rng.below(n) * BATCH + r] += 1;
-                }
-            }
-            for (i, row) in rows.chunks_exact(m).enumerate() {
-                let drawn = &counts[i * BATCH..][..BATCH];
-                for (r, &c) in drawn.iter().enumerate().take(batch) {
-                    if c != 0 {
-                        let w = c as f64;
-                        for (acc, v) in sums[r * m..][..m].iter_mut().zip(row) {
-                            *acc += w * v;
-                        }
-                    }
-                }
-            }
-            for r in 0..batch {
-                out.extend(sums[r * m..][..m].iter().map(|s| s / n as f64));
-            }
-            done += batch;
-        }
-        out
+        resample_block(&rows, n, count, block_seed(seed, block))
     });
     let tail = (1.0 - level) / 2.0;
     (0..m)
@@ -305,6 +271,48 @@ pub fn bootstrap_means(
             }
         })
         .collect()
+}
+
+/// `count` resampled means of every series from one seed: `rows` holds `n` contexts,
+/// each a contiguous row of one value per series; the result holds one row of means
+/// per resample.
+fn resample_block(rows: &[f64], n: usize, count: usize, seed: u64) -> Vec<f64> {
+    let mut rng = Rng::new(seed);
+    let m = rows.len() / n;
+    let mut out = Vec::with_capacity(count * m);
+    // Resamples go in batches of BATCH: first how often each context was drawn in
+    // each resample of the batch, then one sequential pass over the rows adds
+    // count × row into every resample's sums. The rows are read once per batch
+    // instead of once per draw, which keeps the pass compute-bound.
+    let mut counts = vec![0u32; n * BATCH];
+    let mut sums = vec![0.0; BATCH * m];
+    let mut done = 0;
+    while done < count {
+        let batch = BATCH.min(count - done);
+        counts.iter_mut().for_each(|c| *c = 0);
+        sums.iter_mut().for_each(|x| *x = 0.0);
+        for r in 0..batch {
+            for _ in 0..n {
+                counts[rng.below(n) * BATCH + r] += 1;
+            }
+        }
+        for (i, row) in rows.chunks_exact(m).enumerate() {
+            let drawn = &counts[i * BATCH..][..BATCH];
+            for (r, &c) in drawn.iter().enumerate().take(batch) {
+                if c != 0 {
+                    let w = c as f64;
+                    for (acc, v) in sums[r * m..][..m].iter_mut().zip(row) {
+                        *acc += w * v;
+                    }
+                }
+            }
+        }
+        for r in 0..batch {
+            out.extend(sums[r * m..][..m].iter().map(|s| s / n as f64));
+        }
+        done += batch;
+    }
+    out
 }
 
 /// Result of a paired t-test.

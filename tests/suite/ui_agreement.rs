@@ -447,3 +447,33 @@ fn signing_in_on_the_agreement_screen_leaves_it_for_the_desk() {
     h.step();
     assert!(h.query_by_label_contains("Disagreements (").is_none());
 }
+
+/// The lead chooses the study's panel rule beside the disagreements; it is stored, the
+/// model reloads under it, and the panel grade of a pair on screen follows the rule
+/// (an even panel [1, 3] reads 1 under the lower median and 3 under the upper one: the
+/// definition of the two medians, common practice).
+#[test]
+fn the_lead_sets_the_panel_rule_and_the_review_follows_it() {
+    let (_dir, path) = demo_copy();
+    let mut h = harness(Workbench::new(path.clone(), Screen::Agreement));
+    wait_for_model(&mut h);
+    assert_eq!(model(&h).panel_rule, PanelRule::LowerMedian);
+    h.get_by_label_contains("Disagreements (").click();
+    h.step();
+    h.get_by_role_and_label(egui::Role::ComboBox, "Panel grade of an unsettled pair:")
+        .click();
+    h.step();
+    h.step();
+    h.get_by_label("upper-median").click_accesskit();
+    step_until(&mut h, "the reload under the new rule", |h| {
+        matches!(&h.state().agreement.model, Some(Ok(m)) if m.panel_rule == PanelRule::UpperMedian)
+            && !h.state().agreement.is_loading()
+    });
+    let study = Study::open(&path).unwrap();
+    assert_eq!(study.settings().unwrap().panel_rule, PanelRule::UpperMedian);
+    for d in &model(&h).review.disagreements {
+        let mut levels: Vec<u8> = d.grades.iter().filter_map(|g| g.value).collect();
+        levels.sort_unstable();
+        assert_eq!(d.panel_level, levels[levels.len() / 2], "{d:?}");
+    }
+}

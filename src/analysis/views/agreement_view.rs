@@ -1,11 +1,14 @@
 //! The Agreement screen's view model: panel coefficients (`agreement`), the panel review
 //! (`panel_review`) and the blind rule, from one read of the study.
 
-use std::collections::HashSet;
+use std::collections::{BTreeMap, HashSet};
 
 use crate::analysis::agreement::panel_review::{self, PanelReview};
 use crate::analysis::agreement::{self, AgreementReport, ReviewerPair};
 use crate::core::scale::Scale;
+use crate::study::cards::ItemCard;
+use crate::study::settle::GradeDetail;
+use crate::study::snapshot::Snapshot;
 use crate::study::{Study, StudyError};
 
 /// What to compute: the scale and collapse map picked on screen, and who is looking.
@@ -42,6 +45,8 @@ pub struct AgreementModel {
     pub training_reviewers: Vec<String>,
     /// Whether machine judges' grades count in the panel.
     pub machines_in_panel: bool,
+    /// The study's panel rule for an unsettled pair (`panel_rule` setting).
+    pub panel_rule: crate::core::panel_rule::PanelRule,
     /// Every settle event of the scale, oldest first (settlements, undos, batches).
     pub settle_history: Vec<crate::study::settle::SettleRecord>,
     /// The cards of every item in the disagreements and of every anchor item, so the
@@ -108,6 +113,52 @@ fn build_in(
         Some(viewer) => study.pending_pairs(viewer, &scale_name)?,
         None => HashSet::new(),
     };
+    let grades = review_grades(study, &mut snapshot, scale, &pending)?;
+    let settled = study.settled_in_force(&scale_name)?;
+    let gold = study.gold_pairs(&scale_name)?;
+    let top_k = snapshot.pool_depth;
+    let report = agreement::with_defaults(&snapshot, scale, collapse);
+    let review = panel_review::build(&snapshot, scale, &grades, &settled, &gold, collapse, top_k);
+    let settle_history = if pending.is_empty() {
+        study.settle_history(&scale_name)?
+    } else {
+        // Blind rule: a reviewer with pending pairs sees no settled levels.
+        Vec::new()
+    };
+    let (anchors, items) = disagreement_cards(study, &snapshot, &review)?;
+    Ok(Some(AgreementModel {
+        request: AgreementRequest {
+            scale: Some(scale_name),
+            collapse: collapse.map(|c| c.name.clone()),
+            viewer: request.viewer,
+        },
+        scale: snapshot.scales[scale].clone(),
+        scale_names: snapshot.scales.iter().map(|s| s.name.clone()).collect(),
+        collapse_names: maps.iter().map(|m| m.name.clone()).collect(),
+        report,
+        review,
+        hidden_pairs: pending.len(),
+        read_only: study.is_read_only(),
+        training_reviewers: study.settings()?.training_reviewers,
+        machines_in_panel: snapshot.machines_in_panel,
+        panel_rule: snapshot.panel_rule,
+        settle_history,
+        items,
+        anchors,
+        catalog_dir: study.catalog_dir()?,
+    }))
+}
+
+/// The scale's grades for the panel review: machine judges out unless the study counts
+/// them in, and under the blind rule every grade of the viewer's ungraded pairs out of
+/// both the list and the snapshot.
+fn review_grades(
+    study: &Study,
+    snapshot: &mut Snapshot,
+    scale: usize,
+    pending: &HashSet<(String, String)>,
+) -> Result<Vec<GradeDetail>, StudyError> {
+    let scale_name = snapshot.scales[scale].name.clone();
     let mut grades = study.grade_details(&scale_name)?;
     if !snapshot.machines_in_panel {
         // Machine judges are measured against the panel, never part of its review.
@@ -136,18 +187,16 @@ fn build_in(
             .grades
             .retain(|g| g.scale as usize != scale || !hidden.contains(&(g.context, g.item)));
     }
-    let settled = study.settled_in_force(&scale_name)?;
-    let gold = study.gold_pairs(&scale_name)?;
-    let top_k = snapshot.pool_depth;
-    let report = agreement::with_defaults(&snapshot, scale, collapse);
-    let review = panel_review::build(&snapshot, scale, &grades, &settled, &gold, collapse, top_k);
-    let settle_history = if pending.is_empty() {
-        study.settle_history(&scale_name)?
-    } else {
-        // Blind rule: a reviewer with pending pairs sees no settled levels.
-        Vec::new()
-    };
-    let anchors: std::collections::BTreeMap<String, String> = snapshot
+    Ok(grades)
+}
+
+/// Each context's anchor item, and the cards of the items the disagreements show.
+fn disagreement_cards(
+    study: &Study,
+    snapshot: &Snapshot,
+    review: &PanelReview,
+) -> Result<(BTreeMap<String, String>, BTreeMap<String, ItemCard>), StudyError> {
+    let anchors: BTreeMap<String, String> = snapshot
         .contexts
         .iter()
         .filter_map(|c| Some((c.id.clone(), c.anchor_item.clone()?)))
@@ -164,24 +213,5 @@ fn build_in(
                     .filter_map(|d| anchors.get(&d.context_id).map(String::as_str)),
             ),
     )?;
-    Ok(Some(AgreementModel {
-        request: AgreementRequest {
-            scale: Some(scale_name),
-            collapse: collapse.map(|c| c.name.clone()),
-            viewer: request.viewer,
-        },
-        scale: snapshot.scales[scale].clone(),
-        scale_names: snapshot.scales.iter().map(|s| s.name.clone()).collect(),
-        collapse_names: maps.iter().map(|m| m.name.clone()).collect(),
-        report,
-        review,
-        hidden_pairs: pending.len(),
-        read_only: study.is_read_only(),
-        training_reviewers: study.settings()?.training_reviewers,
-        machines_in_panel: snapshot.machines_in_panel,
-        settle_history,
-        items,
-        anchors,
-        catalog_dir: study.catalog_dir()?,
-    }))
+    Ok((anchors, items))
 }

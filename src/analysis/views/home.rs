@@ -237,7 +237,30 @@ pub fn build(
         .collect();
     let pool = depth_pool(&lists, depth);
     let pool_graded = pool.iter().filter(|p| graded.contains(p)).count();
-    let reviewers = snapshot
+    let reviewers = reviewer_progress(snapshot, queues, scale);
+    HomeModel {
+        name: snapshot.name.clone(),
+        counts,
+        scale: scale.map(|s| snapshot.scales[s].name.clone()),
+        depth,
+        pool_size: pool.len(),
+        pool_graded,
+        coverage,
+        reviewers,
+        read_only,
+        pilot: None,
+        copy_for: None,
+        sample: None,
+    }
+}
+
+/// Each reviewer's grades on the active scale and place in their queue.
+fn reviewer_progress(
+    snapshot: &Snapshot,
+    queues: &[QueueProgress],
+    scale: Option<usize>,
+) -> Vec<ReviewerProgress> {
+    snapshot
         .reviewers
         .iter()
         .enumerate()
@@ -258,21 +281,7 @@ pub fn build(
                 .find(|q| &q.reviewer == name)
                 .map(|q| (q.done, q.total)),
         })
-        .collect();
-    HomeModel {
-        name: snapshot.name.clone(),
-        counts,
-        scale: scale.map(|s| snapshot.scales[s].name.clone()),
-        depth,
-        pool_size: pool.len(),
-        pool_graded,
-        coverage,
-        reviewers,
-        read_only,
-        pilot: None,
-        copy_for: None,
-        sample: None,
-    }
+        .collect()
 }
 
 /// The running pilot in one sentence.

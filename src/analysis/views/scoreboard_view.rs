@@ -8,7 +8,7 @@ use crate::analysis::agreement::{self, AgreementReport};
 use crate::analysis::judged::judgments::GradeSource;
 use crate::analysis::scoring::gaps::{GapPair, gap_pairs};
 use crate::analysis::scoring::scoreboard::{self, ScoreError, ScoreSettings, Scoreboard};
-use crate::core::metric_table::{self, Metric};
+use crate::core::metric_table::{self, Metric, MetricKind};
 use crate::core::stats::kendall_tau_b;
 use crate::study::snapshot::Snapshot;
 
@@ -147,36 +147,30 @@ pub fn order_of(means: &[f64]) -> Vec<usize> {
 }
 
 /// NDCG at every k from 1 to `CURVE_MAX_K` per ranker (board order), with the bootstrap
-/// interval: one more build, with few randomization resamples because only the rankers'
-/// intervals are drawn. The screen's plot and the report's picture both come from here.
+/// interval from the board's own resamples: NDCG only, no tests, no pool bias. The screen's plot and the report's picture both come from here.
 pub fn curves(
     snapshot: &Snapshot,
     settings: &ScoreSettings,
 ) -> Result<Vec<(String, Vec<CurvePoint>)>, ScoreError> {
-    let curve_board = scoreboard::build(
-        snapshot,
-        &ScoreSettings {
-            ks: (1..=CURVE_MAX_K).collect(),
-            randomization_resamples: 100,
-            ..settings.clone()
-        },
-    )?;
-    Ok(curve_board
+    let metrics: Vec<Metric> = (1..=CURVE_MAX_K)
+        .map(|k| Metric::at(MetricKind::Ndcg, k))
+        .collect();
+    let (_, per_ranker) = scoreboard::metric_intervals(snapshot, settings, &metrics)?;
+    Ok(snapshot
         .rankers
         .iter()
-        .map(|r| {
+        .zip(per_ranker)
+        .map(|(ranker, intervals)| {
             let points = (1..=CURVE_MAX_K)
-                .filter_map(|k| {
-                    let m = r.metrics.get(&format!("ndcg@{k}"))?;
-                    Some(CurvePoint {
-                        k,
-                        mean: m.mean,
-                        low: m.ci_low,
-                        high: m.ci_high,
-                    })
+                .zip(intervals)
+                .map(|(k, ci)| CurvePoint {
+                    k,
+                    mean: ci.mean,
+                    low: ci.low,
+                    high: ci.high,
                 })
                 .collect();
-            (r.ranker.clone(), points)
+            (ranker.clone(), points)
         })
         .collect())
 }
@@ -286,25 +280,30 @@ fn reviewer_sensitivity(
     scale: usize,
 ) -> Result<Sensitivity, ScoreError> {
     let keys = ndcg_keys(&settings.ks);
-    let quick = |grades: GradeSource| {
-        scoreboard::build(
-            snapshot,
-            &ScoreSettings {
-                grades,
-                bootstrap_resamples: 200,
-                randomization_resamples: 100,
-                ..settings.clone()
-            },
-        )
-    };
-    let panel_board = match settings.grades {
-        GradeSource::Panel => board.clone(),
-        _ => quick(GradeSource::Panel)?,
-    };
-    let panel_means: BTreeMap<String, Vec<f64>> = keys
+    let metrics: Vec<Metric> = settings
+        .ks
         .iter()
-        .map(|k| (k.clone(), means(&panel_board, k)))
+        .map(|&k| Metric::at(MetricKind::Ndcg, k))
         .collect();
+    // Means only: no resamples, tests or pool bias.
+    let quick = |grades: GradeSource| {
+        let settings = ScoreSettings {
+            grades,
+            bootstrap_resamples: 0,
+            ..settings.clone()
+        };
+        let (scored, per_ranker) = scoreboard::metric_intervals(snapshot, &settings, &metrics)?;
+        let means: BTreeMap<String, Vec<f64>> = keys
+            .iter()
+            .enumerate()
+            .map(|(m, key)| (key.clone(), per_ranker.iter().map(|r| r[m].mean).collect()))
+            .collect();
+        Ok::<_, ScoreError>((scored, means))
+    };
+    let panel_means: BTreeMap<String, Vec<f64>> = match settings.grades {
+        GradeSource::Panel => keys.iter().map(|k| (k.clone(), means(board, k))).collect(),
+        _ => quick(GradeSource::Panel)?.1,
+    };
     let graders: Vec<&String> = snapshot
         .reviewers
         .iter()
@@ -314,11 +313,11 @@ fn reviewer_sensitivity(
         .collect();
     let mut sensitivity = Vec::new();
     for reviewer in graders {
-        let own = quick(GradeSource::Reviewer(reviewer.clone()))?;
+        let (contexts_scored, own) = quick(GradeSource::Reviewer(reviewer.clone()))?;
         let by_key = keys
             .iter()
             .map(|k| {
-                let mine = means(&own, k);
+                let mine = own[k].clone();
                 let panel = &panel_means[k];
                 let tau = kendall_tau_b(&mine, panel);
                 let same = order_of(&mine) == order_of(panel);
@@ -330,7 +329,7 @@ fn reviewer_sensitivity(
                 .reviewer_index(reviewer)
                 .is_some_and(|r| snapshot.is_machine(r)),
             reviewer: reviewer.clone(),
-            contexts_scored: own.contexts_scored,
+            contexts_scored,
             by_key,
         });
     }

@@ -91,6 +91,9 @@ impl AgreementScreen {
                 quality::QualityChange::Training(list) => {
                     study.set_setting(keys::TRAINING_REVIEWERS, &list.join(","))?
                 }
+                quality::QualityChange::PanelRule(rule) => {
+                    study.set_setting(keys::PANEL_RULE, rule.label())?
+                }
                 quality::QualityChange::MachinesInPanel(on) => {
                     study.set_setting(keys::MACHINES_IN_PANEL, if on { "true" } else { "false" })?
                 }
@@ -188,6 +191,9 @@ impl AgreementScreen {
                 });
                 ui.separator();
                 if self.show_disagreements {
+                    if let Some(change) = quality::panel_rule_choice(ui, &model) {
+                        self.save_quality(ui.ctx(), path, change);
+                    }
                     self.settle.ui(ui, &model, path);
                     return;
                 }

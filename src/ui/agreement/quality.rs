@@ -5,6 +5,7 @@
 use crate::analysis::agreement::panel_review::PanelReview;
 use crate::analysis::agreement::reviewer_quality::MACHINE_CAUTION;
 use crate::analysis::views::agreement_view::AgreementModel;
+use crate::core::panel_rule::PanelRule;
 
 /// A setting the lead changed in this section, for the screen to write.
 #[derive(Debug, Clone, PartialEq)]
@@ -13,6 +14,8 @@ pub enum QualityChange {
     Training(Vec<String>),
     /// Whether machine judges count in the panel.
     MachinesInPanel(bool),
+    /// The study's panel rule for an unsettled pair.
+    PanelRule(PanelRule),
     /// Open the Scoreboard's estimates section for this machine judge.
     OpenEstimates(String),
 }
@@ -31,6 +34,35 @@ fn figure(x: f64) -> String {
 
 /// Where a machine judge's estimates are, said beside its agreement figures.
 pub const ESTIMATES_THERE: &str = "Estimates of every ranker's metrics from a machine judge corrected by a random human sample (prediction-powered inference) are on the Scoreboard (Ctrl+6), in its section \"Estimates from a machine judge\".";
+
+/// The study's panel rule for pairs nobody settled, which every figure from panel
+/// grades reads; returns the rule the lead chose.
+pub fn panel_rule_choice(ui: &mut egui::Ui, model: &AgreementModel) -> Option<QualityChange> {
+    let editable = !model.read_only && model.request.viewer.is_none();
+    let mut rule = model.panel_rule;
+    ui.horizontal(|ui| {
+        let label = ui.label("Panel grade of an unsettled pair:");
+        ui.add_enabled_ui(editable, |ui| {
+            egui::ComboBox::from_id_salt("panel-rule")
+                .selected_text(rule.label())
+                .show_ui(ui, |ui| {
+                    for choice in [
+                        PanelRule::LowerMedian,
+                        PanelRule::UpperMedian,
+                        PanelRule::MeanRounded,
+                    ] {
+                        ui.selectable_value(&mut rule, choice, choice.label())
+                            .on_hover_text(choice.words());
+                    }
+                })
+                .response
+                .labelled_by(label.id)
+        });
+    })
+    .response
+    .on_hover_text("Every figure made from panel grades follows it: scores, the Catalog, reviewer quality, this review and the median settling rule. `score --panel-grade` may choose another for one run.");
+    (rule != model.panel_rule).then_some(QualityChange::PanelRule(rule))
+}
 
 /// Gold pairs per reviewer, then the machine judges (or how to add one).
 /// Returns a setting the lead changed (training, machines in the panel).
@@ -168,7 +200,7 @@ fn machines_against_panel(ui: &mut egui::Ui, model: &AgreementModel) {
                 ui.label(&m.reviewer);
                 ui.label(m.n.to_string());
                 ui.label(figure(m.kappa))
-                    .on_hover_text("Cohen (1960), judge against the panel grade (settled, else the people's lower median)");
+                    .on_hover_text("Cohen (1960), judge against the panel grade (settled, else the study's panel rule over the people)");
                 ui.label(figure(m.kappa_quadratic))
                     .on_hover_text("Cohen (1968), quadratic weights");
                 ui.label(figure(m.ac1)).on_hover_text("Gwet (2008)");
@@ -201,7 +233,7 @@ pub fn strictness(ui: &mut egui::Ui, model: &AgreementModel) {
             }
             ui.strong("grades");
             ui.strong("mean difference from the others")
-                .on_hover_text("Own level minus the lower median of the other reviewers' levels on the same pair; below 0 means stricter.");
+                .on_hover_text("Own level minus the others' panel grade on the same pair (the study's panel rule over the other reviewers' levels); below 0 means stricter.");
             ui.strong("gold pairs right");
             ui.end_row();
             for s in &review.strictness {
@@ -235,7 +267,7 @@ pub fn strictness(ui: &mut egui::Ui, model: &AgreementModel) {
 
 pub fn drift(ui: &mut egui::Ui, review: &PanelReview) {
     ui.heading("Agreement with the others by day");
-    ui.weak("Share of a reviewer's grades equal to the lower median of the others' levels on the same pair, by the day graded (UTC). A falling share can mean drift; few pairs on a day mean a wide margin.");
+    ui.weak("Share of a reviewer's grades equal to the others' panel grade on the same pair, by the day graded (UTC). A falling share can mean drift; few pairs on a day mean a wide margin.");
     if review.days.is_empty() {
         ui.weak("No pairs were graded by two or more reviewers yet.");
         return;

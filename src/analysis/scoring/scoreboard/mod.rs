@@ -440,6 +440,37 @@ fn board_cautions(
     cautions
 }
 
+/// Per ranker (study order), per metric of `metrics`: the mean over the scored contexts
+/// with its bootstrap interval, drawn from the very resamples `build` draws (same seed,
+/// same contexts), so a figure here equals the board's; with `bootstrap_resamples` 0,
+/// means only. Also returns the number of contexts scored. For the curves and the
+/// reviewer sensitivity, which need no tests, pool bias or other metrics.
+pub fn metric_intervals(
+    snapshot: &Snapshot,
+    settings: &ScoreSettings,
+    metrics: &[Metric],
+) -> Result<(usize, Vec<Vec<stats::Interval>>), ScoreError> {
+    let scale_index = checked_scale(snapshot, settings)?;
+    let judged = JudgedContexts::build(snapshot, scale_index, settings, &settings.grades);
+    let values: Vec<Vec<Vec<f64>>> = snapshot
+        .lists
+        .iter()
+        .map(|lists| judged.ranker_values(lists, metrics, &judged.scored))
+        .collect();
+    let series: Vec<&[f64]> = values.iter().flatten().map(Vec::as_slice).collect();
+    let intervals = stats::bootstrap_means(
+        &series,
+        settings.bootstrap_resamples,
+        0.95,
+        seed_for(settings.seed, &["bootstrap"]),
+    );
+    let per_ranker = intervals
+        .chunks(metrics.len().max(1))
+        .map(<[stats::Interval]>::to_vec)
+        .collect();
+    Ok((judged.scored.len(), per_ranker))
+}
+
 /// Every ranker's mean of `kind` at each cut-off of `ks` (NaN where not scored).
 fn means_at(rankers: &[RankerScores], ks: &[usize], kind: MetricKind) -> Vec<Vec<f64>> {
     rankers

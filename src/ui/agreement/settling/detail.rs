@@ -134,7 +134,8 @@ fn grades_and_settlement(ui: &mut egui::Ui, model: &AgreementModel, d: &Disagree
         }
     });
     ui.label(format!(
-        "Panel grade without settling (lower median): {}",
+        "Panel grade without settling ({}): {}",
+        model.panel_rule.label(),
         level_text(model, d.panel_level)
     ));
     if let Some(s) = &d.settled {

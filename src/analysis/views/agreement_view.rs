@@ -190,12 +190,15 @@ fn review_grades(
     Ok(grades)
 }
 
+/// Context id → its anchor item's id.
+type Anchors = BTreeMap<String, String>;
+
 /// Each context's anchor item, and the cards of the items the disagreements show.
 fn disagreement_cards(
     study: &Study,
     snapshot: &Snapshot,
     review: &PanelReview,
-) -> Result<(BTreeMap<String, String>, BTreeMap<String, ItemCard>), StudyError> {
+) -> Result<(Anchors, BTreeMap<String, ItemCard>), StudyError> {
     let anchors: BTreeMap<String, String> = snapshot
         .contexts
         .iter()

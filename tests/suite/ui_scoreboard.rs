@@ -443,3 +443,40 @@ fn every_curve_in_the_legend_carries_its_rankers_colour() {
         }
     }
 }
+
+/// The screen's model arrives in two steps: the table (what `score` computes) first,
+/// then curves, sensitivity, agreement and gaps. Together they are exactly the model
+/// `view scoreboard` prints, and while the rest is pending the screen says so.
+#[test]
+fn the_table_comes_first_and_the_rest_completes_the_same_model() {
+    use plumbline::analysis::views::scoreboard_view::{build, build_rest, build_table};
+    let (_dir, path) = demo_copy();
+    let snapshot = plumbline::study::Study::open(&path)
+        .unwrap()
+        .snapshot()
+        .unwrap();
+    let whole = build(&snapshot, Default::default()).unwrap();
+    let mut table = build_table(&snapshot, Default::default()).unwrap();
+    assert!(table.rest_pending && table.curves.is_empty() && table.gaps.is_empty());
+    assert_eq!(
+        serde_json::to_string(&table.board).unwrap(),
+        serde_json::to_string(&whole.board).unwrap()
+    );
+
+    let mut h = harness(&path);
+    h.state_mut().scoreboard.model = Some(table.clone());
+    h.state_mut().scoreboard.wanted = table.settings.clone();
+    h.step();
+    assert!(
+        h.query_by_label_contains("The table is ready; computing the NDCG curves")
+            .is_some()
+    );
+
+    let rest = build_rest(&snapshot, &table).unwrap();
+    table.add_rest(rest);
+    assert!(!table.rest_pending);
+    assert_eq!(
+        serde_json::to_string(&table).unwrap(),
+        serde_json::to_string(&whole).unwrap()
+    );
+}

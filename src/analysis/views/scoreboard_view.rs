@@ -125,6 +125,9 @@ pub struct ScoreboardModel {
     pub differences: BTreeMap<String, BTreeMap<String, Differences>>,
     /// Per NDCG key: each ranker's per-context histogram (board order).
     pub histograms: BTreeMap<String, Vec<[usize; 10]>>,
+    /// True while curves, sensitivity, agreement and gaps are still being computed.
+    #[serde(skip)]
+    pub rest_pending: bool,
 }
 
 fn ndcg_keys(ks: &[usize]) -> Vec<String> {
@@ -232,41 +235,85 @@ pub const COMPARISON_COLUMNS: [(&str, &str); 8] = [
     ),
 ];
 
-/// Builds the model. Heavy (several scoreboards): the screen runs it on a job thread.
+/// Builds the whole model (what `plumbline view scoreboard` prints): the table first,
+/// then the rest.
 pub fn build(snapshot: &Snapshot, requested: ScoreSettings) -> Result<ScoreboardModel, ScoreError> {
+    let mut model = build_table(snapshot, requested)?;
+    let rest = build_rest(snapshot, &model)?;
+    model.add_rest(rest);
+    Ok(model)
+}
+
+/// What the screen shows first, at the cost of `plumbline score`: the board with its
+/// tables, differences and histograms. Curves, reviewer sensitivity, agreement and gaps
+/// are empty until [`build_rest`] fills them (`rest_pending`).
+pub fn build_table(
+    snapshot: &Snapshot,
+    requested: ScoreSettings,
+) -> Result<ScoreboardModel, ScoreError> {
     let mut settings = requested;
     // The screen offers no panel rule of its own: it scores under the study's.
     settings.panel_grade = snapshot.panel_rule;
     let board = scoreboard::build(snapshot, &settings)?;
     // The baseline as resolved by the one rule (`scoreboard::resolve_baseline`).
     settings.baseline = board.settings.baseline.clone();
+    settings.scale = Some(board.scale.clone());
+    let keys = ndcg_keys(&settings.ks);
+    Ok(ScoreboardModel {
+        differences: differences_by_ranker(&board, &keys),
+        histograms: histograms(&board, &keys),
+        choices: choices(snapshot),
+        settings,
+        board,
+        curves: Vec::new(),
+        panel_means: BTreeMap::new(),
+        sensitivity: Vec::new(),
+        agreement: None,
+        gaps: Vec::new(),
+        rest_pending: true,
+    })
+}
+
+/// The figures the screen shows after the table.
+#[derive(Debug, Clone)]
+pub struct RestOfModel {
+    curves: Vec<(String, Vec<CurvePoint>)>,
+    panel_means: BTreeMap<String, Vec<f64>>,
+    sensitivity: Vec<SensitivityRow>,
+    agreement: Option<AgreementReport>,
+    gaps: Vec<GapPair>,
+}
+
+/// The NDCG curves with their bands, reviewer sensitivity, agreement and the gaps for
+/// a model from [`build_table`] on the same snapshot.
+pub fn build_rest(snapshot: &Snapshot, model: &ScoreboardModel) -> Result<RestOfModel, ScoreError> {
+    let settings = &model.settings;
+    let board = &model.board;
     let scale = snapshot
         .scale_index(&board.scale)
         .ok_or_else(|| ScoreError::UnknownScale(board.scale.clone()))?;
-    settings.scale = Some(board.scale.clone());
-
-    let curves = curves(snapshot, &settings)?;
-
-    let keys = ndcg_keys(&settings.ks);
-    let (panel_means, sensitivity) = reviewer_sensitivity(snapshot, &settings, &board, scale)?;
-    let agreement = Some(agreement::with_defaults(snapshot, scale, None));
+    let curves = curves(snapshot, settings)?;
+    let (panel_means, sensitivity) = reviewer_sensitivity(snapshot, settings, board, scale)?;
     let gap_k = settings.ks.iter().copied().max().unwrap_or(10);
-    let gaps = gap_pairs(snapshot, scale, &settings.grades, gap_k);
-    let choices = choices(snapshot);
-    let differences = differences_by_ranker(&board, &keys);
-    let histograms = histograms(&board, &keys);
-    Ok(ScoreboardModel {
-        differences,
-        histograms,
-        settings,
-        board,
+    Ok(RestOfModel {
         curves,
         panel_means,
         sensitivity,
-        agreement,
-        gaps,
-        choices,
+        agreement: Some(agreement::with_defaults(snapshot, scale, None)),
+        gaps: gap_pairs(snapshot, scale, &settings.grades, gap_k),
     })
+}
+
+impl ScoreboardModel {
+    /// Fills in what [`build_rest`] computed.
+    pub fn add_rest(&mut self, rest: RestOfModel) {
+        self.curves = rest.curves;
+        self.panel_means = rest.panel_means;
+        self.sensitivity = rest.sensitivity;
+        self.agreement = rest.agreement;
+        self.gaps = rest.gaps;
+        self.rest_pending = false;
+    }
 }
 
 /// Panel means per NDCG key, and each grader's own means with Kendall's tau-b against

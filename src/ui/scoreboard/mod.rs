@@ -10,6 +10,7 @@ pub mod plots;
 mod tables;
 
 use std::path::{Path, PathBuf};
+use std::sync::Arc;
 
 use super::jobs::{JobResult, Task};
 use crate::analysis::judged::judgments::GradeSource;
@@ -17,7 +18,11 @@ use crate::analysis::scoring::scoreboard::{ScoreSettings, Scoreboard, Segment};
 pub use crate::analysis::views::scoreboard_view::*;
 use crate::core::metrics::{GainKind, Unjudged};
 use crate::study::Study;
+use crate::study::snapshot::Snapshot;
 use tables::{comparisons, coverage_warning, ranker_table, sensitivity};
+
+/// Said while the figures after the table are computed.
+const REST_PENDING: &str = "The table is ready; computing the NDCG curves with their bands, reviewer sensitivity, agreement and the gaps…";
 
 /// What the screen asks the workbench to do.
 pub enum ScoreboardAction {
@@ -29,17 +34,27 @@ pub enum ScoreboardAction {
 /// Queues the gaps for a reviewer: (reviewer, scale, pairs queued, pairs new to their queue).
 type GapJob = Task<JobResult<(String, String, usize, usize)>>;
 
-/// Reads the study and builds the model for `settings`; runs on a job thread.
+/// The table's model and the snapshot it came from, kept for the rest of the model.
+type TableJob = Task<JobResult<(ScoreboardModel, Arc<Snapshot>)>>;
+
+/// Reads the study and builds the table's model for `settings` (the rest follows on
+/// [`load_rest`]); runs on a job thread.
 pub fn load(
     path: &Path,
     settings: ScoreSettings,
     lists_files: &[PathBuf],
-) -> JobResult<ScoreboardModel> {
+) -> JobResult<(ScoreboardModel, Arc<Snapshot>)> {
     let mut snapshot = Study::open(path)?.snapshot()?;
     for file in lists_files {
         snapshot.add_rankings_file(file)?;
     }
-    Ok(build(&snapshot, settings)?)
+    let model = build_table(&snapshot, settings)?;
+    Ok((model, Arc::new(snapshot)))
+}
+
+/// Curves, sensitivity, agreement and gaps for a table's model; runs on a job thread.
+pub fn load_rest(snapshot: &Snapshot, model: &ScoreboardModel) -> JobResult<RestOfModel> {
+    Ok(build_rest(snapshot, model)?)
 }
 
 /// The screen's state: the settings being edited, the last model and running jobs.
@@ -49,7 +64,9 @@ pub struct ScoreboardScreen {
     pub focus_k: usize,
     pub model: Option<ScoreboardModel>,
     pub error: Option<String>,
-    loading: Task<JobResult<ScoreboardModel>>,
+    loading: TableJob,
+    /// Curves, sensitivity, agreement and gaps, computed after the table.
+    rest: Task<JobResult<RestOfModel>>,
     /// The settings the running computation was asked for.
     sent: Option<ScoreSettings>,
     computed_for: Option<ScoreSettings>,
@@ -79,7 +96,8 @@ impl Default for ScoreboardScreen {
             focus_k: 10,
             model: None,
             error: None,
-            loading: Task::named("scoreboard-load"),
+            loading: Task::named("scoreboard-table"),
+            rest: Task::named("scoreboard-rest"),
             sent: None,
             computed_for: None,
             entered: false,
@@ -103,15 +121,15 @@ impl ScoreboardScreen {
         self.entered = true;
     }
 
-    /// Whether a computation is in flight.
+    /// Whether a computation (the table or the rest of the model) is in flight.
     pub fn is_loading(&self) -> bool {
-        self.loading.is_running()
+        self.loading.is_running() || self.rest.is_running()
     }
 
     /// True when the model on screen was computed for the settings the controls show.
     pub fn is_current(&self) -> bool {
         self.model.is_some()
-            && !self.loading.is_running()
+            && !self.is_loading()
             && self.computed_for.as_ref() == Some(&self.wanted)
     }
 
@@ -123,7 +141,10 @@ impl ScoreboardScreen {
         if let Some(result) = self.loading.poll() {
             let sent = self.sent.take();
             match result {
-                Ok(model) => {
+                Ok((model, snapshot)) => {
+                    let for_rest = model.clone();
+                    self.rest
+                        .start(ctx, move || load_rest(&snapshot, &for_rest));
                     if sent.as_ref() == Some(&self.wanted) {
                         // Adopt what the job filled in (scale, baseline) without recomputing.
                         self.wanted = model.settings.clone();
@@ -145,6 +166,7 @@ impl ScoreboardScreen {
                 }
             }
         }
+        self.collect_rest();
         if !self.loading.is_running()
             && (entered || self.computed_for.as_ref() != Some(&self.wanted))
         {
@@ -154,6 +176,17 @@ impl ScoreboardScreen {
             self.entered = false;
             let files = self.lists_files.clone();
             self.loading.start(ctx, move || load(&p, settings, &files));
+        }
+    }
+
+    /// Adds the rest of the model when it lands for the model on screen.
+    fn collect_rest(&mut self) {
+        if let Some(result) = self.rest.poll() {
+            match (result, self.model.as_mut()) {
+                (Ok(rest), Some(model)) if model.rest_pending => model.add_rest(rest),
+                (Err(e), _) => self.error = Some(e.to_string()),
+                _ => {}
+            }
         }
     }
 
@@ -193,6 +226,9 @@ impl ScoreboardScreen {
             if self.loading.is_running() {
                 ui.spinner();
                 ui.weak("Computing…");
+            } else if self.rest.is_running() {
+                ui.spinner();
+                ui.weak(REST_PENDING);
             }
         });
         let Some(model) = self.model.take() else {
@@ -360,13 +396,20 @@ impl ScoreboardScreen {
         }
         tables::pool_bias(ui, board, focus);
         ui.add_space(10.0);
-        self.plots_and_candidate(ui, model, focus);
-        ui.add_space(10.0);
-        sensitivity(ui, model, focus);
-        ui.add_space(10.0);
-        self.gaps(ui, ctx, path, model);
-        ui.add_space(10.0);
-        self.export(ui, ctx, model);
+        if model.rest_pending {
+            ui.horizontal(|ui| {
+                ui.spinner();
+                ui.weak(REST_PENDING);
+            });
+        } else {
+            self.plots_and_candidate(ui, model, focus);
+            ui.add_space(10.0);
+            sensitivity(ui, model, focus);
+            ui.add_space(10.0);
+            self.gaps(ui, ctx, path, model);
+            ui.add_space(10.0);
+            self.export(ui, ctx, model);
+        }
         if let Some(m) = &self.message {
             ui.add_space(6.0);
             ui.label(m);

@@ -168,3 +168,67 @@ fn the_screens_sit_in_folders() {
         flat.len()
     );
 }
+
+/// Lengths of the functions of one file: from the `fn` line to the closing brace at the
+/// same indentation (rustfmt's layout), so strings and comments inside do not matter.
+fn function_lengths(path: &Path) -> Vec<(String, usize, usize)> {
+    let lines: Vec<String> = std::fs::read_to_string(path)
+        .unwrap()
+        .lines()
+        .map(str::to_string)
+        .collect();
+    let mut found = Vec::new();
+    for (start, line) in lines.iter().enumerate() {
+        let body = line.trim_start();
+        let indent = &line[..line.len() - body.len()];
+        let signature = body
+            .trim_start_matches("pub ")
+            .trim_start_matches("pub(crate) ")
+            .trim_start_matches("pub(super) ")
+            .trim_start_matches("const ")
+            .trim_start_matches("async ");
+        let Some(rest) = signature.strip_prefix("fn ") else {
+            continue;
+        };
+        let name: String = rest
+            .chars()
+            .take_while(|c| c.is_alphanumeric() || *c == '_')
+            .collect();
+        let closing = format!("{indent}}}");
+        if let Some(end) = lines[start..].iter().position(|l| *l == closing) {
+            let declaration_only = lines[start..start + end].iter().any(|l| l.ends_with(';'))
+                && !lines[start..start + end].iter().any(|l| l.ends_with('{'));
+            if !declaration_only {
+                found.push((name, start + 1, end + 1));
+            }
+        }
+    }
+    found
+}
+
+/// No function in `src` is longer than 80 lines, so each reads in one sitting.
+#[test]
+fn every_function_reads_in_one_sitting() {
+    let mut long = Vec::new();
+    for file in rust_files(&src("")) {
+        for (name, line, length) in function_lengths(&file) {
+            if length > 80 {
+                long.push(format!("{}:{line} {name}: {length} lines", file.display()));
+            }
+        }
+    }
+    assert!(long.is_empty(), "functions over 80 lines: {long:#?}");
+}
+
+/// The length check counts a function to its own closing brace, not a nested one.
+#[test]
+fn the_length_check_counts_to_the_functions_own_brace() {
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("x.rs");
+    let mut text = String::from("pub fn long() {\n    let s = \"}\n}\";\n    if true {\n    }\n");
+    text.push_str(&"    let _ = 1;\n".repeat(80));
+    text.push_str("}\n\nfn short() {}\n");
+    std::fs::write(&file, text).unwrap();
+    let lengths = function_lengths(&file);
+    assert_eq!(lengths, vec![("long".to_string(), 1, 86)]);
+}

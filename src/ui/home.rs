@@ -128,7 +128,7 @@ fn reviewers(ui: &mut egui::Ui, model: &HomeModel, scale: &str) {
                 } else {
                     ui.label(&r.reviewer);
                 }
-                let outside = r.grades.saturating_sub(r.queue.map_or(0, |q| q.0 as usize));
+                let outside = r.outside_queue();
                 ui.label(format!("{} pairs graded", r.grades)).on_hover_text(format!(
                     "Pairs {} graded on {scale}, in the queue or not; {outside} of them lie \
                      outside the queue (a pilot block, an import, a gap)",

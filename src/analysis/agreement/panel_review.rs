@@ -48,10 +48,25 @@ pub struct DayAgreement {
     pub reviewer: String,
     /// The day, the first ten characters of `graded_at` (`YYYY-MM-DD`).
     pub day: String,
-    /// Grades that day equal to the lower median of the others' levels.
+    /// Grades that day equal to the others' panel grade (the study's panel rule over
+    /// the other reviewers' levels).
     pub agreed: usize,
     /// Grades that day on pairs where at least one other reviewer gave a level.
     pub compared: usize,
+}
+
+impl GoldAccuracy {
+    /// Share of the graded gold pairs given the known level.
+    pub fn share(&self) -> f64 {
+        self.correct as f64 / self.graded as f64
+    }
+}
+
+impl DayAgreement {
+    /// Share of that day's compared grades equal to the others' panel grade.
+    pub fn share(&self) -> f64 {
+        self.agreed as f64 / self.compared as f64
+    }
 }
 
 /// A disagreeing pair with everything needed to settle it.

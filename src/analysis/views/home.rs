@@ -37,6 +37,14 @@ pub struct ReviewerProgress {
     pub queue: Option<(u64, u64)>,
 }
 
+impl ReviewerProgress {
+    /// Grades given outside the reviewer's queue (a pilot block, an import, a gap).
+    pub fn outside_queue(&self) -> usize {
+        self.grades
+            .saturating_sub(self.queue.map_or(0, |(done, _)| done as usize))
+    }
+}
+
 /// A running pilot as Home mentions it.
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct PilotSummary {

@@ -253,7 +253,7 @@ pub fn strictness(ui: &mut egui::Ui, model: &AgreementModel) {
                         "{} of {} ({:.0} %)",
                         g.correct,
                         g.graded,
-                        100.0 * g.correct as f64 / g.graded as f64
+                        100.0 * g.share()
                     )),
                     None => ui.weak("none graded"),
                 };
@@ -286,11 +286,7 @@ pub fn drift(ui: &mut egui::Ui, review: &PanelReview) {
                     .iter()
                     .find(|x| x.reviewer == s.reviewer && &x.day == d)
                 {
-                    Some(x) => ui.label(format!(
-                        "{:.0} % of {}",
-                        100.0 * x.agreed as f64 / x.compared as f64,
-                        x.compared
-                    )),
+                    Some(x) => ui.label(format!("{:.0} % of {}", 100.0 * x.share(), x.compared)),
                     None => ui.weak("—"),
                 };
             }

@@ -10,108 +10,18 @@ use std::path::{Path, PathBuf};
 
 use super::image_cache::ImageCache;
 use super::jobs::{JobResult, Task};
-use crate::analysis::views::catalog_view::{ContextLists, ContextView};
+use crate::analysis::views::catalog_model;
+pub use crate::analysis::views::catalog_model::{CatalogModel, RankerRow};
+use crate::analysis::views::catalog_view::ContextView;
 use crate::study::Problem;
 use crate::study::Study;
-use crate::study::cards::{ContextCard, ItemCard};
 use crate::study::import::FileReport;
-use crate::study::settings::keys;
 use crate::ui::frame::study_picker::Asked;
 use tables::{ContextColumn, ItemColumn, Sort};
 
-/// One ranker's row.
-#[derive(Debug, Clone, PartialEq)]
-pub struct RankerRow {
-    pub name: String,
-    pub contexts: usize,
-    pub entries: usize,
-}
-
-/// What the Catalog shows, loaded on a thread.
-#[derive(Debug, Clone, Default)]
-pub struct CatalogModel {
-    pub items: Vec<ItemCard>,
-    pub contexts: Vec<ContextCard>,
-    pub rankers: Vec<RankerRow>,
-    pub catalog_dir: Option<PathBuf>,
-    /// In a reviewer's copy: whom it was handed out to. The context view is then absent.
-    pub copy_for: Option<String>,
-    /// The context view's index (lead's studies only; never built for a reviewer copy).
-    pub lists: Option<ContextLists>,
-    /// Lower-cased text searched per item / context.
-    item_text: Vec<String>,
-    context_text: Vec<String>,
-}
-
-impl CatalogModel {
-    /// Whether the study has no catalog yet (a new study): the import panel opens.
-    pub fn is_empty(&self) -> bool {
-        self.items.is_empty() && self.contexts.is_empty() && self.rankers.is_empty()
-    }
-}
-
-/// Reads the catalog in one read transaction; runs on a job thread.
+/// Reads the catalog; runs on a job thread.
 pub fn load(path: &Path) -> JobResult<CatalogModel> {
-    let study = Study::open(path)?;
-    let model = study.read_together(|study| {
-        let snapshot = study.snapshot()?;
-        let items = study.item_cards()?;
-        let contexts = study.context_cards()?;
-        let copy_for = study
-            .setting(keys::HANDED_OUT_TO)?
-            .filter(|r| !r.is_empty());
-        let catalog_dir = study.catalog_dir()?;
-        Ok((snapshot, items, contexts, copy_for, catalog_dir))
-    })?;
-    let (snapshot, items, contexts, copy_for, catalog_dir) = model;
-    let rankers = snapshot
-        .rankers
-        .iter()
-        .zip(&snapshot.lists)
-        .map(|(name, lists)| RankerRow {
-            name: name.clone(),
-            contexts: lists.iter().filter(|l| !l.is_empty()).count(),
-            entries: lists.iter().map(Vec::len).sum(),
-        })
-        .collect();
-    let item_text = items
-        .iter()
-        .map(|i| {
-            let attrs: Vec<String> = i
-                .attributes
-                .iter()
-                .map(|(k, v)| format!("{k} {v}"))
-                .collect();
-            format!(
-                "{} {} {} {} {}",
-                i.id,
-                i.title,
-                i.category,
-                i.description,
-                attrs.join(" ")
-            )
-            .to_lowercase()
-        })
-        .collect();
-    let context_text = contexts
-        .iter()
-        .map(|c| {
-            let anchor = c.anchor_item_id.as_deref().unwrap_or_default();
-            format!("{} {} {} {} {anchor}", c.id, c.kind, c.text, c.segment).to_lowercase()
-        })
-        .collect();
-    // Other reviewers' grades are the lead's to see: a reviewer copy gets no view at all.
-    let lists = copy_for.is_none().then(|| ContextLists::build(snapshot));
-    Ok(CatalogModel {
-        items,
-        contexts,
-        rankers,
-        catalog_dir,
-        copy_for,
-        lists,
-        item_text,
-        context_text,
-    })
+    Ok(catalog_model::build(&Study::open(path)?)?)
 }
 
 #[derive(Clone, Copy, PartialEq, Eq, Default, Debug)]

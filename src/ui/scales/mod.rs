@@ -9,82 +9,17 @@ pub mod editor;
 pub mod gold;
 pub mod pilot;
 
+use crate::analysis::views::scales_view;
+pub use crate::analysis::views::scales_view::{ScaleEntry, ScalesModel};
 use crate::core::agreement::CollapseMap;
 use crate::core::scale::{self, Scale};
 use crate::study::Study;
-use crate::study::pilot::PilotStatus;
 use crate::study::scales::Saved;
 use editor::{Editor, MapEditor};
 
-/// One scale and how many grade events refer to it.
-#[derive(Debug, Clone)]
-pub struct ScaleEntry {
-    pub scale: Scale,
-    /// Grade history rows of the scale (undos included): whether editing it makes a version.
-    pub grades: u64,
-    /// (grades in force, pairs they cover), as Home counts grades in force.
-    pub in_force: (u64, u64),
-}
-
-/// Everything the Scales screen shows, read on a job thread.
-#[derive(Debug, Clone, Default)]
-pub struct ScalesModel {
-    pub scales: Vec<ScaleEntry>,
-    /// The scale the desk grades on (setting, else the busiest scale).
-    pub active: Option<String>,
-    pub pilot: Vec<String>,
-    /// The running pilot's reviewers and their shares (None when no pilot runs).
-    pub pilot_status: Option<PilotStatus>,
-    /// The people on the panel, who may grade a pilot.
-    pub people: Vec<String>,
-    /// Pool pairs a pilot can use (the pool without gold pairs).
-    pub pilot_room: usize,
-    /// Pairs in the pool, gold pairs included (Home's "Whole pool").
-    pub pool_size: usize,
-    pub maps: Vec<(String, CollapseMap)>,
-    /// Gold pairs of every scale: (scale, context, item, known level, rationale).
-    pub gold: Vec<(String, String, String, u8, String)>,
-    pub read_only: bool,
-}
-
-impl ScalesModel {
-    pub fn entry(&self, name: &str) -> Option<&ScaleEntry> {
-        self.scales.iter().find(|e| e.scale.name == name)
-    }
-}
-
 /// Reads the scales, maps and pilot; runs on a job thread.
 pub fn load(path: &Path) -> JobResult<ScalesModel> {
-    let study = Study::open(path)?;
-    let snapshot = study.snapshot()?;
-    let mut scales = Vec::new();
-    for s in &snapshot.scales {
-        scales.push(ScaleEntry {
-            scale: s.clone(),
-            grades: study.grade_count(&s.name)?,
-            in_force: study.grades_in_force(&s.name)?,
-        });
-    }
-    let mut gold = Vec::new();
-    for s in &snapshot.scales {
-        for (c, i, v, why) in study.gold_with_rationale(&s.name)? {
-            gold.push((s.name.clone(), c, i, v, why));
-        }
-    }
-    let active = (!snapshot.scales.is_empty())
-        .then(|| snapshot.scales[snapshot.active_scale_index()].name.clone());
-    Ok(ScalesModel {
-        scales,
-        active,
-        pilot: study.pilot_scales()?,
-        pilot_status: study.pilot_status()?,
-        people: study.people()?,
-        pilot_room: study.pilot_room()?,
-        pool_size: study.pool()?.len(),
-        maps: study.collapse_maps()?,
-        gold,
-        read_only: study.is_read_only(),
-    })
+    Ok(scales_view::build(&Study::open(path)?)?)
 }
 
 /// A write the screen asks for; applied on a job thread.

@@ -135,7 +135,7 @@ impl PilotForm {
                 .labelled_by(label.id);
         });
         // On its own line, so it wraps in the column instead of widening it.
-        let gold = model.pool_size.saturating_sub(room);
+        let gold = model.gold_in_pool();
         ui.add(
             egui::Label::new(
                 egui::RichText::new(format!(

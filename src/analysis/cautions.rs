@@ -64,26 +64,8 @@ pub enum Caution {
         /// Contexts scored.
         scored: usize,
     },
-    /// Kappa is not comparable across scales with different numbers of levels.
-    KappaAcrossLevelCounts,
-    /// The trial's rows share one pilot sample: the pairs graded on every scale.
-    SharedPilotSample,
-    /// The pilot has fewer than 100 common pairs.
-    FewCommonPairs {
-        /// Common pairs.
-        pairs: usize,
-    },
-    /// How wide the trial's alpha intervals are on average, and how to narrow them.
-    AlphaIntervalWidth {
-        /// Common pairs.
-        pairs: usize,
-        /// Mean half-width of the rows' alpha intervals.
-        half_width: f64,
-    },
-    /// Some uncollapsed scales' alpha intervals overlap.
-    AlphaIntervalsOverlap,
-    /// Separating rankers offline picks candidates; it does not replace an online test.
-    SeparationIsOffline,
+    /// A caution beside the scale trial.
+    Trial(TrialCaution),
     /// One level holds most grades: kappa misleads (Feinstein & Cicchetti 1990).
     DominantLevel {
         /// The level.
@@ -111,6 +93,73 @@ pub enum Caution {
     },
     /// A caution beside the estimates from a machine judge (`score --machine`).
     Estimate(EstimateCaution),
+}
+
+/// Why a row of the scale trial could mislead (`analysis::trial`).
+#[derive(Debug, Clone, PartialEq)]
+pub enum TrialCaution {
+    /// Kappa is not comparable across scales with different numbers of levels.
+    KappaAcrossLevelCounts,
+    /// The trial's rows share one pilot sample: the pairs graded on every scale.
+    SharedPilotSample,
+    /// The pilot has fewer than 100 common pairs.
+    FewCommonPairs {
+        /// Common pairs.
+        pairs: usize,
+    },
+    /// How wide the trial's alpha intervals are on average, and how to narrow them.
+    AlphaIntervalWidth {
+        /// Common pairs.
+        pairs: usize,
+        /// Mean half-width of the rows' alpha intervals.
+        half_width: f64,
+    },
+    /// Some uncollapsed scales' alpha intervals overlap.
+    AlphaIntervalsOverlap,
+    /// Separating rankers offline picks candidates; it does not replace an online test.
+    SeparationIsOffline,
+    /// Reviewers with a level on some compared scales but not on all are left out of
+    /// every row, so that the rows compare the scales within the same reviewers.
+    ReviewersLeftOut {
+        /// Their names.
+        reviewers: Vec<String>,
+    },
+}
+
+impl TrialCaution {
+    /// The stable code scripts read.
+    pub fn code(&self) -> &'static str {
+        match self {
+            TrialCaution::KappaAcrossLevelCounts => "kappa_across_level_counts",
+            TrialCaution::SharedPilotSample => "shared_pilot_sample",
+            TrialCaution::FewCommonPairs { .. } => "few_common_pairs",
+            TrialCaution::AlphaIntervalWidth { .. } => "alpha_interval_width",
+            TrialCaution::AlphaIntervalsOverlap => "alpha_intervals_overlap",
+            TrialCaution::SeparationIsOffline => "separation_is_offline",
+            TrialCaution::ReviewersLeftOut { .. } => "reviewers_left_out",
+        }
+    }
+
+    /// The caution in words.
+    pub fn words(&self) -> String {
+        match self {
+            TrialCaution::KappaAcrossLevelCounts => "Kappa values are not comparable across scales with different numbers of levels; compare Krippendorff's alpha.".into(),
+            TrialCaution::SharedPilotSample => "Rows are computed on the pairs graded on every scale, so they share one pilot sample.".into(),
+            TrialCaution::FewCommonPairs { pairs } => {
+                format!("The pilot has only {pairs} common pairs; intervals are wide.")
+            }
+            TrialCaution::AlphaIntervalWidth { pairs, half_width } => format!(
+                "A pilot of {pairs} pairs gives alpha intervals about ±{half_width:.2} wide; quadrupling the pairs roughly halves them."
+            ),
+            TrialCaution::AlphaIntervalsOverlap => "Some alpha intervals overlap: those scales are not shown to differ by this pilot.".into(),
+            TrialCaution::SeparationIsOffline => "Separating rankers offline picks candidates for an online experiment; it does not replace one.".into(),
+            TrialCaution::ReviewersLeftOut { reviewers } => format!(
+                "{} gave no level on some of the compared scales and {} left out of every row, so that every row compares the scales within the same reviewers.",
+                reviewers.join(", "),
+                if reviewers.len() == 1 { "is" } else { "are" }
+            ),
+        }
+    }
 }
 
 /// Why an estimate from a machine judge corrected by the human sample could mislead
@@ -235,12 +284,7 @@ impl Caution {
             Caution::LowCoverage { .. } => "low_coverage",
             Caution::PoolBiasLow { .. } => "pool_bias_low",
             Caution::MissingLists { .. } => "missing_lists",
-            Caution::KappaAcrossLevelCounts => "kappa_across_level_counts",
-            Caution::SharedPilotSample => "shared_pilot_sample",
-            Caution::FewCommonPairs { .. } => "few_common_pairs",
-            Caution::AlphaIntervalWidth { .. } => "alpha_interval_width",
-            Caution::AlphaIntervalsOverlap => "alpha_intervals_overlap",
-            Caution::SeparationIsOffline => "separation_is_offline",
+            Caution::Trial(t) => t.code(),
             Caution::DominantLevel { .. } => "dominant_level",
             Caution::ThinKappa { .. } => "thin_kappa",
             Caution::FewAgreementUnits { .. } => "few_agreement_units",
@@ -307,16 +351,7 @@ impl Caution {
             } => format!(
                 "{ranker} (from {file}) has no list for {contexts} of the {scored} scored contexts; they count as empty lists, so every metric is 0 there."
             ),
-            Caution::KappaAcrossLevelCounts => "Kappa values are not comparable across scales with different numbers of levels; compare Krippendorff's alpha.".into(),
-            Caution::SharedPilotSample => "Rows are computed on the pairs graded on every scale, so they share one pilot sample.".into(),
-            Caution::FewCommonPairs { pairs } => {
-                format!("The pilot has only {pairs} common pairs; intervals are wide.")
-            }
-            Caution::AlphaIntervalWidth { pairs, half_width } => format!(
-                "A pilot of {pairs} pairs gives alpha intervals about ±{half_width:.2} wide; quadrupling the pairs roughly halves them."
-            ),
-            Caution::AlphaIntervalsOverlap => "Some alpha intervals overlap: those scales are not shown to differ by this pilot.".into(),
-            Caution::SeparationIsOffline => "Separating rankers offline picks candidates for an online experiment; it does not replace one.".into(),
+            Caution::Trial(t) => t.words(),
             Caution::DominantLevel { level, share } => format!(
                 "Level {level} holds {:.0} % of grades: kappa can be low even when reviewers mostly agree (Feinstein & Cicchetti 1990); read AC1 and the observed agreement beside it.",
                 100.0 * share
@@ -457,11 +492,9 @@ mod tests {
             json["estimate_caution_codes"],
             serde_json::json!(["sample_pending", "machines_in_panel"])
         );
-        assert!(
-            json["estimate_cautions"][0]
-                .as_str()
-                .unwrap()
-                .starts_with("1 drawn context is not completely graded")
+        assert_eq!(
+            json["estimate_cautions"][0],
+            "1 drawn context is not completely graded by people yet and is left out of the human sample; drawn contexts left ungraded on purpose would bias the correction."
         );
     }
 }

@@ -1,0 +1,124 @@
+//! Rules an outside checker would otherwise have to guess, as the README's Conventions
+//! write them: one hand-checked example per rule, through the command line, each failing
+//! if the rule changes.
+
+use crate::cli::{args, plumbline};
+use crate::common::Fixture;
+
+fn json(args: &[&std::ffi::OsStr]) -> serde_json::Value {
+    let out = plumbline(args);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).unwrap()
+}
+
+/// The fixture's study with `extra` rows added to its grades.csv before the import.
+fn study_with_grades(fixture: &Fixture, extra: &str) -> String {
+    fixture.write("grades.csv", &format!("{}{extra}", crate::common::GRADES));
+    let (path, study) = fixture.study();
+    drop(study);
+    path.to_str().unwrap().to_string()
+}
+
+fn close(value: &serde_json::Value, want: f64) {
+    let got = value.as_f64().unwrap_or(f64::NAN);
+    assert!((got - want).abs() < 1e-12, "{got} vs {want}");
+}
+
+/// Written rule: `fleiss_kappa_complete` takes as panel the reviewers who gave at least
+/// one level on the scale, so cy, whose only grade is a can't-judge, is listed but does
+/// not make every pair incomplete. ann and bo both graded q1 i1 (2, 2) and q1 i2 (1, 2);
+/// by Fleiss (1971, eq. 2–6) with n = 2 raters, N = 2 pairs: P₁ = 1, P₂ = 0, P̄ = 0.5,
+/// p = (0, 1/4, 3/4), P̄ₑ = 10/16, kappa = (0.5 − 0.625)/0.375 = −1/3.
+#[test]
+fn a_reviewer_with_only_cant_judge_grades_is_no_member_of_the_complete_panel() {
+    let fixture = Fixture::new();
+    let s = study_with_grades(
+        &fixture,
+        "cy,q1,i1,fit,,no picture,2,2026-11-16T11:00:00Z,\n",
+    );
+    let report = json(args!["agree", &s, "--format", "json"]);
+    assert!(
+        report["reviewer_names"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|r| r == "cy"),
+        "cy is still listed"
+    );
+    assert_eq!(report["fleiss_n_complete"], 2);
+    close(&report["fleiss_kappa_complete"], -1.0 / 3.0);
+}
+
+/// Written rule: the panel's AC1 takes agreement over the pairs with two or more levels
+/// and chance over every pair with at least one level (Gwet 2008, the multi-rater form
+/// with missing grades), can't-judge-only pairs in neither, q = the scale's 3 levels.
+/// Fixture: q1 i1 (2, 2), q1 i2 (1, 2), q1 i3 (0), q2 i3 (2), q2 i1 (0), q1 i4 only
+/// can't-judge. Agreement = (1 + 0)/2 = 0.5; shares averaged over the 5 pairs with a
+/// level: π = (2/5, 0.5/5, 2.5/5) = (0.4, 0.1, 0.5), chance = (0.24 + 0.09 + 0.25)/2 =
+/// 0.29; AC1 = 0.21/0.71 = 21/71. (Chance over the two pairs with two levels would give
+/// 0.1875 and AC1 5/13; over all six pairs, 0.2708 and about 0.314.)
+#[test]
+fn the_panels_ac1_takes_chance_over_every_pair_with_a_level() {
+    let fixture = Fixture::new();
+    let s = study_with_grades(&fixture, "");
+    let report = json(args!["agree", &s, "--format", "json"]);
+    close(&report["ac1"], 21.0 / 71.0);
+}
+
+/// Written rule: reviewer pairs that share no pair both gave a level are left out of
+/// the pairwise output. cy gives q1 i4 a level (bo could not judge it) and cannot judge
+/// q1 i1 (which ann and bo graded): cy shares pairs with both, but no level with either.
+#[test]
+fn reviewer_pairs_without_a_shared_level_are_omitted() {
+    let fixture = Fixture::new();
+    let s = study_with_grades(
+        &fixture,
+        "cy,q1,i4,fit,1,,2,2026-11-16T11:00:00Z,\ncy,q1,i1,fit,,no picture,2,2026-11-16T11:00:05Z,\n",
+    );
+    let report = json(args!["agree", &s, "--format", "json"]);
+    let pairs: Vec<(String, String)> = report["pairs"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|p| {
+            (
+                p["reviewer_a"].as_str().unwrap().to_string(),
+                p["reviewer_b"].as_str().unwrap().to_string(),
+            )
+        })
+        .collect();
+    assert_eq!(pairs, [("ann".to_string(), "bo".to_string())]);
+    let out = plumbline(args!["agree", &s, "--format", "csv"]);
+    let csv = String::from_utf8(out.stdout).unwrap();
+    assert!(csv.lines().any(|l| l.starts_with("pair,ann,bo,")));
+    assert!(
+        !csv.lines()
+            .any(|l| l.starts_with("pair,") && l.contains(",cy,"))
+    );
+}
+
+/// Written rule: a reviewer's `grades` counts their grades in force on the scale,
+/// can't-judge included, in `agree` and in `status` alike: bo gave q1 i1 and q1 i2 a
+/// level and could not judge q1 i4, so 3 (agreement's `n` counts levels only: 2).
+#[test]
+fn a_reviewers_grades_include_cant_judge() {
+    let fixture = Fixture::new();
+    let s = study_with_grades(&fixture, "");
+    let grades_of = |list: &serde_json::Value| {
+        list.as_array()
+            .unwrap()
+            .iter()
+            .find(|r| r["reviewer"] == "bo")
+            .unwrap()["grades"]
+            .clone()
+    };
+    let report = json(args!["agree", &s, "--format", "json"]);
+    assert_eq!(grades_of(&report["reviewers"]), 3);
+    assert_eq!(report["pairs"][0]["n"], 2);
+    let status = json(args!["status", &s, "--format", "json"]);
+    assert_eq!(grades_of(&status["reviewers"]), 3);
+}

@@ -122,3 +122,55 @@ fn a_reviewers_grades_include_cant_judge() {
     let status = json(args!["status", &s, "--format", "json"]);
     assert_eq!(grades_of(&status["reviewers"]), 3);
 }
+
+/// Written rule: `status` counts a pool pair as graded exactly when `score` counts it as
+/// judged: a reviewer's level or a settled grade in force. The fixture's pool (depth 10)
+/// is q1 {i1, i2, i3, i4} and q2 {i3, i1, i4}: seven pairs, five with a level, q1 i4 only
+/// "can't judge". Settling q2 i4 (nobody graded it) makes six in both: cand's q2 list
+/// (i3, i4) is wholly judged (judged@5 = 2/2) and its q1 list (i2, i1, i4) two thirds.
+#[test]
+fn status_counts_settled_only_pairs_as_score_does() {
+    let fixture = Fixture::new();
+    let s = study_with_grades(&fixture, "");
+    let settle = fixture.write(
+        "settle.csv",
+        "reviewer,context_id,item_id,scale,value,graded_at,settled_by\n\
+settled,q2,i4,fit,2,2026-11-17T09:00:00Z,lead\n",
+    );
+    let out = plumbline(args!["import", &s, "--grades", settle.to_str().unwrap()]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let status = json(args!["status", &s, "--format", "json"]);
+    assert_eq!(
+        (&status["pool_size"], &status["pool_graded"]),
+        (&7.into(), &6.into())
+    );
+    let cand = status["coverage"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|c| c["ranker"] == "cand")
+        .unwrap();
+    assert_eq!((&cand["graded"], &cand["pairs"]), (&4.into(), &5.into()));
+    let board = json(args!["score", &s, "--format", "json"]);
+    let judged = |context: &str| {
+        board["rankers"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|r| r["ranker"] == "cand")
+            .unwrap()["per_context"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|c| c["context_id"] == context)
+            .unwrap()["judged@5"]
+            .as_f64()
+            .unwrap()
+    };
+    assert_eq!(judged("q2"), 1.0);
+    close(&judged("q1").into(), 2.0 / 3.0);
+}

@@ -174,3 +174,78 @@ settled,q2,i4,fit,2,2026-11-17T09:00:00Z,lead\n",
     assert_eq!(judged("q2"), 1.0);
     close(&judged("q1").into(), 2.0 / 3.0);
 }
+
+/// Written rule: `unique_pairs` counts the judged pairs only a ranker has in its top k
+/// over the scored contexts only. At k = 3: base alone has q1 i3 (judged 0) and q2 i1
+/// (judged 0), so 2; cand's only pair of its own, i4, is not judged (q1: can't-judge
+/// only; q2: ungraded), so 0. In a1, graded but without a relevant item (so not scored),
+/// each of them has one judged pair the other lacks: counted, they would read 3 and 1.
+#[test]
+fn unique_pairs_count_scored_contexts_only() {
+    let fixture = Fixture::new();
+    fixture.write(
+        "rankings.csv",
+        &format!("{}base,a1,i3,1\ncand,a1,i2,1\n", crate::common::RANKINGS),
+    );
+    let s = study_with_grades(
+        &fixture,
+        "ann,a1,i3,fit,0,,2,2026-11-16T09:02:00Z,\nann,a1,i2,fit,0,,2,2026-11-16T09:02:04Z,\n",
+    );
+    let board = json(args!["score", &s, "--k", "3", "--format", "json"]);
+    assert_eq!(board["contexts_scored"], 2);
+    assert_eq!(board["contexts_without_relevant"], 1);
+    let unique = |ranker: &str| {
+        board["pool_bias"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|p| p["ranker"] == ranker && p["metric"] == "ndcg@3")
+            .unwrap()["unique_pairs"]
+            .clone()
+    };
+    assert_eq!((unique("base"), unique("cand")), (2.into(), 0.into()));
+}
+
+/// Written rule: what `rankings_files` counts. The file lists two rankers; x has lists
+/// for q1 (i1, i9), a1 (i1, a context without grades) and zz, y for q1 (i9) and zz (i2,
+/// i3). zz is no context of the study and i9 no item of the catalog. So: lists = 3 (x q1,
+/// x a1, y q1), entries = 4 (2 + 1 + 1, at every rank although --k is 1),
+/// contexts_left_out = 1 (zz once), lists_left_out = 2 (x zz, y zz), unknown_items = 2
+/// (i9 in two lists: entries, not items).
+#[test]
+fn rankings_files_count_lists_entries_contexts_and_unknown_entries() {
+    let fixture = Fixture::new();
+    let s = study_with_grades(&fixture, "");
+    let file = fixture.write(
+        "two.csv",
+        "ranker,context_id,item_id,rank\nx,q1,i1,1\nx,q1,i9,2\nx,zz,i1,1\nx,a1,i1,1\n\
+y,q1,i9,1\ny,zz,i2,1\ny,zz,i3,2\n",
+    );
+    let f = file.to_str().unwrap();
+    let board = json(args![
+        "score",
+        &s,
+        "--k",
+        "1",
+        "--rankings",
+        f,
+        "--format",
+        "json"
+    ]);
+    let summary = &board["rankings_files"][0];
+    for (field, want) in [
+        ("lists", 3),
+        ("entries", 4),
+        ("contexts_left_out", 1),
+        ("lists_left_out", 2),
+        ("unknown_items", 2),
+    ] {
+        assert_eq!(summary[field], want, "{field}");
+    }
+    let text = plumbline(args!["score", &s, "--k", "1", "--rankings", f]);
+    let text = String::from_utf8(text.stdout).unwrap();
+    assert!(
+        text.contains("3 lists, 4 entries; 2 lists left out (context not in the study); 2 entries of items not in the catalog count as unjudged."),
+        "{text}"
+    );
+}

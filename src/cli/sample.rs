@@ -88,7 +88,8 @@ pub fn score_with_machine(
     print(match format {
         Format::Text => render::scoreboard_text(&board) + &estimates_text::text(&est, &board),
         Format::Csv => {
-            for c in est.estimate_reason.iter().chain(&est.estimate_cautions) {
+            let cautions = est.estimate_cautions.0.words();
+            for c in est.estimate_reason.iter().chain(&cautions) {
                 eprintln!("plumbline: caution: {c}");
             }
             estimates_text::csv(&est, &board)

@@ -23,13 +23,17 @@ pub struct FileLists {
     pub rankers: Vec<String>,
     /// Those of them the study also has: the file's lists replace the study's for this run.
     pub replaced: Vec<String>,
-    /// Lists read (one per ranker and context the study has).
+    /// Lists read: one per ranker and context the study has, scored or not.
     pub lists: usize,
-    /// Entries in those lists.
+    /// Entries in those lists, every rank (not cut at k).
     pub entries: usize,
-    /// Lists left out because the study has no such context.
+    /// Contexts of the file the study lacks, each once: their lists are left out.
     pub contexts_left_out: usize,
-    /// Entries whose item the catalog lacks; they count as unjudged.
+    /// Lists left out because the study has no such context (one per ranker and such
+    /// context; `lists + lists_left_out` is every list of the file).
+    pub lists_left_out: usize,
+    /// Entries (not distinct items) of `lists` whose item the catalog lacks; they count
+    /// as unjudged, so `unknown_items / entries` is the share of such entries.
     pub unknown_items: usize,
 }
 
@@ -96,7 +100,8 @@ impl Snapshot {
             replaced: Vec::new(),
             lists: read.lists.len(),
             entries: 0,
-            contexts_left_out: read.left_out,
+            contexts_left_out: read.left_out_contexts,
+            lists_left_out: read.left_out,
             unknown_items: 0,
         };
         let catalog = self.items.len() - self.outside.stand_in_items;

@@ -311,7 +311,7 @@ fn rankers_table(ui: &mut egui::Ui, rows: &[TrialRow]) {
                     ),
                     (
                         "Alpha per reviewer-minute",
-                        "Ordinal Krippendorff's alpha divided by the median reviewer-minutes one pair costs (Krippendorff 2004 for alpha; the ratio is common practice)",
+                        "Ordinal Krippendorff's alpha divided by the reviewer-minutes one pair costs: the recorded times of every grade on the common pairs, summed and divided by the pairs (Krippendorff 2004 for alpha; the ratio is common practice)",
                     ),
                 ],
             );

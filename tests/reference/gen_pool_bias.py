@@ -120,7 +120,7 @@ def load_study(folder):
 def load_file(path, contexts):
     """Score-ordered lists of a rankings file: higher score first, ties by
     item_id ascending as strings. Lists of unknown contexts are left out;
-    returns (lists, number of (ranker, context) lists left out)."""
+    returns (lists, number of distinct unknown contexts of the file)."""
     grouped = {}
     for r in read_csv(path):
         grouped.setdefault((r["ranker"], r["context_id"]), []).append(
@@ -128,14 +128,14 @@ def load_file(path, contexts):
         )
     known = set(contexts)
     lists = {}
-    left_out = 0
+    left_out = set()
     for (name, c), entries in grouped.items():
         if c not in known:
-            left_out += 1
+            left_out.add(c)
             continue
         entries.sort(key=lambda e: (-e[0], e[1]))
         lists.setdefault(name, {})[c] = [i for _, i in entries]
-    return lists, left_out
+    return lists, len(left_out)
 
 
 def gain(level):

@@ -444,9 +444,12 @@ fn a_machine_judge_that_missed_pairs_earns_a_caution() {
     ]))
     .unwrap();
     let said = |v: &Value| {
-        v["estimate_cautions"].as_array().unwrap().iter().any(|c| {
-            c.as_str().unwrap().contains("graded") && c.as_str().unwrap().contains("pool pairs")
-        })
+        let codes = v["estimate_caution_codes"].as_array().unwrap();
+        assert_eq!(
+            codes.len(),
+            v["estimate_cautions"].as_array().unwrap().len()
+        );
+        codes.iter().any(|c| c == "machine_missed_pairs")
     };
     assert!(!said(&full), "judge-q graded every pool pair");
     let extra = catalog("candidate.csv");

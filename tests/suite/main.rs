@@ -58,3 +58,4 @@ mod ui_scoreboard_layout;
 mod ui_support;
 mod ui_thin_kappa;
 mod ui_titles;
+mod written_rules;

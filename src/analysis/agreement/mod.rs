@@ -80,7 +80,8 @@ pub struct AgreementReport {
     /// Number of "can't judge" grades on this scale (grades, not pairs); agreement leaves
     /// them out.
     pub cant_judge: usize,
-    /// Every two reviewers with at least one pair graded by both.
+    /// Every two reviewers with at least one pair both gave a level; two who share no
+    /// such pair (or only can't-judge grades) are left out.
     pub pairs: Vec<ReviewerPair>,
     /// Fleiss' kappa (Fleiss 1971) over the `fleiss_n` pairs that have the most common
     /// number of grades (`fleiss_grades_per_pair`; ties go to the larger number); NaN
@@ -91,9 +92,11 @@ pub struct AgreementReport {
     /// The number of grades every pair behind `fleiss_kappa` has.
     pub fleiss_grades_per_pair: usize,
     /// Fleiss' kappa over the pairs graded by every reviewer of the panel (the older
-    /// rule, which one late reviewer collapses to a handful of pairs).
+    /// rule, which one late reviewer collapses to a handful of pairs). The panel here is
+    /// the reviewers who gave at least one level on the scale: one whose only grades
+    /// are can't-judge is left out.
     pub fleiss_kappa_complete: f64,
-    /// Pairs graded by every reviewer of the panel.
+    /// Pairs graded (with a level) by every reviewer of that panel.
     pub fleiss_n_complete: usize,
     /// Krippendorff's alpha (Krippendorff 2011) with nominal distances: unordered levels.
     pub alpha_nominal: f64,
@@ -108,7 +111,10 @@ pub struct AgreementReport {
     pub alpha_interval: f64,
     /// Pairs with at least two grades (what alpha uses).
     pub alpha_n: usize,
-    /// Gwet's AC1 of the whole panel (Gwet 2008, multi-rater form with missing grades).
+    /// Gwet's AC1 of the whole panel (Gwet 2008, multi-rater form with missing grades):
+    /// agreement over the pairs with two or more levels, chance from the level shares
+    /// averaged over every pair with at least one level (can't-judge-only pairs in
+    /// neither), q = the scale's levels.
     pub ac1: f64,
     /// Where the verbal bands come from ([`LANDIS_KOCH`]).
     pub band_source: &'static str,
@@ -169,6 +175,21 @@ pub fn unit_table(snapshot: &Snapshot, scale: usize) -> UnitTable {
     }
 }
 
+/// Fleiss' kappa over the pairs graded by every panel member, where the panel is the
+/// reviewers who gave at least one level: one whose only grades are can't-judge would
+/// leave no pair complete.
+fn fleiss_complete(levels: usize, units: &[Vec<Option<u8>>]) -> (f64, usize) {
+    let columns = units.first().map_or(0, Vec::len);
+    let graders: Vec<usize> = (0..columns)
+        .filter(|&c| units.iter().any(|u| u[c].is_some()))
+        .collect();
+    let narrowed: Vec<Vec<Option<u8>>> = units
+        .iter()
+        .map(|u| graders.iter().map(|&c| u[c]).collect())
+        .collect();
+    agreement::fleiss_kappa(levels, &narrowed)
+}
+
 /// The band word of a pair with too few shared grades for a Landis & Koch word.
 pub const TOO_FEW: &str = "too few shared grades";
 
@@ -221,7 +242,7 @@ pub fn build(
     }
     let (fleiss_kappa, fleiss_n, fleiss_grades_per_pair) =
         agreement::fleiss_kappa_modal(levels, &units);
-    let (fleiss_kappa_complete, fleiss_n_complete) = agreement::fleiss_kappa(levels, &units);
+    let (fleiss_kappa_complete, fleiss_n_complete) = fleiss_complete(levels, &units);
     let alpha_n = units
         .iter()
         .filter(|u| u.iter().flatten().count() >= 2)

@@ -124,7 +124,7 @@ pub fn text(est: &Estimates, board: &Scoreboard) -> String {
         out.push_str(&aligned(&rows));
     }
     out.push('\n');
-    for c in &est.estimate_cautions {
+    for c in est.estimate_cautions.0.words() {
         let _ = writeln!(out, "Caution: {c}");
     }
     out
@@ -234,7 +234,8 @@ struct WithEstimates<'a> {
 }
 
 /// The scoreboard's JSON object with `machine`, `target_width`, `sample`, `estimates`,
-/// `estimate_comparisons`, `estimate_reason` and `estimate_cautions` added.
+/// `estimate_comparisons`, `estimate_reason`, `estimate_cautions` and
+/// `estimate_caution_codes` added.
 pub fn json(est: &Estimates, board: &Scoreboard) -> String {
     let both = WithEstimates {
         board,

@@ -144,12 +144,12 @@ pub fn rankings_files_text(board: &Scoreboard) -> String {
             f.lists,
             f.entries
         );
-        if f.contexts_left_out > 0 {
+        if f.lists_left_out > 0 {
             let _ = write!(
                 out,
                 "; {} {} left out (context not in the study)",
-                f.contexts_left_out,
-                if f.contexts_left_out == 1 {
+                f.lists_left_out,
+                if f.lists_left_out == 1 {
                     "list"
                 } else {
                     "lists"

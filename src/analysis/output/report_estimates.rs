@@ -89,7 +89,7 @@ fn section(est: &Estimates, metric: &str, picture: Option<&Picture>) -> String {
         let alt = p.title.replace(['[', ']'], "");
         let _ = writeln!(out, "![{alt}]({})\n", p.file_name);
     }
-    for c in &est.estimate_cautions {
+    for c in est.estimate_cautions.0.words() {
         let _ = writeln!(out, "- Caution: {c}");
     }
     out.push('\n');

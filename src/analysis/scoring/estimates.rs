@@ -10,6 +10,7 @@
 
 use serde::Serialize;
 
+use crate::analysis::cautions::{Caution, Cautions, EstimateCaution, EstimateCautions};
 use crate::analysis::judged::JudgedContexts;
 use crate::analysis::judged::judgments::GradeSource;
 use crate::analysis::judged::per_context;
@@ -96,8 +97,10 @@ pub struct Estimates {
     pub estimate_comparisons: Vec<EstimateComparison>,
     /// Why there are no estimates (fewer than 2 complete sample contexts), if so.
     pub estimate_reason: Option<String>,
-    /// Cautions to show beside the estimates.
-    pub estimate_cautions: Vec<String>,
+    /// Cautions to show beside the estimates; in JSON `estimate_cautions` (words) and
+    /// `estimate_caution_codes`.
+    #[serde(flatten)]
+    pub estimate_cautions: EstimateCautions,
 }
 
 /// Why estimates cannot be made (bad input: the study stays as it is).
@@ -246,7 +249,7 @@ pub fn build(
         estimates: Vec::new(),
         estimate_comparisons: Vec::new(),
         estimate_reason: None,
-        estimate_cautions: Vec::new(),
+        estimate_cautions: EstimateCautions::default(),
     };
     let n = sets.labelled.len();
     if n < ppi::MIN_HUMAN {
@@ -394,55 +397,66 @@ fn cautions(
     sets: &Sets,
     out: &Estimates,
     machine: &str,
-) -> Vec<String> {
+) -> EstimateCautions {
+    use EstimateCaution::*;
     let mut c = vec![
-        format!(
-            "The interval is valid only if the machine judge {machine} was not tuned on these human grades."
-        ),
-        ZERO_RULE.to_string(),
+        UntunedJudge {
+            machine: machine.to_string(),
+        },
+        NoRelevantCountsZero,
     ];
     if sets.pending > 0 {
-        c.push(format!(
-            "{} drawn context{} not completely graded by people yet and {} left out of the human sample; drawn contexts left ungraded on purpose would bias the correction.",
-            sets.pending,
-            if sets.pending == 1 { " is" } else { "s are" },
-            if sets.pending == 1 { "is" } else { "are" }
-        ));
+        c.push(SamplePending {
+            pending: sets.pending,
+        });
     }
     let n = sets.labelled.len();
     if (ppi::MIN_HUMAN..FEW_HUMAN).contains(&n) {
-        c.push(format!("Only {n} complete sample contexts: with fewer than {FEW_HUMAN} the normal approximation behind the intervals is rough."));
+        c.push(FewSampleContexts {
+            complete: n,
+            few: FEW_HUMAN,
+        });
     }
     if n >= ppi::MIN_HUMAN && sets.unlabelled.is_empty() {
-        c.push("Every context with lists is in the human sample (N = 0): the estimates are the human means with their classical intervals, λ = 0.".into());
+        c.push(WholeStudySampled);
     }
-    let small: Vec<String> = out
+    let small: Vec<(String, String)> = out
         .estimates
         .iter()
         .filter(|e| e.metric.starts_with("ndcg@") && e.figures.n_machine > 0)
         .filter(|e| e.figures.lambda < SMALL_LAMBDA)
-        .map(|e| format!("{} {}", e.ranker, e.metric))
+        .map(|e| (e.ranker.clone(), e.metric.clone()))
         .collect();
     if !small.is_empty() {
-        c.push(format!("λ is below {SMALL_LAMBDA} for {}: the machine judge adds little there, and the estimate is close to the human-only mean.", small.join(", ")));
+        c.push(SmallLambda {
+            estimates: small,
+            below: SMALL_LAMBDA,
+        });
     }
-    if let Some(k) = board
+    if let Some(&k) = board
         .settings
         .ks
         .iter()
         .filter(|&&k| k > snapshot.pool_depth)
         .min()
     {
-        c.push(format!("Cut-offs above the pool depth {} (from @{k}) reach items people were not asked to grade; they count by the unjudged rule, so treat those estimates with care.", snapshot.pool_depth));
+        c.push(CutoffAbovePoolDepth {
+            depth: snapshot.pool_depth,
+            k,
+        });
     }
     let (graded, pool) = machine_coverage(snapshot, board, sets, machine);
     if graded < pool {
-        c.push(format!("The machine judge {machine} graded {graded} of the {pool} pool pairs of these contexts; the rest count by the unjudged rule in its values."));
+        c.push(MachineMissedPairs {
+            machine: machine.to_string(),
+            graded,
+            pool,
+        });
     }
     if snapshot.machines_in_panel {
-        c.push("The study counts machine judges in the panel grade, so the people's values Y include machine grades; turn that off for a clean correction.".into());
+        c.push(MachinesInPanel);
     }
-    c
+    EstimateCautions(Cautions(c.into_iter().map(Caution::Estimate).collect()))
 }
 
 /// (pool pairs the machine judge graded, pool pairs) over L ∪ U on the scored scale.
@@ -472,6 +486,3 @@ fn machine_coverage(
     }
     counts
 }
-
-/// How contexts without a relevant item count in estimates.
-pub const ZERO_RULE: &str = "In estimates a context with no relevant item under the grades used counts as NDCG 0 (plain scores leave such contexts out; an estimate cannot, since for the machine-only contexts nobody knows whether the panel would find one), so estimates and plain means differ.";

@@ -4,6 +4,7 @@
 //! the machine's bias and the effective human contexts (`analysis::scoring::estimates`, the same
 //! function `plumbline score --machine` prints).
 
+use crate::analysis::cautions::Cautions;
 use crate::analysis::scoring::estimates::{self, Estimate, EstimateRequest, Estimates};
 use crate::analysis::scoring::scoreboard::{self, ScoreSettings};
 use crate::study::{Study, StudyError};
@@ -51,7 +52,7 @@ pub struct EstimatesPanel {
     /// The sample: drawn, complete, pending, in words.
     pub sample: String,
     /// Cautions beside the figures.
-    pub cautions: Vec<String>,
+    pub cautions: Cautions,
 }
 
 /// How to add a machine judge, for a study without one.
@@ -175,7 +176,7 @@ pub fn build(
                 .map(line)
                 .collect();
             (panel.more, panel.more_contexts) = more_text(&est, &panel.metric);
-            panel.cautions = est.estimate_cautions.clone();
+            panel.cautions = est.estimate_cautions.0.clone();
         }
     }
     Ok(panel)

@@ -5,6 +5,7 @@ use std::collections::HashSet;
 
 use serde::Serialize;
 
+use crate::analysis::judged::judgments::{self, GradeSource};
 use crate::core::pooling::depth_pool;
 use crate::study::queues::QueueProgress;
 use crate::study::snapshot::Snapshot;
@@ -15,7 +16,8 @@ use crate::study::{Study, StudyCounts, StudyError};
 pub struct Coverage {
     /// The ranker.
     pub ranker: String,
-    /// Pairs of its top k with a grade.
+    /// Pairs of its top k with a level scoring uses (a reviewer's level or a settled
+    /// grade; can't-judge alone does not count).
     pub graded: usize,
     /// Pairs in its top k over all contexts.
     pub pairs: usize,
@@ -71,7 +73,9 @@ pub struct HomeModel {
     pub depth: usize,
     /// Pairs in the depth-k pool (every ranker's top k, each pair once).
     pub pool_size: usize,
-    /// Pool pairs with at least one grade on the active scale.
+    /// Pool pairs with a level scoring uses on the active scale: a panel member's level
+    /// or a settled grade in force (can't-judge alone does not count), the pairs `score`
+    /// counts as judged.
     pub pool_graded: usize,
     /// Coverage per ranker.
     pub coverage: Vec<Coverage>,
@@ -208,12 +212,7 @@ pub fn build(
 ) -> HomeModel {
     let depth = snapshot.pool_depth;
     let scale = (!snapshot.scales.is_empty()).then(|| snapshot.active_scale_index());
-    let graded: HashSet<(u32, u32)> = snapshot
-        .grades
-        .iter()
-        .filter(|g| Some(g.scale as usize) == scale && g.value.is_some())
-        .map(|g| (g.context, g.item))
-        .collect();
+    let graded = judged_pairs(snapshot, scale);
     let coverage = snapshot
         .lists
         .iter()
@@ -289,6 +288,21 @@ fn reviewer_progress(
                 .find(|q| &q.reviewer == name)
                 .map(|q| (q.done, q.total)),
         })
+        .collect()
+}
+
+/// Pairs scoring has a level for on `scale`: a panel member's level or a settled grade
+/// in force (`judgments::resolve`, the scoreboard's own rule), so Home and `status`
+/// count as graded exactly what `score` counts as judged. A pair with only can't-judge
+/// grades is not graded; a pair settled without any reviewer's grade is.
+fn judged_pairs(snapshot: &Snapshot, scale: Option<usize>) -> HashSet<(u32, u32)> {
+    let Some(scale) = scale else {
+        return HashSet::new();
+    };
+    judgments::resolve(snapshot, scale, &GradeSource::Panel)
+        .iter()
+        .enumerate()
+        .flat_map(|(c, judged)| judged.iter().map(move |(item, _)| (c as u32, *item)))
         .collect()
 }
 

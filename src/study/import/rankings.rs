@@ -37,10 +37,12 @@ pub(crate) struct KnownIds<'k> {
     pub refuse_unknown: bool,
 }
 
-/// Lists read from a file; `left_out` counts lists whose context the study lacks.
+/// Lists read from a file; `left_out` counts lists whose context the study lacks and
+/// `left_out_contexts` those contexts (each once, however many rankers list it).
 pub(crate) struct ReadLists<'a> {
     pub lists: Vec<ParsedList<'a>>,
     pub left_out: usize,
+    pub left_out_contexts: usize,
 }
 
 /// Reads and checks every list of a rankings table: no item twice in a list, ranks 1..n
@@ -62,6 +64,7 @@ pub(crate) fn read_lists<'a>(
         return ReadLists {
             lists: Vec::new(),
             left_out: 0,
+            left_out_contexts: 0,
         };
     }
     // Lists in order of first appearance, found by (ranker, context); sorted at the end.
@@ -198,9 +201,15 @@ pub(crate) fn read_lists<'a>(
             entries: rows.into_iter().map(|r| (r.item, r.score)).collect(),
         });
     }
+    let left_out_contexts = left_out
+        .iter()
+        .map(|(_, context)| *context)
+        .collect::<FastSet<&str>>()
+        .len();
     ReadLists {
         lists: ordered,
         left_out: left_out.len(),
+        left_out_contexts,
     }
 }
 

@@ -131,7 +131,7 @@ impl EstimatesSection {
             lines_table(ui, &panel);
         }
         self.more(ui, path, &panel);
-        for c in &panel.cautions {
+        for c in panel.cautions.words() {
             ui.weak(format!("Caution: {c}"));
         }
         if let Some(m) = &self.message {

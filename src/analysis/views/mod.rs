@@ -7,4 +7,5 @@ pub mod estimates_view;
 pub mod home;
 pub mod own_progress;
 pub mod scales_view;
+pub mod scoreboard_rest;
 pub mod scoreboard_view;

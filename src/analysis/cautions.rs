@@ -86,6 +86,14 @@ pub enum Caution {
         /// Levels of the scale.
         levels: usize,
     },
+    /// One level holds most of two reviewers' shared grades: their kappa can be low
+    /// although they mostly agree (Feinstein & Cicchetti 1990).
+    PairDominantLevel {
+        /// The level.
+        level: usize,
+        /// Its share of the pair's grades.
+        share: f64,
+    },
     /// Few pairs have two or more grades: the panel's intervals are wide.
     FewAgreementUnits {
         /// Pairs with two or more grades.
@@ -287,6 +295,7 @@ impl Caution {
             Caution::Trial(t) => t.code(),
             Caution::DominantLevel { .. } => "dominant_level",
             Caution::ThinKappa { .. } => "thin_kappa",
+            Caution::PairDominantLevel { .. } => "pair_dominant_level",
             Caution::FewAgreementUnits { .. } => "few_agreement_units",
             Caution::Estimate(e) => e.code(),
         }
@@ -364,6 +373,10 @@ impl Caution {
                 levels,
             } => format!(
                 "{reviewer_a} and {reviewer_b} share only {shared} grades, fewer than {needed} (2 × {levels}² for {levels} levels, Cicchetti & Fleiss 1977): their kappa gets no Landis & Koch word and its interval is not to be trusted."
+            ),
+            Caution::PairDominantLevel { level, share } => format!(
+                "Level {level} holds {:.0} % of this pair's grades: kappa can be low although they mostly agree.",
+                100.0 * share
             ),
             Caution::FewAgreementUnits { units } => {
                 format!("Only {units} pairs have two or more grades; the intervals are wide.")

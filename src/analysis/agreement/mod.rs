@@ -55,6 +55,19 @@ pub struct ReviewerPair {
     pub confusion: Vec<Vec<u64>>,
 }
 
+impl ReviewerPair {
+    /// The caution when one level holds most of this pair's grades (at least
+    /// `DOMINANT_SHARE_CAUTION`), as the heatmap shows beside the pair's table.
+    pub fn prevalence_caution(&self) -> Option<Caution> {
+        (self.prevalence.dominant_share >= DOMINANT_SHARE_CAUTION).then(|| {
+            Caution::PairDominantLevel {
+                level: usize::from(self.prevalence.dominant_level),
+                share: self.prevalence.dominant_share,
+            }
+        })
+    }
+}
+
 /// Every agreement figure of one scale: reviewer pairs and panel-level coefficients.
 #[derive(Debug, Clone, Serialize)]
 pub struct AgreementReport {
@@ -368,4 +381,32 @@ fn agreement_cautions(
         cautions.push(Caution::FewAgreementUnits { units: alpha_n });
     }
     cautions
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Hand-counted: 18 pairs both at level 0, then (1, 0) and (0, 1): level 0 holds 38
+    /// of the 40 grades (95 %), above the 80 % line, so the pair's caution names level 0;
+    /// with half the pairs at level 1 no level dominates.
+    #[test]
+    fn a_pair_dominated_by_one_level_carries_its_caution() {
+        let mut a = vec![Some(0u8); 18];
+        let mut b = a.clone();
+        a.extend([Some(1), Some(0)]);
+        b.extend([Some(0), Some(1)]);
+        let pair = reviewer_pair(("ada", "bo"), 3, &a, &b).unwrap();
+        let caution = pair.prevalence_caution().unwrap();
+        assert_eq!(caution.code(), "pair_dominant_level");
+        assert!(
+            caution.words().starts_with("Level 0 holds 95 %"),
+            "{}",
+            caution.words()
+        );
+
+        let even: Vec<Option<u8>> = (0..20).map(|i| Some((i % 2) as u8)).collect();
+        let pair = reviewer_pair(("ada", "bo"), 3, &even, &even).unwrap();
+        assert!(pair.prevalence_caution().is_none());
+    }
 }

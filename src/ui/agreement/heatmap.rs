@@ -63,15 +63,8 @@ pub(super) fn heatmap(
                 ui.end_row();
             }
         });
-    if p.prevalence.dominant_share >= crate::core::agreement::DOMINANT_SHARE_CAUTION {
-        ui.colored_label(
-            crate::ui::palette::CAUTION,
-            format!(
-                "Level {} holds {:.0} % of this pair's grades: kappa can be low although they mostly agree.",
-                p.prevalence.dominant_level,
-                100.0 * p.prevalence.dominant_share
-            ),
-        );
+    if let Some(caution) = p.prevalence_caution() {
+        ui.colored_label(crate::ui::palette::CAUTION, caution.words());
     }
 }
 

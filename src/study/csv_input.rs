@@ -11,14 +11,6 @@ pub const MAX_FIELD_BYTES: usize = 1 << 20;
 /// Most columns a row may have (an item file's extra attributes included).
 pub const MAX_COLUMNS: usize = 1_000;
 
-/// A data row: its line in the file and where its fields are in the table's text
-/// (fields `first .. first + header.len()` of [`Table::field`]).
-#[derive(Debug, Clone, Copy)]
-pub struct Row {
-    pub line: u64,
-    first: usize,
-}
-
 /// The declared shape of one CSV kind.
 pub struct Shape {
     pub required: &'static [&'static str],
@@ -29,33 +21,140 @@ pub struct Shape {
     pub extra_allowed: bool,
 }
 
-/// A parsed file: header names (lower-cased) and rows. Every field's text lives in one
-/// buffer with its end offset beside it, so a million-row file costs its own size plus
-/// a word per field, not an allocation per field.
-#[derive(Debug)]
-pub struct Table {
-    pub file: String,
-    pub header: Vec<String>,
-    pub rows: Vec<Row>,
-    text: String,
-    ends: Vec<u32>,
+/// One data row as read: its physical line and its fields under the file's header. It
+/// lives until the next row is read, so a file of any size costs one row of memory.
+#[derive(Clone, Copy)]
+pub struct Row<'a> {
+    pub line: u64,
+    pub file: &'a str,
+    pub header: &'a [String],
+    fields: &'a csv::StringRecord,
 }
 
-impl Table {
-    /// The text of field `column` (0-based) of `row`.
-    pub fn field(&self, row: &Row, column: usize) -> &str {
-        let at = row.first + column;
-        let start = if at == 0 {
-            0
-        } else {
-            self.ends[at - 1] as usize
-        };
-        &self.text[start..self.ends[at] as usize]
+impl<'a> Row<'a> {
+    /// The text of field `column` (0-based).
+    pub fn field(&self, column: usize) -> &'a str {
+        self.fields.get(column).unwrap_or("")
     }
 
     /// Index of a named column, if present.
     pub fn column(&self, name: &str) -> Option<usize> {
         self.header.iter().position(|h| h == name)
+    }
+
+    pub fn problem(&self, column: usize, message: impl Into<String>) -> Problem {
+        Problem {
+            file: self.file.to_string(),
+            line: self.line,
+            column,
+            message: message.into(),
+        }
+    }
+}
+
+/// A CSV file read one row at a time, in memory bounded by the longest row: UTF-8 with
+/// an optional BOM, a header row, RFC 4180 quoting, and LF, CRLF or CR line endings
+/// (also mixed). Line numbers are physical lines, counted by `Tracker` whatever the
+/// endings. Problems of form (bad bytes, ragged rows, a broken header) go to the log
+/// given to each call, with their line and column.
+pub struct CsvRows<R> {
+    file: String,
+    header: Vec<String>,
+    header_ok: bool,
+    reader: csv::Reader<Tracker<R>>,
+    state: std::rc::Rc<std::cell::RefCell<TrackState>>,
+    fields: csv::StringRecord,
+    line: u64,
+    /// Problems this reader reported itself (form, header), apart from the rows' checks.
+    own_problems: usize,
+    ended: bool,
+}
+
+/// What reading one record gave.
+enum Record {
+    Read,
+    Skipped,
+    End,
+}
+
+impl<R: std::io::BufRead> CsvRows<R> {
+    /// Starts reading `input` and reads up to its header row (blank lines before it are
+    /// skipped); problems with the header go to `log`.
+    pub fn new(file: &str, input: R, shape: &Shape, log: &mut ProblemLog) -> CsvRows<R> {
+        let tracker = Tracker::new(input);
+        let state = tracker.state.clone();
+        let reader = csv::ReaderBuilder::new()
+            .has_headers(false)
+            .flexible(true)
+            .from_reader(tracker);
+        let mut rows = CsvRows {
+            file: file.to_string(),
+            header: Vec::new(),
+            header_ok: false,
+            reader,
+            state,
+            fields: csv::StringRecord::new(),
+            line: 0,
+            own_problems: 0,
+            ended: false,
+        };
+        rows.read_header(shape, log);
+        rows
+    }
+
+    fn read_header(&mut self, shape: &Shape, log: &mut ProblemLog) {
+        loop {
+            match self.read_record(log) {
+                Record::End => return self.finish(shape, log),
+                Record::Skipped if log.is_full() => return,
+                Record::Skipped => continue,
+                Record::Read => {}
+            }
+            if self.fields.iter().all(|f| f.trim().is_empty()) {
+                continue; // Blank lines before the header.
+            }
+            let names: Vec<String> = self
+                .fields
+                .iter()
+                .map(|f| f.trim().to_lowercase())
+                .collect();
+            let before = log.0.len();
+            let (file, line) = (self.file.clone(), self.line);
+            let mut found = 0;
+            check_header(&names, shape, &mut |column, message| {
+                found += 1;
+                log.push(Problem {
+                    file: file.clone(),
+                    line,
+                    column,
+                    message,
+                })
+            });
+            self.own_problems += found;
+            self.header_ok = found == 0 && log.0.len() == before && self.own_problems == 0;
+            self.header = names;
+            return;
+        }
+    }
+
+    /// The header's column names, lower-cased (empty when the file has no header).
+    pub fn header(&self) -> &[String] {
+        &self.header
+    }
+
+    /// Whether the header names the shape's columns without problems (else no row is given).
+    pub fn header_ok(&self) -> bool {
+        self.header_ok
+    }
+
+    /// The file's name, as messages call it.
+    pub fn file(&self) -> &str {
+        &self.file
+    }
+
+    /// Bytes of the input read so far (for progress).
+    pub fn bytes_read(&self) -> u64 {
+        self.state.borrow().offset
     }
 
     pub fn problem(&self, line: u64, column: usize, message: impl Into<String>) -> Problem {
@@ -66,17 +165,169 @@ impl Table {
             message: message.into(),
         }
     }
+
+    /// The next data row; None at the end of the file, once the stream had to stop, or
+    /// once `log` is full. When the header is wrong no row is given: the rest of the
+    /// file is only read for problems of form.
+    pub fn next_row(&mut self, log: &mut ProblemLog) -> Option<Row<'_>> {
+        loop {
+            if self.ended || log.is_full() {
+                return None;
+            }
+            match self.read_record(log) {
+                Record::End => {
+                    self.finish(&NO_SHAPE, log);
+                    return None;
+                }
+                Record::Skipped => continue,
+                Record::Read => {}
+            }
+            match self.row_problem() {
+                Some(None) => continue, // A blank line.
+                Some(Some(problem)) => {
+                    self.own_problems += 1;
+                    log.push(problem);
+                    continue;
+                }
+                None if !self.header_ok => continue,
+                None => break,
+            }
+        }
+        Some(Row {
+            line: self.line,
+            file: &self.file,
+            header: &self.header,
+            fields: &self.fields,
+        })
+    }
+
+    /// Why the record just read is not a data row: Some(None) for a blank line, Some(problem)
+    /// for a ragged row or a repeated header, None for a data row.
+    fn row_problem(&self) -> Option<Option<Problem>> {
+        let fields = &self.fields;
+        if fields.len() == 1 && fields[0].trim().is_empty() {
+            return Some(None);
+        }
+        let names = &self.header;
+        if fields.len() != names.len() {
+            let column = fields.len().min(names.len()) + 1;
+            let message = format!(
+                "this row has {} fields but the header has {}",
+                fields.len(),
+                names.len()
+            );
+            return Some(Some(self.problem(self.line, column, message)));
+        }
+        if fields.iter().zip(names).all(|(f, n)| same_name(f, n)) {
+            let message = "this line repeats the header row (files joined together?); remove it";
+            return Some(Some(self.problem(self.line, 1, message)));
+        }
+        None
+    }
+
+    /// Reads the next record into `fields` as text, reporting problems of form.
+    fn read_record(&mut self, log: &mut ProblemLog) -> Record {
+        let mut bytes = std::mem::take(&mut self.fields).into_byte_record();
+        match self.reader.read_byte_record(&mut bytes) {
+            Ok(true) => {}
+            Ok(false) => return Record::End,
+            Err(e) => {
+                self.stream_stopped(&e, log);
+                return Record::End;
+            }
+        }
+        self.line = bytes
+            .position()
+            .map_or(1, |p| self.state.borrow_mut().line_of(p.byte()));
+        match csv::StringRecord::from_byte_record(bytes) {
+            Ok(fields) => {
+                self.fields = fields;
+                Record::Read
+            }
+            Err(e) => {
+                let bytes = e.into_byte_record();
+                for (i, raw) in bytes.iter().enumerate() {
+                    if let Err(message) = check_field(raw) {
+                        self.own_problems += 1;
+                        log.push(self.problem(self.line, i + 1, message));
+                    }
+                }
+                Record::Skipped
+            }
+        }
+    }
+
+    /// The CSV reader stopped: at the place `Tracker` refused, or where the parser failed.
+    fn stream_stopped(&mut self, e: &csv::Error, log: &mut ProblemLog) {
+        let failure = self.state.borrow_mut().failure.take();
+        let (line, column, message) = match failure {
+            Some(found) => found,
+            None => {
+                let line = e
+                    .position()
+                    .map_or(1, |p| self.state.borrow_mut().line_of(p.byte()));
+                (line, 1, format!("unreadable CSV: {e}"))
+            }
+        };
+        self.own_problems += 1;
+        log.push(self.problem(line, column, message));
+        self.ended = true;
+    }
+
+    /// At the end of the stream: an unclosed quote, or no header at all.
+    fn finish(&mut self, shape: &Shape, log: &mut ProblemLog) {
+        if self.ended {
+            return;
+        }
+        self.ended = true;
+        if self.own_problems > 0 {
+            return;
+        }
+        let unclosed = self.state.borrow().unclosed_quote();
+        if let Some((line, column)) = unclosed {
+            self.own_problems += 1;
+            let message = "a quoted field is never closed (a \" is missing)";
+            log.push(self.problem(line, column, message));
+        } else if self.header.is_empty() {
+            self.own_problems += 1;
+            let message = format!(
+                "the file is empty; expected a header row with {}",
+                shape.required.join(", ")
+            );
+            log.push(self.problem(1, 1, message));
+        }
+    }
 }
 
-/// Reads a CSV file from disk, streaming; `display_name` is what messages call it.
-pub fn read_file(path: &Path, shape: &Shape) -> Result<Table, Problems> {
-    let name = display_name(path);
-    let file = open_regular(path).map_err(|message| Problems(vec![whole_file(&name, message)]))?;
-    parse_reader(
-        &name,
-        std::io::BufReader::with_capacity(1 << 16, file),
-        shape,
-    )
+impl<'a> CsvRows<Box<dyn std::io::BufRead + 'a>> {
+    /// Reads a file from disk; `display_name` is what messages call it.
+    pub fn open(path: &Path, shape: &Shape, log: &mut ProblemLog) -> Result<Self, Problems> {
+        let name = display_name(path);
+        let file =
+            open_regular(path).map_err(|message| Problems(vec![whole_file(&name, message)]))?;
+        let input: Box<dyn std::io::BufRead> =
+            Box::new(std::io::BufReader::with_capacity(1 << 16, file));
+        Ok(CsvRows::new(&name, input, shape, log))
+    }
+}
+
+/// The shape used when the end of a file is met after its header was read (the
+/// required columns are only named when the file has no header).
+const NO_SHAPE: Shape = Shape {
+    required: &[],
+    optional: &[],
+    ignored: &[],
+    extra_allowed: true,
+};
+
+/// Whether a field reads as a header name (trimmed and lower-cased).
+fn same_name(field: &str, name: &str) -> bool {
+    let field = field.trim();
+    if field.is_ascii() {
+        field.eq_ignore_ascii_case(name)
+    } else {
+        field.to_lowercase() == name
+    }
 }
 
 /// The name messages give a file: its last component.
@@ -130,167 +381,6 @@ pub fn open_regular(path: &Path) -> Result<std::fs::File, String> {
         return Err(format!("cannot read the file: {why}"));
     }
     Ok(file)
-}
-
-/// Parses CSV bytes: UTF-8 with an optional BOM, a header row, RFC 4180 quoting.
-pub fn parse(file: &str, bytes: &[u8], shape: &Shape) -> Result<Table, Problems> {
-    parse_reader(file, bytes, shape)
-}
-
-/// Parses CSV from a stream in bounded memory per row: UTF-8 with an optional BOM, a
-/// header row, RFC 4180 quoting, and LF, CRLF or CR line endings (also mixed). Line
-/// numbers are physical lines, counted by `Tracker` whatever the endings.
-pub fn parse_reader(
-    file: &str,
-    input: impl std::io::BufRead,
-    shape: &Shape,
-) -> Result<Table, Problems> {
-    let problem = |line: u64, column: usize, message: String| Problem {
-        file: file.to_string(),
-        line,
-        column,
-        message,
-    };
-    let tracker = Tracker::new(input);
-    let state = tracker.state.clone();
-    let mut reader = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .flexible(true)
-        .from_reader(tracker);
-    let mut log = ProblemLog::default();
-    let mut header: Option<Vec<String>> = None;
-    let mut rows = Vec::new();
-    let mut text = String::new();
-    let mut ends: Vec<u32> = Vec::new();
-    let mut record = csv::ByteRecord::new();
-    loop {
-        match reader.read_byte_record(&mut record) {
-            Ok(false) => break,
-            Ok(true) => {}
-            Err(e) => {
-                let failure = state.borrow_mut().failure.take();
-                match failure {
-                    Some((line, column, message)) => log.push(problem(line, column, message)),
-                    None => {
-                        let line = e
-                            .position()
-                            .map_or(1, |p| state.borrow_mut().line_of(p.byte()));
-                        log.push(problem(line, 1, format!("unreadable CSV: {e}")));
-                    }
-                }
-                break;
-            }
-        }
-        let line = record
-            .position()
-            .map_or(1, |p| state.borrow_mut().line_of(p.byte()));
-        let mut fields: Vec<&str> = Vec::with_capacity(record.len());
-        let mut row_ok = true;
-        for (i, raw) in record.iter().enumerate() {
-            match check_field(raw) {
-                Ok(field) => fields.push(field),
-                Err(message) => {
-                    log.push(problem(line, i + 1, message));
-                    row_ok = false;
-                }
-            }
-        }
-        if !row_ok {
-            continue;
-        }
-        match &header {
-            None => {
-                if fields.iter().all(|f| f.trim().is_empty()) {
-                    continue; // Blank lines before the header.
-                }
-                let names: Vec<String> = fields.iter().map(|f| f.trim().to_lowercase()).collect();
-                check_header(&names, shape, &mut |column, message| {
-                    log.push(problem(line, column, message))
-                });
-                header = Some(names);
-            }
-            Some(names) => {
-                if fields.len() == 1 && fields[0].trim().is_empty() {
-                    continue; // A blank line.
-                }
-                if fields.len() != names.len() {
-                    let column = fields.len().min(names.len()) + 1;
-                    log.push(problem(
-                        line,
-                        column,
-                        format!(
-                            "this row has {} fields but the header has {}",
-                            fields.len(),
-                            names.len()
-                        ),
-                    ));
-                    continue;
-                }
-                if fields
-                    .iter()
-                    .zip(names)
-                    .all(|(f, n)| f.trim().to_lowercase() == *n)
-                {
-                    log.push(problem(
-                        line,
-                        1,
-                        "this line repeats the header row (files joined together?); remove it"
-                            .into(),
-                    ));
-                    continue;
-                }
-                let size = text.len() + fields.iter().map(|f| f.len()).sum::<usize>();
-                let Ok(size) = u32::try_from(size) else {
-                    log.push(problem(
-                        line,
-                        1,
-                        format!("the file holds more than {} bytes of fields; split it into smaller files", u32::MAX),
-                    ));
-                    break;
-                };
-                rows.push(Row {
-                    line,
-                    first: ends.len(),
-                });
-                for f in &fields {
-                    text.push_str(f);
-                    ends.push(text.len() as u32);
-                }
-                debug_assert_eq!(text.len() as u32, size);
-            }
-        }
-        if log.is_full() {
-            break;
-        }
-    }
-    if log.0.is_empty() {
-        let unclosed = state.borrow().unclosed_quote();
-        if let Some((line, column)) = unclosed {
-            log.push(problem(
-                line,
-                column,
-                "a quoted field is never closed (a \" is missing)".into(),
-            ));
-        }
-    }
-    if header.is_none() && log.0.is_empty() {
-        log.push(problem(
-            1,
-            1,
-            format!(
-                "the file is empty; expected a header row with {}",
-                shape.required.join(", ")
-            ),
-        ));
-    }
-    log.into_result()?;
-    Ok(Table {
-        file: file.to_string(),
-        header: header.unwrap_or_default(),
-        rows,
-        text,
-        ends,
-    })
 }
 
 /// Where the quote grammar stands after the bytes seen so far.
@@ -567,6 +657,14 @@ fn check_header(names: &[String], shape: &Shape, report: &mut dyn FnMut(usize, S
 mod tests {
     use super::*;
 
+    /// Reads a whole CSV text for its problems only.
+    fn problems_of(file: &str, bytes: &[u8], shape: &Shape) -> Result<(), Problems> {
+        let mut log = ProblemLog::default();
+        let mut rows = CsvRows::new(file, bytes, shape, &mut log);
+        while rows.next_row(&mut log).is_some() {}
+        log.into_result()
+    }
+
     const SHAPE: Shape = Shape {
         required: &["a", "b"],
         optional: &["c"],
@@ -576,17 +674,40 @@ mod tests {
 
     #[test]
     fn quoted_newlines_keep_line_numbers() {
-        let t = parse("x.csv", b"a,b\n\"1\n2\",3\n4,5\n", &SHAPE).unwrap();
-        assert_eq!(t.field(&t.rows[0], 0), "1\n2");
-        assert_eq!(t.rows[1].line, 4);
+        let mut log = ProblemLog::default();
+        let mut rows = CsvRows::new("x.csv", &b"a,b\n\"1\n2\",3\n4,5\n"[..], &SHAPE, &mut log);
+        let first = rows
+            .next_row(&mut log)
+            .map(|r| (r.line, r.field(0).to_string()));
+        assert_eq!(first, Some((2, "1\n2".to_string())));
+        let second = rows.next_row(&mut log).map(|r| r.line);
+        assert_eq!(second, Some(4));
+        assert!(rows.next_row(&mut log).is_none() && log.0.is_empty());
     }
 
     #[test]
     fn unclosed_quote_is_located() {
-        let e = parse("x.csv", b"a,b\n1,2\n3,\"4\n5,6\n", &SHAPE).unwrap_err();
+        let e = problems_of("x.csv", b"a,b\n1,2\n3,\"4\n5,6\n", &SHAPE).unwrap_err();
         assert_eq!(
             e.0[0].to_string(),
             "x.csv:3:2: a quoted field is never closed (a \" is missing)"
+        );
+    }
+
+    #[test]
+    fn rows_of_a_broken_header_are_not_given() {
+        let mut log = ProblemLog::default();
+        let mut rows = CsvRows::new("x.csv", &b"a,d\n1,2\n3\n"[..], &SHAPE, &mut log);
+        assert!(!rows.header_ok());
+        assert!(rows.next_row(&mut log).is_none());
+        let found: Vec<String> = log.0.iter().map(|p| p.to_string()).collect();
+        assert_eq!(
+            found,
+            [
+                "x.csv:1:2: unknown column \"d\"; expected columns are a, b, c",
+                "x.csv:1:3: required column \"b\" is missing",
+                "x.csv:3:2: this row has 1 fields but the header has 2",
+            ]
         );
     }
 }

@@ -40,6 +40,7 @@ pub mod row_rules;
 pub mod sample;
 pub mod scales;
 pub mod schema;
+mod scratch;
 pub mod settings;
 pub mod settle;
 pub mod snapshot;

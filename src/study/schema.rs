@@ -318,7 +318,10 @@ fn compact_ranked_lists(conn: &Connection) -> rusqlite::Result<()> {
 
 /// The stored form of one list: item ids as a JSON array, and the scores as one (NULL
 /// when no entry has a score). Numbers are written so that they read back exactly.
-pub fn list_json(items: &[String], scores: &[Option<f64>]) -> (String, Option<String>) {
+pub fn list_json<S: serde::Serialize>(
+    items: &[S],
+    scores: &[Option<f64>],
+) -> (String, Option<String>) {
     let items = serde_json::to_string(items).unwrap_or_else(|_| "[]".into());
     let scores = scores
         .iter()
@@ -356,6 +359,30 @@ pub fn refresh_current_grades(conn: &Connection, after: i64) -> rusqlite::Result
                FROM grade_events e WHERE e.id > ?1 AND e.action = 'undo' AND {LATEST})"
         ),
         [after],
+    )?;
+    Ok(())
+}
+
+/// Rebuilds `current_grades` from the whole history in one ordered pass, by the same
+/// rule as the trigger and [`refresh_current_grades`]: per reviewer, pair and scale the
+/// latest event by (`graded_at`, id) is in force unless it is an undo. A large import
+/// uses it once every event is in, with `grade_events_by_key` built and
+/// `current_grades_by_reviewer` not yet: the events are read in index order, each with
+/// one seek for a later event of its key, and the current grades written in key order.
+pub fn rebuild_current_grades(conn: &Connection) -> rusqlite::Result<()> {
+    conn.execute("DELETE FROM current_grades", [])?;
+    conn.execute(
+        "INSERT INTO current_grades(scale, context_id, item_id, reviewer, event_id, value, seconds, graded_day)
+         SELECT e.scale, e.context_id, e.item_id, e.reviewer, e.id, e.value, e.seconds,
+                CAST(julianday(date(e.graded_at)) - 2440587.5 AS INTEGER)
+         FROM grade_events e INDEXED BY grade_events_by_key
+         WHERE e.action != 'undo' AND NOT EXISTS (
+             SELECT 1 FROM grade_events l INDEXED BY grade_events_by_key
+             WHERE l.scale = e.scale AND l.context_id = e.context_id AND l.item_id = e.item_id
+               AND l.reviewer = e.reviewer AND l.graded_at >= e.graded_at
+               AND (l.graded_at > e.graded_at OR l.id > e.id))
+         ORDER BY e.scale, e.context_id, e.item_id, e.reviewer",
+        [],
     )?;
     Ok(())
 }

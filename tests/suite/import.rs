@@ -144,6 +144,8 @@ fn malformed_files_are_reported_with_line_and_column() {
         (Slot::Contexts, b"context_id,kind,colour\nq9,query,red\n", "bad.csv:1:3: unknown column \"colour\"; expected columns are context_id, kind, text, anchor_item_id, segment"),
         (Slot::Items, b"item_id,title,price\ni7,Tarp,cheap\n", "bad.csv:2:3: price must be a number, got \"cheap\""),
         (Slot::Items, b"item_id,title\ni7,Tarp\ni8,Stakes\ni7,Tarp again\n", "bad.csv:4:1: duplicate item_id \"i7\" (first on line 2)"),
+        (Slot::Items, b"item_id,title\ni1,Tent\ni1,Tent again\n", "bad.csv:3:1: duplicate item_id \"i1\" (first on line 2)"),
+        (Slot::Rankings, b"ranker,context_id,item_id,rank\nb,q1,i1,1\nc,q1,i1,1\nb,q1,i2,3\n", "bad.csv:4:4: ranks must run 1, 2, 3\u{2026} in each list; rank 2 is missing in the list of ranker \"b\" for context \"q1\""),
         (Slot::Rankings, b"ranker,context_id,item_id,rank\nb,q1,i1,1\nb,q7,i2,2\n", "bad.csv:3:2: unknown context \"q7\"; import it in contexts.csv first"),
         (Slot::Rankings, b"ranker,context_id,item_id,rank\nb,q1,i1,1\nb,q1,nope,2\n", "bad.csv:3:3: unknown item \"nope\"; import it in items.csv first"),
         (Slot::Rankings, b"ranker,context_id,item_id,rank\nb,q1,i1,1\nb,q1,i2,1\n", "bad.csv:3:4: rank 1 is used twice in the list of ranker \"b\" for context \"q1\" (first on line 2)"),
@@ -217,4 +219,68 @@ fn a_field_over_one_mebibyte_is_refused() {
         first_line(&message),
         "bad.csv:2:3: field is longer than the limit of 1048576 bytes"
     );
+}
+
+/// The ids of one list as the study holds it.
+fn list_of(study: &Study, ranker: &str, context: &str) -> Vec<String> {
+    let snapshot = study.snapshot().unwrap();
+    let r = snapshot.ranker_index(ranker).unwrap();
+    let c = snapshot
+        .contexts
+        .iter()
+        .position(|x| x.id == context)
+        .unwrap();
+    snapshot.lists[r][c]
+        .iter()
+        .map(|i| snapshot.items[*i as usize].id.clone())
+        .collect()
+}
+
+#[test]
+fn lists_scattered_through_the_file_are_imported_whole() {
+    let fixture = Fixture::new();
+    let (_, mut study) = fixture.study();
+    // Three lists, none of whose rows are together.
+    let csv =
+        "ranker,context_id,item_id,rank\nx,q1,i2,2\ny,q1,i4,1\nx,q2,i3,1\nx,q1,i1,1\ny,q1,i2,2\n";
+    let set = ImportSet {
+        rankings: Some(Source::from_path(&fixture.write("scattered.csv", csv)).unwrap()),
+        ..Default::default()
+    };
+    let report = &import::import(&mut study, &set).unwrap()[0];
+    assert_eq!((report.added, report.updated, report.unchanged), (5, 0, 0));
+    assert_eq!(list_of(&study, "x", "q1"), ["i1", "i2"]);
+    assert_eq!(list_of(&study, "y", "q1"), ["i4", "i2"]);
+    assert_eq!(list_of(&study, "x", "q2"), ["i3"]);
+    assert_eq!(study.counts().unwrap().rankers, 4);
+}
+
+#[test]
+fn progress_reports_each_file_by_rows_and_bytes() {
+    let fixture = Fixture::new();
+    let mut study = Study::create(&fixture.path("p.plumb")).unwrap();
+    let mut steps = Vec::new();
+    import::import_with_progress(&mut study, &fixture.full_set(), &mut |s| {
+        steps.push(s.clone())
+    })
+    .unwrap();
+    let files = [
+        ("scales.csv", common::SCALES, 3),
+        ("items.csv", common::ITEMS, 4),
+        ("contexts.csv", common::CONTEXTS, 3),
+        ("rankings.csv", common::RANKINGS, 10),
+        ("grades.csv", common::GRADES, 8),
+    ];
+    for (n, (file, text, rows)) in files.into_iter().enumerate() {
+        let of_file: Vec<_> = steps.iter().filter(|s| s.file == file).collect();
+        let first = of_file[0];
+        assert_eq!((first.files_done, first.files_total), (n, 5), "{file}");
+        assert_eq!((first.rows_done, first.bytes_done), (0, 0), "{file}");
+        assert_eq!(first.bytes_total, text.len() as u64, "{file}");
+        if file == "grades.csv" {
+            let last = of_file.last().unwrap();
+            assert!(last.finishing, "grades end with indexes and current grades");
+            assert_eq!((last.rows_done, last.bytes_done), (rows, text.len() as u64));
+        }
+    }
 }

@@ -386,3 +386,62 @@ fn the_open_study_is_not_read_as_a_csv() {
     let err = import_one(&mut study, "grades", &path).unwrap_err();
     assert!(err.contains("the study itself"), "{err}");
 }
+
+/// The value in force for (reviewer, context, item) on scale "fit".
+fn current_value(path: &std::path::Path, reviewer: &str, context: &str, item: &str) -> i64 {
+    let conn = rusqlite::Connection::open(path).unwrap();
+    conn.query_row(
+        "SELECT value FROM current_grades
+         WHERE scale = 'fit' AND reviewer = ?1 AND context_id = ?2 AND item_id = ?3",
+        [reviewer, context, item],
+        |r| r.get(0),
+    )
+    .unwrap()
+}
+
+/// Rule (README, Conventions; common practice for judgment histories): the grade in
+/// force is the latest by `graded_at`, and of two with the same time the later row. An
+/// import small next to the study writes through the history's trigger and indexes row
+/// by row; a large one sets them aside and builds them once. Both keep the rule.
+#[test]
+fn the_latest_grade_counts_whether_the_import_is_small_or_large() {
+    // Against the fixture's grades: ann/q1/i1 was 2 at 09:00:00, bo/q1/i1 2 at 10:00:00,
+    // ann/q1/i2 1 at 09:00:05.
+    let rows = "ann,q1,i1,fit,0,2026-11-17T08:00:00Z\n\
+                bo,q1,i1,fit,0,2026-11-16T09:59:59Z\n\
+                ann,q1,i2,fit,2,2026-11-16T09:00:05Z\n";
+    let header = "reviewer,context_id,item_id,scale,value,graded_at\n";
+    let padding: String = (0..2_000)
+        .map(|n| format!("pad{n},q2,i2,fit,1,2026-11-16T12:00:00Z\n"))
+        .collect();
+    // Small: the padding first (so the study is large), then the three rows alone.
+    let small = Fixture::new();
+    let (small_path, mut study) = small.study();
+    let pad = small.write("pad.csv", &format!("{header}{padding}"));
+    import_one(&mut study, "grades", &pad).unwrap();
+    let three = small.write("three.csv", &format!("{header}{rows}"));
+    import_one(&mut study, "grades", &three).unwrap();
+    // Large: the three rows with the padding, in one file.
+    let large = Fixture::new();
+    let (large_path, mut study) = large.study();
+    let all = large.write("all.csv", &format!("{header}{rows}{padding}"));
+    import_one(&mut study, "grades", &all).unwrap();
+    for path in [&small_path, &large_path] {
+        assert_eq!(
+            current_value(path, "ann", "q1", "i1"),
+            0,
+            "a later grade wins"
+        );
+        assert_eq!(
+            current_value(path, "bo", "q1", "i1"),
+            2,
+            "an earlier one does not"
+        );
+        assert_eq!(
+            current_value(path, "ann", "q1", "i2"),
+            2,
+            "same time: the later row"
+        );
+        assert_eq!(current_value(path, "pad1999", "q2", "i2"), 1);
+    }
+}

@@ -17,6 +17,11 @@ fn fixture_file(name: &str) -> PathBuf {
 
 /// A study holding the fixture's catalog, pooled rankers and grades.
 fn pooled_study(fixture: &Fixture, name: &str) -> PathBuf {
+    pooled_study_with(fixture, name, &fixture_file("rankings.csv"))
+}
+
+/// The same, with the pooled rankers' lists from `rankings`.
+fn pooled_study_with(fixture: &Fixture, name: &str, rankings: &Path) -> PathBuf {
     let study = fixture.path(name);
     let s = study.to_str().unwrap();
     run(args!["new", s]);
@@ -31,11 +36,35 @@ fn pooled_study(fixture: &Fixture, name: &str) -> PathBuf {
         "--scales",
         &f("scales.csv"),
         "--rankings",
-        &f("rankings.csv"),
+        rankings.to_str().unwrap(),
         "--grades",
         &f("grades.csv")
     ]);
     study
+}
+
+/// A rankings file's rows reordered so that no list's rows are together: every list's
+/// first row, then every list's second row, and so on.
+fn scattered(text: &str) -> String {
+    let mut lines = text.lines();
+    let header = lines.next().unwrap();
+    let mut position: std::collections::HashMap<String, usize> = Default::default();
+    let mut rows: Vec<(usize, usize, &str)> = Vec::new();
+    for (n, line) in lines.enumerate() {
+        let cells: Vec<&str> = line.splitn(3, ',').collect();
+        let k = position
+            .entry(format!("{},{}", cells[0], cells[1]))
+            .or_default();
+        rows.push((*k, n, line));
+        *k += 1;
+    }
+    rows.sort();
+    let mut out = format!("{header}\n");
+    for (_, _, line) in rows {
+        out.push_str(line);
+        out.push('\n');
+    }
+    out
 }
 
 fn run(args: &[&std::ffi::OsStr]) -> String {
@@ -49,6 +78,11 @@ fn run(args: &[&std::ffi::OsStr]) -> String {
 }
 
 fn score_json(study: &Path, files: &[&str]) -> Value {
+    let paths: Vec<PathBuf> = files.iter().map(|f| fixture_file(f)).collect();
+    score_json_of(study, &paths)
+}
+
+fn score_json_of(study: &Path, files: &[PathBuf]) -> Value {
     let mut a: Vec<String> = [
         "score",
         study.to_str().unwrap(),
@@ -61,7 +95,7 @@ fn score_json(study: &Path, files: &[&str]) -> Value {
     .to_vec();
     for f in files {
         a.push("--rankings".into());
-        a.push(fixture_file(f).to_str().unwrap().to_string());
+        a.push(f.to_str().unwrap().to_string());
     }
     let a: Vec<&std::ffi::OsStr> = a.iter().map(std::ffi::OsStr::new).collect();
     serde_json::from_str(&run(&a)).unwrap()
@@ -76,18 +110,11 @@ fn close(a: &Value, b: &Value, what: &str) {
 
 #[test]
 fn pool_bias_equals_the_independent_computation() {
-    let expected: Value = serde_json::from_str(
-        &std::fs::read_to_string(
-            Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/pool_bias_expected.json"),
-        )
-        .unwrap(),
-    )
-    .unwrap();
-    let cases = expected["cases"].as_array().unwrap();
+    let cases = reference_cases();
     assert!(cases.len() >= 3, "the reference must keep its cases");
     let fixture = Fixture::new();
     let study = pooled_study(&fixture, "pool.plumb");
-    for case in cases {
+    for case in &cases {
         let name = case["name"].as_str().unwrap();
         let files: Vec<&str> = case["rankings_files"]
             .as_array()
@@ -96,57 +123,98 @@ fn pool_bias_equals_the_independent_computation() {
             .map(|f| f.as_str().unwrap())
             .collect();
         let board = score_json(&study, &files);
-        assert_eq!(board["contexts_scored"], case["contexts_scored"], "{name}");
-        let left_out: u64 = board["rankings_files"]
+        agrees_with_the_reference(&board, case, name);
+    }
+}
+
+/// The reference's cases (`tests/reference/gen_pool_bias.py`, Zobel 1998's leave-one-out
+/// test): its contexts scored, contexts left out, means and pool-bias rows.
+fn reference_cases() -> Vec<Value> {
+    let expected: Value = serde_json::from_str(
+        &std::fs::read_to_string(
+            Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/pool_bias_expected.json"),
+        )
+        .unwrap(),
+    )
+    .unwrap();
+    expected["cases"].as_array().unwrap().clone()
+}
+
+fn agrees_with_the_reference(board: &Value, case: &Value, name: &str) {
+    assert_eq!(board["contexts_scored"], case["contexts_scored"], "{name}");
+    let left_out: u64 = board["rankings_files"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| f["contexts_left_out"].as_u64().unwrap())
+        .sum();
+    assert_eq!(
+        left_out,
+        case["contexts_left_out_of_files"].as_u64().unwrap(),
+        "{name}"
+    );
+    for (ranker, means) in case["means"].as_object().unwrap() {
+        let ours = board["rankers"]
             .as_array()
             .unwrap()
             .iter()
-            .map(|f| f["contexts_left_out"].as_u64().unwrap())
-            .sum();
-        assert_eq!(
-            left_out,
-            case["contexts_left_out_of_files"].as_u64().unwrap(),
-            "{name}"
-        );
-        for (ranker, means) in case["means"].as_object().unwrap() {
-            let ours = board["rankers"]
-                .as_array()
-                .unwrap()
-                .iter()
-                .find(|r| r["ranker"] == ranker.as_str())
-                .unwrap_or_else(|| panic!("{name}: ranker {ranker} missing"));
-            for (metric, value) in means.as_object().unwrap() {
-                close(
-                    &ours["metrics"][metric]["mean"],
-                    value,
-                    &format!("{name} {ranker} {metric}"),
-                );
-            }
+            .find(|r| r["ranker"] == ranker.as_str())
+            .unwrap_or_else(|| panic!("{name}: ranker {ranker} missing"));
+        for (metric, value) in means.as_object().unwrap() {
+            close(
+                &ours["metrics"][metric]["mean"],
+                value,
+                &format!("{name} {ranker} {metric}"),
+            );
         }
-        let theirs = case["pool_bias"].as_array().unwrap();
-        let ours = board["pool_bias"].as_array().unwrap();
-        assert_eq!(ours.len(), theirs.len(), "{name}: pool-bias rows");
-        for t in theirs {
-            let o = ours
-                .iter()
-                .find(|o| o["ranker"] == t["ranker"] && o["metric"] == t["metric"])
-                .unwrap_or_else(|| panic!("{name}: no row for {} {}", t["ranker"], t["metric"]));
-            for field in [
-                "mean",
-                "mean_left_out",
-                "drop",
-                "contexts",
-                "unique_pairs",
-                "judged_left_out",
-                "kendall_tau_b",
-            ] {
-                close(
-                    &o[field],
-                    &t[field],
-                    &format!("{name} {} {} {field}", t["ranker"], t["metric"]),
-                );
-            }
+    }
+    let theirs = case["pool_bias"].as_array().unwrap();
+    let ours = board["pool_bias"].as_array().unwrap();
+    assert_eq!(ours.len(), theirs.len(), "{name}: pool-bias rows");
+    for t in theirs {
+        let o = ours
+            .iter()
+            .find(|o| o["ranker"] == t["ranker"] && o["metric"] == t["metric"])
+            .unwrap_or_else(|| panic!("{name}: no row for {} {}", t["ranker"], t["metric"]));
+        for field in [
+            "mean",
+            "mean_left_out",
+            "drop",
+            "contexts",
+            "unique_pairs",
+            "judged_left_out",
+            "kendall_tau_b",
+        ] {
+            close(
+                &o[field],
+                &t[field],
+                &format!("{name} {} {} {field}", t["ranker"], t["metric"]),
+            );
         }
+    }
+}
+
+#[test]
+fn lists_scattered_through_their_files_give_the_reference_figures() {
+    // Files whose lists are not together are read again, sorted by list: by import (the
+    // study's own lists) and by `score --rankings` alike.
+    let fixture = Fixture::new();
+    let scattered_copy = |name: &str| -> PathBuf {
+        let text = std::fs::read_to_string(fixture_file(name)).unwrap();
+        let copy = scattered(&text);
+        assert_ne!(copy, text, "{name} must change order");
+        fixture.write(&format!("scattered_{name}"), &copy)
+    };
+    let study = pooled_study_with(&fixture, "scattered.plumb", &scattered_copy("rankings.csv"));
+    for case in reference_cases() {
+        let name = case["name"].as_str().unwrap();
+        let files: Vec<PathBuf> = case["rankings_files"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|f| scattered_copy(f.as_str().unwrap()))
+            .collect();
+        agrees_with_the_reference(&score_json_of(&study, &files), &case, name);
     }
 }
 

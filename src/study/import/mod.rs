@@ -1,12 +1,20 @@
 //! CSV import into a study. All files of one import go in one transaction: every row of
 //! every file, or nothing. Re-importing the same files changes nothing.
+//!
+//! Files are read as streams: each row is checked (with its line and column) and, while
+//! no problem has been found, written at once. What would grow with a file — the ids it
+//! has met, rows of scattered lists — is kept in a scratch database (`study::scratch`),
+//! so an import's memory is bounded by its page caches, not by the size of its files.
 
-use std::collections::{HashMap, HashSet};
+use std::io::BufRead;
 use std::path::{Path, PathBuf};
 
 use rusqlite::Transaction;
 
-use super::csv_input::{self, Problem, ProblemLog, Problems, Row, Shape, Table};
+use crate::core::fast_hash::FastSet;
+
+use super::csv_input::{self, CsvRows, Problem, ProblemLog, Problems, Row, Shape};
+use super::scratch::{FirstSeen, Scratch};
 use super::{Result, Study, StudyError};
 
 mod catalog;
@@ -15,7 +23,7 @@ mod grades;
 mod rankings;
 mod scales;
 
-pub(crate) use rankings::{KnownIds, read_lists};
+pub(crate) use rankings::{KnownIds, ListsRead, Order, ParsedList, read_lists};
 
 pub const ITEMS: Shape = Shape {
     required: &["item_id", "title"],
@@ -113,6 +121,28 @@ impl Source {
             folder,
         })
     }
+
+    /// The source's rows, read as a stream; problems with its header go to `log`.
+    fn rows(&self, shape: &Shape, log: &mut ProblemLog) -> Result<CsvRows<Box<dyn BufRead + '_>>> {
+        let input: Box<dyn BufRead> = match &self.input {
+            Input::Bytes(bytes) => Box::new(&bytes[..]),
+            Input::File(path) => {
+                let file = csv_input::open_regular(path).map_err(|m| {
+                    input_error(Problems(vec![csv_input::whole_file(&self.name, m)]))
+                })?;
+                Box::new(std::io::BufReader::with_capacity(1 << 16, file))
+            }
+        };
+        Ok(CsvRows::new(&self.name, input, shape, log))
+    }
+
+    /// The source's size in bytes (0 when it cannot be read; for progress only).
+    fn size(&self) -> u64 {
+        match &self.input {
+            Input::Bytes(bytes) => bytes.len() as u64,
+            Input::File(path) => std::fs::metadata(path).map_or(0, |m| m.len()),
+        }
+    }
 }
 
 /// The files of one import; any may be absent.
@@ -140,7 +170,8 @@ pub struct FileReport {
     pub warnings: Vec<String>,
 }
 
-/// Where an import stands, for a progress line or bar.
+/// Where an import stands, for a progress line or bar. Each file is read once, its
+/// rows checked and written as they come, so a file's progress is its bytes read.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct ImportStep {
     /// The file being imported, as messages call it.
@@ -148,22 +179,25 @@ pub struct ImportStep {
     /// Files finished before this one, and files in the import.
     pub files_done: usize,
     pub files_total: usize,
-    /// Rows of this file written so far, and its rows (0 while it is being read).
+    /// Rows of this file read (and, unless a problem was found, written) so far.
     pub rows_done: u64,
-    pub rows_total: u64,
+    /// Bytes of this file read so far, and its size (0 when unknown).
+    pub bytes_done: u64,
+    pub bytes_total: u64,
+    /// Every row is in; indexes and current grades are being brought up to date.
+    pub finishing: bool,
 }
 
 /// Receives [`ImportStep`]s as an import runs (from the importing thread).
 pub type Progress<'a> = &'a mut dyn FnMut(&ImportStep);
 
 /// How many rows pass between two progress reports.
-const PROGRESS_EVERY: u64 = 20_000;
+const PROGRESS_EVERY: u64 = 16_384;
 
-/// Reports one file's progress; `rows` is called with (done, total) as rows are written.
+/// Reports one file's progress.
 pub(super) struct FileProgress<'p> {
     progress: &'p mut dyn FnMut(&ImportStep),
     step: ImportStep,
-    last: u64,
 }
 
 impl<'p> FileProgress<'p> {
@@ -173,31 +207,53 @@ impl<'p> FileProgress<'p> {
         files_done: usize,
         files_total: usize,
     ) -> FileProgress<'p> {
-        FileProgress {
-            step: ImportStep {
-                file: src.name.clone(),
-                files_done,
-                files_total,
-                rows_done: 0,
-                rows_total: 0,
-            },
-            last: 0,
-            progress,
-        }
+        let step = ImportStep {
+            file: src.name.clone(),
+            files_done,
+            files_total,
+            rows_done: 0,
+            bytes_done: 0,
+            bytes_total: src.size(),
+            finishing: false,
+        };
+        progress(&step);
+        FileProgress { progress, step }
     }
 
-    pub(super) fn total(&mut self, rows: u64) {
-        self.step.rows_total = rows;
-        (self.progress)(&self.step);
-    }
-
-    pub(super) fn rows(&mut self, done: u64) {
-        if done >= self.last + PROGRESS_EVERY {
-            self.last = done;
-            self.step.rows_done = done;
+    /// Rows and bytes read so far; reported every [`PROGRESS_EVERY`] rows.
+    pub(super) fn read(&mut self, rows: u64, bytes: u64) {
+        self.step.rows_done = rows;
+        self.step.bytes_done = bytes;
+        if rows.is_multiple_of(PROGRESS_EVERY) {
             (self.progress)(&self.step);
         }
     }
+
+    /// Every row is read; what follows is indexes and current grades.
+    pub(super) fn finishing(&mut self) {
+        self.step.finishing = true;
+        self.step.bytes_done = self.step.bytes_total;
+        (self.progress)(&self.step);
+    }
+}
+
+/// Reads `src` as a stream and hands each row to `each` (only while the header is as
+/// `shape` asks), reporting progress; problems go to `log`.
+fn each_row(
+    src: &Source,
+    shape: &Shape,
+    progress: &mut FileProgress,
+    log: &mut ProblemLog,
+    each: &mut dyn FnMut(Fields, &mut ProblemLog) -> Result<()>,
+) -> Result<()> {
+    let mut rows = src.rows(shape, log)?;
+    let mut n = 0;
+    while let Some(row) = rows.next_row(log) {
+        each(Fields { row }, log)?;
+        n += 1;
+        progress.read(n, rows.bytes_read());
+    }
+    Ok(())
 }
 
 /// Imports every file given, in dependency order, in one transaction.
@@ -214,69 +270,67 @@ pub fn import_with_progress(
     if study.is_read_only() {
         return Err(study.read_only_error());
     }
+    let conn = study.conn();
     // A large page cache keeps a big import's index pages in memory instead of
-    // spilling them to the WAL mid-transaction (the default cache is 2 MB).
-    study
-        .conn()
-        .pragma_update(None, "cache_size", IMPORT_CACHE_KIB)?;
-    // Every reference was checked row by row before the store is touched (with its line
-    // and column), so SQLite's own foreign-key probes would only repeat that work.
-    study.conn().pragma_update(None, "foreign_keys", false)?;
+    // spilling them to the WAL mid-transaction, again and again.
+    conn.pragma_update(None, "cache_size", IMPORT_CACHE_KIB)?;
+    // Every reference is checked row by row (with its line and column) before the row
+    // is written, so SQLite's own foreign-key probes would only repeat that work.
+    conn.pragma_update(None, "foreign_keys", false)?;
+    // Likewise every value a CHECK constraint guards is checked by the importer or made
+    // by it (an event's action, a list's JSON), and a CHECK with a list of words costs a
+    // temporary table per row.
+    conn.pragma_update(None, "ignore_check_constraints", true)?;
+    // Sorts (index builds, current grades) spill to temporary files instead of growing
+    // in memory with the import.
+    conn.pragma_update(None, "temp_store", "FILE")?;
     let result = import_in_transaction(study, set, progress);
-    study.conn().pragma_update(None, "foreign_keys", true)?;
-    study
-        .conn()
-        .pragma_update(None, "cache_size", super::DEFAULT_CACHE_KIB)?;
+    let conn = study.conn();
+    conn.pragma_update(None, "temp_store", "MEMORY")?;
+    conn.pragma_update(None, "ignore_check_constraints", false)?;
+    conn.pragma_update(None, "foreign_keys", true)?;
+    conn.pragma_update(None, "cache_size", super::DEFAULT_CACHE_KIB)?;
     result
 }
 
-/// Page cache during imports, in KiB (negative = KiB for SQLite's `cache_size`).
-const IMPORT_CACHE_KIB: i64 = -32_768;
+/// Page cache during imports, in KiB (negative = KiB for SQLite's `cache_size`): what
+/// an import's memory is bounded by, besides the longest row and list of its files.
+pub(super) const IMPORT_CACHE_KIB: i64 = -131_072;
+
+/// Page cache while an import builds indexes, in KiB: SQLite's sorter holds as much as
+/// the page cache in memory before it spills to temporary files, so a smaller cache
+/// keeps the sorter's memory and the pages already cached within the import's bound.
+pub(super) const SORT_CACHE_KIB: i64 = -16_384;
 
 fn import_in_transaction(
     study: &mut Study,
     set: &ImportSet,
     progress: Progress,
 ) -> Result<Vec<FileReport>> {
+    let scratch = Scratch::open()?;
     let tx = study.begin_write()?;
-    let mut reports = Vec::new();
     let files = [
         &set.scales,
         &set.items,
         &set.contexts,
         &set.rankings,
         &set.grades,
+        &set.gold,
     ];
     let files_total = files.iter().filter(|f| f.is_some()).count();
-    let mut files_done = 0;
-    if let Some(src) = &set.scales {
-        FileProgress::start(&mut *progress, src, files_done, files_total).total(0);
-        reports.push(scales::import_scales(&tx, src)?);
-        files_done += 1;
-    }
-    if let Some(src) = &set.items {
-        FileProgress::start(&mut *progress, src, files_done, files_total).total(0);
-        reports.push(catalog::import_items(&tx, src)?);
-        files_done += 1;
-    }
-    if let Some(src) = &set.contexts {
-        FileProgress::start(&mut *progress, src, files_done, files_total).total(0);
-        reports.push(catalog::import_contexts(&tx, src)?);
-        files_done += 1;
-    }
-    if let Some(src) = &set.rankings {
-        let mut p = FileProgress::start(&mut *progress, src, files_done, files_total);
-        reports.push(rankings::import_rankings(&tx, src, &mut p)?);
-        files_done += 1;
-    }
-    if let Some(src) = &set.grades {
-        let mut p = FileProgress::start(&mut *progress, src, files_done, files_total);
-        reports.push(grades::import_grades(&tx, src, &mut p)?);
-        files_done += 1;
-    }
-    if let Some(src) = &set.gold {
-        let mut p = FileProgress::start(&mut *progress, src, files_done, files_total);
-        reports.push(gold::import_gold(&tx, src, &mut p)?);
+    let mut reports = Vec::new();
+    for (kind, src) in files.into_iter().enumerate() {
+        let Some(src) = src else { continue };
+        let mut p = FileProgress::start(&mut *progress, src, reports.len(), files_total);
+        let report = match kind {
+            0 => scales::import_scales(&tx, src, &mut p)?,
+            1 => catalog::import_items(&tx, src, &scratch, &mut p)?,
+            2 => catalog::import_contexts(&tx, src, &scratch, &mut p)?,
+            3 => rankings::import_rankings(&tx, src, &scratch, &mut p)?,
+            4 => grades::import_grades(&tx, src, &scratch, &mut p)?,
+            _ => gold::import_gold(&tx, src, &scratch, &mut p)?,
+        };
+        reports.push(report);
     }
     tx.commit()?;
     Ok(reports)
@@ -286,43 +340,26 @@ fn input_error(problems: Problems) -> StudyError {
     StudyError::Input(problems)
 }
 
-fn parse(src: &Source, shape: &Shape) -> Result<Table> {
-    match &src.input {
-        Input::Bytes(bytes) => csv_input::parse(&src.name, bytes, shape),
-        Input::File(path) => {
-            let file = csv_input::open_regular(path)
-                .map_err(|m| Problems(vec![csv_input::whole_file(&src.name, m)]))
-                .map_err(input_error)?;
-            csv_input::parse_reader(
-                &src.name,
-                std::io::BufReader::with_capacity(1 << 16, file),
-                shape,
-            )
-        }
-    }
-    .map_err(input_error)
-}
-
 /// Typed access to a row's named fields, recording problems with their column.
+#[derive(Clone, Copy)]
 struct Fields<'a> {
-    table: &'a Table,
-    row: &'a Row,
+    row: Row<'a>,
 }
 
 impl<'a> Fields<'a> {
     /// The field's text, with an export's formula guard removed.
     fn text(&self, name: &str) -> &'a str {
-        self.table
+        self.row
             .column(name)
-            .map_or("", |i| unneutralise(self.table.field(self.row, i)))
+            .map_or("", |i| unneutralise(self.row.field(i)))
     }
 
     fn col(&self, name: &str) -> usize {
-        self.table.column(name).map_or(0, |i| i + 1)
+        self.row.column(name).map_or(0, |i| i + 1)
     }
 
     fn problem(&self, name: &str, message: impl Into<String>) -> Problem {
-        self.table.problem(self.row.line, self.col(name), message)
+        self.row.problem(self.col(name), message)
     }
 
     fn required(&self, name: &str, log: &mut ProblemLog) -> Option<&'a str> {
@@ -407,8 +444,8 @@ fn report(src: &Source, kind: &'static str) -> FileReport {
 /// The contexts, items and scales (with their level counts) a graded pair may name,
 /// read once per file; grades and gold pairs check every row against them alike.
 struct PairRefs {
-    contexts: HashSet<String>,
-    items: HashSet<String>,
+    contexts: FastSet<String>,
+    items: FastSet<String>,
     scale_sizes: std::collections::HashMap<String, i64>,
 }
 
@@ -456,11 +493,11 @@ impl PairRefs {
     }
 }
 
-fn id_set(tx: &Transaction, sql: &str) -> Result<HashSet<String>> {
+fn id_set(tx: &Transaction, sql: &str) -> Result<FastSet<String>> {
     let mut stmt = tx.prepare(sql)?;
     let ids = stmt
         .query_map([], |r| r.get::<_, String>(0))?
-        .collect::<std::result::Result<HashSet<String>, _>>()?;
+        .collect::<std::result::Result<FastSet<String>, _>>()?;
     Ok(ids)
 }
 
@@ -469,32 +506,43 @@ pub use crate::core::digest::content_uid;
 /// The ids of one kind met so far (in the file, and in the study), keyed by their
 /// Unicode NFC form: two ids that differ in bytes but are canonically equivalent
 /// (Unicode Standard Annex #15) look identical on screen and would name two things.
-pub(super) struct DistinctIds {
+/// They are held in the import's scratch database, not in memory.
+pub(super) struct DistinctIds<'s> {
     what: &'static str,
     /// NFC form → (the id as written, its line; 0 = already in the study).
-    seen: HashMap<String, (String, u64)>,
+    seen: FirstSeen<'s>,
 }
 
-impl DistinctIds {
+impl<'s> DistinctIds<'s> {
     /// Starts with the ids the study already has.
-    pub(super) fn with_study(tx: &Transaction, what: &'static str, sql: &str) -> Result<Self> {
-        let mut seen = HashMap::new();
-        for id in id_set(tx, sql)? {
-            seen.insert(nfc(&id), (id, 0));
+    pub(super) fn with_study(
+        tx: &Transaction,
+        scratch: &'s Scratch,
+        what: &'static str,
+        sql: &str,
+    ) -> Result<Self> {
+        let mut seen = scratch.keys()?;
+        let mut stmt = tx.prepare(sql)?;
+        let mut ids = stmt.query([])?;
+        while let Some(r) = ids.next()? {
+            let id = r.get_ref(0)?.as_str().map_err(rusqlite::Error::from)?;
+            seen.first(&nfc(id), id, 0)?;
         }
         Ok(DistinctIds { what, seen })
     }
 
     /// Records `id` from `line`; the problem when an earlier line of the file has the
     /// same id, or one equal after NFC but different in bytes (here or in the study).
-    pub(super) fn check(&mut self, id: &str, line: u64) -> Option<String> {
+    pub(super) fn check(&mut self, id: &str, line: u64) -> Result<Option<String>> {
         let what = self.what;
-        match self.seen.get(&nfc(id)) {
-            None => {
-                self.seen.insert(nfc(id), (id.to_string(), line));
+        let key = nfc(id);
+        let problem = match self.seen.first(&key, id, line)? {
+            None => None,
+            Some((first, 0)) if first == id => {
+                // In the study already: this row updates it, and a second row is a duplicate.
+                self.seen.met_on(&key, line)?;
                 None
             }
-            Some((first, 0)) if first == id => None,
             Some((first, first_line)) if first == id => Some(format!(
                 "duplicate {what} \"{id}\" (first on line {first_line})"
             )),
@@ -506,10 +554,11 @@ impl DistinctIds {
                 Some(format!(
                     "{what} \"{}\" is the same text as \"{}\" {place} once Unicode-normalised (NFC) but differs in bytes; use one spelling",
                     spelled(id),
-                    spelled(first)
+                    spelled(&first)
                 ))
             }
-        }
+        };
+        Ok(problem)
     }
 }
 
@@ -527,7 +576,11 @@ fn spelled(id: &str) -> String {
         .collect()
 }
 
-fn nfc(text: &str) -> String {
-    use unicode_normalization::UnicodeNormalization;
-    text.nfc().collect()
+/// The NFC form of `text` (borrowed when it already is, as ASCII always is).
+fn nfc(text: &str) -> std::borrow::Cow<'_, str> {
+    use unicode_normalization::{IsNormalized, UnicodeNormalization, is_nfc_quick};
+    match is_nfc_quick(text.chars()) {
+        IsNormalized::Yes => std::borrow::Cow::Borrowed(text),
+        _ => std::borrow::Cow::Owned(text.nfc().collect()),
+    }
 }

@@ -1,25 +1,21 @@
 //! Ranked lists: by rank or by score, checked list by list. The same reader serves the
 //! import and `score --rankings` (lists scored from a file without importing them).
+//! The file is read as a stream. A list whose rows are together in the file (as every
+//! export writes them) is checked and handed on as soon as the next list starts, so
+//! memory holds one list; a file whose lists are scattered is read once more, its rows
+//! held in the scratch database and read back sorted by list.
 
-use std::collections::{HashMap, HashSet};
+use std::collections::HashSet;
+use std::io::BufRead;
+use std::ops::Range;
 
-use rusqlite::{Transaction, params};
+use rusqlite::{OptionalExtension, Statement, Transaction, params};
 
-use super::{
-    Fields, FileProgress, FileReport, RANKINGS, Source, id_set, input_error, parse, report,
-};
-use crate::core::fast_hash::{FastMap, FastSet};
+use super::{Fields, FileProgress, FileReport, RANKINGS, Source, id_set, input_error, report};
 use crate::study::Result;
-use crate::study::csv_input::{ProblemLog, Table};
+use crate::study::csv_input::{CsvRows, Problem, ProblemLog};
 use crate::study::schema::list_json;
-
-/// One row of a ranked list as read from the file.
-struct RankedRow<'a> {
-    line: u64,
-    item: &'a str,
-    rank: Option<u64>,
-    score: Option<f64>,
-}
+use crate::study::scratch::{FirstSeen, Scratch, StagedRow};
 
 /// One checked list: its ranker, context and (item, score) entries in rank order.
 pub(crate) struct ParsedList<'a> {
@@ -37,241 +33,476 @@ pub(crate) struct KnownIds<'k> {
     pub refuse_unknown: bool,
 }
 
-/// Lists read from a file; `left_out` counts lists whose context the study lacks and
-/// `left_out_contexts` those contexts (each once, however many rankers list it).
-pub(crate) struct ReadLists<'a> {
-    pub lists: Vec<ParsedList<'a>>,
-    pub left_out: usize,
-    pub left_out_contexts: usize,
+/// How a file's rows reach their lists.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Order {
+    /// As the file has them: each list's rows must be together.
+    AsWritten,
+    /// Held in the scratch database and read back sorted by list: any order of rows.
+    Sorted,
 }
 
-/// Reads and checks every list of a rankings table: no item twice in a list, ranks 1..n
+/// What reading a file's lists gave.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum ListsRead {
+    /// Every row was read: lists handed on, lists left out for an unknown context, and
+    /// those contexts (each once, however many rankers list it).
+    Done {
+        lists: usize,
+        left_out: usize,
+        left_out_contexts: usize,
+    },
+    /// Read as written, one list's rows turned out not to be together: whatever was done
+    /// with the lists handed on must be undone, and the file read again `Order::Sorted`.
+    Scattered,
+}
+
+/// Reads and checks every list of a rankings file: no item twice in a list, ranks 1..n
 /// without gaps or repeats, scores finite; score-ordered lists rank higher scores first,
-/// ties by item id ascending. Problems go to `log` with their line and column.
-pub(crate) fn read_lists<'a>(
-    table: &'a Table,
+/// ties by item id ascending. Each list is handed to `on_list` once checked, as long as
+/// no problem has been found (after one the rest is only checked). Problems go to `log`
+/// with their line and column; `progress` gets rows and bytes read.
+pub(crate) fn read_lists<R: BufRead>(
+    rows: &mut CsvRows<R>,
     known: &KnownIds,
+    scratch: &Scratch,
+    order: Order,
     log: &mut ProblemLog,
-) -> ReadLists<'a> {
-    let has_rank = table.column("rank").is_some();
-    let has_score = table.column("score").is_some();
-    if !has_rank && !has_score {
-        log.push(table.problem(
-            1,
-            table.header.len() + 1,
-            "rankings need a rank or a score column",
-        ));
-        return ReadLists {
-            lists: Vec::new(),
+    on_list: &mut dyn FnMut(&ParsedList) -> Result<()>,
+    progress: &mut dyn FnMut(u64, u64),
+) -> Result<ListsRead> {
+    let Some(columns) = columns(rows, log) else {
+        while rows.next_row(log).is_some() {}
+        return Ok(ListsRead::Done {
+            lists: 0,
             left_out: 0,
             left_out_contexts: 0,
-        };
-    }
-    // Lists in order of first appearance, found by (ranker, context); sorted at the end.
-    let mut lists: Vec<((&str, &str), Vec<RankedRow>)> = Vec::new();
-    let mut list_at: FastMap<(&str, &str), usize> = FastMap::default();
-    let mut left_out: FastSet<(&str, &str)> = FastSet::default();
-    for row in &table.rows {
-        let f = Fields { table, row };
-        let (Some(ranker), Some(context), Some(item)) = (
-            f.required("ranker", log),
-            f.required("context_id", log),
-            f.required("item_id", log),
-        ) else {
-            continue;
-        };
-        if !(known.contexts)(context) {
-            if known.refuse_unknown {
-                log.push(f.problem(
-                    "context_id",
-                    format!("unknown context \"{context}\"; import it in contexts.csv first"),
-                ));
-                continue;
-            }
-            left_out.insert((ranker, context));
+        });
+    };
+    let mut list = Gathering::new(rows.file(), columns);
+    let mut unknown = scratch.keys()?;
+    let mut each = |row: StagedRow, log: &mut ProblemLog| -> Result<bool> {
+        let (ranker, context, line, item, rank, score) = row;
+        let new_list = !list.is(ranker, context);
+        if new_list {
+            list.finish(known, &mut unknown, log, on_list)?;
+            list.start(ranker, context);
         }
-        if known.refuse_unknown && !(known.items)(item) {
-            log.push(f.problem(
-                "item_id",
-                format!("unknown item \"{item}\"; import it in items.csv first"),
-            ));
-            continue;
-        }
-        let rank = if has_rank {
-            let text = f.text("rank").trim();
-            match text.parse::<u64>() {
-                Ok(r) if r >= 1 => Some(r),
-                _ => {
-                    log.push(f.problem(
-                        "rank",
-                        format!("rank must be a positive integer, got \"{text}\""),
-                    ));
+        list.push(line, item, rank, score);
+        Ok(new_list)
+    };
+    match order {
+        Order::AsWritten => {
+            let mut seen = scratch.keys()?;
+            let mut n = 0;
+            loop {
+                progress(n, rows.bytes_read());
+                let Some(row) = rows.next_row(log) else { break };
+                n += 1;
+                let Some(row) = checked_row(&Fields { row }, columns, known, log) else {
                     continue;
+                };
+                let (ranker, context, line) = (row.0, row.1, row.2);
+                if each(row, log)? {
+                    // A list met before: its rows are not together in the file.
+                    let key = [ranker, context].join("\0");
+                    if seen.first(&key, &key, line)?.is_some() {
+                        return Ok(ListsRead::Scattered);
+                    }
                 }
             }
-        } else {
-            None
-        };
-        let score = if has_score {
+        }
+        Order::Sorted => {
+            let mut staged = scratch.ranked_rows()?;
+            let mut n = 0;
+            loop {
+                progress(n, rows.bytes_read());
+                let Some(row) = rows.next_row(log) else { break };
+                n += 1;
+                if let Some(row) = checked_row(&Fields { row }, columns, known, log) {
+                    staged.add(row)?;
+                }
+            }
+            if !log.is_full() {
+                staged.each_sorted(&mut |row| each(row, log).map(|_| ()))?;
+            }
+        }
+    }
+    list.finish(known, &mut unknown, log, on_list)?;
+    Ok(ListsRead::Done {
+        lists: list.handed,
+        left_out: list.left_out,
+        left_out_contexts: list.left_out_contexts,
+    })
+}
+
+/// The columns the list checks name, and whether ranks or scores order the lists.
+#[derive(Clone, Copy)]
+struct Columns {
+    item: usize,
+    rank: usize,
+    has_rank: bool,
+    has_score: bool,
+}
+
+/// The file's columns, or None (with the problem) when it has neither rank nor score.
+fn columns<R: BufRead>(rows: &CsvRows<R>, log: &mut ProblemLog) -> Option<Columns> {
+    let header = rows.header();
+    let at = |name: &str| header.iter().position(|h| h == name);
+    let columns = Columns {
+        item: at("item_id").unwrap_or(0) + 1,
+        rank: at("rank").unwrap_or(0) + 1,
+        has_rank: at("rank").is_some(),
+        has_score: at("score").is_some(),
+    };
+    if !rows.header_ok() {
+        return None;
+    }
+    if !columns.has_rank && !columns.has_score {
+        log.push(rows.problem(
+            1,
+            header.len() + 1,
+            "rankings need a rank or a score column",
+        ));
+        return None;
+    }
+    Some(columns)
+}
+
+/// One row's fields checked; `None` once a problem is logged.
+fn checked_row<'a>(
+    f: &Fields<'a>,
+    columns: Columns,
+    known: &KnownIds,
+    log: &mut ProblemLog,
+) -> Option<StagedRow<'a>> {
+    let (Some(ranker), Some(context), Some(item)) = (
+        f.required("ranker", log),
+        f.required("context_id", log),
+        f.required("item_id", log),
+    ) else {
+        return None;
+    };
+    if known.refuse_unknown && !(known.contexts)(context) {
+        log.push(f.problem(
+            "context_id",
+            format!("unknown context \"{context}\"; import it in contexts.csv first"),
+        ));
+        return None;
+    }
+    if known.refuse_unknown && !(known.items)(item) {
+        log.push(f.problem(
+            "item_id",
+            format!("unknown item \"{item}\"; import it in items.csv first"),
+        ));
+        return None;
+    }
+    let rank = match columns.has_rank {
+        false => None,
+        true => match f.text("rank").trim().parse::<u64>() {
+            Ok(r) if r >= 1 => Some(r),
+            _ => {
+                let text = f.text("rank").trim();
+                let message = format!("rank must be a positive integer, got \"{text}\"");
+                log.push(f.problem("rank", message));
+                return None;
+            }
+        },
+    };
+    let score = match columns.has_score {
+        false => None,
+        true => {
             let text = f.text("score").trim();
             match text.parse::<f64>() {
                 Ok(s) if s.is_finite() => Some(s),
-                _ if has_rank && text.is_empty() => None,
+                _ if columns.has_rank && text.is_empty() => None,
                 _ => {
-                    log.push(f.problem("score", format!("score must be a number, got \"{text}\"")));
-                    continue;
+                    let message = format!("score must be a number, got \"{text}\"");
+                    log.push(f.problem("score", message));
+                    return None;
                 }
             }
-        } else {
-            None
-        };
-        let at = *list_at.entry((ranker, context)).or_insert_with(|| {
-            lists.push(((ranker, context), Vec::new()));
-            lists.len() - 1
-        });
-        lists[at].1.push(RankedRow {
-            line: row.line,
-            item,
+        }
+    };
+    Some((ranker, context, f.row.line, item, rank, score))
+}
+
+/// One row of the list being gathered: its line, its item id's place in the list's
+/// text, its rank and its score.
+struct RankedRow {
+    line: u64,
+    item: Range<usize>,
+    rank: Option<u64>,
+    score: Option<f64>,
+}
+
+/// The list being gathered: the rows of one (ranker, context) in the order read.
+struct Gathering {
+    file: String,
+    columns: Columns,
+    started: bool,
+    ranker: String,
+    context: String,
+    text: String,
+    rows: Vec<RankedRow>,
+    /// Lists handed on, lists left out for an unknown context, and those contexts.
+    handed: usize,
+    left_out: usize,
+    left_out_contexts: usize,
+}
+
+impl Gathering {
+    fn new(file: &str, columns: Columns) -> Gathering {
+        Gathering {
+            file: file.to_string(),
+            columns,
+            started: false,
+            ranker: String::new(),
+            context: String::new(),
+            text: String::new(),
+            rows: Vec::new(),
+            handed: 0,
+            left_out: 0,
+            left_out_contexts: 0,
+        }
+    }
+
+    fn is(&self, ranker: &str, context: &str) -> bool {
+        self.started && self.ranker == ranker && self.context == context
+    }
+
+    fn start(&mut self, ranker: &str, context: &str) {
+        self.started = true;
+        self.ranker.replace_range(.., ranker);
+        self.context.replace_range(.., context);
+        self.text.clear();
+        self.rows.clear();
+    }
+
+    fn push(&mut self, line: u64, item: &str, rank: Option<u64>, score: Option<f64>) {
+        let start = self.text.len();
+        self.text.push_str(item);
+        self.rows.push(RankedRow {
+            line,
+            item: start..self.text.len(),
             rank,
             score,
         });
-        if log.is_full() {
-            break;
+    }
+
+    fn item(&self, row: &RankedRow) -> &str {
+        &self.text[row.item.clone()]
+    }
+
+    fn problem(&self, line: u64, column: usize, message: String) -> Problem {
+        Problem {
+            file: self.file.clone(),
+            line,
+            column,
+            message,
         }
     }
-    lists.sort_unstable_by(|a, b| a.0.cmp(&b.0));
-    let item_col = table.column("item_id").unwrap_or(0) + 1;
-    let rank_col = table.column("rank").unwrap_or(0) + 1;
-    let mut ordered = Vec::with_capacity(lists.len());
-    let mut by_item: Vec<(&str, u64)> = Vec::new();
-    for ((ranker, context), mut rows) in lists {
-        // Repeats found by sorting a copy: lists are short, a hash set per list is not.
-        by_item.clear();
-        by_item.extend(rows.iter().map(|r| (r.item, r.line)));
+
+    /// Checks the list gathered so far, puts it in rank order and hands it on.
+    fn finish(
+        &mut self,
+        known: &KnownIds,
+        unknown: &mut FirstSeen,
+        log: &mut ProblemLog,
+        on_list: &mut dyn FnMut(&ParsedList) -> Result<()>,
+    ) -> Result<()> {
+        if !std::mem::take(&mut self.started) {
+            return Ok(());
+        }
+        self.check_repeats(log);
+        self.order(log);
+        if !(known.contexts)(&self.context) {
+            self.left_out += 1;
+            if unknown.first(&self.context, &self.context, 0)?.is_none() {
+                self.left_out_contexts += 1;
+            }
+            return Ok(());
+        }
+        if log.0.is_empty() {
+            let entries = self.rows.iter().map(|r| (self.item(r), r.score)).collect();
+            on_list(&ParsedList {
+                ranker: &self.ranker,
+                context: &self.context,
+                entries,
+            })?;
+            self.handed += 1;
+        }
+        Ok(())
+    }
+
+    /// Items given twice, found by sorting a copy: lists are short, a hash set per list is not.
+    fn check_repeats(&self, log: &mut ProblemLog) {
+        let mut by_item: Vec<(&str, u64)> =
+            self.rows.iter().map(|r| (self.item(r), r.line)).collect();
         by_item.sort_unstable();
         for pair in by_item.windows(2) {
             if pair[0].0 == pair[1].0 {
-                log.push(table.problem(
+                log.push(self.problem(
                     pair[1].1,
-                    item_col,
-                    format!("item \"{}\" appears twice in the list of ranker \"{ranker}\" for context \"{context}\" (first on line {})", pair[1].0, pair[0].1),
+                    self.columns.item,
+                    format!("item \"{}\" appears twice in the list of ranker \"{}\" for context \"{}\" (first on line {})", pair[1].0, self.ranker, self.context, pair[0].1),
                 ));
             }
         }
-        if has_rank {
-            rows.sort_by_key(|r| (r.rank, r.line));
-            let mut repeated = false;
-            for pair in rows.windows(2) {
-                if pair[0].rank == pair[1].rank {
-                    repeated = true;
-                    log.push(table.problem(
-                        pair[1].line,
-                        rank_col,
-                        format!("rank {} is used twice in the list of ranker \"{ranker}\" for context \"{context}\" (first on line {})", pair[1].rank.unwrap_or(0), pair[0].line),
-                    ));
-                }
-            }
-            if let Some((n, r)) = rows
-                .iter()
-                .enumerate()
-                .find(|(n, r)| r.rank != Some(*n as u64 + 1))
-                && !repeated
-            {
-                log.push(table.problem(
-                    r.line,
-                    rank_col,
-                    format!("ranks must run 1, 2, 3… in each list; rank {} is missing in the list of ranker \"{ranker}\" for context \"{context}\"", n + 1),
-                ));
-            }
-        } else {
+    }
+
+    /// Puts the rows in rank order: by rank (which must run 1, 2, 3… without repeats), or
+    /// by score, highest first, ties by item id.
+    fn order(&mut self, log: &mut ProblemLog) {
+        if !self.columns.has_rank {
+            let mut rows = std::mem::take(&mut self.rows);
             rows.sort_by(|a, b| {
                 crate::core::stats::value_order(
                     b.score.unwrap_or(f64::NEG_INFINITY),
                     a.score.unwrap_or(f64::NEG_INFINITY),
                 )
-                .then_with(|| a.item.cmp(b.item))
+                .then_with(|| self.item(a).cmp(self.item(b)))
             });
+            self.rows = rows;
+            return;
         }
-        if left_out.contains(&(ranker, context)) {
-            continue;
+        self.rows.sort_by_key(|r| (r.rank, r.line));
+        let (ranker, context) = (&self.ranker, &self.context);
+        let mut repeated = false;
+        for pair in self.rows.windows(2) {
+            if pair[0].rank == pair[1].rank {
+                repeated = true;
+                log.push(self.problem(
+                    pair[1].line,
+                    self.columns.rank,
+                    format!("rank {} is used twice in the list of ranker \"{ranker}\" for context \"{context}\" (first on line {})", pair[1].rank.unwrap_or(0), pair[0].line),
+                ));
+            }
         }
-        ordered.push(ParsedList {
-            ranker,
-            context,
-            entries: rows.into_iter().map(|r| (r.item, r.score)).collect(),
-        });
-    }
-    let left_out_contexts = left_out
-        .iter()
-        .map(|(_, context)| *context)
-        .collect::<FastSet<&str>>()
-        .len();
-    ReadLists {
-        lists: ordered,
-        left_out: left_out.len(),
-        left_out_contexts,
+        let gap = self
+            .rows
+            .iter()
+            .enumerate()
+            .find(|(n, r)| r.rank != Some(*n as u64 + 1));
+        if let Some((n, r)) = gap
+            && !repeated
+        {
+            log.push(self.problem(
+                r.line,
+                self.columns.rank,
+                format!("ranks must run 1, 2, 3… in each list; rank {} is missing in the list of ranker \"{ranker}\" for context \"{context}\"", n + 1),
+            ));
+        }
     }
 }
 
+/// Imports the lists of a rankings file. They are written as they are read; should the
+/// file's lists turn out scattered, what was written is rolled back to a savepoint and
+/// the file read again, sorted by list.
 pub(super) fn import_rankings(
     tx: &Transaction,
     src: &Source,
+    scratch: &Scratch,
     progress: &mut FileProgress,
 ) -> Result<FileReport> {
-    let table = parse(src, &RANKINGS)?;
-    progress.total(table.rows.len() as u64);
     let contexts = id_set(tx, "SELECT context_id FROM contexts")?;
     let items = id_set(tx, "SELECT item_id FROM items")?;
-    let mut log = ProblemLog::default();
     let known = KnownIds {
         contexts: &|c| contexts.contains(c),
         items: &|i| items.contains(i),
         refuse_unknown: true,
     };
-    let read = read_lists(&table, &known, &mut log);
-    log.into_result().map_err(input_error)?;
-
-    let mut report = report(src, "rankings");
-    let mut stored: HashMap<(String, String), (String, Option<String>)> = HashMap::new();
-    {
-        let mut stmt = tx.prepare("SELECT ranker, context_id, items, scores FROM ranked_lists")?;
-        let mut rows = stmt.query([])?;
-        while let Some(r) = rows.next()? {
-            stored.insert((r.get(0)?, r.get(1)?), (r.get(2)?, r.get(3)?));
+    tx.execute_batch("SAVEPOINT rankings_as_written")?;
+    let mut order = Order::AsWritten;
+    loop {
+        let mut log = ProblemLog::default();
+        let mut writer = ListWriter::new(tx, src)?;
+        let mut rows = src.rows(&RANKINGS, &mut log)?;
+        let read = read_lists(
+            &mut rows,
+            &known,
+            scratch,
+            order,
+            &mut log,
+            &mut |list| writer.write(list),
+            &mut |n, bytes| progress.read(n, bytes),
+        )?;
+        if read == ListsRead::Scattered {
+            drop(writer);
+            tx.execute_batch("ROLLBACK TO rankings_as_written")?;
+            order = Order::Sorted;
+            continue;
         }
+        log.into_result().map_err(input_error)?;
+        tx.execute_batch("RELEASE rankings_as_written")?;
+        return Ok(writer.report);
     }
-    let mut add_ranker = tx.prepare("INSERT OR IGNORE INTO rankers(ranker) VALUES (?1)")?;
-    let mut upsert = tx.prepare(
-        "INSERT INTO ranked_lists(ranker, context_id, items, scores) VALUES (?1, ?2, ?3, ?4)
-         ON CONFLICT(ranker, context_id) DO UPDATE SET items = excluded.items, scores = excluded.scores",
-    )?;
-    let mut known_rankers: HashSet<&str> = HashSet::new();
-    let mut ids: Vec<String> = Vec::new();
-    let mut scores: Vec<Option<f64>> = Vec::new();
-    for list in &read.lists {
-        progress.rows(report.added + report.updated + report.unchanged);
-        if known_rankers.insert(list.ranker) {
-            add_ranker.execute([list.ranker])?;
+}
+
+/// Rankers of a file remembered in memory (adding one again is harmless, only slower).
+const RECENT_RANKERS: usize = 4_096;
+
+/// Writes lists one by one, each compared with the study's list of the same ranker and
+/// context.
+struct ListWriter<'t> {
+    /// The study had no lists before: there is nothing to compare with.
+    fresh: bool,
+    stored: Statement<'t>,
+    add_ranker: Statement<'t>,
+    upsert: Statement<'t>,
+    rankers: HashSet<String>,
+    report: FileReport,
+}
+
+impl<'t> ListWriter<'t> {
+    fn new(tx: &'t Transaction, src: &Source) -> Result<Self> {
+        let fresh = tx.query_row("SELECT NOT EXISTS (SELECT 1 FROM ranked_lists)", [], |r| {
+            r.get(0)
+        })?;
+        Ok(ListWriter {
+            fresh,
+            stored: tx.prepare(
+                "SELECT items, scores FROM ranked_lists WHERE ranker = ?1 AND context_id = ?2",
+            )?,
+            add_ranker: tx.prepare("INSERT OR IGNORE INTO rankers(ranker) VALUES (?1)")?,
+            upsert: tx.prepare(
+                "INSERT INTO ranked_lists(ranker, context_id, items, scores) VALUES (?1, ?2, ?3, ?4)
+                 ON CONFLICT(ranker, context_id) DO UPDATE SET items = excluded.items, scores = excluded.scores",
+            )?,
+            rankers: HashSet::new(),
+            report: report(src, "rankings"),
+        })
+    }
+
+    fn write(&mut self, list: &ParsedList) -> Result<()> {
+        if !self.rankers.contains(list.ranker) {
+            if self.rankers.len() >= RECENT_RANKERS {
+                self.rankers.clear();
+            }
+            self.rankers.insert(list.ranker.to_string());
+            self.add_ranker.execute([list.ranker])?;
         }
-        ids.clear();
-        scores.clear();
-        for (item, score) in &list.entries {
-            ids.push((*item).to_string());
-            scores.push(*score);
-        }
+        let ids: Vec<&str> = list.entries.iter().map(|e| e.0).collect();
+        let scores: Vec<Option<f64>> = list.entries.iter().map(|e| e.1).collect();
         let (items_json, scores_json) = list_json(&ids, &scores);
         let entries = list.entries.len() as u64;
-        match stored.get(&(list.ranker.to_string(), list.context.to_string())) {
-            Some((old_items, old_scores))
-                if *old_items == items_json && *old_scores == scores_json =>
-            {
-                report.unchanged += entries;
-                continue;
+        let old: Option<(String, Option<String>)> = match self.fresh {
+            true => None,
+            false => self
+                .stored
+                .query_row([list.ranker, list.context], |r| Ok((r.get(0)?, r.get(1)?)))
+                .optional()?,
+        };
+        match old {
+            Some((items, scores)) if items == items_json && scores == scores_json => {
+                self.report.unchanged += entries;
+                return Ok(());
             }
-            Some(_) => report.updated += entries,
-            None => report.added += entries,
+            Some(_) => self.report.updated += entries,
+            None => self.report.added += entries,
         }
-        upsert.execute(params![list.ranker, list.context, items_json, scores_json])?;
+        self.upsert
+            .execute(params![list.ranker, list.context, items_json, scores_json])?;
+        Ok(())
     }
-    Ok(report)
 }

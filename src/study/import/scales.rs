@@ -4,11 +4,10 @@ use std::collections::BTreeMap;
 
 use rusqlite::{OptionalExtension, Transaction, params};
 
-use super::{Fields, FileReport, SCALES, Source, input_error, parse, report};
+use super::{Fields, FileProgress, FileReport, SCALES, Source, each_row, input_error, report};
 use crate::core::scale::{DESK_KEYS, MAX_LEVELS, gain_problem, gains_fall, is_desk_key};
 use crate::study::Result;
-use crate::study::csv_input::Table;
-use crate::study::csv_input::{ProblemLog, Problems};
+use crate::study::csv_input::{Problem, ProblemLog, Problems};
 
 /// One level as read: (line, value, label, gain, key, rubric, colour).
 type LevelRow = (u64, u8, String, Option<f64>, String, String, String);
@@ -16,23 +15,52 @@ type LevelRow = (u64, u8, String, Option<f64>, String, String, String);
 /// A level as stored: (value, label, gain, key, rubric, colour).
 type StoredLevel = (u8, String, Option<f64>, String, String, String);
 
-pub(super) fn import_scales(tx: &Transaction, src: &Source) -> Result<FileReport> {
-    let table = parse(src, &SCALES)?;
-    let mut log = ProblemLog::default();
-    let mut scales: BTreeMap<String, Vec<LevelRow>> = BTreeMap::new();
-    for row in &table.rows {
-        let f = Fields { table: &table, row };
-        if let Some((scale, level)) = checked_level(&f, &mut log) {
-            scales.entry(scale.to_string()).or_default().push(level);
+/// Where a scales file's problems point: its name and the value and key columns.
+struct Place<'a> {
+    file: &'a str,
+    value_col: usize,
+    key_col: usize,
+}
+
+impl Place<'_> {
+    fn problem(&self, line: u64, column: usize, message: String) -> Problem {
+        Problem {
+            file: self.file.to_string(),
+            line,
+            column,
+            message,
         }
     }
-    let value_col = table.column("value").unwrap_or(0) + 1;
-    check_numbering(&table, &mut scales, &mut log);
+}
+
+/// Scales are few and small, so their levels are gathered, checked per scale and then
+/// written.
+pub(super) fn import_scales(
+    tx: &Transaction,
+    src: &Source,
+    progress: &mut FileProgress,
+) -> Result<FileReport> {
+    let mut log = ProblemLog::default();
+    let mut scales: BTreeMap<String, Vec<LevelRow>> = BTreeMap::new();
+    let mut place = Place {
+        file: &src.name,
+        value_col: 1,
+        key_col: 0,
+    };
+    each_row(src, &SCALES, progress, &mut log, &mut |f, log| {
+        place.value_col = f.col("value");
+        place.key_col = f.col("key");
+        if let Some((scale, level)) = checked_level(&f, log) {
+            scales.entry(scale.to_string()).or_default().push(level);
+        }
+        Ok(())
+    })?;
+    check_numbering(&place, &mut scales, &mut log);
     log.into_result().map_err(input_error)?;
     let mut report = report(src, "scales");
     warn_of_falling_gains(src, &scales, &mut report);
     for (name, levels) in scales {
-        write_scale(tx, &table, value_col, (&name, &levels), &mut report)?;
+        write_scale(tx, &place, (&name, &levels), &mut report)?;
     }
     Ok(report)
 }
@@ -92,23 +120,22 @@ fn checked_level<'a>(f: &Fields<'a>, log: &mut ProblemLog) -> Option<(&'a str, L
 /// Each scale's values run 0, 1, 2… without repeats, its keys are distinct, and it has
 /// at least two levels. Sorts each scale's levels by value.
 fn check_numbering(
-    table: &Table,
+    place: &Place,
     scales: &mut BTreeMap<String, Vec<LevelRow>>,
     log: &mut ProblemLog,
 ) {
-    let value_col = table.column("value").unwrap_or(0) + 1;
-    let key_col = table.column("key").map_or(0, |c| c + 1);
+    let (value_col, key_col) = (place.value_col, place.key_col);
     for (name, levels) in scales.iter_mut() {
         levels.sort_by_key(|l| (l.1, l.0));
         for (n, level) in levels.iter().enumerate() {
             if n > 0 && levels[n - 1].1 == level.1 {
-                log.push(table.problem(
+                log.push(place.problem(
                     level.0,
                     value_col,
                     format!("value {} appears twice in scale \"{name}\"", level.1),
                 ));
             } else if level.1 as usize != n && (n == 0 || levels[n - 1].1 != level.1) {
-                log.push(table.problem(
+                log.push(place.problem(
                     level.0,
                     value_col,
                     format!(
@@ -120,7 +147,7 @@ fn check_numbering(
         }
         for (n, level) in levels.iter().enumerate() {
             if !level.4.is_empty() && levels[..n].iter().any(|l| l.4 == level.4) {
-                log.push(table.problem(
+                log.push(place.problem(
                     level.0,
                     key_col,
                     format!("key \"{}\" is used twice in scale \"{name}\"", level.4),
@@ -128,7 +155,7 @@ fn check_numbering(
             }
         }
         if levels.len() < 2 {
-            log.push(table.problem(
+            log.push(place.problem(
                 levels[0].0,
                 value_col,
                 format!("scale \"{name}\" needs at least two levels"),
@@ -162,8 +189,7 @@ fn warn_of_falling_gains(
 /// Adds or replaces one scale's levels; a graded scale keeps its values.
 fn write_scale(
     tx: &Transaction,
-    table: &Table,
-    value_col: usize,
+    place: &Place,
     (name, levels): (&String, &[LevelRow]),
     report: &mut FileReport,
 ) -> Result<()> {
@@ -202,9 +228,9 @@ fn write_scale(
             .unwrap_or(false);
         let same_values = old.iter().map(|l| l.0).eq(new.iter().map(|l| l.0));
         if graded && !same_values {
-            return Err(input_error(Problems(vec![table.problem(
+            return Err(input_error(Problems(vec![place.problem(
                 levels[0].0,
-                value_col,
+                place.value_col,
                 format!("scale \"{name}\" already has grades; its levels cannot be added, removed or renumbered — give the changed scale a new name"),
             )])));
         }

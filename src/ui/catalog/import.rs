@@ -60,14 +60,15 @@ fn run_import(
     };
     let mut study = Study::open(path)?;
     let reports = import_with_progress(&mut study, &set, &mut |step| {
-        let file_share = match step.rows_total {
+        let file_share = match step.bytes_total {
             0 => 0.0,
-            total => step.rows_done as f32 / total as f32,
+            total => step.bytes_done.min(total) as f32 / total as f32,
         };
         let done = (step.files_done as f32 + file_share) / step.files_total.max(1) as f32;
-        let what = match step.rows_total {
-            0 => format!("checking {}", step.file),
-            total => format!("writing {}: {} of {total} rows", step.file, step.rows_done),
+        let what = if step.finishing {
+            format!("{}: building indexes and current grades", step.file)
+        } else {
+            format!("reading and writing {}: {} rows", step.file, step.rows_done)
         };
         set_progress(0.5 + 0.5 * done, what);
     })?;

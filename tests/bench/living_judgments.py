@@ -1,25 +1,32 @@
-"""NDCG@10 from the same CSV files three ways: pandas + scikit-learn, polars + numpy, Plumbline.
+"""Files to numbers at one or more sizes: Plumbline beside pandas + scikit-learn and polars + numpy.
 
-Usage: python tests/bench/living_judgments.py target/release/plumbline [workdir] [--runs N]
-       python tests/bench/living_judgments.py any-path [workdir] --peers-only   (peers only)
+Usage:
+  python tests/bench/living_judgments.py BINARY [WORKDIR] [--scale 1] [--scale 10] [--runs N]
+                                         [--bound] [--write-readme] [--peers-only]
 
-Writes the files of tests/bench/files_to_numbers.py (same generator, sizes, random state:
-5 000 contexts x depth 50 x 3 rankers, every pooled pair graded once), then times
-  1. pandas read_csv + merge + scikit-learn ndcg_score per ranker (means only),
-  2. polars read_csv + join + group_by with DCG@10 and ideal DCG@10 (means only),
-  3. plumbline new + import (peak memory of the import), score --k 10 (with the default
-     bootstrap intervals and paired tests), and score --k 10 --rankings rankings.csv
-     (the file's lists against the study's judgments, nothing imported).
-After one untimed warm-up pass of each peer, each timed part runs --runs times; the medians
-are printed, then the ratios the project targets. Ideal DCG rules: the peers' timed means
-take the ideal from the ranked list itself (what ndcg_score does); Plumbline takes it from
-every graded pair of the context, so polars is also run under that rule to check
-Plumbline's means to 1e-9.
+For each --scale S (default 1) the files of tests/bench/files_to_numbers.py are written
+(same generator, sizes and random state, with S x 5 000 contexts: depth 50, 3 rankers,
+every pooled pair graded once; kept in WORKDIR/xS and reused while their stamp matches).
+Then, --runs times each (medians printed, peaks the largest seen):
+  1. pandas read_csv + merge + scikit-learn ndcg_score per ranker (means only), and
+  2. polars read_csv + join + group_by with DCG@10 and ideal DCG@10 (means only), each in a
+     child process after one untimed warm-up pass there;
+  3. plumbline `new` + `import`, `score --k 10`, `score --k 10 --rankings rankings.csv`,
+     `view scoreboard`, `status`, `view home` and `agree`, each timed with its peak
+     resident memory (by /usr/bin/time -v, or a small launcher that waits for it).
+--bound also times the store's bound: the rows the import keeps, written by bare prepared
+inserts (tests/bench/bench_store_bound.rs, built with cargo). Ratios against the peers and
+the goals of the project follow. --write-readme rewrites the table between the
+`living-judgments` markers of README.md's Performance section, with the machine and date.
+
+Ideal DCG rules: the peers' timed means take the ideal from the ranked list itself (what
+ndcg_score does); Plumbline takes it from every graded pair of the context, so polars is
+also run under that rule to check Plumbline's means to 1e-9.
 Peer versions: tests/bench/requirements.txt (pip install -r it into a venv).
 """
 import argparse
+import datetime
 import json
-import math
 import os
 import platform
 import statistics
@@ -34,29 +41,37 @@ import polars as pl
 import sklearn
 from sklearn.metrics import ndcg_score
 
-CONTEXTS, DEPTH, RANKERS, CANDIDATES, ITEMS = 5_000, 50, 3, 80, 20_000
+BASE_CONTEXTS, DEPTH, RANKERS, CANDIDATES, ITEMS = 5_000, 50, 3, 80, 20_000
 K = 10
 TOLERANCE = 1e-9
+GENERATOR = "files_to_numbers v1"  # change when write_files changes, so stamps go stale
+REPO = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+BEGIN = "<!-- living-judgments: begin (written by tests/bench/living_judgments.py --write-readme) -->"
+END = "<!-- living-judgments: end -->"
 
-GOALS = [  # (label, goal, higher is better)
-    ("polars / plumbline score", 2.0, True),
-    ("polars / plumbline score --rankings", 1.5, True),
-    ("pandas+sklearn / plumbline new+import+score", 1.0, True),
-    ("plumbline import peak memory (MB)", 200.0, False),
+# The plumbline steps timed after new + import: (label, arguments after the binary).
+STEPS = [
+    ("score --k 10", lambda s, w: ["score", s, "--k", str(K), "--format", "json"]),
+    ("score --k 10 --rankings rankings.csv",
+     lambda s, w: ["score", s, "--k", str(K), "--rankings", f"{w}/rankings.csv", "--format", "json"]),
+    ("view scoreboard", lambda s, w: ["view", "scoreboard", s]),
+    ("status", lambda s, w: ["status", s]),
+    ("view home", lambda s, w: ["view", "home", s]),
+    ("agree", lambda s, w: ["agree", s]),
 ]
 
 
-def write_files(work):
-    """The generator of files_to_numbers.py, unchanged, so both benchmarks see the same files."""
+def write_files(work, contexts):
+    """The generator of files_to_numbers.py, unchanged but for the number of contexts."""
     rng = np.random.default_rng(12)
     pd.DataFrame({"item_id": [f"it{i:05d}" for i in range(ITEMS)],
                   "title": [f"Item {i}" for i in range(ITEMS)]}).to_csv(f"{work}/items.csv", index=False)
-    pd.DataFrame({"context_id": [f"c{c:05d}" for c in range(CONTEXTS)], "kind": "query",
-                  "text": [f"query {c}" for c in range(CONTEXTS)]}).to_csv(f"{work}/contexts.csv", index=False)
+    pd.DataFrame({"context_id": [f"c{c:05d}" for c in range(contexts)], "kind": "query",
+                  "text": [f"query {c}" for c in range(contexts)]}).to_csv(f"{work}/contexts.csv", index=False)
     pd.DataFrame({"scale": "fit", "value": [0, 1, 2, 3],
                   "label": ["Off", "Loose", "Good", "Spot on"]}).to_csv(f"{work}/scales.csv", index=False)
     ranking_parts, grade_parts = [], []
-    for c in range(CONTEXTS):
+    for c in range(contexts):
         candidates = rng.choice(ITEMS, CANDIDATES, replace=False)
         levels = rng.choice(4, CANDIDATES, p=[0.6, 0.2, 0.12, 0.08])
         pooled = set()
@@ -75,10 +90,30 @@ def write_files(work):
     grades = pd.concat(grade_parts)
     rankings.to_csv(f"{work}/rankings.csv", index=False)
     grades.to_csv(f"{work}/grades.csv", index=False)
-    return len(rankings) + len(grades) + ITEMS + CONTEXTS + 4
+    return {"rankings": len(rankings), "grades": len(grades), "rows": len(rankings) + len(grades) + ITEMS + contexts + 4}
 
 
-def pandas_sklearn(work):
+def files_for(work, scale):
+    """The files of one scale, written unless a stamp says they are there already."""
+    os.makedirs(work, exist_ok=True)
+    stamp_path = f"{work}/stamp.json"
+    wanted = {"generator": GENERATOR, "contexts": BASE_CONTEXTS * scale}
+    try:
+        stamp = json.load(open(stamp_path))
+        if all(stamp.get(k) == v for k, v in wanted.items()):
+            return stamp
+    except (OSError, ValueError):
+        pass
+    t = time.perf_counter()
+    counts = write_files(work, BASE_CONTEXTS * scale)
+    stamp = {**wanted, **counts,
+             "bytes": sum(os.path.getsize(f"{work}/{n}.csv") for n in ("items", "contexts", "scales", "rankings", "grades"))}
+    json.dump(stamp, open(stamp_path, "w"))
+    print(f"  {stamp['rows']} CSV rows written to {work} in {time.perf_counter() - t:.0f} s")
+    return stamp
+
+
+def pandas_sklearn(work, contexts):
     """The notebook way, as in files_to_numbers.py: timed from read_csv to the means."""
     t0 = time.perf_counter()
     rankings = pd.read_csv(f"{work}/rankings.csv")
@@ -87,10 +122,10 @@ def pandas_sklearn(work):
     merged["gain"] = 2.0 ** merged["value"].fillna(0) - 1.0
     merged = merged.sort_values(["ranker", "context_id", "rank"])
     # Rows arrive in rank order, so descending scores reproduce each ranking exactly.
-    scores = np.tile(np.arange(DEPTH, 0, -1, dtype=float), (CONTEXTS, 1))
+    scores = np.tile(np.arange(DEPTH, 0, -1, dtype=float), (contexts, 1))
     means = {}
     for ranker, part in merged.groupby("ranker"):
-        y_true = part["gain"].to_numpy().reshape(CONTEXTS, DEPTH)
+        y_true = part["gain"].to_numpy().reshape(contexts, DEPTH)
         means[ranker] = float(ndcg_score(y_true, scores, k=K))
     return time.perf_counter() - t0, means
 
@@ -116,7 +151,7 @@ def _dcg():
     return (pl.col("gain") / (pl.col("rank") + 1).log(2)).filter(pl.col("rank") <= K).sum()
 
 
-def polars_notebook_rule(work):
+def polars_notebook_rule(work, contexts):
     """Ideal DCG@10 from each ranked list's own best ten, like ndcg_score; 0 when it is 0."""
     t0 = time.perf_counter()
     lists, _ = _polars_lists(work)
@@ -127,7 +162,7 @@ def polars_notebook_rule(work):
     return time.perf_counter() - t0, dict(zip(means["ranker"], means["ndcg"]))
 
 
-def polars_plumbline_rule(work):
+def polars_plumbline_rule(work, contexts):
     """Ideal DCG@10 from every graded pair of the context; contexts with ideal 0 are left out,
     as Plumbline scores only contexts with a relevant item."""
     t0 = time.perf_counter()
@@ -140,15 +175,22 @@ def polars_plumbline_rule(work):
     return time.perf_counter() - t0, dict(zip(means["ranker"], means["ndcg"]))
 
 
-def remove_study(study):
-    for suffix in ("", "-wal", "-shm"):
-        if os.path.exists(study + suffix):
-            os.remove(study + suffix)
+PEERS = {"pandas": pandas_sklearn, "polars": polars_notebook_rule, "polars_rule": polars_plumbline_rule}
 
 
-# A child started from this big Python process inherits its peak RSS at exec (Linux keeps
-# the old address space's high-water mark), so wait4 or RUSAGE_CHILDREN here would report
-# pandas' memory. A small launcher in between keeps only the import's own peak.
+def run_peer_here(which, work, contexts, runs):
+    """Child mode: one untimed warm-up pass (thread pools, lazy imports), then the timed runs."""
+    PEERS[which](work, contexts)
+    seconds, means = [], {}
+    for _ in range(runs):
+        s, means = PEERS[which](work, contexts)
+        seconds.append(s)
+    print(json.dumps({"seconds": seconds, "means": means}))
+
+
+# A child started from a big Python process inherits its peak RSS at exec (Linux keeps the
+# old address space's high-water mark), so wait4 here would report this process's memory.
+# /usr/bin/time -v, or a small launcher in between, keeps only the child's own peak.
 TIME_V = "/usr/bin/time"
 LAUNCHER = ("import os, subprocess, sys; p = subprocess.Popen(sys.argv[1:]); _, s, u = os.wait4(p.pid, 0); "
             "print(u.ru_maxrss, file=sys.stderr); sys.exit(os.waitstatus_to_exitcode(s))")
@@ -160,158 +202,231 @@ def memory_probe():
     return "a small python launcher (wait4)"
 
 
-def run_measured(cmd, work, name):
-    """Runs cmd and returns its peak RSS in MB."""
+def measured(cmd):
+    """Runs cmd; returns (seconds, peak RSS in MB, stdout)."""
     with_time = memory_probe().startswith("/usr/bin/time")
     wrapped = [TIME_V, "-v", *cmd] if with_time else [sys.executable, "-c", LAUNCHER, *cmd]
-    with open(f"{work}/{name}.out", "wb") as out, open(f"{work}/{name}.err", "wb") as err:
-        code = subprocess.run(wrapped, stdout=out, stderr=err).returncode
-    lines = open(f"{work}/{name}.err", errors="replace").read().splitlines()
-    if code != 0:
-        sys.exit(f"{' '.join(cmd)} failed ({code}): {chr(10).join(lines[:40])}")
+    t = time.perf_counter()
+    out = subprocess.run(wrapped, capture_output=True, text=True)
+    seconds = time.perf_counter() - t
+    lines = out.stderr.splitlines()
+    if out.returncode != 0:
+        sys.exit(f"{' '.join(cmd)} failed ({out.returncode}): {chr(10).join(lines[:40])}")
     if with_time:
         kib = next(int(l.split(":")[1]) for l in lines if "Maximum resident set size" in l)
     else:
         kib = int(lines[-1])
-    return kib / 1024.0  # both report KiB
+    return seconds, kib / 1024.0, out.stdout
+
+
+def peer(which, work, contexts, runs):
+    """A peer in a child process: (median seconds, peak MB, means)."""
+    _, peak, out = measured([sys.executable, os.path.abspath(__file__), "--peer", which,
+                             "--contexts", str(contexts), "--runs", str(runs), "unused", work])
+    result = json.loads(out.strip().splitlines()[-1])
+    return statistics.median(result["seconds"]), peak, result["means"]
 
 
 def ndcg_means(board):
     return {r["ranker"]: r["metrics"][f"ndcg@{K}"]["mean"] for r in board["rankers"]}
 
 
-def plumbline(binary, work):
-    """One timed pass: new + import (with peak memory), score, score --rankings."""
+def plumbline_run(binary, work):
+    """One pass of every step on a fresh study: {step: (seconds, peak MB)} and the means."""
     study = f"{work}/bench.plumb"
-    remove_study(study)
-    t0 = time.perf_counter()
-    subprocess.run([binary, "new", study], check=True, capture_output=True)
-    peak_mb = run_measured([binary, "import", study, "--items", f"{work}/items.csv",
-                            "--contexts", f"{work}/contexts.csv", "--scales", f"{work}/scales.csv",
-                            "--rankings", f"{work}/rankings.csv", "--grades", f"{work}/grades.csv"],
-                           work, "import")
-    t1 = time.perf_counter()
-    out = subprocess.run([binary, "score", study, "--k", str(K), "--format", "json"],
-                         check=True, capture_output=True, text=True).stdout
-    t2 = time.perf_counter()
-    from_file = subprocess.run([binary, "score", study, "--k", str(K), "--rankings", f"{work}/rankings.csv",
-                                "--format", "json"], capture_output=True, text=True)
-    t3 = time.perf_counter()
-    result = {"new_import": t1 - t0, "score": t2 - t1, "peak_mb": peak_mb, "means": ndcg_means(json.loads(out))}
-    if from_file.returncode == 0:
-        result["score_rankings"] = t3 - t2
-        result["rankings_means"] = ndcg_means(json.loads(from_file.stdout))
-    else:
-        result["rankings_refused"] = (from_file.stderr.strip().splitlines() or ["(no message)"])[0]
-    return result
+    for suffix in ("", "-wal", "-shm"):
+        if os.path.exists(study + suffix):
+            os.remove(study + suffix)
+    t_new, m_new, _ = measured([binary, "new", study])
+    t_imp, m_imp, _ = measured([binary, "import", study, "--items", f"{work}/items.csv",
+                                "--contexts", f"{work}/contexts.csv", "--scales", f"{work}/scales.csv",
+                                "--rankings", f"{work}/rankings.csv", "--grades", f"{work}/grades.csv"])
+    steps = {"new + import": (t_new + t_imp, max(m_new, m_imp))}
+    means = {}
+    for label, args in STEPS:
+        seconds, peak, out = measured([binary, *args(study, work)])
+        steps[label] = (seconds, peak)
+        if label.startswith("score"):
+            means[label] = ndcg_means(json.loads(out))
+    return steps, means
+
+
+def store_bound(work):
+    """The bare-insert bound of tests/bench/bench_store_bound.rs: (rows, seconds), or None."""
+    env = {**os.environ, "PLUMBLINE_BENCH_FILES": work}
+    out = subprocess.run(["cargo", "test", "--release", "--test", "bench", "--", "--ignored", "--nocapture",
+                          "store_bound"], cwd=REPO, env=env, capture_output=True, text=True)
+    for line in out.stdout.splitlines():
+        if line.startswith("store bound:"):
+            words = line.split()
+            return int(words[2]), float(words[5])
+    print(f"  store bound not measured: {(out.stderr.strip().splitlines() or ['?'])[-1]}")
+    return None
 
 
 def agree(a, b):
     return set(a) == set(b) and all(abs(a[r] - b[r]) <= TOLERANCE for r in a)
 
 
+def one_scale(args, binary, scale):
+    work = os.path.join(args.workdir, f"x{scale}")
+    contexts = BASE_CONTEXTS * scale
+    print(f"\n== {scale}x: {contexts} contexts x depth {DEPTH} x {RANKERS} rankers ({work})")
+    stamp = files_for(work, scale)
+    r = {"scale": scale, "stamp": stamp, "runs": args.runs}
+    for which in PEERS:
+        r[which] = peer(which, work, contexts, args.runs)
+        print(f"  {which}: {r[which][0]:.3f} s, peak {r[which][1]:.0f} MB")
+    if args.peers_only:
+        return r
+    runs = []
+    for n in range(args.runs):
+        steps, means = plumbline_run(binary, work)
+        runs.append(steps)
+        print(f"  run {n + 1}: " + ", ".join(f"{k} {s:.2f} s / {m:.0f} MB" for k, (s, m) in steps.items()))
+    r["steps"] = {k: (statistics.median(run[k][0] for run in runs), max(run[k][1] for run in runs))
+                  for k in runs[0]}
+    r["means"] = means
+    if args.bound:
+        r["bound"] = store_bound(work)
+    return r
+
+
+def machine():
+    model = next((l.split(":", 1)[1].strip() for l in open("/proc/cpuinfo") if l.startswith("model name")),
+                 platform.processor() or "unknown CPU")
+    kib = next((int(l.split()[1]) for l in open("/proc/meminfo") if l.startswith("MemTotal")), 0)
+    return {"cores": os.cpu_count(), "ram_gib": kib / 2**20, "cpu": model,
+            "os": f"{platform.system()} {platform.machine()}", "load": os.getloadavg()[0],
+            "date": datetime.datetime.now(datetime.timezone.utc).strftime("%Y-%m-%d")}
+
+
+def fmt_rows(n):
+    return f"{n / 1e6:.2f} M" if n >= 1e6 else f"{n / 1e3:.0f} k"
+
+
+def grouped(n):
+    """A whole number with spaces between groups of three digits, as the README writes them."""
+    return f"{n:,.0f}".replace(",", " ")
+
+
+def goals(results):
+    """(label, {scale: text}) rows of ratios and goals."""
+    by = {r["scale"]: r for r in results if "steps" in r}
+    out = []
+
+    def ratio(label, goal, value_of, higher=True, unit="×"):
+        cells = {}
+        for s, r in by.items():
+            v = value_of(r)
+            if v is None:
+                continue
+            met = v >= goal if higher else v <= goal
+            shown = f"{v:.0f}" if unit.strip() in ("MB", "s") else f"{v:.2f}"
+            cells[s] = f"{shown}{unit} ({'met' if met else '**missed**'})"
+        out.append((f"{label} (goal {'≥' if higher else '≤'} {goal:g}{unit})", cells))
+
+    st = lambda r, k: r["steps"][k][0]
+    ratio("pandas + scikit-learn / plumbline `new` + `import` + `score`", 1.0,
+          lambda r: r["pandas"][0] / (st(r, "new + import") + st(r, "score --k 10")))
+    ratio("polars / plumbline `score`", 2.0, lambda r: r["polars"][0] / st(r, "score --k 10"))
+    ratio("polars / plumbline `score --rankings`", 1.5,
+          lambda r: r["polars"][0] / st(r, "score --k 10 --rankings rankings.csv"))
+    ratio("import peak memory", 300, lambda r: r["steps"]["new + import"][1], higher=False, unit=" MB")
+    if 1 in by:
+        per_row = lambda r: st(r, "new + import") / r["stamp"]["rows"]
+        ratio("import cost per row against 1×", 1.25,
+              lambda r: per_row(r) / per_row(by[1]) if r["scale"] != 1 else None, higher=False)
+    ratio("10× `new` + `import`", 25, lambda r: st(r, "new + import") if r["scale"] == 10 else None,
+          higher=False, unit=" s")
+    return out
+
+
+def markdown(results, info, args):
+    scales = [r for r in results if "steps" in r]
+    head = "| step | " + " | ".join(
+        f"{r['scale']}× ({grouped(r['stamp']['contexts'])} contexts; {fmt_rows(r['stamp']['rows'])} CSV rows, "
+        f"{r['stamp']['bytes'] / 1e6:.0f} MB)" for r in scales) + " |"
+    lines = [BEGIN, "",
+             f"Measured {info['date']} on {info['os']}, {info['cores']} cores ({info['cpu']}), "
+             f"{info['ram_gib']:.0f} GiB RAM, load average {info['load']:.1f} when the run began "
+             f"(a shared machine: figures vary with it); release build; {memory_probe()} for peak memory; "
+             f"median of {args.runs} run{'s' if args.runs > 1 else ''}; pandas {pd.__version__} + "
+             f"scikit-learn {sklearn.__version__}, polars {pl.__version__} + numpy {np.__version__}. "
+             "Written by `python tests/bench/living_judgments.py target/release/plumbline --scale 1 --scale 10 "
+             "--bound --write-readme`.", "",
+             head, "|---|" + "---|" * len(scales)]
+
+    def row(label, cell):
+        lines.append(f"| {label} | " + " | ".join(cell(r) for r in scales) + " |")
+
+    row("`new` + `import`", lambda r: f"{r['steps']['new + import'][0]:.2f} s, {r['steps']['new + import'][1]:.0f} MB peak, "
+        f"{grouped(r['stamp']['rows'] / r['steps']['new + import'][0])} CSV rows/s")
+    row("store's bound: the rows the import keeps, bare prepared inserts (`bench_store_bound`)",
+        lambda r: "—" if not r.get("bound") else f"{r['bound'][1]:.2f} s ({grouped(r['bound'][0])} rows, "
+                                                   f"{grouped(r['bound'][0] / r['bound'][1])} rows/s)")
+    for label, _ in STEPS:
+        row(f"`{label}`", lambda r, label=label: f"{r['steps'][label][0]:.2f} s, {r['steps'][label][1]:.0f} MB")
+    row("pandas + scikit-learn `ndcg_score` (CSV → NDCG@10 means)",
+        lambda r: f"{r['pandas'][0]:.2f} s, {r['pandas'][1]:.0f} MB")
+    row("polars + numpy (same)", lambda r: f"{r['polars'][0]:.2f} s, {r['polars'][1]:.0f} MB")
+    for label, cells in goals(results):
+        row(label, lambda r, cells=cells: cells.get(r["scale"], "—"))
+    lines += ["", END]
+    return "\n".join(lines)
+
+
+def write_readme(block):
+    path = os.path.join(REPO, "README.md")
+    text = open(path).read()
+    if BEGIN in text and END in text:
+        before, rest = text.split(BEGIN, 1)
+        after = rest.split(END, 1)[1]
+        text = before + block + after
+    else:
+        sys.exit(f"README.md has no markers {BEGIN!r} … {END!r} to write between")
+    open(path, "w").write(text)
+    print(f"\nREADME.md: the living-judgments table rewritten")
+
+
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("binary", help="path to the plumbline binary")
-    parser.add_argument("workdir", nargs="?", help="where the CSV files and the study go (default: a new temp dir)")
+    parser.add_argument("workdir", nargs="?", help="where the CSV files and studies go (default: a new temp dir)")
+    parser.add_argument("--scale", type=int, action="append", help="1 (5 000 contexts), 10 …; repeatable")
     parser.add_argument("--runs", type=int, default=1, help="repeat each timed part N times, print medians")
+    parser.add_argument("--bound", action="store_true", help="also time bare inserts of the rows kept (cargo)")
+    parser.add_argument("--write-readme", action="store_true", help="rewrite README.md's living-judgments table")
     parser.add_argument("--peers-only", action="store_true", help="time pandas and polars only")
+    parser.add_argument("--peer", choices=sorted(PEERS), help=argparse.SUPPRESS)
+    parser.add_argument("--contexts", type=int, help=argparse.SUPPRESS)
     args = parser.parse_args()
+    if args.peer:
+        return run_peer_here(args.peer, args.workdir, args.contexts, args.runs)
     binary = os.path.abspath(args.binary)
-    run_plumbline = not args.peers_only
-    if run_plumbline and not os.access(binary, os.X_OK):
+    if not args.peers_only and not os.access(binary, os.X_OK):
         sys.exit(f"{binary} is not an executable; build it, or pass --peers-only to time the peers alone")
-    work = os.path.abspath(args.workdir or tempfile.mkdtemp(prefix="plumbline-bench-"))
-    os.makedirs(work, exist_ok=True)
-
-    t = time.perf_counter()
-    rows = write_files(work)
-    print(f"{rows} CSV rows written to {work} in {time.perf_counter() - t:.1f} s")
-    print(f"python {platform.python_version()}, pandas {pd.__version__}, scikit-learn {sklearn.__version__}, "
-          f"polars {pl.__version__}, numpy {np.__version__}; polars threads {pl.thread_pool_size()}, "
-          f"cores {os.cpu_count()}")
-
-    # One untimed pass of each peer first: their one-off start-up (thread pools, lazy
-    # imports) would otherwise land in run 1, and the targets are against them warmed up.
-    pandas_sklearn(work)
-    polars_notebook_rule(work)
-    polars_plumbline_rule(work)
-
-    timings = {k: [] for k in ("pandas", "polars", "polars_plumbline_rule",
-                               "new_import", "score", "score_rankings", "peak_mb")}
-    for run in range(args.runs):
-        # Interleaved so that drift on the machine hits every contender alike.
-        t_pd, pd_means = pandas_sklearn(work)
-        t_pl, pl_means = polars_notebook_rule(work)
-        t_plr, pl_rule_means = polars_plumbline_rule(work)
-        timings["pandas"].append(t_pd)
-        timings["polars"].append(t_pl)
-        timings["polars_plumbline_rule"].append(t_plr)
-        line = f"run {run + 1}: pandas+sklearn {t_pd:.3f} s, polars {t_pl:.3f} s (plumbline rule {t_plr:.3f} s)"
-        if run_plumbline:
-            pb = plumbline(binary, work)
-            for key in ("new_import", "score", "score_rankings", "peak_mb"):
-                if key in pb:
-                    timings[key].append(pb[key])
-            line += f", plumbline new+import {pb['new_import']:.3f} s ({pb['peak_mb']:.0f} MB), score {pb['score']:.3f} s"
-            if "score_rankings" in pb:
-                line += f", score --rankings {pb['score_rankings']:.3f} s"
-        print(line)
-
-    med = {k: statistics.median(v) for k, v in timings.items() if v}
-    runs_note = f" (median of {args.runs})" if args.runs > 1 else ""
-    print(f"\nTimings{runs_note}, from reading the CSV files to the NDCG@{K} means:")
-    print(f"  pandas + scikit-learn ndcg_score:          {med['pandas']:.3f} s")
-    print(f"  polars + numpy (ideal from the list):      {med['polars']:.3f} s")
-    print(f"  polars + numpy (ideal from the context):   {med['polars_plumbline_rule']:.3f} s")
-    if run_plumbline:
-        print(f"  plumbline new + import:                    {med['new_import']:.3f} s")
-        print(f"  plumbline import peak memory:              {med['peak_mb']:.1f} MB (by {memory_probe()})")
-        print(f"  plumbline score (intervals + tests):       {med['score']:.3f} s")
-        if "score_rankings" in med:
-            print(f"  plumbline score --rankings rankings.csv:   {med['score_rankings']:.3f} s")
-        else:
-            print(f"  plumbline score --rankings rankings.csv:   refused: {pb['rankings_refused']}")
-
-    print(f"\nIdeal DCG rule of the peers' timed means: the notebook rule (each ranked list's own "
-          f"best {K} gains, as ndcg_score does).")
-    print(f"pandas and polars agree to {TOLERANCE:g} under that rule: {'OK' if agree(pd_means, pl_means) else 'DIFFERS'}")
-    print(f"\nNDCG@{K} means per ranker:")
-    header = f"  {'ranker':<10} {'pandas+sklearn':>15} {'polars':>15} {'polars ctx-ideal':>17}"
-    if run_plumbline:
-        header += f" {'plumbline':>15}"
-        if "rankings_means" in pb:
-            header += f" {'pb --rankings':>15}"
-    print(header)
-    for r in sorted(pd_means):
-        line = f"  {r:<10} {pd_means[r]:>15.12f} {pl_means[r]:>15.12f} {pl_rule_means.get(r, math.nan):>17.12f}"
-        if run_plumbline:
-            line += f" {pb['means'].get(r, math.nan):>15.12f}"
-            if "rankings_means" in pb:
-                line += f" {pb['rankings_means'].get(r, math.nan):>15.12f}"
-        print(line)
-    if not run_plumbline:
-        print("\nPlumbline part skipped (--peers-only).")
-        return
-    print(f"polars under Plumbline's rule (ideal from every graded pair of the context) vs plumbline score, "
-          f"to {TOLERANCE:g}: {'OK' if agree(pl_rule_means, pb['means']) else 'DIFFERS'}")
-    if "rankings_means" in pb:
-        print(f"same vs plumbline score --rankings: {'OK' if agree(pl_rule_means, pb['rankings_means']) else 'DIFFERS'}")
-
-    values = [med["polars"] / med["score"],
-              med["polars"] / med["score_rankings"] if "score_rankings" in med else None,
-              med["pandas"] / (med["new_import"] + med["score"]),
-              med["peak_mb"]]
-    print("\nTargets:")
-    for (label, goal, higher), value in zip(GOALS, values):
-        if value is None:
-            print(f"  {label:<46} {'n/a':>8}   goal >= {goal:g}  (option refused)")
+    args.workdir = os.path.abspath(args.workdir or tempfile.mkdtemp(prefix="plumbline-bench-"))
+    info = machine()
+    print(f"{info['date']}: {info['os']}, {info['cores']} cores ({info['cpu']}), {info['ram_gib']:.0f} GiB, "
+          f"load {info['load']:.1f}; python {platform.python_version()}, pandas {pd.__version__}, "
+          f"scikit-learn {sklearn.__version__}, polars {pl.__version__}, numpy {np.__version__}")
+    results = [one_scale(args, binary, s) for s in (args.scale or [1])]
+    for r in results:
+        if "means" not in r:
             continue
-        met = value >= goal if higher else value <= goal
-        unit = "" if label.endswith("(MB)") else "x"
-        print(f"  {label:<46} {value:8.2f}{unit:<2} goal {'>=' if higher else '<='} {goal:g}  "
-              f"{'MET' if met else 'MISSED'}")
-    print(f"  (polars under Plumbline's rule / plumbline score: {med['polars_plumbline_rule'] / med['score']:.2f}x)")
+        pd_means, pl_means, rule_means = r["pandas"][2], r["polars"][2], r["polars_rule"][2]
+        print(f"\n{r['scale']}x: pandas and polars agree to {TOLERANCE:g} under the notebook rule: "
+              f"{'OK' if agree(pd_means, pl_means) else 'DIFFERS'}")
+        for label, means in r["means"].items():
+            print(f"  polars under Plumbline's rule vs plumbline {label}: "
+                  f"{'OK' if agree(rule_means, means) else 'DIFFERS'}")
+    if args.peers_only:
+        return
+    block = markdown(results, info, args)
+    print("\n" + block)
+    if args.write_readme:
+        write_readme(block)
 
 
 if __name__ == "__main__":

@@ -7,4 +7,5 @@
 mod bench_import;
 mod bench_merge;
 mod bench_scoring;
+mod bench_store_bound;
 mod ui_bench;

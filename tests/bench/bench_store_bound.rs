@@ -77,7 +77,9 @@ fn store_bound_of_the_living_judgments_files() {
         for i in &items {
             item.execute([&i[0], &i[1]]).unwrap();
         }
-        let mut context = tx.prepare("INSERT INTO contexts VALUES (?1, ?2, ?3)").unwrap();
+        let mut context = tx
+            .prepare("INSERT INTO contexts VALUES (?1, ?2, ?3)")
+            .unwrap();
         for c in &contexts {
             context.execute([&c[0], &c[1], &c[2]]).unwrap();
         }

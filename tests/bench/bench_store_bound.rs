@@ -2,8 +2,9 @@
 //! writes them): the rows an import of them keeps — items, contexts, one row per ranked
 //! list, one history row per grade — written by bare prepared inserts into tables of the
 //! study's shape with their keys only (no secondary index, no trigger, no current
-//! grades), in one transaction, WAL and `synchronous=FULL` like a study. The files are
-//! read and the rows made before the clock starts. Run with
+//! grades), in one transaction, WAL and `synchronous=FULL` like a study, with the page
+//! cache an import has (128 MiB). The files are read and the rows made before the clock
+//! starts. Run with
 //! `PLUMBLINE_BENCH_FILES=DIR cargo test --release --test bench -- --ignored --nocapture store_bound`.
 
 use std::time::Instant;
@@ -60,6 +61,7 @@ fn store_bound_of_the_living_judgments_files() {
     let mut conn = rusqlite::Connection::open(scratch.path().join("bound.sqlite")).unwrap();
     conn.pragma_update(None, "journal_mode", "WAL").unwrap();
     conn.pragma_update(None, "synchronous", "FULL").unwrap();
+    conn.pragma_update(None, "cache_size", -131_072).unwrap();
     conn.execute_batch(
         "CREATE TABLE items(item_id TEXT PRIMARY KEY, title TEXT NOT NULL);
          CREATE TABLE contexts(context_id TEXT PRIMARY KEY, kind TEXT NOT NULL, text TEXT NOT NULL);

@@ -273,19 +273,20 @@ def one_scale(args, binary, scale):
     contexts = BASE_CONTEXTS * scale
     print(f"\n== {scale}x: {contexts} contexts x depth {DEPTH} x {RANKERS} rankers ({work})")
     stamp = files_for(work, scale)
-    r = {"scale": scale, "stamp": stamp, "runs": args.runs}
+    runs = args.runs if scale == 1 else 1  # a larger study is long to run: once
+    r = {"scale": scale, "stamp": stamp, "runs": runs}
     for which in PEERS:
-        r[which] = peer(which, work, contexts, args.runs)
+        r[which] = peer(which, work, contexts, runs)
         print(f"  {which}: {r[which][0]:.3f} s, peak {r[which][1]:.0f} MB")
     if args.peers_only:
         return r
-    runs = []
-    for n in range(args.runs):
+    passes = []
+    for n in range(runs):
         steps, means = plumbline_run(binary, work)
-        runs.append(steps)
+        passes.append(steps)
         print(f"  run {n + 1}: " + ", ".join(f"{k} {s:.2f} s / {m:.0f} MB" for k, (s, m) in steps.items()))
-    r["steps"] = {k: (statistics.median(run[k][0] for run in runs), max(run[k][1] for run in runs))
-                  for k in runs[0]}
+    r["steps"] = {k: (statistics.median(p[k][0] for p in passes), max(p[k][1] for p in passes))
+                  for k in passes[0]}
     r["means"] = means
     if args.bound:
         r["bound"] = store_bound(work)
@@ -351,10 +352,11 @@ def markdown(results, info, args):
              f"Measured {info['date']} on {info['os']}, {info['cores']} cores ({info['cpu']}), "
              f"{info['ram_gib']:.0f} GiB RAM, load average {info['load']:.1f} when the run began "
              f"(a shared machine: figures vary with it); release build; {memory_probe()} for peak memory; "
-             f"median of {args.runs} run{'s' if args.runs > 1 else ''}; pandas {pd.__version__} + "
+             + "; ".join(f"{r['scale']}×: median of {r['runs']} run{'s' if r['runs'] > 1 else ''}" for r in scales)
+             + f"; pandas {pd.__version__} + "
              f"scikit-learn {sklearn.__version__}, polars {pl.__version__} + numpy {np.__version__}. "
-             "Written by `python tests/bench/living_judgments.py target/release/plumbline --scale 1 --scale 10 "
-             "--bound --write-readme`.", "",
+             f"Written by `python tests/bench/living_judgments.py target/release/plumbline --scale 1 --scale 10 "
+             f"--runs {args.runs} --bound --write-readme`.", "",
              head, "|---|" + "---|" * len(scales)]
 
     def row(label, cell):
@@ -394,7 +396,8 @@ def main():
     parser.add_argument("binary", help="path to the plumbline binary")
     parser.add_argument("workdir", nargs="?", help="where the CSV files and studies go (default: a new temp dir)")
     parser.add_argument("--scale", type=int, action="append", help="1 (5 000 contexts), 10 …; repeatable")
-    parser.add_argument("--runs", type=int, default=1, help="repeat each timed part N times, print medians")
+    parser.add_argument("--runs", type=int, default=1,
+                        help="repeat each timed part of the 1x study N times, print medians (larger ones run once)")
     parser.add_argument("--bound", action="store_true", help="also time bare inserts of the rows kept (cargo)")
     parser.add_argument("--write-readme", action="store_true", help="rewrite README.md's living-judgments table")
     parser.add_argument("--peers-only", action="store_true", help="time pandas and polars only")

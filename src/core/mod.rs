@@ -12,6 +12,7 @@ pub mod metrics;
 pub mod panel_rule;
 pub mod pooling;
 pub mod ppi;
+pub mod rng;
 pub mod scale;
 pub mod settle_rules;
 pub mod stats;

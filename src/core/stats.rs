@@ -7,60 +7,7 @@
 //! correction; Kendall (1945) for tau-b; the t distribution via the regularized incomplete
 //! beta function (Press et al., Numerical Recipes, 3rd ed., §6.4).
 
-/// A small, fast generator with a fixed algorithm (xoshiro256**, Blackman & Vigna 2018),
-/// so that a seed gives the same intervals and p-values on every build and platform.
-#[derive(Debug, Clone)]
-pub struct Rng {
-    s: [u64; 4],
-}
-
-impl Rng {
-    /// A generator whose state is expanded from `seed` by SplitMix64.
-    pub fn new(seed: u64) -> Rng {
-        // SplitMix64 expands the seed into a well-mixed state.
-        let mut x = seed;
-        let mut next = || {
-            x = x.wrapping_add(0x9E37_79B9_7F4A_7C15);
-            let mut z = x;
-            z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-            z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-            z ^ (z >> 31)
-        };
-        Rng {
-            s: [next(), next(), next(), next()],
-        }
-    }
-
-    /// Next 64 random bits (xoshiro256** step).
-    pub fn next_u64(&mut self) -> u64 {
-        let result = self.s[1].wrapping_mul(5).rotate_left(7).wrapping_mul(9);
-        let t = self.s[1] << 17;
-        self.s[2] ^= self.s[0];
-        self.s[3] ^= self.s[1];
-        self.s[1] ^= self.s[2];
-        self.s[0] ^= self.s[3];
-        self.s[2] ^= t;
-        self.s[3] = self.s[3].rotate_left(45);
-        result
-    }
-
-    /// Uniform index in 0..n (Lemire's multiply-shift; the bias is below 2^-32 for our n).
-    pub fn below(&mut self, n: usize) -> usize {
-        (((self.next_u64() >> 32) * n as u64) >> 32) as usize
-    }
-
-    /// Uniform float in [0, 1).
-    pub fn unit(&mut self) -> f64 {
-        (self.next_u64() >> 11) as f64 * (1.0 / (1u64 << 53) as f64)
-    }
-
-    /// Standard normal draw (Box–Muller).
-    pub fn normal(&mut self) -> f64 {
-        let u1 = 1.0 - self.unit();
-        let u2 = self.unit();
-        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
-    }
-}
+pub use super::rng::Rng;
 
 /// Arithmetic mean; NaN when `xs` is empty.
 pub fn mean(xs: &[f64]) -> f64 {
@@ -199,26 +146,42 @@ pub fn randomization_test(diffs: &[f64], resamples: usize, seed: u64) -> f64 {
         .collect();
     let blocks = resamples.div_ceil(BLOCK);
     let hits: usize = par_blocks(blocks, |block| {
-        let mut rng = Rng::new(block_seed(seed, block));
         let count = BLOCK.min(resamples - block * BLOCK);
-        let mut hits = 0usize;
-        for _ in 0..count {
-            let mut sum = 0.0;
-            for eight in tables.chunks(8) {
-                let bits = rng.next_u64();
-                for (j, table) in eight.iter().enumerate() {
-                    sum += table[(bits >> (8 * j)) as usize & 0xFF];
-                }
-            }
-            if sum.abs() >= threshold {
-                hits += 1;
-            }
-        }
-        hits
+        sign_flip_sums(&tables, count, block_seed(seed, block))
+            .iter()
+            .filter(|sum| sum.abs() >= threshold)
+            .count()
     })
     .into_iter()
     .sum();
     (hits + 1) as f64 / (resamples + 1) as f64
+}
+
+/// The signed sums of `count` resamples drawn from one seed: resample r takes one
+/// random word per eight tables, in order, and adds the entry each byte picks. The
+/// words are drawn first, in that same order, so that the sums can then be built table
+/// group by table group: each group's 16 KiB stays in cache for every resample of the
+/// block instead of being fetched once per resample (each sum still adds its terms in
+/// the same order, so the result is the same to the last bit).
+fn sign_flip_sums(tables: &[[f64; 256]], count: usize, seed: u64) -> Vec<f64> {
+    let mut rng = Rng::new(seed);
+    let groups = tables.len().div_ceil(8);
+    // words[g * count + r]: resample r's word for table group g.
+    let mut words = vec![0u64; groups * count];
+    for r in 0..count {
+        for g in 0..groups {
+            words[g * count + r] = rng.next_u64();
+        }
+    }
+    let mut sums = vec![0.0; count];
+    for (eight, column) in tables.chunks(8).zip(words.chunks_exact(count)) {
+        for (sum, bits) in sums.iter_mut().zip(column) {
+            for (j, table) in eight.iter().enumerate() {
+                *sum += table[(bits >> (8 * j)) as usize & 0xFF];
+            }
+        }
+    }
+    sums
 }
 
 /// Percentile bootstrap intervals for the means of several series over the same
@@ -277,6 +240,33 @@ pub fn bootstrap_means(
 /// each a contiguous row of one value per series; the result holds one row of means
 /// per resample.
 fn resample_block(rows: &[f64], n: usize, count: usize, seed: u64) -> Vec<f64> {
+    // A context is drawn at most n times per resample, so below 2^16 contexts two-byte
+    // tallies suffice: half the memory, which keeps the tallies of a batch in the
+    // core's own cache for studies of tens of thousands of contexts.
+    match u16::try_from(n) {
+        Ok(_) => resample_block_with::<u16>(rows, n, count, seed),
+        Err(_) => resample_block_with::<u32>(rows, n, count, seed),
+    }
+}
+
+/// A per-context tally of draws within one resample.
+trait Tally: Copy + Default + PartialEq + Into<f64> {
+    fn bump(&mut self);
+}
+
+impl Tally for u16 {
+    fn bump(&mut self) {
+        *self += 1;
+    }
+}
+
+impl Tally for u32 {
+    fn bump(&mut self) {
+        *self += 1;
+    }
+}
+
+fn resample_block_with<T: Tally>(rows: &[f64], n: usize, count: usize, seed: u64) -> Vec<f64> {
     let mut rng = Rng::new(seed);
     let m = rows.len() / n;
     let mut out = Vec::with_capacity(count * m);
@@ -284,23 +274,23 @@ fn resample_block(rows: &[f64], n: usize, count: usize, seed: u64) -> Vec<f64> {
     // each resample of the batch, then one sequential pass over the rows adds
     // count × row into every resample's sums. The rows are read once per batch
     // instead of once per draw, which keeps the pass compute-bound.
-    let mut counts = vec![0u32; n * BATCH];
+    let mut counts = vec![T::default(); n * BATCH];
     let mut sums = vec![0.0; BATCH * m];
     let mut done = 0;
     while done < count {
         let batch = BATCH.min(count - done);
-        counts.iter_mut().for_each(|c| *c = 0);
+        counts.iter_mut().for_each(|c| *c = T::default());
         sums.iter_mut().for_each(|x| *x = 0.0);
         for r in 0..batch {
             for _ in 0..n {
-                counts[rng.below(n) * BATCH + r] += 1;
+                counts[rng.below(n) * BATCH + r].bump();
             }
         }
         for (i, row) in rows.chunks_exact(m).enumerate() {
             let drawn = &counts[i * BATCH..][..BATCH];
             for (r, &c) in drawn.iter().enumerate().take(batch) {
-                if c != 0 {
-                    let w = c as f64;
+                if c != T::default() {
+                    let w: f64 = c.into();
                     for (acc, v) in sums[r * m..][..m].iter_mut().zip(row) {
                         *acc += w * v;
                     }
@@ -506,6 +496,36 @@ mod tests {
     /// Written rule: at least 2 contexts, the fewest a paired test can run on. Hand
     /// computation: diff 1, SD 0.1 gives ((1.959964 + 0.841621) · 0.1)² = 0.0785, which
     /// rounds up to 1 and is raised to 2; diff 0.1, SD 0.1 gives 7.849 → 8.
+    /// The block's sums built table group by table group equal, bit for bit, the sums of
+    /// resamples taken one after another (each drawing its words as it goes), for a
+    /// count of tables that is not a multiple of eight.
+    #[test]
+    fn sign_flip_sums_match_resamples_taken_one_by_one() {
+        let mut tables = vec![[0.0; 256]; 21];
+        let mut fill = Rng::new(7);
+        for t in tables.iter_mut() {
+            t.iter_mut().for_each(|x| *x = fill.normal());
+        }
+        let mut rng = Rng::new(99);
+        let one_by_one: Vec<f64> = (0..BLOCK)
+            .map(|_| {
+                let mut sum = 0.0;
+                for eight in tables.chunks(8) {
+                    let bits = rng.next_u64();
+                    for (j, table) in eight.iter().enumerate() {
+                        sum += table[(bits >> (8 * j)) as usize & 0xFF];
+                    }
+                }
+                sum
+            })
+            .collect();
+        let together = sign_flip_sums(&tables, BLOCK, 99);
+        assert_eq!(
+            one_by_one.iter().map(|x| x.to_bits()).collect::<Vec<_>>(),
+            together.iter().map(|x| x.to_bits()).collect::<Vec<_>>()
+        );
+    }
+
     #[test]
     fn contexts_needed_has_a_floor_of_two() {
         assert_eq!(contexts_needed(1.0, 0.1), Some(2));

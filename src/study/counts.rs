@@ -29,6 +29,32 @@ impl Study {
     }
 }
 
+impl Study {
+    /// The same counts as [`Study::counts`], taken from a snapshot loaded in the same
+    /// read: only the history rows are counted in the file, since the snapshot holds
+    /// every other figure already (counting the lists' entries in SQL parses every list).
+    pub fn counts_beside(&self, snapshot: &super::snapshot::Snapshot) -> Result<StudyCounts> {
+        let grade_events: i64 =
+            self.conn
+                .query_row("SELECT COUNT(*) FROM grade_events", [], |r| r.get(0))?;
+        let machines_apart = match snapshot.machines_in_panel {
+            true => 0,
+            false => snapshot.machine_grades.len(),
+        };
+        let entries: usize = snapshot.lists.iter().flatten().map(Vec::len).sum();
+        Ok(StudyCounts {
+            items: snapshot.items.len() as u64,
+            contexts: snapshot.contexts.len() as u64,
+            rankers: snapshot.rankers.len() as u64,
+            ranked_items: entries as u64,
+            scales: snapshot.scales.len() as u64,
+            reviewers: snapshot.reviewers.len() as u64,
+            grade_events: grade_events as u64,
+            current_grades: (snapshot.grades.len() + machines_apart) as u64,
+        })
+    }
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
 pub struct StudyCounts {
     pub items: u64,

@@ -223,3 +223,16 @@ fn home_counts_the_machine_judges_own_grades() {
             .all(|r| !r.machine)
     );
 }
+
+/// Home counts from the snapshot what `counts` counts in the file; the demo holds a
+/// machine judge kept apart from the panel, whose grades are current grades too.
+#[test]
+fn counts_beside_a_snapshot_equal_the_files_counts() {
+    let (_dir, study) = demo_study();
+    let snapshot = study.snapshot().unwrap();
+    assert!(!snapshot.machine_grades.is_empty());
+    assert_eq!(
+        study.counts_beside(&snapshot).unwrap(),
+        study.counts().unwrap()
+    );
+}

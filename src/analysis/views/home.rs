@@ -1,8 +1,6 @@
 //! Home's view model: what the study holds, how far the depth-k pool is graded on the
 //! active scale, each reviewer's standing, and the next step to take.
 
-use std::collections::HashSet;
-
 use serde::Serialize;
 
 use crate::analysis::judged::judgments::{self, GradeSource};
@@ -114,7 +112,12 @@ pub fn of_study(study: &Study) -> Result<HomeModel, StudyError> {
             Some(scale) => study.queue_progress(&scale.name)?,
             None => Vec::new(),
         };
-        let mut model = build(&snapshot, &queues, study.counts()?, study.is_read_only());
+        let mut model = build(
+            &snapshot,
+            &queues,
+            study.counts_beside(&snapshot)?,
+            study.is_read_only(),
+        );
         model.pilot = study.pilot_status()?.map(|status| PilotSummary {
             reviewers: status.shares.len(),
             graded: status.shares.iter().map(|s| s.graded).sum(),
@@ -212,21 +215,28 @@ pub fn build(
 ) -> HomeModel {
     let depth = snapshot.pool_depth;
     let scale = (!snapshot.scales.is_empty()).then(|| snapshot.active_scale_index());
-    let graded = judged_pairs(snapshot, scale);
+    let judged = judged_pairs(snapshot, scale);
+    let is_graded = |context: u32, item: u32| {
+        judged
+            .get(context as usize)
+            .is_some_and(|pairs| pairs.binary_search_by_key(&item, |(i, _)| *i).is_ok())
+    };
     let coverage = snapshot
         .lists
         .iter()
         .enumerate()
         .map(|(r, lists)| {
-            let top: Vec<(u32, u32)> = lists
+            let top = lists
                 .iter()
                 .enumerate()
-                .flat_map(|(c, list)| list.iter().take(depth).map(move |&i| (c as u32, i)))
-                .collect();
+                .flat_map(|(c, list)| list.iter().take(depth).map(move |&i| (c as u32, i)));
+            let (graded, pairs) = top.fold((0, 0), |(graded, pairs), (c, i)| {
+                (graded + usize::from(is_graded(c, i)), pairs + 1)
+            });
             Coverage {
                 ranker: snapshot.rankers[r].clone(),
-                graded: top.iter().filter(|p| graded.contains(p)).count(),
-                pairs: top.len(),
+                graded,
+                pairs,
             }
         })
         .collect();
@@ -239,11 +249,11 @@ pub fn build(
                 .iter()
                 .enumerate()
                 .filter(|(_, l)| !l.is_empty())
-                .map(|(c, l)| (c as u32, l.clone()))
+                .map(|(c, l)| (c as u32, l[..l.len().min(depth)].to_vec()))
         })
         .collect();
     let pool = depth_pool(&lists, depth);
-    let pool_graded = pool.iter().filter(|p| graded.contains(p)).count();
+    let pool_graded = pool.iter().filter(|(c, i)| is_graded(*c, *i)).count();
     let reviewers = reviewer_progress(snapshot, queues, scale);
     HomeModel {
         name: snapshot.name.clone(),
@@ -267,6 +277,16 @@ fn reviewer_progress(
     queues: &[QueueProgress],
     scale: Option<usize>,
 ) -> Vec<ReviewerProgress> {
+    // One pass over the grades. A machine judge's grades are kept apart from the
+    // panel's: count them there.
+    let mut grades = vec![0usize; snapshot.reviewers.len()];
+    for (source, machines) in [(&snapshot.grades, false), (&snapshot.machine_grades, true)] {
+        for g in source.iter().filter(|g| Some(g.scale as usize) == scale) {
+            if snapshot.is_machine(g.reviewer as usize) == machines {
+                grades[g.reviewer as usize] += 1;
+            }
+        }
+    }
     snapshot
         .reviewers
         .iter()
@@ -274,15 +294,7 @@ fn reviewer_progress(
         .map(|(r, name)| ReviewerProgress {
             reviewer: name.clone(),
             machine: snapshot.is_machine(r),
-            // A machine judge's grades are kept apart from the panel's: count them there.
-            grades: if snapshot.is_machine(r) {
-                &snapshot.machine_grades
-            } else {
-                &snapshot.grades
-            }
-            .iter()
-            .filter(|g| g.reviewer as usize == r && Some(g.scale as usize) == scale)
-            .count(),
+            grades: grades[r],
             queue: queues
                 .iter()
                 .find(|q| &q.reviewer == name)
@@ -295,15 +307,11 @@ fn reviewer_progress(
 /// in force (`judgments::resolve`, the scoreboard's own rule), so Home and `status`
 /// count as graded exactly what `score` counts as judged. A pair with only can't-judge
 /// grades is not graded; a pair settled without any reviewer's grade is.
-fn judged_pairs(snapshot: &Snapshot, scale: Option<usize>) -> HashSet<(u32, u32)> {
-    let Some(scale) = scale else {
-        return HashSet::new();
-    };
-    judgments::resolve(snapshot, scale, &GradeSource::Panel)
-        .iter()
-        .enumerate()
-        .flat_map(|(c, judged)| judged.iter().map(move |(item, _)| (c as u32, *item)))
-        .collect()
+fn judged_pairs(snapshot: &Snapshot, scale: Option<usize>) -> judgments::ContextJudgments {
+    match scale {
+        Some(scale) => judgments::resolve(snapshot, scale, &GradeSource::Panel),
+        None => Vec::new(),
+    }
 }
 
 /// The running pilot in one sentence.

@@ -11,6 +11,11 @@ use super::{Result, Study, StudyError, connection, file_guard, open_files, schem
 /// Page cache per connection in KiB (SQLite's negative `cache_size`): 64 MiB.
 pub const DEFAULT_CACHE_KIB: i64 = -65_536;
 
+/// Page cache while a snapshot reads every table once, in KiB (negative, as above):
+/// a single pass gains nothing from keeping pages, and on a study of millions of
+/// grades a full cache would sit in memory beside the snapshot itself.
+pub const SCAN_CACHE_KIB: i64 = -8_192;
+
 const SQLITE_MAGIC: &[u8; 16] = b"SQLite format 3\0";
 
 impl Study {

@@ -114,6 +114,7 @@ impl Study {
             ],
         )?;
         let id = tx.last_insert_rowid();
+        super::grade_packs::repack_stale(&tx)?;
         tx.commit()?;
         Ok(id)
     }

@@ -110,9 +110,12 @@ fn keep_only_own(path: &Path, reviewer: &str, secret: &str, pictures: &str) -> R
         "DELETE FROM grade_events WHERE reviewer != ?1",
         "DELETE FROM queue_entries WHERE reviewer != ?1",
         "DELETE FROM reviewers WHERE reviewer != ?1",
+        "DELETE FROM reviewer_numbers WHERE reviewer != ?1",
     ] {
         tx.execute(sql, params![reviewer])?;
     }
+    // Packed again from what is left, so no pack holds another reviewer's grade.
+    super::grade_packs::pack_all(&tx)?;
     tx.execute("DELETE FROM settle_events", [])?;
     tx.execute("DELETE FROM gold_pairs", [])?;
     // Which contexts are in the human sample is the lead's to know: a reviewer who knew

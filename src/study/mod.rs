@@ -8,7 +8,8 @@
 //! - `counts.rs`: row counts of the main tables.
 //! - `settings.rs`: the `settings` table, raw and typed; the name and the pictures folder.
 //! - `snapshot.rs`: the read-only picture the analysis works from.
-//! - `grades.rs`: recording grades at the desk.
+//! - `grades.rs`: recording grades at the desk; `grade_packs.rs`: current grades packed
+//!   per context for loading, kept by triggers and by every writer of grades.
 //! - `queues.rs`: the pool and each reviewer's queue (`queue_shares.rs` shares it, no SQL).
 //! - `cards.rs`: items and contexts with all they show.
 //! - `gap_queue.rs`, `sample.rs`, `pilot.rs`: extra queues — gaps, the human sample, the pilot.
@@ -25,6 +26,7 @@ pub mod export;
 pub mod file_guard;
 pub mod gap_queue;
 pub mod gold;
+pub mod grade_packs;
 pub mod grades;
 mod hand_out;
 pub mod import;

@@ -213,7 +213,16 @@ CREATE TABLE sample_draws(
 ) WITHOUT ROWID;
 "#,
     ),
+    // 6: each context's current grades also packed in one blob per scale, so that a
+    // study of millions of grades loads in one row per context (`study::grade_packs`).
+    Migration::Code(add_grade_packs),
 ];
+
+/// Migration 6: the packs' tables and triggers, and every context packed.
+fn add_grade_packs(conn: &Connection) -> rusqlite::Result<()> {
+    conn.execute_batch(super::grade_packs::SCHEMA)?;
+    super::grade_packs::pack_all(conn)
+}
 
 /// Marks a write transaction whose grade events keep `current_grades` in one pass of
 /// their own ([`refresh_current_grades`]) instead of through the trigger, row by row.

@@ -4,7 +4,7 @@
 use crate::core::fast_hash::FastMap;
 use crate::core::scale::{Level, Scale};
 
-use super::{Result, Study};
+use super::{Result, Study, grade_packs};
 
 #[derive(Debug, Clone)]
 pub struct ItemInfo {
@@ -335,15 +335,150 @@ fn read_scales(conn: &rusqlite::Connection) -> Result<Vec<Scale>> {
     Ok(scales)
 }
 
-/// Every reviewer's current grades, sorted by (scale, context, item, reviewer).
+/// Every reviewer's current grades, sorted by (scale, context, item, reviewer): from
+/// the packs where the study has them (`study::grade_packs`), each stale or unreadable
+/// context from `current_grades`; from `current_grades` alone in a study too old to
+/// have packs (opened read-only, so not migrated).
 fn read_grades(conn: &rusqlite::Connection, index: &Indexes<'_>) -> Result<Vec<GradeRow>> {
     let mut grades = Vec::new();
-    // One scan in key order (scale, context, item, reviewer): a run of rows shares
-    // its scale and context, so those are looked up once per run.
-    let mut stmt = conn.prepare(
-        "SELECT reviewer, context_id, item_id, scale, value, seconds, graded_day FROM current_grades",
-    )?;
+    let packed = conn
+        .prepare("SELECT 1 FROM sqlite_schema WHERE type = 'table' AND name = 'grade_packs'")?
+        .exists([])?;
+    match packed
+        .then(|| Numbers::read(conn, index))
+        .transpose()?
+        .flatten()
+    {
+        Some(numbers) => read_packed_grades(conn, index, &numbers, &mut grades)?,
+        None => {
+            let mut stmt = conn.prepare(&format!("{GRADE_COLUMNS} FROM current_grades"))?;
+            push_grade_rows(stmt.query([])?, index, &mut grades)?;
+        }
+    }
+    // Keys are unique, so an unstable sort gives the same order without a buffer of
+    // half the grades beside them (packs arrive in this order already).
+    if !grades.is_sorted_by_key(grade_order) {
+        grades.sort_unstable_by_key(grade_order);
+    }
+    Ok(grades)
+}
+
+fn grade_order(g: &GradeRow) -> (u32, u32, u32, u32) {
+    (g.scale, g.context, g.item, g.reviewer)
+}
+
+const GRADE_COLUMNS: &str =
+    "SELECT reviewer, context_id, item_id, scale, value, seconds, graded_day";
+
+/// The packs of every key that is not stale, then each stale key's rows (and those of
+/// a pack that names an item or reviewer this snapshot does not have).
+fn read_packed_grades(
+    conn: &rusqlite::Connection,
+    index: &Indexes<'_>,
+    numbers: &Numbers,
+    grades: &mut Vec<GradeRow>,
+) -> Result<()> {
+    let mut from_rows: Vec<(String, String)> = conn
+        .prepare("SELECT scale, context_id FROM grade_packs_stale")?
+        .query_map([], |r| Ok((r.get(0)?, r.get(1)?)))?
+        .collect::<std::result::Result<_, _>>()?;
+    let stale: crate::core::fast_hash::FastSet<(String, String)> =
+        from_rows.iter().cloned().collect();
+    let mut stmt = conn.prepare("SELECT scale, context_id, grades FROM grade_packs")?;
     let mut rows = stmt.query([])?;
+    while let Some(r) = rows.next()? {
+        let (scale, context) = (r.get_ref(0)?.as_str()?, r.get_ref(1)?.as_str()?);
+        if !stale.is_empty() && stale.contains(&(scale.to_string(), context.to_string())) {
+            continue;
+        }
+        let at = (index.scale.get(scale), index.context.get(context));
+        let unpacked = match (at, grade_packs::decode(r.get_ref(2)?.as_blob()?)) {
+            ((Some(&scale), Some(&context)), Some(entries)) => {
+                let before = grades.len();
+                let whole = entries
+                    .map(|g| numbers.row(scale, context, g))
+                    .try_for_each(|g| g.map(|g| grades.push(g)));
+                whole.is_none().then(|| grades.truncate(before))
+            }
+            _ => Some(()),
+        };
+        if unpacked.is_some() {
+            from_rows.push((scale.to_string(), context.to_string()));
+        }
+    }
+    let mut stmt = conn.prepare(&format!(
+        "{GRADE_COLUMNS} FROM current_grades WHERE scale = ?1 AND context_id = ?2"
+    ))?;
+    for (scale, context) in &from_rows {
+        push_grade_rows(stmt.query([scale, context])?, index, grades)?;
+    }
+    Ok(())
+}
+
+/// Stable item and reviewer numbers to the snapshot's positions (`u32::MAX`: none).
+struct Numbers {
+    items: Vec<u32>,
+    reviewers: Vec<u32>,
+}
+
+impl Numbers {
+    /// None when the numbers are too sparse for a table by number (never, as the
+    /// study numbers them: the caller then reads `current_grades` row by row).
+    fn read(conn: &rusqlite::Connection, index: &Indexes<'_>) -> Result<Option<Numbers>> {
+        let table = |sql: &str, ids: &IdMap<'_>| -> Result<Option<Vec<u32>>> {
+            let mut positions = Vec::new();
+            let mut stmt = conn.prepare(sql)?;
+            let mut rows = stmt.query([])?;
+            while let Some(r) = rows.next()? {
+                let number = r.get::<_, i64>(0)?;
+                let fits = usize::try_from(number)
+                    .ok()
+                    .filter(|&n| n <= 2 * ids.len() + 1024);
+                let Some(number) = fits else {
+                    return Ok(None);
+                };
+                if positions.len() <= number {
+                    positions.resize(number + 1, u32::MAX);
+                }
+                if let Some(&at) = ids.get(r.get_ref(1)?.as_str()?) {
+                    positions[number] = at;
+                }
+            }
+            Ok(Some(positions))
+        };
+        let items = table("SELECT number, item_id FROM item_numbers", &index.item)?;
+        let reviewers = table(
+            "SELECT number, reviewer FROM reviewer_numbers",
+            &index.reviewer,
+        )?;
+        Ok(items
+            .zip(reviewers)
+            .map(|(items, reviewers)| Numbers { items, reviewers }))
+    }
+
+    /// The snapshot's row for a packed grade, or None when a number names nothing here.
+    fn row(&self, scale: u32, context: u32, g: grade_packs::PackedGrade) -> Option<GradeRow> {
+        let at = |table: &[u32], n: u32| table.get(n as usize).copied().filter(|&p| p != u32::MAX);
+        Some(GradeRow {
+            reviewer: at(&self.reviewers, g.reviewer)?,
+            context,
+            item: at(&self.items, g.item)?,
+            scale,
+            value: g.value,
+            seconds: g.seconds,
+            day: g.day,
+        })
+    }
+}
+
+/// Appends `current_grades` rows (read with [`GRADE_COLUMNS`]) as grade rows.
+fn push_grade_rows(
+    mut rows: rusqlite::Rows<'_>,
+    index: &Indexes<'_>,
+    grades: &mut Vec<GradeRow>,
+) -> Result<()> {
+    // Rows come in key order (scale, context, item, reviewer): a run of rows shares
+    // its scale and context, so those are looked up once per run.
     let (mut scale_key, mut context_key, mut reviewer_key) =
         (String::new(), String::new(), String::new());
     let (mut scale_at, mut context_at, mut reviewer_at) = (0u32, 0u32, 0u32);
@@ -375,10 +510,7 @@ fn read_grades(conn: &rusqlite::Connection, index: &Indexes<'_>) -> Result<Vec<G
             day: r.get::<_, Option<i32>>(6)?.unwrap_or(0),
         });
     }
-    // Keys are unique, so an unstable sort gives the same order without a buffer of
-    // half the grades beside them.
-    grades.sort_unstable_by_key(|g| (g.scale, g.context, g.item, g.reviewer));
-    Ok(grades)
+    Ok(())
 }
 
 /// The settled grades in force: the latest settle event per pair and scale; NULL = undone.

@@ -15,6 +15,7 @@ mod export;
 mod fuzz_import;
 mod gaps;
 mod golden;
+mod grade_packs;
 mod human_sample;
 mod import;
 mod import_limits;

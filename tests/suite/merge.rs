@@ -387,7 +387,8 @@ fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
     {
         // Put the copy back at schema 1 (the first trigger, one row per ranked entry,
         // current grades without their values, reviewers without a kind, gold pairs
-        // without a rationale, no table of human sample draws), as an older build wrote it.
+        // without a rationale, no table of human sample draws, no packed grades), as an older
+        // build wrote it.
         let plumbline::study::schema::Migration::Sql(v1) = plumbline::study::schema::MIGRATIONS[0]
         else {
             panic!("the first schema is SQL")
@@ -400,6 +401,9 @@ fn an_older_copy_is_read_through_a_scratch_file_and_left_as_it_was() {
             &copy,
             &format!(
                 "PRAGMA foreign_keys = OFF; DROP TABLE sample_draws; DROP VIEW ranked_items; {}
+                 DROP TRIGGER items_numbered; DROP TRIGGER reviewers_numbered;
+                 DROP TABLE grade_packs; DROP TABLE grade_packs_stale;
+                 DROP TABLE item_numbers; DROP TABLE reviewer_numbers;
                  INSERT INTO ranked_items(ranker, context_id, rank, item_id)
                    SELECT l.ranker, l.context_id, j.key + 1, j.value FROM ranked_lists l, json_each(l.items) j;
                  DROP TABLE ranked_lists;

@@ -13,7 +13,7 @@ use super::{
 use crate::study::csv_input::ProblemLog;
 use crate::study::row_rules::{self, EventText};
 use crate::study::scratch::{FirstSeen, Scratch};
-use crate::study::{Result, schema, time};
+use crate::study::{Result, grade_packs, schema, time};
 
 pub(super) fn import_grades(
     tx: &Transaction,
@@ -276,7 +276,10 @@ fn checked_kind(f: &Fields, log: &mut ProblemLog) -> Option<&'static str> {
 
 /// The history's trigger and secondary indexes, set aside by a large import (in this
 /// order) and built again in reverse order once every event is in.
-const SET_ASIDE: [(&str, &str); 3] = [
+const SET_ASIDE: [(&str, &str); 6] = [
+    ("TRIGGER", "current_grades_added"),
+    ("TRIGGER", "current_grades_removed"),
+    ("TRIGGER", "current_grades_changed"),
     ("TRIGGER", "grade_events_keep_current"),
     ("INDEX", "current_grades_by_reviewer"),
     ("INDEX", "grade_events_by_key"),
@@ -483,6 +486,7 @@ impl<'t> GradeWriter<'t> {
                 for statement in sql {
                     tx.execute_batch(&statement)?;
                 }
+                grade_packs::pack_all(tx)?;
                 tx.pragma_update(None, "cache_size", IMPORT_CACHE_KIB)?;
             }
             None => {
@@ -491,6 +495,7 @@ impl<'t> GradeWriter<'t> {
                     [schema::BULK_GRADES_KEY],
                 )?;
                 schema::refresh_current_grades(tx, events_before)?;
+                grade_packs::repack_stale(tx)?;
             }
         }
         Ok(report)

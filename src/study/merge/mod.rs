@@ -219,6 +219,7 @@ impl Study {
         let tx = self.begin_write()?;
         write_events(&tx, &copy, &here, (&allowed, &settlers), &mut report)?;
         drop(copy);
+        crate::study::grade_packs::repack_stale(&tx)?;
         if commit {
             tx.commit()?;
         } else {
